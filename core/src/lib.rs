@@ -7,7 +7,8 @@
 //!
 //! - [`units`], [`error`], [`time`]: SI newtypes, the error type, timer ticks;
 //! - [`physics`]: the coil and its drive circuit, rise, release per clamp, energy, off-time;
-//! - [`design`]: one call for a whole driver design's timing budget.
+//! - [`design`]: one call for a whole driver design's timing budget;
+//! - [`schedule`]: a fixed-capacity pulse scheduler on integer ticks that keeps every channel's limits.
 //!
 //! All results are engineering estimates from first-order models. They do not replace the
 //! component datasheets, local electrical codes, or licensed practice.
@@ -18,6 +19,7 @@
 pub mod design;
 pub mod error;
 pub mod physics;
+pub mod schedule;
 pub mod time;
 pub mod units;
 
