@@ -68,6 +68,9 @@ mod limits;
 mod request;
 pub mod thermal;
 
+#[cfg(test)]
+mod tests;
+
 pub use errors::{DelayReason, LimitsError, Refusal, ScheduleError};
 pub use event::{PinAction, PinEvent, Wake, WakeCause};
 pub use limits::{ChannelLimits, HeatRating, HeatRatings, HoldDuty, HoldPhase, MAX_LIMIT};
@@ -109,7 +112,7 @@ struct Pulse {
     hold: u32,
     /// Inrush window length from `start`, ticks.
     window: u32,
-    /// Thermal bounds right after this pulse's reservation: clamp, winding (µJ).
+    /// Thermal bounds this pulse leaves at its off edge: clamp, winding (µJ).
     heat: [u32; 2],
     channel: u8,
     stage: Stage,
@@ -326,20 +329,19 @@ impl<const CHANNELS: usize, const QUEUE: usize> Scheduler<CHANNELS, QUEUE> {
             }
         }
 
-        // 2. Thermal buckets: room for this pulse's reservation.
+        // 2. Thermal buckets: room for this pulse's heat.
         let (pull_in, held) = lim.phases(d);
         let buckets = lim.buckets();
-        let mut reserve = [0u64; 2];
+        let mut plans = [None; 2];
         for (k, b) in buckets.iter().enumerate() {
             let Some(b) = b else { continue };
-            reserve[k] = b.reservation(pull_in, held);
+            let plan = b.plan(pull_in, held, lim.min_on().0);
+            plans[k] = Some(plan);
             let (level, since) = match chan.tail {
                 Some(tail) => (tail.heat[k], tail.end),
                 None => (0, 0),
             };
-            let wait = b
-                .earliest(level, reserve[k])
-                .ok_or(Refusal::ThermalBudget)?;
+            let wait = b.earliest(level, &plan).ok_or(Refusal::ThermalBudget)?;
             let fits = since + wait;
             if fits > start {
                 start = fits;
@@ -380,13 +382,15 @@ impl<const CHANNELS: usize, const QUEUE: usize> Scheduler<CHANNELS, QUEUE> {
         // The new bounds (checked again: the scheduler never commits a bound above capacity).
         let mut heat = [0u32; 2];
         for (k, b) in buckets.iter().enumerate() {
-            let Some(b) = b else { continue };
+            let (Some(b), Some(plan)) = (b, &plans[k]) else {
+                continue;
+            };
             let (level, since) = match chan.tail {
                 Some(tail) => (tail.heat[k], tail.end),
                 None => (0, start),
             };
             heat[k] = b
-                .commit(level, start - since, reserve[k])
+                .commit(level, start - since, plan)
                 .ok_or(Refusal::ThermalBudget)?;
         }
 

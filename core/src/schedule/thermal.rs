@@ -14,28 +14,39 @@
 //! # The bound the scheduler keeps
 //!
 //! The scheduler never knows the true heat; it keeps an *upper bound* `U ≥ b` and admits a pulse only
-//! while `U ≤ capacity` holds at all times. For a pulse starting at `s` with on-phases of power
-//! `P₁` for `d₁` ticks and `P₂` for `d₂` ticks, plus `E` poured in at its off edge (release energy):
+//! while `U ≤ capacity` holds at all times. A pulse starting at `s` runs a pull-in phase of power
+//! `P₁` for `d₁` ticks, then (peak-and-hold) a hold phase of power `P₂` for `d₂` ticks, and pours
+//! `E` in at its off edge (release energy):
 //!
-//! 1. At `s` the bound is the previous bound decayed from the previous off edge:
+//! 1. At `s` the bound is the previous one decayed from the previous off edge:
 //!    `U(s) = ⌈U_prev · ĝ(Δt/τ)⌉`, where `ĝ(x) ≥ e^(−x)` (see below).
-//! 2. The whole pulse is **reserved at its start**: `U = U(s) + E + min(P₁d₁ + P₂d₂, max(P₁,P₂)·τ)`,
-//!    held without decay until the pulse's actual off edge, and decaying from there.
+//! 2. Each phase of power `P` and length `d` starting from bound `u` is bounded by
+//!    `φ(u) = min(u + P·d, max(u, P·τ))`: during it `b(t) = Pτ + (b₀ − Pτ)·e^(−t/τ)` lies between
+//!    `b₀` and the steady level `Pτ`, and never exceeds `b₀ + P·t`.
+//! 3. During the pulse the bound is `φ₂(φ₁(U(s)))`. At and after its off edge, by linearity of the
+//!    equation, the heat present at `s` and the heat poured in add:
+//!    `U_off = ⌈U(s)·ĝ(t_min/τ)⌉ + φ₂(φ₁(0)) + E`, where `t_min` is the channel's minimum on-time —
+//!    the earliest a stop may end the pulse — and `U_off` decays from the actual off edge.
 //!
-//! Step 2 is valid because during the pulse `b(t) ≤ b(s) + ∫p ≤ b(s) + min(∫p, P_max·τ)` (the
-//! solution of `db/dt = p − b/τ` never exceeds `b(s)` plus either the heat poured in or the steady
-//! level `P_max·τ`), and the release energy arrives at the off edge, whenever that is. So the bound
-//! holds whatever the off edge turns out to be: a pulse stopped early needs no re-check, only its
-//! decay starts sooner. Checking `U ≤ capacity` once, at the start, covers the whole pulse.
-//!
+//! Both are checked against the capacity when the pulse is admitted, and nothing needs checking
+//! again: a pulse stopped early only shortens the phases (each `φ` is non-decreasing in `d`), its
+//! off edge is still at least `t_min` after its start, and the release energy arrives at the off
+//! edge whenever that is. Both bounds are non-decreasing in `U(s)`, and `U(s)` is non-increasing in
+//! the wait, so "fits" is monotone in the start tick. The cost of this simplicity: decay during a
+//! pulse longer than the minimum on-time is credited only for the minimum on-time.
+
 //! # The decay factor ĝ
 //!
-//! `ĝ` is the chord (piecewise-linear) interpolation of `e^(−x)` through the points `x = k/8`,
-//! `k = 0…128`, with the table values rounded *up* in Q31 (`2³¹` = 1). A chord of a convex function
-//! lies above it, so `ĝ(x) ≥ e^(−x)` everywhere, by at most 0.2 % (relative; `≈ h²/8` for the step h = 1/8) plus
-//! two units of 2⁻³¹. Beyond `x = 16` it stays at `ĝ(16) ≈ 1.1·10⁻⁷`. The table is computed at
-//! compile time from the Taylor series of `e^(−1/8)` in 62-bit fixed point, every rounding upward.
-//! `x = Δt/τ` is taken rounded *down* (less decay), as `x·8·2¹⁶ = ⌊Δt·2¹⁹/τ⌋`.
+//! Write `x = k/8 + u` with `0 ≤ u < 1/8`. Then `e^(−x) = e^(−k/8)·e^(−u)` and
+//! `ĝ(x) = max(T[k]·q(u), T[k+1])`, where `T[k] ≥ e^(−k/8)` is a table (Q31, `2³¹` = 1, rounded
+//! up) and `q(u) = 1 − u + u²/2 ≥ e^(−u)` (an alternating series with decreasing terms, cut after a
+//! positive one). `q` exceeds `e^(−u)` by less than `u³/6` (relative 3.7·10⁻⁴ at the worst), and
+//! the *decay* `1 − ĝ` is underestimated by about `u²/6` relative (less than `u²/5`) — negligible for the
+//! frequent short pulses where the leak matters most. The `max` with `T[k+1]` (a smaller value, so
+//! the bound still holds) makes `ĝ` non-increasing across table points despite rounding. Beyond
+//! `x = 16`, `ĝ` stays at `T[128] ≈ 1.1·10⁻⁷`. The table is computed at compile time from the
+//! Taylor series of `e^(−1/8)` in 62-bit fixed point, every rounding upward; `x = Δt/τ` is taken
+//! rounded *down* (less decay), as `x·8·2¹⁶ = ⌊Δt·2¹⁹/τ⌋`.
 
 use super::errors::LimitsError;
 use crate::time::{TickRate, Ticks};
@@ -88,17 +99,19 @@ const fn exp_table() -> [u32; SEGMENTS + 1] {
     table
 }
 
-/// The decay factor `ĝ` at `x8q = x·8·2¹⁶`, Q31: chord interpolation of the table, the fractional
-/// part of the subtraction rounded down (so ĝ rounds up). Non-increasing in `x8q`.
+/// The decay factor `ĝ` at `x8q = x·8·2¹⁶`, Q31: `max(⌈T[k]·q(u)⌉, T[k+1])` with
+/// `q(u) = 1 − u + u²/2` evaluated exactly in Q31 except for one upward rounding (module docs).
+/// Non-increasing in `x8q`; `ĝ(0) = 2³¹`.
 pub(crate) fn decay_factor(x8q: u32) -> u32 {
     let k = (x8q >> FRAC_BITS) as usize;
     if k >= SEGMENTS {
         return EXP_NEG_EIGHTHS[SEGMENTS];
     }
-    let hi = EXP_NEG_EIGHTHS[k];
-    let lo = EXP_NEG_EIGHTHS[k + 1];
-    let frac = (x8q & ((1 << FRAC_BITS) - 1)) as u64;
-    hi - (((hi - lo) as u64 * frac) >> FRAC_BITS) as u32
+    let f = (x8q & ((1 << FRAC_BITS) - 1)) as u64;
+    // u = f / 2¹⁹, so in Q31: u = f·2¹², u²/2 = f²/2⁸ (rounded up).
+    let q = ONE_Q31 as u64 - (f << 12) + (f * f).div_ceil(1 << 8);
+    let g = (EXP_NEG_EIGHTHS[k] as u64 * q).div_ceil(ONE_Q31 as u64) as u32;
+    g.max(EXP_NEG_EIGHTHS[k + 1])
 }
 
 /// `⌈level · g / 2³¹⌉`, µJ (never above `level`, since `g ≤ 2³¹`).
@@ -256,32 +269,58 @@ impl ThermalBucket {
         self.hold_rate
     }
 
-    /// What a pulse with `pull_in` ticks at full drive and `hold` ticks holding reserves, µJ:
-    /// `E + ⌈min(P₁d₁ + P₂d₂, max(P₁,P₂)·τ)⌉` (see the module docs). u64, so it cannot overflow.
-    pub(crate) fn reservation(&self, pull_in: u32, hold: u32) -> u64 {
-        let on = self.on_rate.0 as u64;
-        let held = self.hold_rate.0 as u64;
-        let poured = (on * pull_in as u64).saturating_add(held * hold as u64);
-        let steady = on.max(held) * self.tau as u64;
-        self.per_pulse as u64 + poured.min(steady).div_ceil(1 << 16)
+    /// `φ(u) = min(u + ⌈P·d⌉, max(u, ⌈P·τ⌉))`, µJ: a bound over a phase of power `P` for `d`
+    /// ticks that starts from bound `u` (module docs).
+    fn phase(&self, u: u64, rate: EnergyRate, d: u32) -> u64 {
+        let poured = (rate.0 as u64 * d as u64).div_ceil(1 << 16);
+        let steady = (rate.0 as u64 * self.tau as u64).div_ceil(1 << 16);
+        (u + poured).min(u.max(steady))
     }
 
-    /// The fewest ticks after the previous off edge at which a pulse reserving `reserve` µJ fits,
-    /// given the bound `level` µJ at that edge; `None` when it never fits (the reservation alone,
-    /// plus the residue `ĝ(16)·level`, exceeds the capacity).
-    ///
-    /// Method: bisection over `x8q ∈ [0, X_MAX]` (23 steps, each one table interpolation and two
-    /// multiplies) for the smallest x at which `⌈level·ĝ(x)⌉ + reserve ≤ capacity`, then
-    /// `Δt = ⌈x·τ⌉` — no division.
-    pub(crate) fn earliest(&self, level: u32, reserve: u64) -> Option<u64> {
-        if reserve > self.capacity as u64 {
-            return None;
+    /// `φ₂(φ₁(u))`: the bound over a whole pulse's on-time from bound `u` at its start.
+    fn on_bound(&self, u: u64, pull_in: u32, hold: u32) -> u64 {
+        let v = self.phase(u, self.on_rate, pull_in);
+        if hold > 0 {
+            self.phase(v, self.hold_rate, hold)
+        } else {
+            v
         }
-        let room = self.capacity - reserve as u32;
-        if level <= room {
+    }
+
+    /// What a pulse of `pull_in` + `hold` ticks does to this bucket, on a channel whose minimum
+    /// on-time is `min_on` (the earliest a stop may end it).
+    pub(crate) fn plan(&self, pull_in: u32, hold: u32, min_on: u32) -> PulseHeat {
+        PulseHeat {
+            pull_in,
+            hold,
+            poured: self.on_bound(0, pull_in, hold) + self.per_pulse as u64,
+            credit: decay_factor(x_of(min_on as u64, self.tau)),
+        }
+    }
+
+    /// The bound at and after the pulse's off edge, from bound `u` at its start:
+    /// `⌈u·ĝ(t_min_on/τ)⌉ + φ₂(φ₁(0)) + E`. By linearity the heat present at the start and the heat
+    /// poured in add; the first has decayed at least over the minimum on-time by the off edge.
+    fn off_bound(&self, u: u64, p: &PulseHeat) -> u64 {
+        decayed(u.min(u32::MAX as u64) as u32, p.credit) as u64 + p.poured
+    }
+
+    fn fits(&self, u: u64, p: &PulseHeat) -> bool {
+        let cap = self.capacity as u64;
+        self.on_bound(u, p.pull_in, p.hold) <= cap && self.off_bound(u, p) <= cap
+    }
+
+    /// The fewest ticks after the previous off edge (which left the bound at `level`) at which
+    /// pulse `p` fits; `None` when it never fits (not even from the residue `ĝ(16)·level`).
+    ///
+    /// Method: bisection over `x8q ∈ [0, X_MAX]` (23 steps, each one table interpolation and a few
+    /// multiplies) for the smallest x at which the pulse fits from `⌈level·ĝ(x)⌉`, then
+    /// `Δt = ⌈x·τ⌉` — no division. Valid because fitting is monotone in the start bound.
+    pub(crate) fn earliest(&self, level: u32, p: &PulseHeat) -> Option<u64> {
+        let fits = |x: u32| self.fits(decayed(level, decay_factor(x)) as u64, p);
+        if fits(0) {
             return Some(0);
         }
-        let fits = |x: u32| decayed(level, decay_factor(x)) <= room;
         if !fits(X_MAX) {
             return None;
         }
@@ -297,14 +336,14 @@ impl ThermalBucket {
         Some(delta_of(hi, self.tau))
     }
 
-    /// The bound after admitting a pulse `delta` ticks after the previous off edge:
-    /// `⌈level·ĝ(Δt/τ)⌉ + reserve`; `None` if that exceeds the capacity.
-    pub(crate) fn commit(&self, level: u32, delta: u64, reserve: u64) -> Option<u32> {
-        let v = decayed(level, decay_factor(x_of(delta, self.tau))) as u64 + reserve;
-        if v > self.capacity as u64 {
-            None
+    /// The bound left at the off edge of pulse `p` admitted `delta` ticks after the previous off
+    /// edge (which left `level`); `None` if the pulse does not fit there.
+    pub(crate) fn commit(&self, level: u32, delta: u64, p: &PulseHeat) -> Option<u32> {
+        let u = decayed(level, decay_factor(x_of(delta, self.tau))) as u64;
+        if self.fits(u, p) {
+            Some(self.off_bound(u, p) as u32)
         } else {
-            Some(v as u32)
+            None
         }
     }
 
@@ -314,11 +353,22 @@ impl ThermalBucket {
     }
 
     /// Whether a pulse of `min_on` ticks at full drive always fits eventually, whatever the level
-    /// (up to the capacity) it finds: `⌈C·ĝ(16)⌉ + reservation(min_on) ≤ C`.
+    /// (up to the capacity) it finds, i.e. from the residue `⌈C·ĝ(16)⌉`.
     pub(crate) fn admits_min_pulse(&self, min_on: u32) -> bool {
         let residue = decayed(self.capacity, decay_factor(X_MAX)) as u64;
-        residue + self.reservation(min_on, 0) <= self.capacity as u64
+        self.fits(residue, &self.plan(min_on, 0, min_on))
     }
+}
+
+/// One pulse's effect on one bucket, prepared once per request.
+#[derive(Clone, Copy, Debug, PartialEq, Eq)]
+pub(crate) struct PulseHeat {
+    pull_in: u32,
+    hold: u32,
+    /// `φ₂(φ₁(0)) + E`, µJ.
+    poured: u64,
+    /// `ĝ(t_min_on/τ)`, Q31.
+    credit: u32,
 }
 
 /// Energy in joules to micro-joules, rounded **up**.
@@ -359,10 +409,11 @@ mod tests {
     }
 
     #[test]
-    fn decay_factor_bounds_exp_from_above_within_chord_error() {
-        // The chord of e^(−x) over a step h = 1/8 overshoots by at most h²/8·(1 + O(h)) ≈ 0.1955 %
-        // relative (convexity; common practice, no source): 0.2 % bounds it.
-        let chord = 0.002;
+    fn decay_factor_bounds_exp_from_above_tightly() {
+        // 1 − u + u²/2 exceeds e^(−u) by less than u³/6 (Taylor remainder, from memory): at
+        // u = 1/8 that is (u³/6)·e^u = 3.7·10⁻⁴ relative; the decay 1 − ĝ must be within u²/5 of
+        // 1 − e^(−u).
+        let chord = 3.7e-4;
         let mut prev = u32::MAX;
         for x8q in (0..=X_MAX + 5000).step_by(97) {
             let g = decay_factor(x8q);
@@ -372,6 +423,15 @@ mod tests {
             let exact = exp_neg(x) * ONE_Q31 as f64;
             assert!(g as f64 >= exact, "x8q={x8q}");
             assert!(g as f64 <= exact * (1.0 + chord) + 3.0, "x8q={x8q}");
+        }
+        for f in [1u32, 10, 100, 1000, 10_000] {
+            let u = f as f64 / (8.0 * 65_536.0);
+            let decay = 1.0 - decay_factor(f) as f64 / ONE_Q31 as f64;
+            let exact = 1.0 - exp_neg(u);
+            assert!(
+                decay <= exact && decay >= exact * (1.0 - u * u / 5.0) - 2e-9,
+                "f={f}"
+            );
         }
     }
 
@@ -405,28 +465,42 @@ mod tests {
     #[test]
     fn earliest_is_the_first_tick_that_fits() {
         let b = bucket();
-        let reserve = b.reservation(10, 0);
-        assert_eq!(reserve, 3_000);
-        assert_eq!(b.earliest(7_000, reserve), Some(0));
-        let d = b.earliest(10_000, reserve).unwrap();
+        // min_on = 0 here: no decay credited during the pulse.
+        let p = b.plan(10, 0, 0);
+        assert_eq!(b.off_bound(0, &p), 3_000);
+        assert_eq!(b.earliest(7_000, &p), Some(0));
+        let d = b.earliest(10_000, &p).unwrap();
         // e^(−Δ/τ)·10000 ≤ 7000 needs Δ ≥ τ·ln(10/7) ≈ 356.7 ticks (exact exponential);
-        // the chord bound and roundings may only make it later, by well under 1 %.
+        // the bound and roundings may only make it later, by a tick or so.
         let exact = 1000.0 * (10.0f64 / 7.0).ln();
         assert!(d as f64 >= exact, "{d} < {exact}");
-        assert!((d as f64) < exact * 1.01, "{d}");
-        assert!(b.commit(10_000, d, reserve).is_some());
-        assert!(b.commit(10_000, d - 1, reserve).is_none());
-        assert_eq!(b.earliest(0, 10_001), None);
+        assert!((d as f64) < exact + 1.5, "{d}");
+        assert_eq!(b.commit(10_000, d, &p).map(|v| v <= 10_000), Some(true));
+        assert_eq!(b.commit(10_000, d - 1, &p), None);
+        let big = b.with_per_pulse(10_001);
+        assert_eq!(big.earliest(0, &big.plan(10, 0, 0)), None);
+        // With a 100-tick minimum on-time, 100 ticks of the wait happen during the pulse.
+        let q = b.plan(10, 0, 100);
+        let d100 = b.earliest(10_000, &q).unwrap();
+        assert!(d100 + 100 >= d && d100 + 100 <= d + 1, "{d100} vs {d}");
     }
 
     #[test]
     fn steady_power_saturates_at_p_tau() {
-        // 2 µJ/tick forever, τ = 1000 ticks: the first-order steady state is P·τ = 2000 µJ.
+        // 2 µJ/tick forever, τ = 1000 ticks: the first-order steady state is P·τ = 2000 µJ
+        // (textbook first-order response, from memory); a body already hotter only cools.
         let b = ThermalBucket::new(10_000, Ticks(1_000))
             .unwrap()
-            .with_rates(EnergyRate::from_uj_per_tick(2), EnergyRate::ZERO);
-        assert_eq!(b.reservation(100, 0), 200);
-        assert_eq!(b.reservation(1_000_000, 0), 2_000);
+            .with_rates(
+                EnergyRate::from_uj_per_tick(2),
+                EnergyRate::from_uj_per_tick(1),
+            );
+        assert_eq!(b.on_bound(0, 100, 0), 200);
+        assert_eq!(b.on_bound(0, 1_000_000, 0), 2_000);
+        assert_eq!(b.on_bound(5_000, 1_000_000, 0), 5_000);
+        // Hold at 1 µJ/tick after a pull-in: the steady level of the hold phase is 1000 µJ.
+        assert_eq!(b.on_bound(0, 100, 1_000_000), 1_000);
+        assert_eq!(b.on_bound(0, 100, 100), 300);
         assert!(b.admits_min_pulse(100));
         let tiny = ThermalBucket::new(150, Ticks(1_000))
             .unwrap()
