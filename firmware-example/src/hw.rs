@@ -16,6 +16,7 @@
 //! The QEMU board (a simulated coil plant behind these same traits) is added with the
 //! application; `docs/porting.md` says what a real board implements.
 
+use coilwise::{Amps, Ticks};
 pub use embedded_hal::delay::DelayNs;
 pub use embedded_hal::digital::OutputPin;
 pub use embedded_hal::pwm::SetDutyCycle;
@@ -67,11 +68,11 @@ pub struct SenseScale {
 }
 
 impl SenseScale {
-    /// Current in A for a converter reading, `(counts − offset) · amps_per_count`; readings
-    /// below the offset give a negative current (noise around zero), never NaN for a finite
-    /// scale.
-    pub fn amps(&self, counts: u16) -> f32 {
-        (f32::from(counts) - f32::from(self.offset_counts)) * self.amps_per_count
+    /// Current for a converter reading, `(counts − offset) · amps_per_count`, A; readings below
+    /// the offset give a negative current (noise around zero). Exact to f32 rounding; never NaN
+    /// for a finite scale.
+    pub fn amps(&self, counts: u16) -> Amps {
+        Amps::new((f32::from(counts) - f32::from(self.offset_counts)) * self.amps_per_count)
     }
 }
 
@@ -84,14 +85,14 @@ pub struct Capture {
     /// (may differ from the request when the converter timer rounds it).
     ///
     /// [`TickSource`]: crate::ticks::TickSource
-    pub period_ticks: u32,
+    pub period: Ticks,
 }
 
 /// What the comparator saw after switch-on.
 #[derive(Clone, Copy, Debug, PartialEq, Eq, defmt::Format)]
 pub enum Crossing {
     /// The sensed current first reached the trip level this many ticks after the switch-on edge.
-    After(u32),
+    After(Ticks),
     /// No crossing within the timeout (open coil, high resistance, low supply — or a broken
     /// comparator; the application decides which, not the board).
     NoneBeforeTimeout,
@@ -112,14 +113,14 @@ pub trait CurrentSense {
     /// Fills `samples` with equally spaced readings, the first taken at switch-on, sample `k` at
     /// `k · period` ticks after it. Blocks until the buffer is full or the board stops early
     /// (then `len < samples.len()`).
-    fn capture(&mut self, period_ticks: u32, samples: &mut [u16]) -> Result<Capture, Self::Error>;
+    fn capture(&mut self, period: Ticks, samples: &mut [u16]) -> Result<Capture, Self::Error>;
 
     /// Sets the comparator trip level, in converter counts.
     fn set_trip_level(&mut self, counts: u16) -> Result<(), Self::Error>;
 
-    /// Waits for the comparator to trip, at most `timeout_ticks` after switch-on, and reports the
+    /// Waits for the comparator to trip, at most `timeout` after switch-on, and reports the
     /// crossing time in ticks since switch-on.
-    fn crossing(&mut self, timeout_ticks: u32) -> Result<Crossing, Self::Error>;
+    fn crossing(&mut self, timeout: Ticks) -> Result<Crossing, Self::Error>;
 }
 
 /// One coil channel: drive switch, hold PWM, and current sense.

@@ -6,7 +6,8 @@
 //!   non-zero status (see [`status`]) after logging where it happened;
 //! - [`hw`]: the hardware seam the application is written against;
 //! - [`ticks`]: a monotonic tick source on SysTick;
-//! - [`measure`]: instruction counts and stack high-water marks for `src/bin/cost.rs`.
+//! - [`measure`]: instruction counts and stack high-water marks for `src/bin/cost.rs`;
+//! - [`scenario`]: the invented greenhouse-controller parts the demo drives.
 //!
 //! Plain text, if any, goes to semihosting *stderr*: stdout carries the binary defmt stream and
 //! anything else written there corrupts it.
@@ -18,6 +19,7 @@ use defmt_semihosting as _;
 
 pub mod hw;
 pub mod measure;
+pub mod scenario;
 pub mod ticks;
 
 /// Exit statuses the firmware reports to the host (besides 0 = every check held).

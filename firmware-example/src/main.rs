@@ -23,16 +23,37 @@ fn main() -> ! {
     );
 
     let clock = SysTickClock::start(cp.SYST);
-    let t0 = clock.now_wide();
-    let t1 = clock.now_wide();
-    let time_ok = t1 > t0;
+    let t0 = clock.now();
+    let t1 = clock.now();
+    let time_ok = t1.since(t0) > 0 && clock.rate().hz() == SysTickClock::CORE_HZ;
     defmt::info!("tick source running: {=bool}", time_ok);
 
-    // TODO(integration): call into `coilwise` here (e.g. time to pull-in of the demo valve
-    // coil) once the core crate's API has landed; until then the firmware only exercises the
-    // runtime (logging, ticks, exit status).
+    // One call into the core: the timing budget of the demo's irrigation valve drive, at a
+    // 1 MHz scheduler tick. TODO(integration): the application (self-check, diagnostic pulses,
+    // scheduled programme on the simulated plant) replaces this.
+    let budget_ok = match fw::scenario::valve_design(1_000_000).and_then(|d| d.budget()) {
+        Ok(b) => {
+            defmt::info!(
+                "valve budget: min on {=u32} ticks, min off {=u32} ticks, pull-in {=u32} ticks, release {=u32} ticks (1 MHz)",
+                b.ticks.min_on.get(),
+                b.ticks.min_off.get(),
+                b.ticks.pull_in.get(),
+                b.ticks.release.get()
+            );
+            defmt::info!(
+                "valve worst corner: final current {=f32} A, peak switch voltage {=f32} V",
+                b.release_corner.final_current.value(),
+                b.release_corner.peak_switch_voltage.value()
+            );
+            b.ticks.min_on.get() > 0 && b.ticks.min_off.get() > 0
+        }
+        Err(e) => {
+            defmt::error!("valve budget failed: {}", e);
+            false
+        }
+    };
 
-    let ok = time_ok;
+    let ok = time_ok && budget_ok;
     defmt::info!(
         "stack high-water mark: {=u32} bytes",
         fw::measure::stack_peak_bytes()

@@ -21,7 +21,7 @@
 use core::arch::asm;
 use core::hint::black_box;
 
-use crate::ticks::{SysTickClock, TickSource};
+use crate::ticks::SysTickClock;
 
 /// Instructions in the calibration block.
 pub const REF_INSNS: u32 = 1024;

@@ -11,22 +11,23 @@
 
 use core::cell::Cell;
 
+use coilwise::{Instant, TickRate};
+
 use cortex_m::peripheral::syst::SystClkSource;
 use cortex_m::peripheral::{SCB, SYST};
 use cortex_m_rt::exception;
 use critical_section::Mutex;
 
-/// A free-running, monotonic tick counter.
+/// A free-running, monotonic tick counter in the core's time base.
 ///
-/// `now()` never goes backwards except by wrapping at 2^32; consumers compare readings with
-/// wrapping arithmetic (`later.wrapping_sub(earlier)`), valid for intervals below 2^31 ticks.
+/// `now()` never goes backwards except by wrapping at 2^32; compare readings with
+/// [`Instant::since`] / [`Instant::is_at_or_after`], which are wrap-safe for instants less than
+/// 2^31 ticks apart. The scheduler and the diagnosis take their times in these ticks.
 pub trait TickSource {
-    /// Tick rate in Hz (ticks per second). Constant for the lifetime of the source.
-    fn rate_hz(&self) -> u32;
+    /// Tick rate (ticks per second). Constant for the lifetime of the source.
+    fn rate(&self) -> TickRate;
     /// The current count, wrapping at 2^32.
-    fn now(&self) -> u32;
-    /// The current count widened to 64 bits (does not wrap in any realistic run).
-    fn now_wide(&self) -> u64;
+    fn now(&self) -> Instant;
 }
 
 /// SysTick reload value: the full 24-bit range.
@@ -68,16 +69,10 @@ impl SysTickClock {
     }
 }
 
-impl TickSource for SysTickClock {
-    fn rate_hz(&self) -> u32 {
-        Self::CORE_HZ
-    }
-
-    fn now(&self) -> u32 {
-        self.now_wide() as u32
-    }
-
-    fn now_wide(&self) -> u64 {
+impl SysTickClock {
+    /// The count widened to 64 bits (core clock cycles since [`SysTickClock::start`]; does not
+    /// wrap in any realistic run).
+    pub fn now_wide(&self) -> u64 {
         critical_section::with(|cs| {
             let mut wraps = WRAPS.borrow(cs).get();
             let mut current = SYST::get_current();
@@ -89,6 +84,18 @@ impl TickSource for SysTickClock {
             }
             u64::from(wraps) * u64::from(RELOAD + 1) + u64::from(RELOAD - current)
         })
+    }
+}
+
+impl TickSource for SysTickClock {
+    fn rate(&self) -> TickRate {
+        // CORE_HZ is a non-zero build constant on every supported board.
+        TickRate::new(Self::CORE_HZ).unwrap_or_else(|_| crate::exit(crate::status::CHECK_FAILED))
+    }
+
+    fn now(&self) -> Instant {
+        // Truncation to the wrapping 32-bit counter is the intent.
+        Instant(self.now_wide() as u32)
     }
 }
 

@@ -21,7 +21,7 @@ use fw::ticks::SysTickClock;
 macro_rules! case {
     ($m:expr, $name:literal, $e:expr) => {{
         let c = $m.cost(&mut || {
-            black_box($e);
+            let _ = black_box($e);
         });
         defmt::info!(
             "cost {=str} insns {=u32} stack {=u32}",
@@ -32,7 +32,7 @@ macro_rules! case {
     }};
     ($m:expr, $name:literal, setup $s:block, $e:expr) => {{
         let c = $m.cost_after(&mut || $s, &mut || {
-            black_box($e);
+            let _ = black_box($e);
         });
         defmt::info!(
             "cost {=str} insns {=u32} stack {=u32}",
@@ -79,11 +79,19 @@ fn main() -> ! {
         m.overhead_ticks()
     );
 
+    let valve = match fw::scenario::valve_design(1_000_000) {
+        Ok(d) => d,
+        Err(e) => {
+            defmt::error!("demo design rejected: {}", e);
+            fw::exit(fw::status::CHECK_FAILED)
+        }
+    };
+
     // ---- measured calls: one line each ------------------------------------------------------
     case!(m, "libm_expf_x1", libm::expf(black_box(0.5f32)));
     case!(m, "libm_expf_x1000", expf_x1000());
-    // TODO(integration): add the core's calls when their APIs land, e.g.
-    //   timing budget of one driver design; one time-to-threshold verdict;
+    case!(m, "design_budget", black_box(&valve).budget());
+    // TODO(integration): add as the APIs land: one time-to-threshold verdict;
     //   one 64-sample fit + verdict; one scheduler submit; one scheduler poll.
     // ------------------------------------------------------------------------------------------
 
