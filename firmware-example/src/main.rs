@@ -54,8 +54,9 @@ fn main() -> ! {
     };
 
     let ok = time_ok && budget_ok;
+    // `~` marks a build-dependent figure; the golden-log comparison masks it.
     defmt::info!(
-        "stack high-water mark: {=u32} bytes",
+        "stack high-water mark: ~{=u32} bytes",
         fw::measure::stack_peak_bytes()
     );
     defmt::info!("verdict: {=str}", if ok { "PASS" } else { "FAIL" });

@@ -3,8 +3,9 @@
 //! (or `cargo run --release --bin cost --target <triple>` here).
 //!
 //! Each measured call is one `case!` line: a name (letters, digits, `_`) and an expression whose
-//! value is passed through `black_box` so it cannot be optimised away. Inputs must also go
-//! through `black_box`. Output lines have the form `cost <name> insns <n> stack <bytes>`, which
+//! value is passed through `black_box` so it cannot be optimised away, plus a short description.
+//! Inputs must also go through `black_box` (constants would be folded through the call).
+//! Output lines have the form `cost <name> insns <n> stack <bytes> | <what>`, which
 //! `cargo xtask cost` parses.
 #![no_std]
 #![no_main]
@@ -16,31 +17,33 @@ use cortex_m_rt::entry;
 use fw::measure::Meter;
 use fw::ticks::SysTickClock;
 
-/// Measures one call: `case!(meter, "name", expression)`; optionally `setup { ... }` before the
-/// expression runs unmeasured before each run (for calls that change state).
+/// Measures one call: `case!(meter, "name", "what it is", expression)`; with
+/// `setup { ... }` before the expression, that block runs unmeasured before each of the two runs
+/// (for calls that change state).
 macro_rules! case {
-    ($m:expr, $name:literal, $e:expr) => {{
+    ($m:expr, $name:literal, $what:literal, $e:expr) => {{
         let c = $m.cost(&mut || {
             let _ = black_box($e);
         });
-        defmt::info!(
-            "cost {=str} insns {=u32} stack {=u32}",
-            $name,
-            c.insns,
-            c.stack_bytes
-        );
+        report($name, $what, c);
     }};
-    ($m:expr, $name:literal, setup $s:block, $e:expr) => {{
+    ($m:expr, $name:literal, $what:literal, setup $s:block, $e:expr) => {{
         let c = $m.cost_after(&mut || $s, &mut || {
             let _ = black_box($e);
         });
-        defmt::info!(
-            "cost {=str} insns {=u32} stack {=u32}",
-            $name,
-            c.insns,
-            c.stack_bytes
-        );
+        report($name, $what, c);
     }};
+}
+
+/// The line `cargo xtask cost` parses: `cost <name> insns <n> stack <bytes> | <what>`.
+fn report(name: &str, what: &str, c: fw::measure::Cost) {
+    defmt::info!(
+        "cost {=str} insns {=u32} stack {=u32} | {=str}",
+        name,
+        c.insns,
+        c.stack_bytes,
+        what
+    );
 }
 
 /// 1000 `expf` calls at x = 0.000, 0.001, …, 0.999, summed: the calibration example
@@ -88,9 +91,24 @@ fn main() -> ! {
     };
 
     // ---- measured calls: one line each ------------------------------------------------------
-    case!(m, "libm_expf_x1", libm::expf(black_box(0.5f32)));
-    case!(m, "libm_expf_x1000", expf_x1000());
-    case!(m, "design_budget", black_box(&valve).budget());
+    case!(
+        m,
+        "libm_expf_x1",
+        "one libm::expf (x = 0.5)",
+        libm::expf(black_box(0.5f32))
+    );
+    case!(
+        m,
+        "libm_expf_x1000",
+        "1000 libm::expf, loop included (calibration example)",
+        expf_x1000()
+    );
+    case!(
+        m,
+        "design_budget",
+        "timing budget of the demo valve design (DriverDesign::budget)",
+        black_box(&valve).budget()
+    );
     // TODO(integration): add as the APIs land: one time-to-threshold verdict;
     //   one 64-sample fit + verdict; one scheduler submit; one scheduler poll.
     // ------------------------------------------------------------------------------------------
