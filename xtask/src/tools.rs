@@ -72,8 +72,8 @@ fn apt_install() -> Result<(), String> {
     );
     if !is_root() || !runs("apt-get", "--version") {
         return Err(format!(
-            "QEMU / ARM binutils missing and this is not a root shell with apt-get; run:\n  \
-             sudo sh -c '{cmd}'"
+            "QEMU / ARM binutils are missing, and xtask installs them only as root with apt-get; \
+             run as root:\n  {cmd}"
         ));
     }
     eprintln!("xtask: installing {} with apt-get", APT_PACKAGES.join(" "));
