@@ -11,12 +11,15 @@
 //! Counts include everything the call executes (callees, a SysTick wrap exception if one falls
 //! inside — about a dozen instructions every 2^24 ticks). Without `-icount` the numbers follow
 //! host time and mean nothing; the cost binary refuses to report when calibration is
-//! inconsistent.
+//! inconsistent. After calibrating, the meter checks itself on a probe of a different, known
+//! length (300 `nop`s) and on a stack probe of known depth, and fails if either is off.
 //!
 //! **Stack.** In a separate run of the same call, the free RAM below the stack pointer (down to
 //! the end of `.bss`/`.uninit`) is first painted with [`PAINT`]; afterwards the lowest overwritten
 //! word gives the call's stack depth. The empty call's depth is subtracted. (Separate, because
-//! the SysTick stamps would themselves dirty the stack just below the caller.)
+//! the SysTick stamps would themselves dirty the stack just below the caller.) Painting sees
+//! written words only: a slot a function reserves but never writes is not counted, so the figure
+//! can be a few words below the frame sizes in the disassembly.
 
 use core::arch::asm;
 use core::hint::black_box;
@@ -25,6 +28,12 @@ use crate::ticks::SysTickClock;
 
 /// Instructions in the calibration block.
 pub const REF_INSNS: u32 = 1024;
+
+/// Instructions in the self-check probe (a different count from the calibration block).
+pub const PROBE_INSNS: u32 = 300;
+
+/// Depth of the self-check stack probe, bytes (a multiple of 4, at most 508 for Thumb-1).
+pub const PROBE_STACK: u32 = 256;
 
 /// Stack paint pattern.
 pub const PAINT: u32 = 0xC01C_0DE5;
@@ -52,6 +61,10 @@ pub enum CalibrationError {
     /// Two runs of the same call differed by more than one tick (time not tied to
     /// instructions).
     NotRepeatable,
+    /// The [`PROBE_INSNS`]-instruction probe measured this many instructions instead.
+    InstructionProbe(u32),
+    /// The [`PROBE_STACK`]-byte stack probe measured this many bytes instead.
+    StackProbe(u32),
 }
 
 /// Self-calibrating instruction and stack meter on a [`SysTickClock`].
@@ -102,7 +115,50 @@ impl Meter {
         m.empty_ticks = (e1 + e2) / 2;
         m.ref_ticks = (r1 + r2) / 2 - m.empty_ticks;
         m.empty_stack = stack_depth(&mut empty);
+        m.self_check()?;
         Ok(m)
+    }
+
+    /// Checks the calibrated meter against two facts that do not come from it: a block of
+    /// [`PROBE_INSNS`] `nop`s executes exactly that many instructions, and a probe that stores
+    /// one word [`PROBE_STACK`] bytes below its stack pointer is that deep (plus at most the
+    /// probe's own register save, 32 bytes).
+    fn self_check(&mut self) -> Result<(), CalibrationError> {
+        let insns = self
+            .cost(&mut || {
+                // SAFETY: nops only.
+                unsafe {
+                    asm!(
+                        ".rept {n}",
+                        "nop",
+                        ".endr",
+                        n = const PROBE_INSNS,
+                        options(nomem, nostack, preserves_flags)
+                    )
+                }
+            })
+            .insns;
+        if insns != PROBE_INSNS {
+            return Err(CalibrationError::InstructionProbe(insns));
+        }
+        let stack = self
+            .cost(&mut || {
+                // SAFETY: moves SP down inside free stack, stores one word there, restores SP.
+                unsafe {
+                    asm!(
+                        "sub sp, #{d}",
+                        "str {z}, [sp]",
+                        "add sp, #{d}",
+                        d = const PROBE_STACK,
+                        z = in(reg) 0u32,
+                    )
+                }
+            })
+            .stack_bytes;
+        if !(PROBE_STACK..=PROBE_STACK + 32).contains(&stack) {
+            return Err(CalibrationError::StackProbe(stack));
+        }
+        Ok(())
     }
 
     /// SysTick ticks per [`REF_INSNS`] instructions (about 26 214 at 25 MHz and shift 10).
@@ -148,11 +204,22 @@ impl Meter {
 }
 
 /// Bytes of stack below the caller's frame that one indirect call of `f` touched.
+///
+/// Runs with interrupts masked: an exception taken inside the call (a SysTick wrap) would push
+/// its frame (32 bytes, 104 with FPU context on the M4F) onto the measured stack. A wrap that
+/// falls inside stays pending and is counted when interrupts are unmasked again.
 #[inline(never)]
 fn stack_depth(f: &mut dyn FnMut()) -> u32 {
+    let was_enabled = cortex_m::register::primask::read().is_active();
+    cortex_m::interrupt::disable();
     let top = paint_free_stack();
     black_box(&mut *f)();
-    top.saturating_sub(lowest_dirty_word())
+    let depth = top.saturating_sub(lowest_dirty_word());
+    if was_enabled {
+        // SAFETY: restores the interrupt mask found on entry; no critical section is open here.
+        unsafe { cortex_m::interrupt::enable() };
+    }
+    depth
 }
 
 /// Stack high-water mark of the whole run so far, in bytes below the initial stack pointer:
