@@ -413,11 +413,13 @@ How:
 - **Instructions per call**: the `cost` firmware binary runs under QEMU with `-icount shift=10`,
   where every instruction advances virtual time by 1024 ns, so SysTick deltas count instructions
   exactly and repeat from run to run. The meter calibrates itself on a block of 1024 `nop`s and
-  subtracts the cost of an empty call through the same harness. Counts include everything the
-  call executes (callees, soft-float helpers on the M0). They are instruction counts, not cycles:
-  a real M4F with flash wait states takes more cycles than instructions.
+  subtracts the cost of an empty call through the same harness; before reporting, it checks
+  itself on a 300-`nop` probe (must read exactly 300). Counts include everything the call
+  executes (callees, soft-float helpers on the M0). They are instruction counts, not cycles: a
+  real M4F with flash wait states takes more cycles than instructions.
 - **Stack per call**: free RAM below the stack pointer is painted before a separate run of the
-  same call; the lowest overwritten word gives its depth.
+  same call, with interrupts masked; the lowest overwritten word gives its depth (checked on a
+  256-byte probe). Reserved but never written slots are not seen.
 - **Stack high-water mark**: the main firmware paints free RAM at entry and reports the lowest
   overwritten word at the end of its run.
 - **Flash**: `arm-none-eabi-size -A` of the main firmware ELF; the core's share is the sum of the
