@@ -3,7 +3,8 @@
 # defmt stream on QEMU's stdout with defmt-print, and exits with the firmware's own exit status
 # (semihosting exit code; 124 if it hangs past the timeout).
 #
-# Usage (cargo appends the ELF path):  qemu-run.sh --cpu CPU --machine MACHINE ELF [ARGS...]
+# Usage (cargo appends the ELF path):  qemu-run.sh --cpu CPU --machine MACHINE ELF [QEMU-ARGS...]
+# (arguments after the ELF, e.g. from `cargo run -- ...`, are passed to QEMU)
 #
 # Environment:
 #   COILWISE_ICOUNT        QEMU -icount shift (default 10); "off" runs on host time instead.
