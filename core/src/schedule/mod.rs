@@ -584,17 +584,11 @@ impl<const CHANNELS: usize, const QUEUE: usize> Scheduler<CHANNELS, QUEUE> {
                 cause: WakeCause::KeepAlive,
             };
         }
+        // After a poll the head is in the future; after a submit it may be due already (`now`).
         let next = self.slots[self.order[0] as usize].next;
-        if next <= t {
-            Wake {
-                at: now,
-                cause: WakeCause::OutputFull,
-            }
-        } else {
-            Wake {
-                at: self.clock.instant(next),
-                cause: WakeCause::Event,
-            }
+        Wake {
+            at: self.clock.instant(next.max(t)),
+            cause: WakeCause::Event,
         }
     }
 

@@ -1,0 +1,1 @@
+//! Host-side tests of `coilwise` (the tests live in `tests/`).
