@@ -29,5 +29,6 @@ pub use physics::circuit::{
 pub use physics::clamp::{Clamp, ClampKind, EnergySplit, Release};
 pub use physics::coil::{Armature, Coil};
 pub use physics::first_order::FirstOrder;
+pub use physics::snubber::{SnubberEnergy, SnubberRelease};
 pub use time::{Instant, TickRate, Ticks};
 pub use units::*;

@@ -7,3 +7,4 @@ pub mod coil;
 pub mod first_order;
 pub mod off_time;
 pub mod repetition;
+pub mod snubber;

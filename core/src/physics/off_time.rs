@@ -49,6 +49,9 @@ pub struct OffTime {
 /// Safe minimum off-time for one release:
 /// `t_off = max(t(i = I_drop) + t_mech, t(i = I_residual), E_clamp/P_rating − t_on)`, s.
 ///
+/// The residual time is [`Release::settle_time`]: for the first-order clamps the plain time to
+/// that current, for the RC snubber the time after which it stays within it.
+///
 /// The mechanical allowance is added to the electrical release (the armature only starts to move
 /// once the current is below drop-out), which is longer than taking the larger of the two.
 pub fn min_off_time(
@@ -58,7 +61,7 @@ pub fn min_off_time(
 ) -> Result<OffTime, Error> {
     let mech = non_negative(needs.mechanical_release.value(), Param::Time)?;
     let electrical = release.time_to_current(drop_out)?.value();
-    let residual = release.time_to_current(needs.residual_current)?.value();
+    let residual = release.settle_time(needs.residual_current)?.value();
     let thermal = match needs.clamp_thermal {
         None => 0.0,
         Some((rating, on_time)) => {
