@@ -412,48 +412,14 @@ impl SnubberRelease {
 
     /// Solves `y(t) = level` on a bracket [lo, hi] where `y − level` changes sign; returns the
     /// end on the far side of the crossing (the later time).
-    fn solve(&self, w: Wave, level: f32, mut lo: f32, mut hi: f32) -> f32 {
-        let mut f_lo = self.eval(w, lo) - level;
-        let mut f_hi = self.eval(w, hi) - level;
-        if f_hi == 0.0 {
-            return hi;
-        }
-        let mut side = 0i8;
-        for n in 0..MAX_SOLVER_STEPS {
-            let width = hi - lo;
-            if width <= 1.0e-6 * hi {
-                break;
-            }
-            // Regula falsi point; every fourth step a plain bisection keeps the bracket shrinking.
-            let mut t = if n % 4 == 3 || f_lo == f_hi {
-                lo + 0.5 * width
-            } else {
-                hi - f_hi * width / (f_hi - f_lo)
-            };
-            if !(t > lo && t < hi) {
-                t = lo + 0.5 * width;
-            }
-            let f = self.eval(w, t) - level;
-            if f == 0.0 {
-                return t;
-            }
-            if (f > 0.0) == (f_lo > 0.0) {
-                lo = t;
-                f_lo = f;
-                if side == -1 {
-                    f_hi *= 0.5; // Illinois: damp the end that keeps staying
-                }
-                side = -1;
-            } else {
-                hi = t;
-                f_hi = f;
-                if side == 1 {
-                    f_lo *= 0.5;
-                }
-                side = 1;
-            }
-        }
-        hi
+    fn solve(&self, w: Wave, level: f32, lo: f32, hi: f32) -> f32 {
+        super::root::illinois(
+            |t| self.eval(w, t) - level,
+            lo,
+            hi,
+            MAX_SOLVER_STEPS,
+            1.0e-6,
+        )
     }
 }
 
