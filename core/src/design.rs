@@ -9,12 +9,20 @@
 //! - **release corner**: coldest winding, resistance at −tolerance, highest supply, inductance at
 //!   +tolerance, sense at −tolerance. The switch-off current `I₀ = V/R_on` is highest, so stored
 //!   energy, clamp energy, peak voltage and decay times are all largest.
+//!
+//! The RC snubber breaks the second rule for its *times*: its pre-charged capacitor drives a slow
+//! tail of about `I₀·R/(R + R_s)` decaying with `C·(R + R_s)`, so its release is longest with a hot,
+//! high-resistance winding and low inductance. The release corner still carries its worst stress
+//! (peak voltage, energy), but for a snubber [`DriverDesign::budget`] takes the release time and
+//! off-time as the maximum over all [`CORNER_COUNT`] corners (about 30× the work of the budget of a
+//! first-order clamp).
 
 use crate::error::Error;
 use crate::physics::circuit::{Circuit, OperatingPoint, SupplyRange, TemperatureRange, Tolerances};
 use crate::physics::clamp::{EnergySplit, Release};
 use crate::physics::coil::Armature;
-use crate::physics::off_time::{min_off_time, OffTime, OffTimeNeeds};
+use crate::physics::hold::Hold;
+use crate::physics::off_time::{off_time_from_parts, OffTime, OffTimeNeeds};
 use crate::physics::repetition::{clamp_average_power, max_repetition_rate};
 use crate::time::{TickRate, Ticks};
 use crate::units::{Amps, Hertz, Seconds, Volts, Watts};
@@ -44,6 +52,9 @@ pub struct DriverDesign {
     pub duty: Option<(Seconds, Hertz)>,
     /// Clamp average-power rating, if the clamp has one to respect.
     pub clamp_rating: Option<Watts>,
+    /// Hold economiser: hold current and PWM frequency, if the coil is held by PWM after pull-in
+    /// (evaluated at every point; costs a few exponentials per point).
+    pub hold: Option<(Amps, Hertz)>,
 }
 
 impl DriverDesign {
@@ -66,6 +77,7 @@ impl DriverDesign {
             residual_current: Amps::new(0.0),
             duty: None,
             clamp_rating: None,
+            hold: None,
         }
     }
 
@@ -99,10 +111,41 @@ impl DriverDesign {
         }
     }
 
+    /// Corner `index` (0 ≤ index < [`CORNER_COUNT`]) of the tolerance box: bit 0 supply (min/max),
+    /// bit 1 winding temperature (min/max), bit 2 resistance (−/+ tolerance), bit 3 inductance
+    /// (−/+), bit 4 sense (−/+). `None` past the last corner.
+    pub fn corner(&self, index: u32) -> Option<OperatingPoint> {
+        if index >= CORNER_COUNT {
+            return None;
+        }
+        let t = &self.tolerances;
+        let pick = |bit: u32, lo: f32, hi: f32| if index & bit == 0 { lo } else { hi };
+        Some(OperatingPoint {
+            supply: Volts::new(pick(
+                1,
+                self.supply.min().value(),
+                self.supply.max().value(),
+            )),
+            temperature: crate::units::Celsius::new(pick(
+                2,
+                self.temperature.min().value(),
+                self.temperature.max().value(),
+            )),
+            resistance_factor: pick(4, 1.0 - t.resistance, 1.0 + t.resistance),
+            inductance_factor: pick(8, 1.0 - t.inductance, 1.0 + t.inductance),
+            sense_factor: pick(16, 1.0 - t.sense, 1.0 + t.sense),
+        })
+    }
+
     /// Every figure at one operating point, the coil switched off from its final current.
+    ///
+    /// # Errors
+    /// Invalid tolerances or inputs; a planned duty `t_on·f` above 1 ([`crate::Param::Duty`]);
+    /// errors of the hold calculation when [`DriverDesign::hold`] is set.
     pub fn figures(&self, op: &OperatingPoint) -> Result<Figures, Error> {
         self.tolerances.validate()?;
         let c = &self.circuit;
+        let resolved = c.resolve(op)?;
         let rise = c.energize(op, Armature::Released, Amps::new(0.0))?;
         let final_current = Amps::new(rise.asymptote());
         let pull_in_time = match rise.time_to(c.coil().pull_in_current().value()) {
@@ -112,6 +155,13 @@ impl DriverDesign {
         };
         let release = c.release(op, final_current)?;
         let energy = release.energy()?;
+        let release_time = release.time_to_current(c.coil().drop_out_current())?;
+        let time_to_zero = release.time_to_zero()?;
+        let residual = if self.residual_current.value() == 0.0 {
+            time_to_zero
+        } else {
+            release.settle_time(self.residual_current)?
+        };
         let needs = OffTimeNeeds {
             residual_current: self.residual_current,
             mechanical_release: self.release_allowance,
@@ -120,13 +170,23 @@ impl DriverDesign {
                 _ => None,
             },
         };
-        let off_time = min_off_time(&release, c.coil().drop_out_current(), &needs)?;
-        let clamp_power = match self.duty {
-            Some((_, f)) => Some(clamp_average_power(energy.clamp, f)?),
-            None => None,
+        let off_time = off_time_from_parts(release_time, residual, energy.clamp, &needs)?;
+        let (clamp_power, coil_power) = match self.duty {
+            Some((on, f)) => {
+                let d = crate::error::non_negative(on.value(), crate::error::Param::Time)?
+                    * crate::error::non_negative(f.value(), crate::error::Param::Frequency)?;
+                let p =
+                    crate::physics::heating::coil_dissipation(final_current, resolved.winding, d)?;
+                (Some(clamp_average_power(energy.clamp, f)?), Some(p))
+            }
+            None => (None, None),
         };
         let max_repetition = match self.clamp_rating {
             Some(p) => max_repetition_rate(energy.clamp, p)?,
+            None => None,
+        };
+        let hold = match self.hold {
+            Some((i, f)) => Some(c.hold(op, i, f)?),
             None => None,
         };
         Ok(Figures {
@@ -136,14 +196,16 @@ impl DriverDesign {
             pull_in_time,
             pull_in_margin: final_current.value() / c.coil().pull_in_current().value() - 1.0,
             tau_off: release.tau(),
-            release_time: release.time_to_current(c.coil().drop_out_current())?,
-            time_to_zero: release.time_to_zero()?,
+            release_time,
+            time_to_zero,
             energy,
             peak_switch_voltage: release.peak_switch_voltage(),
             peak_node_voltage: release.peak_node_voltage(),
             clamp_power,
             max_repetition,
             off_time,
+            coil_power,
+            hold,
         })
     }
 
@@ -158,7 +220,8 @@ impl DriverDesign {
     /// minimum on- and off-times in ticks (rounded up).
     ///
     /// `min_on = t_pull_in(pull-in corner) + operate allowance`;
-    /// `min_off = max over corners of the safe off-time` (see [`min_off_time`]).
+    /// `min_off = max over corners of the safe off-time` (see
+    /// [`crate::physics::off_time::min_off_time`]).
     ///
     /// # Errors
     /// [`Error::Unreachable`] when the coil cannot pull in at the pull-in corner (firmware must not
@@ -181,17 +244,31 @@ impl DriverDesign {
                     crate::error::Param::Time,
                 )?,
         );
-        let min_off = if release.off_time.required >= nominal.off_time.required {
+        let mut min_off = if release.off_time.required >= nominal.off_time.required {
             release.off_time.required
         } else {
             nominal.off_time.required
         };
+        let mut release_time = release.release_time;
+        if self.circuit.clamp().kind() == crate::physics::clamp::ClampKind::RcSnubber {
+            let mut k = 0;
+            while let Some(op) = self.corner(k) {
+                let f = self.figures(&op)?;
+                if f.off_time.required > min_off {
+                    min_off = f.off_time.required;
+                }
+                if f.release_time > release_time {
+                    release_time = f.release_time;
+                }
+                k += 1;
+            }
+        }
         let r = self.tick_rate;
         let ticks = TickBudget {
             min_on: r.ticks_at_least(min_on)?,
             min_off: r.ticks_at_least(min_off)?,
             pull_in: r.ticks_at_least(t_pull)?,
-            release: r.ticks_at_least(release.release_time)?,
+            release: r.ticks_at_least(release_time)?,
         };
         Ok(TimingBudget {
             nominal,
@@ -199,6 +276,7 @@ impl DriverDesign {
             release_corner: release,
             min_on_time: min_on,
             min_off_time: min_off,
+            release_time,
             ticks,
         })
     }
@@ -236,7 +314,15 @@ pub struct Figures {
     pub max_repetition: Option<Hertz>,
     /// Safe minimum off-time at this point.
     pub off_time: OffTime,
+    /// Time-average winding dissipation at the planned duty, `I∞²·R_w·t_on·f`, W.
+    pub coil_power: Option<Watts>,
+    /// Hold PWM at this point, when the design has a hold phase.
+    pub hold: Option<Hold>,
 }
+
+/// Number of corners of the tolerance box searched by [`DriverDesign::corner`]: 2⁵ (supply,
+/// temperature, resistance, inductance, sense).
+pub const CORNER_COUNT: u32 = 32;
 
 /// The firmware's timing constants in ticks, each rounded up.
 #[derive(Clone, Copy, Debug, PartialEq, Eq)]
@@ -248,7 +334,7 @@ pub struct TickBudget {
     pub min_off: Ticks,
     /// Worst-corner electrical pull-in time.
     pub pull_in: Ticks,
-    /// Worst-corner electrical release time (to drop-out).
+    /// Worst electrical release time (to drop-out), [`TimingBudget::release_time`].
     pub release: Ticks,
 }
 
@@ -266,6 +352,179 @@ pub struct TimingBudget {
     pub min_on_time: Seconds,
     /// Safe minimum off-time, s.
     pub min_off_time: Seconds,
+    /// Longest electrical release time (switch-off to drop-out current), s: the release corner's,
+    /// or for an RC snubber the longest over all corners.
+    pub release_time: Seconds,
     /// The same in ticks.
     pub ticks: TickBudget,
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::physics::circuit::tests::valve;
+    use crate::physics::clamp::Clamp;
+    use crate::physics::off_time::min_off_time;
+    use crate::units::{Celsius, Farads, Ohms};
+
+    fn every_clamp() -> [Clamp; 6] {
+        [
+            Clamp::diode(Volts::new(0.8)).unwrap(),
+            Clamp::diode_zener(Volts::new(0.8), Volts::new(34.0)).unwrap(),
+            Clamp::diode_resistor(Volts::new(0.8), Ohms::new(220.0)).unwrap(),
+            Clamp::AcrossSwitch {
+                clamp_voltage: Volts::new(47.0),
+            },
+            Clamp::Unclamped,
+            Clamp::rc_snubber(Ohms::new(1000.0), Farads::from_micro(10.0)).unwrap(),
+        ]
+    }
+
+    /// Invented demo design: the 24 V greenhouse valve, 21.6…26.4 V, −25…+60 °C winding, ±5 % R,
+    /// ±20 % L, ±1 % sense, 1 MHz timer, 8 ms / 5 ms mechanical allowances.
+    fn design(clamp: Clamp) -> DriverDesign {
+        let mut d = DriverDesign::new(
+            valve(clamp),
+            SupplyRange::new(Volts::new(21.6), Volts::new(24.0), Volts::new(26.4)).unwrap(),
+            TemperatureRange::new(Celsius::new(-25.0), Celsius::new(60.0)).unwrap(),
+            TickRate::new(1_000_000).unwrap(),
+        );
+        d.tolerances = Tolerances {
+            resistance: 0.05,
+            inductance: 0.2,
+            sense: 0.01,
+        };
+        d.operate_allowance = Seconds::from_millis(8.0);
+        d.release_allowance = Seconds::from_millis(5.0);
+        d
+    }
+
+    fn corners(d: &DriverDesign) -> impl Iterator<Item = OperatingPoint> + '_ {
+        (0..).map_while(|k| d.corner(k))
+    }
+
+    #[test]
+    fn the_two_chosen_corners_are_the_worst_of_all_32() {
+        // Brute force over every combination of supply, temperature, R, L and sense extremes
+        // (16 supply/temperature/R/L corners, each with both sense extremes).
+        for clamp in every_clamp() {
+            let mut d = design(clamp);
+            d.duty = Some((Seconds::from_millis(50.0), Hertz::new(2.0)));
+            d.clamp_rating = Some(Watts::new(0.25));
+            let b = d.budget().unwrap();
+            let p = &b.pull_in_corner;
+            let r = &b.release_corner;
+            let close = |worst: f32, any: f32| any <= worst * (1.0 + 2e-5) + 1e-9;
+            let snubber = clamp.kind() == crate::physics::clamp::ClampKind::RcSnubber;
+            assert_eq!(corners(&d).count(), 32);
+            let mut longest = 0.0f32;
+            for op in corners(&d) {
+                let f = d.figures(&op).unwrap();
+                let pull = f.pull_in_time.unwrap().value();
+                longest = longest.max(f.release_time.value());
+                assert!(
+                    close(p.pull_in_time.unwrap().value(), pull),
+                    "{clamp:?} pull-in {op:?}"
+                );
+                assert!(
+                    close(b.release_time.value(), f.release_time.value()),
+                    "{clamp:?} release {op:?}"
+                );
+                if !snubber {
+                    // First-order clamps: the release corner itself is the slowest.
+                    assert!(close(r.release_time.value(), f.release_time.value()));
+                    assert!(close(r.time_to_zero.value(), f.time_to_zero.value()));
+                }
+                assert!(
+                    close(r.peak_switch_voltage.value(), f.peak_switch_voltage.value()),
+                    "{clamp:?} peak {op:?}"
+                );
+                assert!(
+                    close(r.energy.clamp.value(), f.energy.clamp.value()),
+                    "{clamp:?} energy {op:?}"
+                );
+                assert!(
+                    close(r.energy.stored.value(), f.energy.stored.value()),
+                    "{clamp:?} stored"
+                );
+                assert!(
+                    close(b.min_off_time.value(), f.off_time.required.value()),
+                    "{clamp:?} off-time {op:?}"
+                );
+            }
+            // The budget's release time is one of the corners' (not an overestimate either).
+            assert!((b.release_time.value() - longest).abs() <= 1e-6 * longest);
+        }
+    }
+
+    #[test]
+    fn budget_is_pull_in_plus_allowance_and_rounds_up() {
+        for clamp in every_clamp() {
+            let d = design(clamp);
+            let b = d.budget().unwrap();
+            let t_pull = b.pull_in_corner.pull_in_time.unwrap().value();
+            assert!((b.min_on_time.value() - (t_pull + 0.008)).abs() < 1e-7);
+            let rate = 1.0e6f64;
+            for (ticks, s) in [
+                (b.ticks.min_on, b.min_on_time),
+                (b.ticks.min_off, b.min_off_time),
+                (b.ticks.pull_in, b.pull_in_corner.pull_in_time.unwrap()),
+                (b.ticks.release, b.release_time),
+            ] {
+                assert!(ticks.get() as f64 / rate >= s.value() as f64);
+                assert!((ticks.get() as f64 - 1.0) / rate < s.value() as f64);
+            }
+            assert!(b.min_off_time >= b.nominal.off_time.required);
+        }
+    }
+
+    #[test]
+    fn the_fast_path_off_time_equals_the_public_one() {
+        for clamp in every_clamp() {
+            let mut d = design(clamp);
+            d.duty = Some((Seconds::from_millis(50.0), Hertz::new(2.0)));
+            d.clamp_rating = Some(Watts::new(0.05));
+            for op in [d.nominal_point(), d.release_corner(), d.pull_in_corner()] {
+                let f = d.figures(&op).unwrap();
+                let rel = d.circuit.release(&op, f.final_current).unwrap();
+                let needs = OffTimeNeeds {
+                    residual_current: d.residual_current,
+                    mechanical_release: d.release_allowance,
+                    clamp_thermal: Some((Watts::new(0.05), Seconds::from_millis(50.0))),
+                };
+                let slow = min_off_time(&rel, d.circuit.coil().drop_out_current(), &needs).unwrap();
+                assert_eq!(slow, f.off_time, "{clamp:?}");
+            }
+        }
+    }
+
+    #[test]
+    fn a_coil_that_cannot_pull_in_at_the_corner_fails_the_budget() {
+        let mut d = design(every_clamp()[0]);
+        d.supply = SupplyRange::new(Volts::new(14.0), Volts::new(24.0), Volts::new(28.0)).unwrap();
+        assert!(matches!(d.budget(), Err(Error::Unreachable { .. })));
+        assert!(d
+            .figures(&d.pull_in_corner())
+            .unwrap()
+            .pull_in_time
+            .is_none());
+    }
+
+    #[test]
+    fn duty_gives_coil_power_and_hold_is_optional() {
+        let mut d = design(every_clamp()[0]);
+        d.duty = Some((Seconds::from_millis(100.0), Hertz::new(5.0)));
+        d.hold = Some((Amps::new(0.05), Hertz::new(20_000.0)));
+        let b = d.budget().unwrap();
+        let f = &b.nominal;
+        let r = d.circuit.resolve(&f.point).unwrap().winding.value();
+        let i = f.final_current.value();
+        assert!((f.coil_power.unwrap().value() - i * i * r * 0.5).abs() < 1e-6);
+        let h = f.hold.unwrap();
+        assert!(h.duty > 0.0 && h.duty < 1.0);
+        // Hold duty is highest at the hot, low-supply corner.
+        assert!(b.pull_in_corner.hold.unwrap().duty > h.duty);
+        d.duty = Some((Seconds::new(1.0), Hertz::new(5.0)));
+        assert!(d.budget().is_err());
+    }
 }

@@ -22,7 +22,7 @@ pub mod physics;
 pub mod time;
 pub mod units;
 
-pub use design::{DriverDesign, Figures, TickBudget, TimingBudget};
+pub use design::{DriverDesign, Figures, TickBudget, TimingBudget, CORNER_COUNT};
 pub use error::{Error, Limit, Param, Why};
 pub use physics::circuit::{
     Circuit, OperatingPoint, SupplyRange, Switch, TemperatureRange, Tolerances, Topology,
