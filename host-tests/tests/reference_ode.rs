@@ -374,7 +374,7 @@ fn release_into_an_rc_snubber_matches_the_integration() {
         row(
             &format!("{name}: time to drop-out, zero, rest"),
             worst_t,
-            1e-4,
+            1e-5,
         );
         row(&format!("{name}: peak switch voltage"), worst_p, 1e-5);
         row(&format!("{name}: resistor / winding energy"), worst_e, 1e-4);
