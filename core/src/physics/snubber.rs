@@ -662,4 +662,30 @@ mod tests {
         assert!(s.time_to_current(Amps::new(f32::NAN)).is_err());
         assert!(s.time_to_current(Amps::new(-0.1)).is_err());
     }
+
+    #[test]
+    fn switched_off_mid_rise_the_current_first_rises() {
+        // Small I₀ with the capacitor near the full drive voltage: i'(0) > 0, one maximum, then
+        // the fall; the time to a target below I₀ is after the maximum.
+        let s = snub(1000.0, 10.0e-6, 0.02, 23.9).unwrap();
+        assert!(s.initial_slope() > 0.0);
+        let target = 0.015;
+        let t = s.time_to_current(Amps::new(target)).unwrap().value();
+        assert!(t > 0.0);
+        let at = s.current_at(Seconds::new(t)).unwrap().value();
+        assert!((at - target).abs() < 1e-6, "{at}");
+        let mut peak = 0.0f32;
+        for k in 0..1000 {
+            let i = s
+                .current_at(Seconds::new(t * k as f32 / 1000.0))
+                .unwrap()
+                .value();
+            assert!(i > target - 1e-7, "crossed early at step {k}: {i}");
+            peak = peak.max(i);
+        }
+        assert!(peak > 0.02);
+        assert!(s.slope_at(Seconds::new(t)).unwrap() < 0.0);
+        let rest = s.time_to_rest().unwrap();
+        assert!(rest.value() > t);
+    }
 }
