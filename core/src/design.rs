@@ -52,9 +52,6 @@ pub struct DriverDesign {
     pub duty: Option<(Seconds, Hertz)>,
     /// Clamp average-power rating, if the clamp has one to respect.
     pub clamp_rating: Option<Watts>,
-    /// Hold economiser: hold current and PWM frequency, if the coil is held by PWM after pull-in
-    /// (evaluated at every point; costs a few exponentials per point).
-    pub hold: Option<(Amps, Hertz)>,
 }
 
 impl DriverDesign {
@@ -77,7 +74,6 @@ impl DriverDesign {
             residual_current: Amps::new(0.0),
             duty: None,
             clamp_rating: None,
-            hold: None,
         }
     }
 
@@ -140,12 +136,10 @@ impl DriverDesign {
     /// Every figure at one operating point, the coil switched off from its final current.
     ///
     /// # Errors
-    /// Invalid tolerances or inputs; a planned duty `t_on·f` above 1 ([`crate::Param::Duty`]);
-    /// errors of the hold calculation when [`DriverDesign::hold`] is set.
+    /// Invalid tolerances or inputs; a planned duty `t_on·f` above 1 ([`crate::Param::Duty`]).
     pub fn figures(&self, op: &OperatingPoint) -> Result<Figures, Error> {
         self.tolerances.validate()?;
         let c = &self.circuit;
-        let resolved = c.resolve(op)?;
         let rise = c.energize(op, Armature::Released, Amps::new(0.0))?;
         let final_current = Amps::new(rise.asymptote());
         let pull_in_time = match rise.time_to(c.coil().pull_in_current().value()) {
@@ -175,18 +169,14 @@ impl DriverDesign {
             Some((on, f)) => {
                 let d = crate::error::non_negative(on.value(), crate::error::Param::Time)?
                     * crate::error::non_negative(f.value(), crate::error::Param::Frequency)?;
-                let p =
-                    crate::physics::heating::coil_dissipation(final_current, resolved.winding, d)?;
+                let winding = c.resolve(op)?.winding;
+                let p = crate::physics::heating::coil_dissipation(final_current, winding, d)?;
                 (Some(clamp_average_power(energy.clamp, f)?), Some(p))
             }
             None => (None, None),
         };
         let max_repetition = match self.clamp_rating {
             Some(p) => max_repetition_rate(energy.clamp, p)?,
-            None => None,
-        };
-        let hold = match self.hold {
-            Some((i, f)) => Some(c.hold(op, i, f)?),
             None => None,
         };
         Ok(Figures {
@@ -208,8 +198,44 @@ impl DriverDesign {
             max_repetition,
             off_time,
             coil_power,
-            hold,
         })
+    }
+
+    /// Longest off-time and release time over all corners (the RC snubber's times are not
+    /// monotone in the parts). Kept out of line so its figures do not grow the stack of
+    /// [`DriverDesign::budget`] for the first-order clamps.
+    #[inline(never)]
+    fn slowest_corner_times(&self) -> Result<(Seconds, Seconds), Error> {
+        let mut off = Seconds::new(0.0);
+        let mut rel = Seconds::new(0.0);
+        let mut k = 0;
+        while let Some(op) = self.corner(k) {
+            let f = self.figures(&op)?;
+            if f.off_time.required > off {
+                off = f.off_time.required;
+            }
+            if f.release_time > rel {
+                rel = f.release_time;
+            }
+            k += 1;
+        }
+        Ok((off, rel))
+    }
+
+    /// The hold PWM for `hold_current` at `frequency` at the nominal point, the pull-in corner
+    /// (hot, low supply: the highest duty) and the release corner (cold, high supply: the lowest
+    /// duty), in that order. See [`Circuit::hold`].
+    pub fn hold_at_corners(
+        &self,
+        hold_current: Amps,
+        frequency: Hertz,
+    ) -> Result<[Hold; 3], Error> {
+        let c = &self.circuit;
+        Ok([
+            c.hold(&self.nominal_point(), hold_current, frequency)?,
+            c.hold(&self.pull_in_corner(), hold_current, frequency)?,
+            c.hold(&self.release_corner(), hold_current, frequency)?,
+        ])
     }
 
     /// The release at the worst release corner (for plotting or custom checks).
@@ -254,16 +280,12 @@ impl DriverDesign {
         };
         let mut release_time = release.release_time;
         if self.circuit.clamp().kind() == crate::physics::clamp::ClampKind::RcSnubber {
-            let mut k = 0;
-            while let Some(op) = self.corner(k) {
-                let f = self.figures(&op)?;
-                if f.off_time.required > min_off {
-                    min_off = f.off_time.required;
-                }
-                if f.release_time > release_time {
-                    release_time = f.release_time;
-                }
-                k += 1;
+            let (off, rel) = self.slowest_corner_times()?;
+            if off > min_off {
+                min_off = off;
+            }
+            if rel > release_time {
+                release_time = rel;
             }
         }
         let r = self.tick_rate;
@@ -322,8 +344,6 @@ pub struct Figures {
     pub off_time: OffTime,
     /// Time-average winding dissipation at the planned duty, `I∞²·R_w·t_on·f`, W.
     pub coil_power: Option<Watts>,
-    /// Hold PWM at this point, when the design has a hold phase.
-    pub hold: Option<Hold>,
 }
 
 /// Number of corners of the tolerance box searched by [`DriverDesign::corner`]: 2⁵ (supply,
@@ -520,16 +540,17 @@ mod tests {
     fn duty_gives_coil_power_and_hold_is_optional() {
         let mut d = design(every_clamp()[0]);
         d.duty = Some((Seconds::from_millis(100.0), Hertz::new(5.0)));
-        d.hold = Some((Amps::new(0.05), Hertz::new(20_000.0)));
         let b = d.budget().unwrap();
         let f = &b.nominal;
         let r = d.circuit.resolve(&f.point).unwrap().winding.value();
         let i = f.final_current.value();
         assert!((f.coil_power.unwrap().value() - i * i * r * 0.5).abs() < 1e-6);
-        let h = f.hold.unwrap();
+        let [h, hot, cold] = d
+            .hold_at_corners(Amps::new(0.05), Hertz::new(20_000.0))
+            .unwrap();
         assert!(h.duty > 0.0 && h.duty < 1.0);
-        // Hold duty is highest at the hot, low-supply corner.
-        assert!(b.pull_in_corner.hold.unwrap().duty > h.duty);
+        // Hold duty is highest at the hot, low-supply corner, lowest at the cold, high one.
+        assert!(hot.duty > h.duty && cold.duty < h.duty);
         d.duty = Some((Seconds::new(1.0), Hertz::new(5.0)));
         assert!(d.budget().is_err());
     }
