@@ -165,15 +165,9 @@ impl DriverDesign {
             },
         };
         let off_time = off_time_from_parts(release_time, residual, energy.clamp, &needs)?;
-        let (clamp_power, coil_power) = match self.duty {
-            Some((on, f)) => {
-                let d = crate::error::non_negative(on.value(), crate::error::Param::Time)?
-                    * crate::error::non_negative(f.value(), crate::error::Param::Frequency)?;
-                let winding = c.resolve(op)?.winding;
-                let p = crate::physics::heating::coil_dissipation(final_current, winding, d)?;
-                (Some(clamp_average_power(energy.clamp, f)?), Some(p))
-            }
-            None => (None, None),
+        let clamp_power = match self.duty {
+            Some((_, f)) => Some(clamp_average_power(energy.clamp, f)?),
+            None => None,
         };
         let max_repetition = match self.clamp_rating {
             Some(p) => max_repetition_rate(energy.clamp, p)?,
@@ -197,7 +191,6 @@ impl DriverDesign {
             clamp_power,
             max_repetition,
             off_time,
-            coil_power,
         })
     }
 
@@ -220,6 +213,21 @@ impl DriverDesign {
             k += 1;
         }
         Ok((off, rel))
+    }
+
+    /// Time-average winding dissipation at the planned duty at `op`: `P = I∞²·R_w·D` with
+    /// `D = t_on·f` (transients neglected; see [`crate::physics::heating`]), W. `None` when the
+    /// design has no planned duty. Kept out of [`Figures`] to keep the budget's stack small.
+    ///
+    /// # Errors
+    /// A duty above 1 ([`crate::Param::Duty`]) or invalid inputs.
+    pub fn coil_power(&self, op: &OperatingPoint) -> Result<Option<Watts>, Error> {
+        let Some((on, f)) = self.duty else {
+            return Ok(None);
+        };
+        let d = crate::error::non_negative(on.value(), crate::error::Param::Time)?
+            * crate::error::non_negative(f.value(), crate::error::Param::Frequency)?;
+        self.circuit.coil_dissipation(op, d).map(Some)
     }
 
     /// The hold PWM for `hold_current` at `frequency` at the nominal point, the pull-in corner
@@ -342,8 +350,6 @@ pub struct Figures {
     pub max_repetition: Option<Hertz>,
     /// Safe minimum off-time at this point.
     pub off_time: OffTime,
-    /// Time-average winding dissipation at the planned duty, `I∞²·R_w·t_on·f`, W.
-    pub coil_power: Option<Watts>,
 }
 
 /// Number of corners of the tolerance box searched by [`DriverDesign::corner`]: 2⁵ (supply,
@@ -544,7 +550,8 @@ mod tests {
         let f = &b.nominal;
         let r = d.circuit.resolve(&f.point).unwrap().winding.value();
         let i = f.final_current.value();
-        assert!((f.coil_power.unwrap().value() - i * i * r * 0.5).abs() < 1e-6);
+        let p = d.coil_power(&f.point).unwrap().unwrap().value();
+        assert!((p - i * i * r * 0.5).abs() < 1e-6);
         let [h, hot, cold] = d
             .hold_at_corners(Amps::new(0.05), Hertz::new(20_000.0))
             .unwrap();
@@ -552,6 +559,8 @@ mod tests {
         // Hold duty is highest at the hot, low-supply corner, lowest at the cold, high one.
         assert!(hot.duty > h.duty && cold.duty < h.duty);
         d.duty = Some((Seconds::new(1.0), Hertz::new(5.0)));
-        assert!(d.budget().is_err());
+        assert!(d.coil_power(&f.point).is_err());
+        d.duty = None;
+        assert_eq!(d.coil_power(&f.point), Ok(None));
     }
 }

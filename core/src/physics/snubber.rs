@@ -65,10 +65,6 @@ pub struct SnubberRelease {
     alpha: f32,
     beta: f32,
     slow: f32,
-    fast: f32,
-    omega2: f32,
-    /// i'(0), A/s.
-    di0: f32,
 }
 
 /// A solution `y(t)` of the snubber's homogeneous equation, given by `y(0)` and `y'(0)`.
@@ -104,7 +100,7 @@ impl SnubberRelease {
         let v0 = finite(precharge.value(), Param::Voltage)?;
         let r_tot = result(r + rs)?;
         let alpha = result(r_tot / (2.0 * l))?;
-        let omega2 = result(1.0 / (l * c))?;
+        result(1.0 / (l * c))?;
         // ρ = 4L/(C·R²), formed so that it does not overflow before the comparison.
         let rho = result((2.0 / r_tot) * (2.0 / r_tot) * (l / c))?;
         let mut gap = 1.0 - rho;
@@ -120,7 +116,7 @@ impl SnubberRelease {
         let beta = alpha * sq;
         let fast = -alpha * (1.0 + sq);
         let slow = -alpha * (1.0 - gap) / (1.0 + sq);
-        let di0 = result((v0 - r_tot * i0) / l)?;
+        result((v0 - r_tot * i0) / l)?;
         result(fast)?;
         result(slow)?;
         if slow >= 0.0 {
@@ -136,9 +132,6 @@ impl SnubberRelease {
             alpha,
             beta,
             slow,
-            fast,
-            omega2,
-            di0,
         })
     }
 
@@ -154,7 +147,23 @@ impl SnubberRelease {
 
     /// Damping ratio `ζ = (R + R_s)/2·√(C/L)` (≥ 1 here; 1 = critical).
     pub fn damping_ratio(&self) -> f32 {
-        self.alpha / libm::sqrtf(self.omega2)
+        self.alpha / libm::sqrtf(self.omega2())
+    }
+
+    /// `ω₀² = 1/(L·C)`, 1/s².
+    fn omega2(&self) -> f32 {
+        1.0 / (self.inductance * self.capacitance)
+    }
+
+    /// The fast root `s₂ = −(α + β)`, 1/s.
+    fn fast(&self) -> f32 {
+        -(self.alpha + self.beta)
+    }
+
+    /// `i'(0) = (V₀ − (R + R_s)·I₀)/L`, A/s.
+    fn di0(&self) -> f32 {
+        (self.precharge - (self.loop_resistance + self.snubber_resistance) * self.initial)
+            / self.inductance
     }
 
     /// Slow time constant `−1/s₁`, s: the decay of the current's tail.
@@ -164,20 +173,20 @@ impl SnubberRelease {
 
     /// Fast time constant `−1/s₂`, s (tends to `L/(R + R_s)` for a large capacitor).
     pub fn fast_time_constant(&self) -> Seconds {
-        Seconds::new(-1.0 / self.fast)
+        Seconds::new(-1.0 / self.fast())
     }
 
     fn current_wave(&self) -> Wave {
         Wave {
             y0: self.initial,
-            dy0: self.di0,
+            dy0: self.di0(),
         }
     }
 
     fn current_slope_wave(&self) -> Wave {
         Wave {
-            y0: self.di0,
-            dy0: -2.0 * self.alpha * self.di0 - self.omega2 * self.initial,
+            y0: self.di0(),
+            dy0: -2.0 * self.alpha * self.di0() - self.omega2() * self.initial,
         }
     }
 
@@ -185,7 +194,7 @@ impl SnubberRelease {
     fn reverse_voltage_wave(&self) -> Wave {
         Wave {
             y0: self.snubber_resistance * self.initial - self.precharge,
-            dy0: self.snubber_resistance * self.di0 + self.initial / self.capacitance,
+            dy0: self.snubber_resistance * self.di0() + self.initial / self.capacitance,
         }
     }
 
@@ -222,7 +231,7 @@ impl SnubberRelease {
         if b == 0.0 {
             return None; // pure slow mode: monotone
         }
-        let lead = -(k - self.alpha * w.y0) / (b * self.fast);
+        let lead = -(k - self.alpha * w.y0) / (b * self.fast());
         let x = -2.0 * self.beta * lead;
         if x <= -1.0 || !x.is_finite() {
             return None;
@@ -379,8 +388,8 @@ impl SnubberRelease {
     }
 
     /// Slope of the current at switch-off, `i'(0) = (V₀ − (R + R_s)·I₀)/L`, A/s.
-    pub const fn initial_slope(&self) -> f32 {
-        self.di0
+    pub fn initial_slope(&self) -> f32 {
+        self.di0()
     }
 
     /// Slope of the current at t, A/s (same domain and accuracy as [`SnubberRelease::current_at`]).
