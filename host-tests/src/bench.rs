@@ -30,24 +30,25 @@ impl<const N: usize> State<N> {
         rail: [0.0; 3],
     };
 
-    /// `self = y + h·Σ c_j·k_j`.
-    #[inline]
-    fn combine(&mut self, y: &Self, h: f64, terms: &[(f64, &Self)]) {
-        for c in 0..N {
+    /// `self = y + Σ (h·c_m)·k_m`, fixed arity so the loops unroll.
+    #[inline(always)]
+    fn lin<const M: usize>(&mut self, y: &Self, h: f64, c: [f64; M], k: [&Self; M]) {
+        let hc: [f64; M] = core::array::from_fn(|m| h * c[m]);
+        for ch in 0..N {
             for j in 0..K {
-                let mut acc = 0.0;
-                for (w, k) in terms {
-                    acc += w * k.ch[c][j];
+                let mut acc = y.ch[ch][j];
+                for m in 0..M {
+                    acc += hc[m] * k[m].ch[ch][j];
                 }
-                self.ch[c][j] = y.ch[c][j] + h * acc;
+                self.ch[ch][j] = acc;
             }
         }
         for j in 0..3 {
-            let mut acc = 0.0;
-            for (w, k) in terms {
-                acc += w * k.rail[j];
+            let mut acc = y.rail[j];
+            for m in 0..M {
+                acc += hc[m] * k[m].rail[j];
             }
-            self.rail[j] = y.rail[j] + h * acc;
+            self.rail[j] = acc;
         }
     }
 }
@@ -929,31 +930,44 @@ impl<const N: usize> Bench<N> {
         &self,
         y0: &State<N>,
         y1: &State<N>,
-        err: &State<N>,
+        h: f64,
+        k: [&State<N>; 4],
         rtol: f64,
         atol_i: f64,
     ) -> f64 {
+        // Bogacki–Shampine error weights b − b*.
+        const E: [f64; 4] = [-5.0 / 72.0, 1.0 / 12.0, 1.0 / 9.0, -1.0 / 8.0];
         let mut m: f64 = 0.0;
         for c in 0..N {
             let e = &self.eff[c];
             let (l, _) = e.inductance(y0.ch[c][plant::POS] / e.stroke);
-            let stroke = match self.params[c].mechanics {
-                Mechanics::Moving(a) => a.stroke_m,
-                Mechanics::Fixed { .. } => 1.0,
-            };
-            let atol = [atol_i * l, 1e-7 * stroke, 1e-4 * stroke, 1e-6];
+            let atol = [atol_i * l, 1e-7 * e.stroke, 1e-4 * e.stroke, 1e-6];
             for j in 0..DYN {
+                let err = h
+                    * (E[0] * k[0].ch[c][j]
+                        + E[1] * k[1].ch[c][j]
+                        + E[2] * k[2].ch[c][j]
+                        + E[3] * k[3].ch[c][j]);
                 let sc = atol[j] + rtol * y0.ch[c][j].abs().max(y1.ch[c][j].abs());
-                let r = err.ch[c][j].abs() / sc;
-                if r > m || r.is_nan() {
-                    m = if r.is_nan() { f64::INFINITY } else { r };
+                let r = err.abs() / sc;
+                if r.is_nan() {
+                    return f64::INFINITY;
                 }
+                m = m.max(r);
             }
         }
         if self.supply.source_ohms > 0.0 {
+            let err = h
+                * (E[0] * k[0].rail[R_V]
+                    + E[1] * k[1].rail[R_V]
+                    + E[2] * k[2].rail[R_V]
+                    + E[3] * k[3].rail[R_V]);
             let sc = 1e-6 + rtol * y0.rail[R_V].abs().max(y1.rail[R_V].abs());
-            let r = err.rail[R_V].abs() / sc;
-            m = if r.is_nan() { f64::INFINITY } else { m.max(r) };
+            let r = err.abs() / sc;
+            if r.is_nan() {
+                return f64::INFINITY;
+            }
+            m = m.max(r);
         }
         m
     }
@@ -1013,7 +1027,6 @@ impl<const N: usize> Bench<N> {
         let mut k4 = State::<N>::ZERO;
         let mut ys = State::<N>::ZERO;
         let mut y1 = State::<N>::ZERO;
-        let mut err = State::<N>::ZERO;
         while t < span {
             self.ensure_k1();
             if self.quiescent() {
@@ -1030,38 +1043,24 @@ impl<const N: usize> Bench<N> {
             }
             let mut refines = 0u32;
             loop {
-                let y0 = self.y;
-                let k1 = self.k1;
-                ys.combine(&y0, h, &[(0.5, &k1)]);
+                let y0 = &self.y;
+                let k1 = &self.k1;
+                ys.lin(y0, h, [0.5], [k1]);
                 self.deriv(&ys, &mut k2);
-                ys.combine(&y0, h, &[(0.75, &k2)]);
+                ys.lin(y0, h, [0.75], [&k2]);
                 self.deriv(&ys, &mut k3);
-                y1.combine(
-                    &y0,
-                    h,
-                    &[(2.0 / 9.0, &k1), (1.0 / 3.0, &k2), (4.0 / 9.0, &k3)],
-                );
+                y1.lin(y0, h, [2.0 / 9.0, 1.0 / 3.0, 4.0 / 9.0], [k1, &k2, &k3]);
                 self.deriv(&y1, &mut k4);
-                self.counters.evaluations += 3;
                 let mut en = 0.0;
                 if adaptive {
-                    err.combine(
-                        &State::ZERO,
-                        h,
-                        &[
-                            (-5.0 / 72.0, &k1),
-                            (1.0 / 12.0, &k2),
-                            (1.0 / 9.0, &k3),
-                            (-1.0 / 8.0, &k4),
-                        ],
-                    );
-                    en = self.error_norm(&y0, &y1, &err, rtol, atol_i);
-                    if en > 1.0 && h > H_MIN {
-                        let fac = (0.9 * libm::cbrt(1.0 / en)).clamp(0.1, 0.9);
-                        h = (h * fac).max(H_MIN);
-                        self.counters.rejected += 1;
-                        continue;
-                    }
+                    en = self.error_norm(y0, &y1, h, [k1, &k2, &k3, &k4], rtol, atol_i);
+                }
+                self.counters.evaluations += 3;
+                if adaptive && en > 1.0 && h > H_MIN {
+                    let fac = (0.9 * libm::cbrt(1.0 / en)).clamp(0.1, 0.9);
+                    h = (h * fac).max(H_MIN);
+                    self.counters.rejected += 1;
+                    continue;
                 }
                 if refines < MAX_REFINE {
                     if let Some(theta) = self.event_fraction(&y1) {
@@ -1073,8 +1072,8 @@ impl<const N: usize> Bench<N> {
                 }
                 // Accept.
                 let landed = h == rem;
-                self.y = y1;
-                self.k1 = k4;
+                core::mem::swap(&mut self.y, &mut y1);
+                core::mem::swap(&mut self.k1, &mut k4);
                 self.k1_valid = true;
                 self.counters.steps += 1;
                 t = if landed { span } else { t + h };
@@ -1163,19 +1162,31 @@ impl<const N: usize> Bench<N> {
             }
         }
         for c in 0..N {
-            self.update_peaks(c);
+            let op = self.op(c);
+            self.update_peaks_from(c, &op);
             self.update_armature(c, t_u);
-            self.update_comparator(c, t_ns);
+            self.update_comparator(c, t_ns, &op);
         }
     }
 
     fn update_peaks(&mut self, c: usize) {
-        let p = self.probe_unchecked(c);
+        let op = self.op(c);
+        self.update_peaks_from(c, &op);
+    }
+
+    fn update_peaks_from(&mut self, c: usize, op: &Op) {
+        let vp = self.rail_volts();
+        let n = op.node;
+        let node_volts = match self.params[c].topology {
+            Topology::LowSide => n.w,
+            Topology::HighSide => vp - n.w,
+        };
+        let switch_volts = n.w - n.i_sw * self.params[c].sense_ohms;
         let s = &mut self.st[c].stats;
-        s.peak_switch_volts = s.peak_switch_volts.max(p.switch_volts);
-        s.peak_node_volts = s.peak_node_volts.max(p.node_volts);
-        s.min_node_volts = s.min_node_volts.min(p.node_volts);
-        s.peak_coil_amps = s.peak_coil_amps.max(p.coil_amps);
+        s.peak_switch_volts = s.peak_switch_volts.max(switch_volts);
+        s.peak_node_volts = s.peak_node_volts.max(node_volts);
+        s.min_node_volts = s.min_node_volts.min(node_volts);
+        s.peak_coil_amps = s.peak_coil_amps.max(op.i);
     }
 
     fn update_armature(&mut self, c: usize, t: u64) {
@@ -1223,11 +1234,14 @@ impl<const N: usize> Bench<N> {
         }
     }
 
-    fn update_comparator(&mut self, c: usize, t_ns: f64) {
+    fn update_comparator(&mut self, c: usize, t_ns: f64, op: &Op) {
         let Some(cmp) = self.st[c].comparator else {
             return;
         };
-        let q = self.sensed(c);
+        let q = match cmp.sense {
+            SensePoint::Switch => op.node.i_sw,
+            SensePoint::Coil => op.i,
+        };
         let s = self.st[c];
         if s.armed && s.prev_sense < cmp.threshold_amps && q >= cmp.threshold_amps {
             let th = (cmp.threshold_amps - s.prev_sense) / (q - s.prev_sense);

@@ -5,7 +5,12 @@ use coilwise_host_tests::{
 };
 
 fn valve_bench() -> Bench<1> {
-    Bench::single(Supply::ideal(24.0), demo::valve_24v(), SolverSettings::default()).unwrap()
+    Bench::single(
+        Supply::ideal(24.0),
+        demo::valve_24v(),
+        SolverSettings::default(),
+    )
+    .unwrap()
 }
 
 /// A moving armature raises L while the current rises: the back-EMF
@@ -32,7 +37,10 @@ fn moving_armature_dips_and_stuck_one_does_not() {
         .filter(|s| s.t_ns > t_dip && s.t_ns < operated + 2_000_000)
         .map(|s| (s.t_ns, s.coil_amps))
         .fold((0, f64::INFINITY), |a, b| if b.1 < a.1 { b } else { a });
-    assert!((t_min as i64 - operated as i64).abs() <= 20_000, "{t_min} vs {operated}");
+    assert!(
+        (t_min as i64 - operated as i64).abs() <= 20_000,
+        "{t_min} vs {operated}"
+    );
 
     let mut s = valve_bench();
     s.inject(0, Fault::StuckArmature).unwrap();
@@ -76,14 +84,18 @@ fn motion_starts_and_ends_at_virtual_work_currents() {
     b.advance_ns(30_000_000);
     let rec = b.take_recording().unwrap();
     let t_move = rec.first_event(0, EventKind::ArmatureMoving, 0).unwrap();
-    let t_leave = rec.first_event(0, EventKind::ArmatureLeftOperated, 0).unwrap();
+    let t_leave = rec
+        .first_event(0, EventKind::ArmatureLeftOperated, 0)
+        .unwrap();
     // The event is stamped at the end of the step in which it happened
     // (≤ 1 µs late here): compare with the current one sample earlier too.
     let i_m = rec.current_at(0, t_move).unwrap();
     let i_m0 = rec.current_at(0, t_move - 1_000).unwrap();
     let i_l = rec.current_at(0, t_leave).unwrap();
     let i_l0 = rec.current_at(0, t_leave - 1_000).unwrap();
-    eprintln!("start: {i_m0:.6}..{i_m:.6} A vs {i_start:.6}; leave: {i_l:.6}..{i_l0:.6} A vs {i_drop:.6}");
+    eprintln!(
+        "start: {i_m0:.6}..{i_m:.6} A vs {i_start:.6}; leave: {i_l:.6}..{i_l0:.6} A vs {i_drop:.6}"
+    );
     assert!(i_m0 <= i_start * (1.0 + 1e-6) && i_start <= i_m * (1.0 + 1e-6));
     assert!(i_l <= i_drop * (1.0 + 1e-6) && i_drop <= i_l0 * (1.0 + 1e-6));
     // And it really came back.

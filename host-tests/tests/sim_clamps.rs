@@ -41,7 +41,10 @@ fn zener_clamp_is_faster_and_higher_than_plain_diode() {
         zener_ohms: 0.0,
     });
     eprintln!("diode: {p_d:.2} V, zero after {t_d:e} s; zener: {p_z:.2} V, zero after {t_z:e} s");
-    assert!((24.0 + 33.0 + 0.6..24.0 + 33.0 + 1.0).contains(&p_z), "{p_z}");
+    assert!(
+        (24.0 + 33.0 + 0.6..24.0 + 33.0 + 1.0).contains(&p_z),
+        "{p_z}"
+    );
     assert!(t_z < 0.5 * t_d);
     // Upper bound for the zener case: ignoring R, t ≤ L·I0/Vz (textbook).
     assert!(t_z < LCOIL * i0 / 33.0);

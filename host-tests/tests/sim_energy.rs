@@ -13,7 +13,12 @@ fn switch_off_run(
     ch: ChannelParams,
     on_ns: u64,
     off_ns: u64,
-) -> (f64, coilwise_host_tests::Energy, coilwise_host_tests::Energy, Bench<1>) {
+) -> (
+    f64,
+    coilwise_host_tests::Energy,
+    coilwise_host_tests::Energy,
+    Bench<1>,
+) {
     let mut b = bench1(24.0, ch);
     b.set_gate(0, true).unwrap();
     b.advance_ns(on_ns);
@@ -57,7 +62,8 @@ fn switch_off_energy_equals_half_l_i_squared_for_every_clamp() {
         ("none (avalanche)", Clamp::None),
     ];
     for (name, clamp) in clamps {
-        let (i0, e0, e1, b) = switch_off_run(fixed_channel(RCOIL, LCOIL, clamp), 20_000_000, 40_000_000);
+        let (i0, e0, e1, b) =
+            switch_off_run(fixed_channel(RCOIL, LCOIL, clamp), 20_000_000, 40_000_000);
         let stored = 0.5 * LCOIL * i0 * i0;
         let sinks = (e1.clamp - e0.clamp)
             + (e1.winding - e0.winding)
@@ -137,7 +143,10 @@ fn snubber_energy_balance_and_ringing() {
     eprintln!("snubber: balance residual {err:e}");
     assert!(err < 1e-6);
     let rec = b.recording().unwrap();
-    let min_i = rec.channel(0).map(|s| s.coil_amps).fold(f64::INFINITY, f64::min);
+    let min_i = rec
+        .channel(0)
+        .map(|s| s.coil_amps)
+        .fold(f64::INFINITY, f64::min);
     // ζ = (R/2)·sqrt(C/L) for the series loop.
     let zeta = 0.5 * (RCOIL + RWIRE + 10.0) * (4.7e-6_f64 / LCOIL).sqrt();
     assert!(zeta < 1.0);
@@ -156,7 +165,12 @@ fn snubber_energy_balance_and_ringing() {
 /// impact losses (conservation of energy, textbook).
 #[test]
 fn moving_armature_energy_balance() {
-    let mut b = Bench::single(Supply::ideal(24.0), demo::valve_24v(), SolverSettings::default()).unwrap();
+    let mut b = Bench::single(
+        Supply::ideal(24.0),
+        demo::valve_24v(),
+        SolverSettings::default(),
+    )
+    .unwrap();
     let e0 = b.energy(0).unwrap();
     b.set_gate(0, true).unwrap();
     b.advance_ns(6_000_000); // mid-stroke

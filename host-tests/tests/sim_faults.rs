@@ -44,7 +44,9 @@ fn shorted_turns_rise_faster_to_higher_current() {
     // Closed-form time to threshold with the faulted τ and I∞.
     let tau = LCOIL * (1.0 - f) * (1.0 - f) / r;
     let expect = -tau * (1.0 - 0.08 * r / 24.0).ln() * 1e9;
-    eprintln!("threshold time healthy {t_ok} ns, shorted turns {t_st} ns (closed form {expect:.0})");
+    eprintln!(
+        "threshold time healthy {t_ok} ns, shorted turns {t_st} ns (closed form {expect:.0})"
+    );
     assert!(t_st < 0.6 * t_ok);
     assert!((t_st - expect).abs() < 100.0);
 }
@@ -120,7 +122,12 @@ fn supply_sag_mid_pulse() {
 /// the books as an event, so the balance still closes.
 #[test]
 fn opening_mid_pulse_is_booked() {
-    let mut b = Bench::single(Supply::ideal(24.0), demo::valve_24v(), SolverSettings::default()).unwrap();
+    let mut b = Bench::single(
+        Supply::ideal(24.0),
+        demo::valve_24v(),
+        SolverSettings::default(),
+    )
+    .unwrap();
     let e0 = b.energy(0).unwrap();
     b.set_gate(0, true).unwrap();
     b.advance_ns(30_000_000);
@@ -132,7 +139,10 @@ fn opening_mid_pulse_is_booked() {
     assert!((e1.removed_by_events - w).abs() < 1e-6 * w);
     assert!(e1.balance_error_since(&e0).abs() < 1e-7 * e1.from_rail);
     // The plunger falls back once the current is gone.
-    assert_eq!(b.armature(0).unwrap(), coilwise_host_tests::ArmatureState::Released);
+    assert_eq!(
+        b.armature(0).unwrap(),
+        coilwise_host_tests::ArmatureState::Released
+    );
     b.clear_faults(0).unwrap();
     b.advance_ns(30_000_000);
     assert!(b.probe(0).unwrap().coil_amps > 0.1);

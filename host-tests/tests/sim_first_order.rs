@@ -3,9 +3,7 @@
 mod sim_common;
 use sim_common::*;
 
-use coilwise_host_tests::{
-    Bench, Clamp, Comparator, SensePoint, SolverSettings, Stepping, Supply,
-};
+use coilwise_host_tests::{Bench, Clamp, Comparator, SensePoint, SolverSettings, Stepping, Supply};
 
 /// RL step response `i = I∞·(1 − e^(−t/τ))`, `τ = L/R`, `I∞ = V/R`
 /// (textbook, from memory), fixed armature, 24 V, invented coil.
@@ -149,7 +147,10 @@ fn constant_voltage_clamp_decay_matches_closed_form() {
     let e_clamp = e.clamp - e_before.clamp;
     let expect_clamp = vc * (tau * i0 - vc * t0 / r);
     eprintln!("zero at {tz:e} vs {t0:e}; clamp energy {e_clamp:e} vs {expect_clamp:e}");
-    assert!(rel(e_clamp, expect_clamp) < 1e-5, "{e_clamp} vs {expect_clamp}");
+    assert!(
+        rel(e_clamp, expect_clamp) < 1e-5,
+        "{e_clamp} vs {expect_clamp}"
+    );
     // Peak switch voltage: supply + clamp (textbook).
     assert!((b.stats(0).unwrap().peak_switch_volts - (24.0 + vc)).abs() < 1e-6);
 }
@@ -181,7 +182,11 @@ fn resistor_clamp_matches_closed_form() {
     let e = b.energy(0).unwrap();
     let e_cl = e.clamp - e0.clamp;
     let e_r = (e.winding + e.wiring) - (e0.winding + e0.wiring);
-    eprintln!("resistor clamp: i {i1:e} vs {expect:e}; ratio {} vs {}", e_cl / e_r, rc / r);
+    eprintln!(
+        "resistor clamp: i {i1:e} vs {expect:e}; ratio {} vs {}",
+        e_cl / e_r,
+        rc / r
+    );
     assert!(rel(e_cl / e_r, rc / r) < 1e-5, "ratio {}", e_cl / e_r);
     let peak = b.stats(0).unwrap().peak_switch_volts;
     assert!((peak - (24.0 + i0 * rc)).abs() < 1e-6, "{peak}");

@@ -4,9 +4,7 @@
 mod sim_common;
 use sim_common::*;
 
-use coilwise_host_tests::{
-    demo, AdcConfig, Bench, Rig, SensePoint, SolverSettings, Supply,
-};
+use coilwise_host_tests::{demo, AdcConfig, Bench, Rig, SensePoint, SolverSettings, Supply};
 use embedded_hal::delay::DelayNs;
 use embedded_hal::digital::{OutputPin, StatefulOutputPin};
 use embedded_hal::pwm::SetDutyCycle;
@@ -137,7 +135,9 @@ fn pwm_hold_current_and_ripple() {
     let r_coil = RCOIL + RWIRE;
     let i_expect = (d * v - (1.0 - d) * vd) / (r_coil + d * (RON + RSENSE));
     let ripple_expect = (v + vd) * d * (1.0 - d) / (LCOIL * 20_000.0);
-    eprintln!("hold: mean {mean:.6} vs {i_expect:.6} A, ripple {ripple:.3e} vs {ripple_expect:.3e} A");
+    eprintln!(
+        "hold: mean {mean:.6} vs {i_expect:.6} A, ripple {ripple:.3e} vs {ripple_expect:.3e} A"
+    );
     assert!(rel(mean, i_expect) < 0.005);
     assert!(rel(ripple, ripple_expect) < 0.03);
     // The switch really switched: the shunt saw zero during the off-times.
@@ -187,7 +187,12 @@ fn pulse_train<P: OutputPin, D: DelayNs>(
 }
 
 fn run_driver(off_ms: u32) -> (bool, f64) {
-    let bench = Bench::single(Supply::ideal(24.0), demo::valve_24v(), SolverSettings::default()).unwrap();
+    let bench = Bench::single(
+        Supply::ideal(24.0),
+        demo::valve_24v(),
+        SolverSettings::default(),
+    )
+    .unwrap();
     let rig = Rig::new(bench);
     rig.bench_mut().start_recording(50_000);
     let mut pin = rig.gate(0).unwrap();
@@ -196,7 +201,10 @@ fn run_driver(off_ms: u32) -> (bool, f64) {
     let b = rig.bench();
     let rec = b.recording().unwrap();
     let next_pulse = b.now_ns();
-    (rec.released_before(0, next_pulse), b.stats(0).unwrap().peak_switch_volts)
+    (
+        rec.released_before(0, next_pulse),
+        b.stats(0).unwrap().peak_switch_volts,
+    )
 }
 
 /// Too short an off-time: the demo valve (diode clamp, releases ≈ 10 ms

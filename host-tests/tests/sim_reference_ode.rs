@@ -119,7 +119,15 @@ fn moving_armature_pull_in_matches_dopri5() {
         c: a.damping_newton_s_per_m,
     };
     let t_end = (t_op as f64 * 1e-9 - 100e-6).max(0.0);
-    let mut st = Dopri5::new(sys, 0.0, t_end, 20e-6, Vector3::new(0.0, 0.0, 0.0), 1e-11, 1e-14);
+    let mut st = Dopri5::new(
+        sys,
+        0.0,
+        t_end,
+        20e-6,
+        Vector3::new(0.0, 0.0, 0.0),
+        1e-11,
+        1e-14,
+    );
     st.integrate().unwrap();
     let rec = b.recording().unwrap();
     let i_scale = 24.0 / 182.05;
