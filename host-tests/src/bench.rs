@@ -942,13 +942,13 @@ impl<const N: usize> Bench<N> {
             let e = &self.eff[c];
             let (l, _) = e.inductance(y0.ch[c][plant::POS] / e.stroke);
             let atol = [atol_i * l, 1e-7 * e.stroke, 1e-4 * e.stroke, 1e-6];
-            for j in 0..DYN {
+            for (j, at) in atol.iter().enumerate().take(DYN) {
                 let err = h
                     * (E[0] * k[0].ch[c][j]
                         + E[1] * k[1].ch[c][j]
                         + E[2] * k[2].ch[c][j]
                         + E[3] * k[3].ch[c][j]);
-                let sc = atol[j] + rtol * y0.ch[c][j].abs().max(y1.ch[c][j].abs());
+                let sc = at + rtol * y0.ch[c][j].abs().max(y1.ch[c][j].abs());
                 let r = err.abs() / sc;
                 if r.is_nan() {
                     return f64::INFINITY;

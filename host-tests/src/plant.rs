@@ -261,72 +261,70 @@ pub(crate) fn solve_node(
     let clamp = &p.clamp;
     let has_clamp = !matches!(clamp, Clamp::None);
     let thr = clamp.threshold_volts();
-    match p.snubber {
-        None => {
-            if gate {
-                // Switch carries everything unless the clamp would conduct.
-                let w = match p.switch {
-                    Switch::Mosfet { on_ohms, .. } => i * (on_ohms + rs),
-                    Switch::Bipolar {
-                        saturation_volts,
-                        saturation_ohms,
-                        ..
-                    } => saturation_volts + i * (saturation_ohms + rs),
+    if p.snubber.is_none() {
+        if gate {
+            // Switch carries everything unless the clamp would conduct.
+            let w = match p.switch {
+                Switch::Mosfet { on_ohms, .. } => i * (on_ohms + rs),
+                Switch::Bipolar {
+                    saturation_volts,
+                    saturation_ohms,
+                    ..
+                } => saturation_volts + i * (saturation_ohms + rs),
+            };
+            if !has_clamp || w <= vp + thr {
+                return Node {
+                    w,
+                    i_sw: i,
+                    i_cl: 0.0,
+                    i_sn: 0.0,
                 };
-                if !has_clamp || w <= vp + thr {
-                    return Node {
-                        w,
-                        i_sw: i,
-                        i_cl: 0.0,
-                        i_sn: 0.0,
-                    };
-                }
-            } else {
-                if blocked {
-                    return Node {
-                        w: vp,
-                        i_sw: 0.0,
-                        i_cl: 0.0,
-                        i_sn: 0.0,
-                    };
-                }
-                let vbr = p.switch.breakdown_volts();
-                let r_av = match p.switch {
-                    Switch::Mosfet { avalanche_ohms, .. }
-                    | Switch::Bipolar { avalanche_ohms, .. } => avalanche_ohms + rs,
-                };
-                if !has_clamp {
-                    // Avalanche; for i ≤ 0 the law is continued at Vbr (the
-                    // step that crosses zero is shortened, then blocked).
-                    let ia = i.max(0.0);
-                    return Node {
-                        w: vbr + r_av * ia,
-                        i_sw: i,
-                        i_cl: 0.0,
-                        i_sn: 0.0,
-                    };
-                }
-                if i <= 0.0 {
-                    return Node {
-                        w: vp + thr,
-                        i_sw: 0.0,
-                        i_cl: i,
-                        i_sn: 0.0,
-                    };
-                }
-                let w = vp + clamp.volts_at(i);
-                if w <= vbr {
-                    return Node {
-                        w,
-                        i_sw: 0.0,
-                        i_cl: i,
-                        i_sn: 0.0,
-                    };
-                }
-                // Clamp and avalanche share: fall through to the general solve.
             }
+        } else {
+            if blocked {
+                return Node {
+                    w: vp,
+                    i_sw: 0.0,
+                    i_cl: 0.0,
+                    i_sn: 0.0,
+                };
+            }
+            let vbr = p.switch.breakdown_volts();
+            let r_av = match p.switch {
+                Switch::Mosfet { avalanche_ohms, .. } | Switch::Bipolar { avalanche_ohms, .. } => {
+                    avalanche_ohms + rs
+                }
+            };
+            if !has_clamp {
+                // Avalanche; for i ≤ 0 the law is continued at Vbr (the
+                // step that crosses zero is shortened, then blocked).
+                let ia = i.max(0.0);
+                return Node {
+                    w: vbr + r_av * ia,
+                    i_sw: i,
+                    i_cl: 0.0,
+                    i_sn: 0.0,
+                };
+            }
+            if i <= 0.0 {
+                return Node {
+                    w: vp + thr,
+                    i_sw: 0.0,
+                    i_cl: i,
+                    i_sn: 0.0,
+                };
+            }
+            let w = vp + clamp.volts_at(i);
+            if w <= vbr {
+                return Node {
+                    w,
+                    i_sw: 0.0,
+                    i_cl: i,
+                    i_sn: 0.0,
+                };
+            }
+            // Clamp and avalanche share: fall through to the general solve.
         }
-        Some(_) => {}
     }
     general_node(p, gate, i, vp, vc)
 }

@@ -30,9 +30,10 @@ fn switch_off_run(
     (i0, e0, e1, b)
 }
 
-/// Over a switch-off with a fixed armature, the energy into clamp + winding
-/// + wiring + switch − supply equals the stored `½·L·I0²` (conservation of
-/// energy; `½·L·I²` for an inductor, textbook, from memory).
+/// Over a switch-off with a fixed armature, the energy into clamp, winding,
+/// wiring and switch, less what the supply delivered, equals the stored
+/// `½·L·I0²` (conservation of energy; `½·L·I²` for an inductor, textbook,
+/// from memory).
 #[test]
 fn switch_off_energy_equals_half_l_i_squared_for_every_clamp() {
     let clamps = [
