@@ -60,6 +60,8 @@ impl<const N: usize> Rig<N> {
 
     /// The gate of channel `ch` as a PWM output at `frequency_hz` with duty
     /// resolution `max_duty` (≥ 1). The period is rounded to whole ns.
+    /// Frequency domain: (0, 1 MHz]; every edge is simulated, so cost grows
+    /// with frequency × time.
     pub fn pwm(
         &self,
         ch: usize,

@@ -155,9 +155,10 @@ fn constant_voltage_clamp_decay_matches_closed_form() {
     assert!((b.stats(0).unwrap().peak_switch_volts - (24.0 + vc)).abs() < 1e-6);
 }
 
-/// Resistor clamp Rc: `i = I0·e^(−t(R+Rc)/L)`, switch sees `V + I0·Rc` at
-/// t = 0+, and the energy divides as `E_clamp / E_winding+wiring = Rc / R`
-/// (textbook, from memory).
+/// Resistor clamp Rc behind an ideal diode (the TVS law with `Vbr = 0`):
+/// `i = I0·e^(−t(R+Rc)/L)`, switch sees `V + I0·Rc` at t = 0+, and the
+/// energy divides as `E_clamp / E_winding+wiring = Rc / R` (textbook, from
+/// memory).
 #[test]
 fn resistor_clamp_matches_closed_form() {
     let rc = 100.0;
