@@ -660,6 +660,32 @@ impl<const N: usize> Bench<N> {
         })
     }
 
+    /// Energy bookkeeping summed over all channels (field by field).
+    pub fn energy_total(&self) -> Energy {
+        let mut t = Energy::default();
+        for c in 0..N {
+            if let Ok(e) = self.energy(c) {
+                t.from_rail += e.from_rail;
+                t.winding += e.winding;
+                t.wiring += e.wiring;
+                t.sense += e.sense;
+                t.switch_conduction += e.switch_conduction;
+                t.switch_avalanche += e.switch_avalanche;
+                t.clamp += e.clamp;
+                t.snubber_resistor += e.snubber_resistor;
+                t.mechanical_work += e.mechanical_work;
+                t.damping += e.damping;
+                t.impact += e.impact;
+                t.removed_by_events += e.removed_by_events;
+                t.magnetic_stored += e.magnetic_stored;
+                t.capacitor_stored += e.capacitor_stored;
+                t.kinetic += e.kinetic;
+                t.spring += e.spring;
+            }
+        }
+        t
+    }
+
     /// Supply-side energy bookkeeping.
     pub fn supply_energy(&self) -> SupplyEnergy {
         let v = self.rail_volts();

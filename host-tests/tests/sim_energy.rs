@@ -214,6 +214,7 @@ fn shared_supply_energy_balance() {
     b.advance_ns(50_000_000);
     let s1 = b.supply_energy();
     let took: f64 = (0..3).map(|c| b.energy(c).unwrap().from_rail).sum();
+    assert_eq!(took, b.energy_total().from_rail);
     let lhs = s1.from_source - s0.from_source;
     let rhs = s1.source_resistor - s0.source_resistor + (s1.bulk_stored - s0.bulk_stored) + took;
     eprintln!("supply: source {lhs:e} J, residual {:e}", (lhs - rhs) / lhs);
