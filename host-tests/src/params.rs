@@ -641,3 +641,50 @@ pub enum Fault {
     /// The armature is stuck where it is now (no motion).
     StuckArmature,
 }
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn validation_rejects_bad_values() {
+        let good = crate::demo::valve_24v();
+        assert!(good.validate().is_ok());
+        let mut p = good;
+        p.coil.resistance_ohms = f64::NAN;
+        assert_eq!(
+            p.validate(),
+            Err(SimError::InvalidParameter("coil.resistance_ohms"))
+        );
+        let mut p = good;
+        p.coil.inductance_operated_henries = 0.1;
+        assert!(p.validate().is_err());
+        let mut p = good;
+        p.sense_ohms = -1.0;
+        assert!(p.validate().is_err());
+        let mut p = good;
+        p.switch = Switch::Mosfet {
+            on_ohms: 0.0,
+            breakdown_volts: 60.0,
+            avalanche_ohms: 0.0,
+            body_diode_volts: 0.7,
+        };
+        p.sense_ohms = 0.0;
+        assert!(p.validate().is_err());
+        let s = Supply {
+            volts: 24.0,
+            source_ohms: 0.5,
+            bulk_farads: 0.0,
+        };
+        assert_eq!(s.validate(), Err(SimError::RailNeedsCapacitance));
+        assert!(Supply::ideal(f64::INFINITY).validate().is_err());
+        let st = SolverSettings::with_max_step(-1.0);
+        assert!(st.validate().is_err());
+    }
+
+    /// Thermal voltage at 25 °C ≈ 25.69 mV (kT/q, textbook value).
+    #[test]
+    fn thermal_voltage() {
+        assert!((THERMAL_VOLTS_25C - 0.025693).abs() < 1e-6);
+    }
+}
