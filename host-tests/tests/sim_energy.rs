@@ -224,3 +224,35 @@ fn shared_supply_energy_balance() {
         assert!(e.balance_error_since(&Default::default()).abs() < 1e-7 * e.from_rail);
     }
 }
+
+/// The energy residual is integration error, not a modelling gap: it falls
+/// in proportion to the tolerance (local error control, ≈ 10× per decade;
+/// numerical analysis, from memory). Fast invented coil, τ ≈ 47 µs, no clamp.
+#[test]
+fn energy_residual_scales_with_tolerance() {
+    let residual = |rtol: f64| {
+        let ch = coilwise_host_tests::ChannelParams {
+            coil: coilwise_host_tests::Coil::fixed(420.0, 0.02, 1.0),
+            ..fixed_channel(RCOIL, LCOIL, Clamp::None)
+        };
+        let st = SolverSettings {
+            stepping: coilwise_host_tests::Stepping::Adaptive {
+                rel_tol: rtol,
+                abs_tol_amps: rtol * 0.1,
+                max_step_s: 10e-6,
+            },
+            current_floor_amps: 1e-6,
+        };
+        let mut b = Bench::single(Supply::ideal(24.0), ch, st).unwrap();
+        b.set_gate(0, true).unwrap();
+        b.advance_ns(5_000_000);
+        let e0 = b.energy(0).unwrap();
+        b.set_gate(0, false).unwrap();
+        b.advance_ns(5_000_000);
+        (b.energy(0).unwrap().balance_error_since(&e0) / e0.magnetic_stored).abs()
+    };
+    let (a, c) = (residual(1e-7), residual(1e-9));
+    eprintln!("residual/stored: {a:e} at rel_tol 1e-7, {c:e} at 1e-9");
+    assert!(a < 2e-6);
+    assert!(c < a / 30.0);
+}
