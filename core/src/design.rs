@@ -1,0 +1,277 @@
+//! One call for a whole driver design: the timing budget and stress figures firmware needs.
+//!
+//! Corners. Every figure is evaluated at the nominal point and at two worst corners, chosen by the
+//! monotonicity of the closed forms (checked by brute force over all 16 corners in the tests):
+//!
+//! - **pull-in corner**: hottest winding, resistance at +tolerance, lowest supply, inductance at
+//!   +tolerance, sense at +tolerance. Pull-in time `t = (L·I_p/V)·g(I_p·R/V)` with
+//!   `g(x) = −ln(1−x)/x` increasing, so t rises with R and L and falls with V.
+//! - **release corner**: coldest winding, resistance at −tolerance, highest supply, inductance at
+//!   +tolerance, sense at −tolerance. The switch-off current `I₀ = V/R_on` is highest, so stored
+//!   energy, clamp energy, peak voltage and decay times are all largest.
+
+use crate::error::Error;
+use crate::physics::circuit::{Circuit, OperatingPoint, SupplyRange, TemperatureRange, Tolerances};
+use crate::physics::clamp::{EnergySplit, Release};
+use crate::physics::coil::Armature;
+use crate::physics::off_time::{min_off_time, OffTime, OffTimeNeeds};
+use crate::physics::repetition::{clamp_average_power, max_repetition_rate};
+use crate::time::{TickRate, Ticks};
+use crate::units::{Amps, Hertz, Seconds, Volts, Watts};
+
+/// A complete driver design: the circuit, the ranges it must work over, and the firmware's timer.
+#[derive(Clone, Copy, Debug, PartialEq)]
+#[cfg_attr(feature = "defmt", derive(defmt::Format))]
+#[non_exhaustive]
+pub struct DriverDesign {
+    /// Coil, switch, topology, sense, wiring, clamp.
+    pub circuit: Circuit,
+    /// Supply range.
+    pub supply: SupplyRange,
+    /// Winding temperature range.
+    pub temperature: TemperatureRange,
+    /// Part tolerances.
+    pub tolerances: Tolerances,
+    /// Firmware timer rate.
+    pub tick_rate: TickRate,
+    /// Mechanical operate allowance: armature travel after the current reaches pull-in, s.
+    pub operate_allowance: Seconds,
+    /// Mechanical release allowance: armature travel after the current falls below drop-out, s.
+    pub release_allowance: Seconds,
+    /// Current the coil must decay to before the next pulse, A (0 = fully at rest).
+    pub residual_current: Amps,
+    /// Planned pulse length and repetition rate (for clamp power), if known.
+    pub duty: Option<(Seconds, Hertz)>,
+    /// Clamp average-power rating, if the clamp has one to respect.
+    pub clamp_rating: Option<Watts>,
+}
+
+impl DriverDesign {
+    /// A design with zero tolerances, zero mechanical allowances, full decay to 0 A before the next
+    /// pulse, and no duty or clamp rating; set the public fields to refine it.
+    pub fn new(
+        circuit: Circuit,
+        supply: SupplyRange,
+        temperature: TemperatureRange,
+        tick_rate: TickRate,
+    ) -> Self {
+        Self {
+            circuit,
+            supply,
+            temperature,
+            tolerances: Tolerances::default(),
+            tick_rate,
+            operate_allowance: Seconds::new(0.0),
+            release_allowance: Seconds::new(0.0),
+            residual_current: Amps::new(0.0),
+            duty: None,
+            clamp_rating: None,
+        }
+    }
+
+    /// The nominal point: nominal supply, mid-range winding temperature, nominal parts.
+    pub fn nominal_point(&self) -> OperatingPoint {
+        let t = 0.5 * (self.temperature.min().value() + self.temperature.max().value());
+        OperatingPoint::new(self.supply.nominal(), crate::units::Celsius::new(t))
+    }
+
+    /// The worst pull-in corner (see the module docs).
+    pub fn pull_in_corner(&self) -> OperatingPoint {
+        let t = &self.tolerances;
+        OperatingPoint {
+            supply: self.supply.min(),
+            temperature: self.temperature.max(),
+            resistance_factor: 1.0 + t.resistance,
+            inductance_factor: 1.0 + t.inductance,
+            sense_factor: 1.0 + t.sense,
+        }
+    }
+
+    /// The worst release corner (see the module docs).
+    pub fn release_corner(&self) -> OperatingPoint {
+        let t = &self.tolerances;
+        OperatingPoint {
+            supply: self.supply.max(),
+            temperature: self.temperature.min(),
+            resistance_factor: 1.0 - t.resistance,
+            inductance_factor: 1.0 + t.inductance,
+            sense_factor: 1.0 - t.sense,
+        }
+    }
+
+    /// Every figure at one operating point, the coil switched off from its final current.
+    pub fn figures(&self, op: &OperatingPoint) -> Result<Figures, Error> {
+        self.tolerances.validate()?;
+        let c = &self.circuit;
+        let rise = c.energize(op, Armature::Released, Amps::new(0.0))?;
+        let final_current = Amps::new(rise.asymptote());
+        let pull_in_time = match rise.time_to(c.coil().pull_in_current().value()) {
+            Ok(t) => Some(t),
+            Err(Error::Unreachable { .. }) => None,
+            Err(e) => return Err(e),
+        };
+        let release = c.release(op, final_current)?;
+        let energy = release.energy()?;
+        let needs = OffTimeNeeds {
+            residual_current: self.residual_current,
+            mechanical_release: self.release_allowance,
+            clamp_thermal: match (self.clamp_rating, self.duty) {
+                (Some(p), Some((on, _))) => Some((p, on)),
+                _ => None,
+            },
+        };
+        let off_time = min_off_time(&release, c.coil().drop_out_current(), &needs)?;
+        let clamp_power = match self.duty {
+            Some((_, f)) => Some(clamp_average_power(energy.clamp, f)?),
+            None => None,
+        };
+        let max_repetition = match self.clamp_rating {
+            Some(p) => max_repetition_rate(energy.clamp, p)?,
+            None => None,
+        };
+        Ok(Figures {
+            point: *op,
+            final_current,
+            tau_on: rise.tau(),
+            pull_in_time,
+            pull_in_margin: final_current.value() / c.coil().pull_in_current().value() - 1.0,
+            tau_off: release.tau(),
+            release_time: release.time_to_current(c.coil().drop_out_current())?,
+            time_to_zero: release.time_to_zero()?,
+            energy,
+            peak_switch_voltage: release.peak_switch_voltage(),
+            switch_headroom: Volts::new(
+                c.switch().breakdown().value() - release.peak_switch_voltage().value(),
+            ),
+            peak_node_voltage: release.peak_node_voltage(),
+            clamp_power,
+            max_repetition,
+            off_time,
+        })
+    }
+
+    /// The release at the worst release corner (for plotting or custom checks).
+    pub fn worst_release(&self) -> Result<Release, Error> {
+        let op = self.release_corner();
+        let i0 = self.circuit.final_current(&op)?;
+        self.circuit.release(&op, i0)
+    }
+
+    /// The full timing budget: figures at nominal and at both worst corners, and the firmware's
+    /// minimum on- and off-times in ticks (rounded up).
+    ///
+    /// `min_on = t_pull_in(pull-in corner) + operate allowance`;
+    /// `min_off = max over corners of the safe off-time` (see [`min_off_time`]).
+    ///
+    /// # Errors
+    /// [`Error::Unreachable`] when the coil cannot pull in at the pull-in corner (firmware must not
+    /// rely on such a design); [`Error::TickOverflow`] when a time does not fit the timer; any
+    /// invalid input.
+    pub fn budget(&self) -> Result<TimingBudget, Error> {
+        let nominal = self.figures(&self.nominal_point())?;
+        let pull_in = self.figures(&self.pull_in_corner())?;
+        let release = self.figures(&self.release_corner())?;
+        let Some(t_pull) = pull_in.pull_in_time else {
+            return Err(Error::Unreachable {
+                target: self.circuit.coil().pull_in_current().value(),
+                asymptote: pull_in.final_current.value(),
+            });
+        };
+        let min_on = Seconds::new(
+            t_pull.value()
+                + crate::error::non_negative(
+                    self.operate_allowance.value(),
+                    crate::error::Param::Time,
+                )?,
+        );
+        let min_off = if release.off_time.required >= nominal.off_time.required {
+            release.off_time.required
+        } else {
+            nominal.off_time.required
+        };
+        let r = self.tick_rate;
+        let ticks = TickBudget {
+            min_on: r.ticks_at_least(min_on)?,
+            min_off: r.ticks_at_least(min_off)?,
+            pull_in: r.ticks_at_least(t_pull)?,
+            release: r.ticks_at_least(release.release_time)?,
+        };
+        Ok(TimingBudget {
+            nominal,
+            pull_in_corner: pull_in,
+            release_corner: release,
+            min_on_time: min_on,
+            min_off_time: min_off,
+            ticks,
+        })
+    }
+}
+
+/// Every timing, energy and stress figure at one operating point.
+#[derive(Clone, Copy, Debug, PartialEq)]
+#[cfg_attr(feature = "defmt", derive(defmt::Format))]
+pub struct Figures {
+    /// Where these figures were evaluated.
+    pub point: OperatingPoint,
+    /// Final on-state current I∞, A (also the switch-off current assumed).
+    pub final_current: Amps,
+    /// Rise time constant with the armature released, s.
+    pub tau_on: Seconds,
+    /// Time from switch-on to pull-in current; `None` when the coil never pulls in here.
+    pub pull_in_time: Option<Seconds>,
+    /// `I∞ / I_pull − 1`.
+    pub pull_in_margin: f32,
+    /// Release time constant (armature operated, clamp loop), s.
+    pub tau_off: Seconds,
+    /// Switch-off to drop-out current, s.
+    pub release_time: Seconds,
+    /// Switch-off to zero current, s.
+    pub time_to_zero: Seconds,
+    /// Where the stored energy goes.
+    pub energy: EnergySplit,
+    /// Peak voltage across the switch (magnitude), V.
+    pub peak_switch_voltage: Volts,
+    /// Switch breakdown minus peak switch voltage, V. Negative: the switch avalanches before the
+    /// clamp takes over, and the release figures (which assume the clamp conducts) do not hold.
+    pub switch_headroom: Volts,
+    /// Peak voltage of the switch node against ground (signed), V.
+    pub peak_node_voltage: Volts,
+    /// Clamp average power at the planned duty, W.
+    pub clamp_power: Option<Watts>,
+    /// Highest repetition rate for the clamp rating, Hz (`None`: no rating or no energy).
+    pub max_repetition: Option<Hertz>,
+    /// Safe minimum off-time at this point.
+    pub off_time: OffTime,
+}
+
+/// The firmware's timing constants in ticks, each rounded up.
+#[derive(Clone, Copy, Debug, PartialEq, Eq)]
+#[cfg_attr(feature = "defmt", derive(defmt::Format))]
+pub struct TickBudget {
+    /// Minimum on-time (worst pull-in + operate allowance).
+    pub min_on: Ticks,
+    /// Safe minimum off-time.
+    pub min_off: Ticks,
+    /// Worst-corner electrical pull-in time.
+    pub pull_in: Ticks,
+    /// Worst-corner electrical release time (to drop-out).
+    pub release: Ticks,
+}
+
+/// The result of [`DriverDesign::budget`].
+#[derive(Clone, Copy, Debug, PartialEq)]
+#[cfg_attr(feature = "defmt", derive(defmt::Format))]
+pub struct TimingBudget {
+    /// Nominal supply, mid temperature, nominal parts.
+    pub nominal: Figures,
+    /// Hot, high-R, low-supply corner.
+    pub pull_in_corner: Figures,
+    /// Cold, low-R, high-supply corner.
+    pub release_corner: Figures,
+    /// Minimum on-time, s.
+    pub min_on_time: Seconds,
+    /// Safe minimum off-time, s.
+    pub min_off_time: Seconds,
+    /// The same in ticks.
+    pub ticks: TickBudget,
+}

@@ -1,0 +1,264 @@
+//! The crate's one error type.
+//!
+//! Small, `Copy`, and specific: a rejected input says *which* parameter and *why*, so firmware can
+//! log it without strings. No function of this crate returns NaN or panics on bad input; it
+//! returns one of these instead.
+
+use core::fmt;
+
+/// Which input a [`Error::Invalid`] refers to.
+#[derive(Clone, Copy, Debug, PartialEq, Eq)]
+#[cfg_attr(feature = "defmt", derive(defmt::Format))]
+#[non_exhaustive]
+pub enum Param {
+    /// Winding resistance at the reference temperature.
+    WindingResistance,
+    /// Temperature coefficient of the winding resistance.
+    TemperatureCoefficient,
+    /// A temperature (reference, operating, ambient).
+    Temperature,
+    /// Inductance with the armature released (open air gap).
+    InductanceReleased,
+    /// Inductance with the armature operated (closed air gap).
+    InductanceOperated,
+    /// Coil must-operate (pick-up) voltage.
+    MustOperateVoltage,
+    /// Coil must-release (drop-out) voltage.
+    MustReleaseVoltage,
+    /// Supply voltage or supply range.
+    Supply,
+    /// Winding temperature range.
+    TemperatureRange,
+    /// Switch saturation voltage (bipolar) or on-state drop.
+    SaturationVoltage,
+    /// Switch on-resistance (MOSFET).
+    OnResistance,
+    /// Switch breakdown (avalanche) voltage.
+    BreakdownVoltage,
+    /// Current-sense resistor.
+    SenseResistance,
+    /// Wiring / connector resistance.
+    WiringResistance,
+    /// Clamp diode forward drop.
+    DiodeDrop,
+    /// Clamp voltage (zener / TVS) across the coil.
+    ClampVoltage,
+    /// Clamp resistor.
+    ClampResistance,
+    /// Snubber or node capacitance.
+    Capacitance,
+    /// A resistance in a capacitive node.
+    NodeResistance,
+    /// A current (target, threshold, initial, hold).
+    Current,
+    /// A time or time allowance.
+    Time,
+    /// A tolerance fraction.
+    Tolerance,
+    /// A power rating.
+    PowerRating,
+    /// A repetition rate or frequency.
+    Frequency,
+    /// A duty cycle.
+    Duty,
+    /// A thermal resistance.
+    ThermalResistance,
+    /// A timer tick rate.
+    TickRate,
+    /// A voltage (drive, threshold) not covered above.
+    Voltage,
+    /// A transistor gain.
+    Gain,
+    /// A resistance not covered above (base resistor, load).
+    Resistance,
+}
+
+/// Why a parameter was rejected.
+#[derive(Clone, Copy, Debug, PartialEq, Eq)]
+#[cfg_attr(feature = "defmt", derive(defmt::Format))]
+#[non_exhaustive]
+pub enum Why {
+    /// NaN or ±∞.
+    NotFinite,
+    /// Zero or negative where a strictly positive value is required.
+    NotPositive,
+    /// Negative where zero or more is required.
+    Negative,
+    /// Outside the range this model is valid for.
+    OutOfRange,
+    /// A lower bound above its upper bound (min > max, or nominal outside [min, max]).
+    Inverted,
+    /// A clamp voltage at or below the clamp diode's own forward drop.
+    BelowDiodeDrop,
+    /// The switch breakdown voltage is at or below the supply: it would conduct while off.
+    BelowSupply,
+    /// A must-release voltage at or above the must-operate voltage.
+    ReleaseAboveOperate,
+}
+
+/// Which modelling limit made an answer impossible.
+#[derive(Clone, Copy, Debug, PartialEq, Eq)]
+#[cfg_attr(feature = "defmt", derive(defmt::Format))]
+#[non_exhaustive]
+pub enum Limit {
+    /// The RC snubber is underdamped: the current rings and reverses, outside the model.
+    SnubberUnderdamped,
+    /// The switch drop is at or above the supply: no current can flow.
+    NoHeadroom,
+    /// A result does not fit an `f32` (overflow to infinity).
+    Overflow,
+}
+
+/// Error returned by every fallible function of the crate.
+#[derive(Clone, Copy, Debug, PartialEq)]
+#[cfg_attr(feature = "defmt", derive(defmt::Format))]
+#[non_exhaustive]
+pub enum Error {
+    /// An input is outside its domain.
+    Invalid {
+        /// The input.
+        param: Param,
+        /// What is wrong with it.
+        why: Why,
+    },
+    /// A current was asked for that the circuit never reaches: at or beyond the final (asymptotic)
+    /// current of the phase. For a coil this means it never pulls in at this supply and temperature.
+    Unreachable {
+        /// The requested current, A.
+        target: f32,
+        /// The asymptote the current tends to, A.
+        asymptote: f32,
+    },
+    /// A time does not fit the timer's tick counter.
+    TickOverflow,
+    /// The answer lies outside what the model covers.
+    OutsideModel(Limit),
+}
+
+impl Error {
+    /// Shorthand for [`Error::Invalid`].
+    pub const fn invalid(param: Param, why: Why) -> Self {
+        Error::Invalid { param, why }
+    }
+}
+
+impl fmt::Display for Param {
+    fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
+        let s = match self {
+            Param::WindingResistance => "winding resistance",
+            Param::TemperatureCoefficient => "temperature coefficient",
+            Param::Temperature => "temperature",
+            Param::InductanceReleased => "inductance (armature released)",
+            Param::InductanceOperated => "inductance (armature operated)",
+            Param::MustOperateVoltage => "must-operate voltage",
+            Param::MustReleaseVoltage => "must-release voltage",
+            Param::Supply => "supply voltage",
+            Param::TemperatureRange => "temperature range",
+            Param::SaturationVoltage => "switch saturation voltage",
+            Param::OnResistance => "switch on-resistance",
+            Param::BreakdownVoltage => "switch breakdown voltage",
+            Param::SenseResistance => "sense resistance",
+            Param::WiringResistance => "wiring resistance",
+            Param::DiodeDrop => "diode forward drop",
+            Param::ClampVoltage => "clamp voltage",
+            Param::ClampResistance => "clamp resistance",
+            Param::Capacitance => "capacitance",
+            Param::NodeResistance => "node resistance",
+            Param::Current => "current",
+            Param::Time => "time",
+            Param::Tolerance => "tolerance",
+            Param::PowerRating => "power rating",
+            Param::Frequency => "frequency",
+            Param::Duty => "duty cycle",
+            Param::ThermalResistance => "thermal resistance",
+            Param::TickRate => "tick rate",
+            Param::Voltage => "voltage",
+            Param::Gain => "gain",
+            Param::Resistance => "resistance",
+        };
+        f.write_str(s)
+    }
+}
+
+impl fmt::Display for Why {
+    fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
+        let s = match self {
+            Why::NotFinite => "is not a finite number",
+            Why::NotPositive => "must be greater than zero",
+            Why::Negative => "must not be negative",
+            Why::OutOfRange => "is outside the range the model covers",
+            Why::Inverted => "has its bounds the wrong way round",
+            Why::BelowDiodeDrop => "must be above the clamp diode's forward drop",
+            Why::BelowSupply => "must be above the supply voltage",
+            Why::ReleaseAboveOperate => "must be below the must-operate voltage",
+        };
+        f.write_str(s)
+    }
+}
+
+impl fmt::Display for Limit {
+    fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
+        let s = match self {
+            Limit::SnubberUnderdamped => "RC snubber is underdamped (current rings)",
+            Limit::NoHeadroom => "switch drop leaves no voltage across the coil",
+            Limit::Overflow => "result overflows f32",
+        };
+        f.write_str(s)
+    }
+}
+
+impl fmt::Display for Error {
+    fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
+        match self {
+            Error::Invalid { param, why } => write!(f, "{param} {why}"),
+            Error::Unreachable { target, asymptote } => write!(
+                f,
+                "current {target} A is never reached: the current tends to {asymptote} A"
+            ),
+            Error::TickOverflow => f.write_str("time does not fit the tick counter"),
+            Error::OutsideModel(limit) => write!(f, "outside the model: {limit}"),
+        }
+    }
+}
+
+impl core::error::Error for Error {}
+
+/// `Ok(x)` when `x` is finite and > 0.
+pub(crate) fn positive(x: f32, param: Param) -> Result<f32, Error> {
+    if !x.is_finite() {
+        Err(Error::invalid(param, Why::NotFinite))
+    } else if x <= 0.0 {
+        Err(Error::invalid(param, Why::NotPositive))
+    } else {
+        Ok(x)
+    }
+}
+
+/// `Ok(x)` when `x` is finite and ≥ 0.
+pub(crate) fn non_negative(x: f32, param: Param) -> Result<f32, Error> {
+    if !x.is_finite() {
+        Err(Error::invalid(param, Why::NotFinite))
+    } else if x < 0.0 {
+        Err(Error::invalid(param, Why::Negative))
+    } else {
+        Ok(x)
+    }
+}
+
+/// `Ok(x)` when `x` is finite.
+pub(crate) fn finite(x: f32, param: Param) -> Result<f32, Error> {
+    if x.is_finite() {
+        Ok(x)
+    } else {
+        Err(Error::invalid(param, Why::NotFinite))
+    }
+}
+
+/// `Ok(x)` when a computed result is finite, else an overflow error.
+pub(crate) fn result(x: f32) -> Result<f32, Error> {
+    if x.is_finite() {
+        Ok(x)
+    } else {
+        Err(Error::OutsideModel(Limit::Overflow))
+    }
+}

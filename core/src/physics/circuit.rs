@@ -1,0 +1,466 @@
+//! The drive circuit around the coil: switch, topology, sense and wiring resistance, clamp; and the
+//! operating point (supply, winding temperature, part tolerances) it is evaluated at.
+
+use super::clamp::Clamp;
+use super::coil::{Armature, Coil};
+use super::first_order::FirstOrder;
+use crate::error::{finite, non_negative, positive, Error, Limit, Param, Why};
+use crate::units::{Amps, Celsius, Ohms, Seconds, Volts};
+
+/// The transistor that switches the coil.
+#[derive(Clone, Copy, Debug, PartialEq)]
+#[cfg_attr(feature = "defmt", derive(defmt::Format))]
+pub enum Switch {
+    /// Bipolar transistor in saturation: a fixed collector-emitter drop.
+    Bipolar {
+        /// V_CE(sat) at the coil current, V (≥ 0).
+        saturation: Volts,
+        /// V_CEO breakdown, V; the unclamped switch avalanches here.
+        breakdown: Volts,
+    },
+    /// MOSFET fully enhanced: a resistance.
+    Mosfet {
+        /// R_DS(on) at the operating junction temperature, Ω (≥ 0).
+        on_resistance: Ohms,
+        /// V_(BR)DSS, V; the unclamped switch avalanches here.
+        breakdown: Volts,
+    },
+}
+
+impl Switch {
+    /// Breakdown voltage of the switch, V.
+    pub const fn breakdown(&self) -> Volts {
+        match *self {
+            Switch::Bipolar { breakdown, .. } | Switch::Mosfet { breakdown, .. } => breakdown,
+        }
+    }
+
+    /// Checks every field: finite, drops ≥ 0, breakdown > 0.
+    pub fn validate(&self) -> Result<(), Error> {
+        match *self {
+            Switch::Bipolar {
+                saturation,
+                breakdown,
+            } => {
+                non_negative(saturation.value(), Param::SaturationVoltage)?;
+                positive(breakdown.value(), Param::BreakdownVoltage)?;
+            }
+            Switch::Mosfet {
+                on_resistance,
+                breakdown,
+            } => {
+                non_negative(on_resistance.value(), Param::OnResistance)?;
+                positive(breakdown.value(), Param::BreakdownVoltage)?;
+            }
+        }
+        Ok(())
+    }
+}
+
+/// Where the switch sits relative to the coil.
+#[derive(Clone, Copy, Debug, PartialEq, Eq)]
+#[cfg_attr(feature = "defmt", derive(defmt::Format))]
+pub enum Topology {
+    /// Switch between coil and ground; at switch-off the switch node (coil's lower end) flies
+    /// *up* to supply + clamp voltage.
+    LowSide,
+    /// Switch between supply and coil; at switch-off the switch node (coil's upper end) flies
+    /// *down* to −(clamp voltage) below ground.
+    HighSide,
+}
+
+/// A supply voltage range: lowest, nominal and highest.
+#[derive(Clone, Copy, Debug, PartialEq)]
+#[cfg_attr(feature = "defmt", derive(defmt::Format))]
+pub struct SupplyRange {
+    min: f32,
+    nominal: f32,
+    max: f32,
+}
+
+impl SupplyRange {
+    /// A supply from `min` to `max` around `nominal`, V; 0 < min ≤ nominal ≤ max, all finite.
+    pub fn new(min: Volts, nominal: Volts, max: Volts) -> Result<Self, Error> {
+        let min = positive(min.value(), Param::Supply)?;
+        let nominal = positive(nominal.value(), Param::Supply)?;
+        let max = positive(max.value(), Param::Supply)?;
+        if !(min <= nominal && nominal <= max) {
+            return Err(Error::invalid(Param::Supply, Why::Inverted));
+        }
+        Ok(Self { min, nominal, max })
+    }
+
+    /// A nominal supply with a symmetric fractional tolerance (e.g. 0.1 for ±10 %).
+    pub fn with_tolerance(nominal: Volts, tolerance: f32) -> Result<Self, Error> {
+        let tol = tolerance_fraction(tolerance)?;
+        let n = positive(nominal.value(), Param::Supply)?;
+        Self::new(
+            Volts::new(n * (1.0 - tol)),
+            Volts::new(n),
+            Volts::new(n * (1.0 + tol)),
+        )
+    }
+
+    /// Lowest supply, V.
+    pub const fn min(&self) -> Volts {
+        Volts::new(self.min)
+    }
+    /// Nominal supply, V.
+    pub const fn nominal(&self) -> Volts {
+        Volts::new(self.nominal)
+    }
+    /// Highest supply, V.
+    pub const fn max(&self) -> Volts {
+        Volts::new(self.max)
+    }
+}
+
+/// A winding temperature range, °C (coldest start to hottest running coil).
+#[derive(Clone, Copy, Debug, PartialEq)]
+#[cfg_attr(feature = "defmt", derive(defmt::Format))]
+pub struct TemperatureRange {
+    min: f32,
+    max: f32,
+}
+
+impl TemperatureRange {
+    /// Winding temperatures from `min` to `max`, °C, finite, min ≤ max, within the copper model's
+    /// range (see [`crate::physics::coil::MIN_WINDING_TEMPERATURE`]).
+    pub fn new(min: Celsius, max: Celsius) -> Result<Self, Error> {
+        let lo = finite(min.value(), Param::TemperatureRange)?;
+        let hi = finite(max.value(), Param::TemperatureRange)?;
+        if lo > hi {
+            return Err(Error::invalid(Param::TemperatureRange, Why::Inverted));
+        }
+        let range = super::coil::MIN_WINDING_TEMPERATURE.value()
+            ..=super::coil::MAX_WINDING_TEMPERATURE.value();
+        if !range.contains(&lo) || !range.contains(&hi) {
+            return Err(Error::invalid(Param::TemperatureRange, Why::OutOfRange));
+        }
+        Ok(Self { min: lo, max: hi })
+    }
+    /// Coldest winding, °C.
+    pub const fn min(&self) -> Celsius {
+        Celsius::new(self.min)
+    }
+    /// Hottest winding, °C.
+    pub const fn max(&self) -> Celsius {
+        Celsius::new(self.max)
+    }
+}
+
+/// Part-to-part spread of the coil, as fractions (0.1 = ±10 %).
+#[derive(Clone, Copy, Debug, PartialEq, Default)]
+#[cfg_attr(feature = "defmt", derive(defmt::Format))]
+pub struct Tolerances {
+    /// Winding resistance at the reference temperature, ± fraction.
+    pub resistance: f32,
+    /// Inductance (both armature states), ± fraction.
+    pub inductance: f32,
+    /// Current-sense resistor, ± fraction.
+    pub sense: f32,
+}
+
+impl Tolerances {
+    /// Checks each fraction is finite and in [0, 0.9].
+    pub fn validate(&self) -> Result<(), Error> {
+        tolerance_fraction(self.resistance)?;
+        tolerance_fraction(self.inductance)?;
+        tolerance_fraction(self.sense)?;
+        Ok(())
+    }
+}
+
+pub(crate) fn tolerance_fraction(x: f32) -> Result<f32, Error> {
+    let x = non_negative(x, Param::Tolerance)?;
+    if x > 0.9 {
+        return Err(Error::invalid(Param::Tolerance, Why::OutOfRange));
+    }
+    Ok(x)
+}
+
+/// One operating condition: supply voltage, winding temperature, and where each part sits within
+/// its tolerance (1.0 = nominal, 1.1 = 10 % high).
+#[derive(Clone, Copy, Debug, PartialEq)]
+#[cfg_attr(feature = "defmt", derive(defmt::Format))]
+pub struct OperatingPoint {
+    /// Supply voltage, V.
+    pub supply: Volts,
+    /// Winding temperature, °C.
+    pub temperature: Celsius,
+    /// Multiplier on the coil's reference resistance.
+    pub resistance_factor: f32,
+    /// Multiplier on both inductances.
+    pub inductance_factor: f32,
+    /// Multiplier on the sense resistor.
+    pub sense_factor: f32,
+}
+
+impl OperatingPoint {
+    /// Nominal parts at the given supply and winding temperature.
+    pub const fn new(supply: Volts, temperature: Celsius) -> Self {
+        Self {
+            supply,
+            temperature,
+            resistance_factor: 1.0,
+            inductance_factor: 1.0,
+            sense_factor: 1.0,
+        }
+    }
+}
+
+/// A coil with its switch, sense and wiring resistances and its clamp.
+#[derive(Clone, Copy, Debug, PartialEq)]
+#[cfg_attr(feature = "defmt", derive(defmt::Format))]
+pub struct Circuit {
+    coil: Coil,
+    switch: Switch,
+    topology: Topology,
+    sense: f32,
+    wiring: f32,
+    clamp: Clamp,
+}
+
+/// The electrical state of a circuit at one operating point, with every resistance resolved.
+#[derive(Clone, Copy, Debug, PartialEq)]
+#[cfg_attr(feature = "defmt", derive(defmt::Format))]
+pub struct Resolved {
+    /// Winding resistance at this temperature and tolerance, Ω.
+    pub winding: Ohms,
+    /// Total resistance of the on-state loop (winding + wiring + sense + MOSFET), Ω.
+    pub on_loop: Ohms,
+    /// Resistance of the freewheel loop (winding + wiring; the clamp's own resistor is the clamp's), Ω.
+    pub off_loop: Ohms,
+    /// Voltage that drives the on-state loop (supply − bipolar saturation), V.
+    pub drive: Volts,
+    /// Supply voltage, V.
+    pub supply: Volts,
+    /// Inductance while pulling in, H.
+    pub inductance_released: f32,
+    /// Inductance while held / at switch-off, H.
+    pub inductance_operated: f32,
+}
+
+impl Circuit {
+    /// A drive circuit. `sense` and `wiring` are series resistances (≥ 0 Ω); the sense resistor sits
+    /// in the switch path, outside the freewheel loop, and the wiring inside it (clamp at the driver).
+    ///
+    /// # Errors
+    /// [`Error::Invalid`] for a bad switch, clamp, or resistance.
+    pub fn new(
+        coil: Coil,
+        switch: Switch,
+        topology: Topology,
+        sense: Ohms,
+        wiring: Ohms,
+        clamp: Clamp,
+    ) -> Result<Self, Error> {
+        switch.validate()?;
+        clamp.validate()?;
+        let sense = non_negative(sense.value(), Param::SenseResistance)?;
+        let wiring = non_negative(wiring.value(), Param::WiringResistance)?;
+        Ok(Self {
+            coil,
+            switch,
+            topology,
+            sense,
+            wiring,
+            clamp,
+        })
+    }
+
+    /// The coil.
+    pub const fn coil(&self) -> &Coil {
+        &self.coil
+    }
+    /// The switch.
+    pub const fn switch(&self) -> &Switch {
+        &self.switch
+    }
+    /// The topology.
+    pub const fn topology(&self) -> Topology {
+        self.topology
+    }
+    /// The clamp.
+    pub const fn clamp(&self) -> &Clamp {
+        &self.clamp
+    }
+    /// Sense resistance, Ω.
+    pub const fn sense(&self) -> Ohms {
+        Ohms::new(self.sense)
+    }
+    /// Wiring resistance, Ω.
+    pub const fn wiring(&self) -> Ohms {
+        Ohms::new(self.wiring)
+    }
+
+    /// The same circuit with another clamp.
+    pub fn with_clamp(mut self, clamp: Clamp) -> Result<Self, Error> {
+        clamp.validate()?;
+        self.clamp = clamp;
+        Ok(self)
+    }
+
+    /// Resolves every resistance and voltage at an operating point:
+    /// `R_w = R_ref·k_R·(1 + α(T − T_ref))`, `R_on = R_w + R_wiring + k_s·R_sense (+ R_DS(on))`,
+    /// `V_drive = V_supply − V_CE(sat)`.
+    ///
+    /// # Errors
+    /// Invalid supply, temperature or factor; [`Limit::NoHeadroom`] when V_drive ≤ 0.
+    pub fn resolve(&self, op: &OperatingPoint) -> Result<Resolved, Error> {
+        let supply = positive(op.supply.value(), Param::Supply)?;
+        let k_r = positive(op.resistance_factor, Param::Tolerance)?;
+        let k_l = positive(op.inductance_factor, Param::Tolerance)?;
+        let k_s = positive(op.sense_factor, Param::Tolerance)?;
+        let winding = self.coil.resistance_at(op.temperature)?.value() * k_r;
+        let (drop, r_switch) = match self.switch {
+            Switch::Bipolar { saturation, .. } => (saturation.value(), 0.0),
+            Switch::Mosfet { on_resistance, .. } => (0.0, on_resistance.value()),
+        };
+        let drive = supply - drop;
+        if drive <= 0.0 {
+            return Err(Error::OutsideModel(Limit::NoHeadroom));
+        }
+        Ok(Resolved {
+            winding: Ohms::new(winding),
+            on_loop: Ohms::new(winding + self.wiring + self.sense * k_s + r_switch),
+            off_loop: Ohms::new(winding + self.wiring),
+            drive: Volts::new(drive),
+            supply: Volts::new(supply),
+            inductance_released: self.coil.inductance(Armature::Released).value() * k_l,
+            inductance_operated: self.coil.inductance(Armature::Operated).value() * k_l,
+        })
+    }
+
+    /// Final (steady) on-state current: `I∞ = (V − V_CE(sat)) / R_on`, A.
+    pub fn final_current(&self, op: &OperatingPoint) -> Result<Amps, Error> {
+        let r = self.resolve(op)?;
+        Ok(Amps::new(r.drive.value() / r.on_loop.value()))
+    }
+
+    /// The current rise after switch-on from `initial` amperes with the armature in `armature`:
+    /// `i(t) = I∞ + (i₀ − I∞)·e^(−t/τ)`, `τ = L/R_on`.
+    ///
+    /// Accuracy: exact for a constant inductance; a moving armature changes L mid-rise (see the
+    /// theory notes), which the pull-in time here does not include.
+    pub fn energize(
+        &self,
+        op: &OperatingPoint,
+        armature: Armature,
+        initial: Amps,
+    ) -> Result<FirstOrder, Error> {
+        let r = self.resolve(op)?;
+        let l = match armature {
+            Armature::Released => r.inductance_released,
+            Armature::Operated => r.inductance_operated,
+        };
+        let i0 = finite(initial.value(), Param::Current)?;
+        FirstOrder::new(
+            i0,
+            r.drive.value() / r.on_loop.value(),
+            Seconds::new(l / r.on_loop.value()),
+        )
+    }
+
+    /// Pull-in time from zero current with the armature released:
+    /// `t = τ·ln(I∞/(I∞ − I_pull))`, s. Excludes the armature's mechanical travel.
+    ///
+    /// # Errors
+    /// [`Error::Unreachable`] when I_pull ≥ I∞: the coil never pulls in at this point.
+    pub fn pull_in_time(&self, op: &OperatingPoint) -> Result<Seconds, Error> {
+        self.energize(op, Armature::Released, Amps::new(0.0))?
+            .time_to(self.coil.pull_in_current().value())
+    }
+
+    /// Pull-in margin: `I∞ / I_pull − 1` (0.25 = 25 % more current than needed). Negative means the
+    /// coil does not pull in.
+    pub fn pull_in_margin(&self, op: &OperatingPoint) -> Result<f32, Error> {
+        Ok(self.final_current(op)?.value() / self.coil.pull_in_current().value() - 1.0)
+    }
+}
+
+#[cfg(test)]
+pub(crate) mod tests {
+    use super::*;
+    use crate::units::Henries;
+
+    /// Invented demo circuit: a 24 V greenhouse valve, 180 Ω, low-side MOSFET, 0.5 Ω sense.
+    pub(crate) fn valve(clamp: Clamp) -> Circuit {
+        let coil = Coil::new(
+            Ohms::new(180.0),
+            Celsius::new(20.0),
+            Henries::new(0.30),
+            Henries::new(0.45),
+            Volts::new(16.8),
+            Volts::new(2.4),
+        )
+        .unwrap();
+        Circuit::new(
+            coil,
+            Switch::Mosfet {
+                on_resistance: Ohms::new(0.1),
+                breakdown: Volts::new(60.0),
+            },
+            Topology::LowSide,
+            Ohms::new(0.5),
+            Ohms::new(0.4),
+            clamp,
+        )
+        .unwrap()
+    }
+
+    #[test]
+    fn final_current_is_ohms_law() {
+        let c = valve(Clamp::diode(Volts::new(0.8)).unwrap());
+        let op = OperatingPoint::new(Volts::new(24.0), Celsius::new(20.0));
+        let i = c.final_current(&op).unwrap().value();
+        assert!((i - 24.0 / 181.0).abs() < 1e-6);
+    }
+
+    #[test]
+    fn hot_coil_at_low_supply_pulls_in_later() {
+        let c = valve(Clamp::diode(Volts::new(0.8)).unwrap());
+        let cold = OperatingPoint::new(Volts::new(24.0), Celsius::new(20.0));
+        let hot = OperatingPoint::new(Volts::new(21.6), Celsius::new(70.0));
+        let t_cold = c.pull_in_time(&cold).unwrap().value();
+        let t_hot = c.pull_in_time(&hot).unwrap().value();
+        assert!(t_hot > t_cold);
+        assert!(c.pull_in_margin(&hot).unwrap() < c.pull_in_margin(&cold).unwrap());
+    }
+
+    #[test]
+    fn a_coil_that_cannot_pull_in_is_an_error_not_nan() {
+        let c = valve(Clamp::diode(Volts::new(0.8)).unwrap());
+        let op = OperatingPoint::new(Volts::new(12.0), Celsius::new(85.0));
+        assert!(matches!(
+            c.pull_in_time(&op),
+            Err(Error::Unreachable { .. })
+        ));
+        assert!(c.pull_in_margin(&op).unwrap() < 0.0);
+    }
+
+    #[test]
+    fn no_headroom_is_reported() {
+        let mut c = valve(Clamp::diode(Volts::new(0.8)).unwrap());
+        c.switch = Switch::Bipolar {
+            saturation: Volts::new(1.0),
+            breakdown: Volts::new(60.0),
+        };
+        let op = OperatingPoint::new(Volts::new(0.9), Celsius::new(20.0));
+        assert_eq!(
+            c.final_current(&op),
+            Err(Error::OutsideModel(Limit::NoHeadroom))
+        );
+    }
+
+    #[test]
+    fn supply_range_validates() {
+        assert!(SupplyRange::new(Volts::new(20.0), Volts::new(24.0), Volts::new(28.0)).is_ok());
+        assert_eq!(
+            SupplyRange::new(Volts::new(28.0), Volts::new(24.0), Volts::new(20.0)),
+            Err(Error::invalid(Param::Supply, Why::Inverted))
+        );
+        assert!(SupplyRange::with_tolerance(Volts::new(24.0), 1.5).is_err());
+        assert!(TemperatureRange::new(Celsius::new(85.0), Celsius::new(-40.0)).is_err());
+    }
+}
