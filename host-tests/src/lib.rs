@@ -79,7 +79,7 @@
 //! let mut pin = rig.gate(0).unwrap();
 //! let mut clock = rig.clock();
 //!
-//! // First pulse, then check the release before the second one starts.
+//! // Run the driver: pulses at t = 0 and t = 100 ms.
 //! pulse_twice(&mut pin, &mut clock).unwrap();
 //!
 //! let b = rig.bench();
