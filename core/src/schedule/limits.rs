@@ -5,7 +5,7 @@ use super::errors::LimitsError;
 use super::thermal::{joules_to_uj_up, EnergyRate, ThermalBucket};
 use crate::design::{DriverDesign, TimingBudget};
 use crate::time::{TickRate, Ticks};
-use crate::units::{Joules, Seconds, Watts};
+use crate::units::{Amps, Hertz, Joules, Seconds, Watts};
 
 /// The longest time limit a channel may have, ticks (2³⁰): keeps every sum of limits inside the
 /// 2³¹-tick span in which instants compare unambiguously.
@@ -118,6 +118,16 @@ pub struct HeatRating {
     pub power: Watts,
     /// Its thermal time constant `R_th·C_th`, s.
     pub time_constant: Seconds,
+}
+
+/// Peak-and-hold as the physics should size it: hold `current` with PWM at `frequency`.
+#[derive(Clone, Copy, Debug, PartialEq)]
+#[cfg_attr(feature = "defmt", derive(defmt::Format))]
+pub struct HoldPlan {
+    /// Current to hold the armature with, A (above the coil's drop-out, with margin).
+    pub current: Amps,
+    /// PWM frequency, Hz.
+    pub frequency: Hertz,
 }
 
 /// Which parts of a channel get a thermal bucket when limits are derived from a design.
@@ -295,14 +305,33 @@ impl ChannelLimits {
         Ok(limits)
     }
 
-    /// [`ChannelLimits::from_budget`] of `design.budget()` at the design's tick rate.
+    /// [`ChannelLimits::from_budget`] of `design.budget()` at the design's tick rate, with the hold
+    /// duty from the physics: the PWM duty that holds `hold.current` ([`crate::Circuit::hold`]),
+    /// highest over the design's corners ([`DriverDesign::hold_at_corners`]; the hot, low-supply
+    /// corner needs most), rounded up. That duty is both the initial duty and the ceiling; at run
+    /// time firmware may lower it to the duty for the present supply
+    /// ([`super::Scheduler::set_hold_duty`]).
+    ///
+    /// # Errors
+    /// As [`ChannelLimits::from_budget`]; a hold current the coil cannot reach, or a PWM too slow
+    /// for continuous conduction, as [`LimitsError::Design`].
     pub fn from_design(
         design: &DriverDesign,
         heat: &HeatRatings,
-        hold_duty: Option<HoldDuty>,
+        hold: Option<HoldPlan>,
     ) -> Result<Self, LimitsError> {
         let budget = design.budget().map_err(LimitsError::Design)?;
-        Self::from_budget(&budget, design.tick_rate, heat, hold_duty)
+        let duty = match hold {
+            Some(h) => {
+                let corners = design
+                    .hold_at_corners(h.current, h.frequency)
+                    .map_err(LimitsError::Design)?;
+                let d = corners.iter().fold(0.0f32, |m, c| libm::fmaxf(m, c.duty));
+                Some(HoldDuty::from_fraction(d)?)
+            }
+            None => None,
+        };
+        Self::from_budget(&budget, design.tick_rate, heat, duty)
     }
 
     /// Minimum on-time, ticks.

@@ -73,7 +73,9 @@ mod tests;
 
 pub use errors::{DelayReason, LimitsError, Refusal, ScheduleError};
 pub use event::{PinAction, PinEvent, Wake, WakeCause};
-pub use limits::{ChannelLimits, HeatRating, HeatRatings, HoldDuty, HoldPhase, MAX_LIMIT};
+pub use limits::{
+    ChannelLimits, HeatRating, HeatRatings, HoldDuty, HoldPhase, HoldPlan, MAX_LIMIT,
+};
 pub use request::{Admission, ChannelId, Request, Start, Stopping};
 pub use thermal::{EnergyRate, ThermalBucket};
 

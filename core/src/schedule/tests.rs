@@ -616,8 +616,11 @@ fn limits_from_a_design_round_toward_safety() {
             time_constant: Seconds::new(120.0),
         }),
     };
-    let l = ChannelLimits::from_design(&design, &heat, Some(HoldDuty::from_fraction(0.4).unwrap()))
-        .unwrap();
+    let plan = HoldPlan {
+        current: crate::units::Amps::from_milli(60.0),
+        frequency: crate::units::Hertz::new(2_000.0),
+    };
+    let l = ChannelLimits::from_design(&design, &heat, Some(plan)).unwrap();
     // Reference: the RL rise from rest, i(t) = I∞(1 − e^(−t/τ)), so t_pull = τ·ln(I∞/(I∞ − I_p))
     // (textbook first-order circuit, from memory), worked in f64 at the hot, low-supply corner:
     // R = 180·(1 + 0.00393·50) + 0.5 + 0.4 + 0.1 Ω, V = 21.6 V, I_p = 16.8 V / 180 Ω.
@@ -630,6 +633,15 @@ fn limits_from_a_design_round_toward_safety() {
     assert!(min_on_s < t_pull + 0.005 + 2.0e-5);
     assert!(l.inrush_window().0 as f64 / 1.0e5 >= t_pull);
     assert_eq!(l.hold().unwrap().after(), l.min_on());
+    // Hold duty: the average voltage across the coil over a PWM period equals the resistive drop
+    // (volt-second balance, textbook, from memory): D·V − (1 − D)·V_clamp ≈ I_h·R, so at the hot,
+    // low-supply corner D ≈ (I_h·R + V_c)/(V + V_c). Rounded up, the ceiling must cover it.
+    let d_ref = (0.060 * r + 30.0) / (21.6 + 30.0);
+    let ceiling = l.hold().unwrap().ceiling().fraction() as f64;
+    assert!(
+        ceiling >= d_ref * 0.995 && ceiling < d_ref * 1.02,
+        "{ceiling} vs {d_ref}"
+    );
     // Clamp bucket: capacity P·τ = 5 J (rounded down), τ in ticks rounded up.
     let c = l.clamp_heat().unwrap();
     assert!(c.capacity_uj() <= 5_000_000 && c.capacity_uj() > 4_999_000);
