@@ -8,7 +8,7 @@
 //! # Use from an interrupt-driven firmware
 //!
 //! ```
-//! use coilwise::schedule::{ChannelId, ChannelLimits, PinAction, Request, Scheduler};
+//! use coilwise::schedule::{ChannelId, ChannelLimits, EdgeBuffer, PinAction, Request, Scheduler};
 //! use coilwise::{Instant, Ticks};
 //!
 //! // Invented demo: two greenhouse valves, ticks of 1 ms, at most one valve pulling in at a time.
@@ -19,7 +19,7 @@
 //! assert_eq!(a.start(), Instant(0));
 //! assert_eq!(b.start(), Instant(25)); // staggered behind valve 0's inrush window
 //!
-//! let mut edges: heapless::Vec<_, 4> = heapless::Vec::new();
+//! let mut edges = EdgeBuffer::<4>::new();
 //! let wake = s.poll(Instant(0), &mut edges)?; // from the timer interrupt
 //! assert_eq!(edges[0].action, PinAction::On);
 //! assert_eq!(wake.at, Instant(25)); // set the compare register to this
@@ -81,6 +81,10 @@ pub use thermal::{EnergyRate, ThermalBucket};
 
 use crate::time::{Instant, Ticks, MAX_SPAN};
 use clock::Clock;
+
+/// The caller-supplied buffer [`Scheduler::poll`] fills: a `heapless::Vec` of up to `N` edges
+/// (named here so that firmware needs no direct dependency on `heapless`).
+pub type EdgeBuffer<const N: usize> = heapless::Vec<PinEvent, N>;
 
 /// When nothing is pending, [`Scheduler::poll`] asks to be called again this many ticks later
 /// (2³⁰), keeping consecutive calls well inside the 2³¹-tick span.
@@ -168,7 +172,8 @@ pub struct Scheduler<const CHANNELS: usize, const QUEUE: usize> {
     limits: [ChannelLimits; CHANNELS],
     channels: [Channel; CHANNELS],
     slots: [Pulse; QUEUE],
-    /// Occupied slot numbers, sorted by `next` (ties: admission order).
+    /// Occupied slot numbers sorted by `next` *descending*: the next edge is `order[len − 1]`, so
+    /// it is removed by shortening. Among equal `next`, the one sorted in first is nearer the end.
     order: [u8; QUEUE],
     len: u8,
     inrush_cap: u8,
@@ -439,7 +444,7 @@ impl<const CHANNELS: usize, const QUEUE: usize> Scheduler<CHANNELS, QUEUE> {
     pub fn poll<const N: usize>(
         &mut self,
         now: Instant,
-        out: &mut heapless::Vec<PinEvent, N>,
+        out: &mut EdgeBuffer<N>,
     ) -> Result<Wake, ScheduleError> {
         let t = self
             .clock
@@ -447,7 +452,7 @@ impl<const CHANNELS: usize, const QUEUE: usize> Scheduler<CHANNELS, QUEUE> {
             .ok_or(ScheduleError::TimeWentBackwards)?;
         self.clock.commit(now, t);
         while self.len > 0 {
-            let slot = self.order[0] as usize;
+            let slot = self.order[self.len as usize - 1] as usize;
             let p = self.slots[slot];
             if p.next > t {
                 break;
@@ -485,9 +490,10 @@ impl<const CHANNELS: usize, const QUEUE: usize> Scheduler<CHANNELS, QUEUE> {
             };
             self.slots[slot].stage = stage;
             self.slots[slot].next = next;
-            self.remove_at(0);
-            if stage != Stage::Free {
-                self.insert_sorted(slot as u8);
+            if stage == Stage::Free {
+                self.len -= 1;
+            } else {
+                self.sift_head();
             }
         }
         Ok(self.wake(now, t))
@@ -587,24 +593,42 @@ impl<const CHANNELS: usize, const QUEUE: usize> Scheduler<CHANNELS, QUEUE> {
             };
         }
         // After a poll the head is in the future; after a submit it may be due already (`now`).
-        let next = self.slots[self.order[0] as usize].next;
+        let next = self.slots[self.order[self.len as usize - 1] as usize].next;
         Wake {
             at: self.clock.instant(next.max(t)),
             cause: WakeCause::Event,
         }
     }
 
-    /// Inserts `slot` into `order` after every slot whose `next` is at or before its own.
+    /// Inserts `slot` into `order` so that it comes out after every slot whose `next` is at or
+    /// before its own (descending order: after the prefix of later ones).
     fn insert_sorted(&mut self, slot: u8) {
         let key = self.slots[slot as usize].next;
         let len = self.len as usize;
-        let mut i = len;
-        while i > 0 && self.slots[self.order[i - 1] as usize].next > key {
-            i -= 1;
+        let mut i = 0;
+        while i < len && self.slots[self.order[i] as usize].next > key {
+            i += 1;
         }
         self.order.copy_within(i..len, i + 1);
         self.order[i] = slot;
         self.len += 1;
+    }
+
+    /// Moves the head (`order[len − 1]`), whose `next` just grew, to its place: before (towards
+    /// index 0) every slot that is due at or before it. In place, no block move.
+    fn sift_head(&mut self) {
+        let mut i = self.len as usize - 1;
+        let slot = self.order[i];
+        let key = self.slots[slot as usize].next;
+        while i > 0 {
+            let prev = self.order[i - 1];
+            if self.slots[prev as usize].next > key {
+                break;
+            }
+            self.order[i] = prev;
+            i -= 1;
+        }
+        self.order[i] = slot;
     }
 
     fn remove_at(&mut self, i: usize) {

@@ -269,33 +269,39 @@ impl ThermalBucket {
         self.hold_rate
     }
 
-    /// `φ(u) = min(u + ⌈P·d⌉, max(u, ⌈P·τ⌉))`, µJ: a bound over a phase of power `P` for `d`
-    /// ticks that starts from bound `u` (module docs).
-    fn phase(&self, u: u64, rate: EnergyRate, d: u32) -> u64 {
-        let poured = (rate.0 as u64 * d as u64).div_ceil(1 << 16);
-        let steady = (rate.0 as u64 * self.tau as u64).div_ceil(1 << 16);
-        (u + poured).min(u.max(steady))
+    /// The two constants of a phase of power `P` lasting `d` ticks: `(⌈P·d⌉, ⌈P·τ⌉)`, µJ.
+    fn phase_terms(&self, rate: EnergyRate, d: u32) -> (u64, u64) {
+        (
+            (rate.0 as u64 * d as u64).div_ceil(1 << 16),
+            (rate.0 as u64 * self.tau as u64).div_ceil(1 << 16),
+        )
     }
 
-    /// `φ₂(φ₁(u))`: the bound over a whole pulse's on-time from bound `u` at its start.
-    fn on_bound(&self, u: u64, pull_in: u32, hold: u32) -> u64 {
-        let v = self.phase(u, self.on_rate, pull_in);
-        if hold > 0 {
-            self.phase(v, self.hold_rate, hold)
-        } else {
-            v
-        }
+    /// `φ₂(φ₁(u))` with `φ(u) = min(u + ⌈P·d⌉, max(u, ⌈P·τ⌉))`: the bound over a whole pulse's
+    /// on-time from bound `u` at its start (module docs). Without a hold phase `φ₂` is the
+    /// identity (both its constants are 0).
+    fn on_bound(&self, u: u64, p: &PulseHeat) -> u64 {
+        let phase = |u: u64, (poured, steady): (u64, u64)| (u + poured).min(u.max(steady));
+        phase(phase(u, p.phases[0]), p.phases[1])
     }
 
     /// What a pulse of `pull_in` + `hold` ticks does to this bucket, on a channel whose minimum
-    /// on-time is `min_on` (the earliest a stop may end it).
+    /// on-time is `min_on` (the earliest a stop may end it). Computed once per request, so that
+    /// each step of the search below is a few additions and two multiplies.
     pub(crate) fn plan(&self, pull_in: u32, hold: u32, min_on: u32) -> PulseHeat {
-        PulseHeat {
-            pull_in,
-            hold,
-            poured: self.on_bound(0, pull_in, hold) + self.per_pulse as u64,
+        let first = self.phase_terms(self.on_rate, pull_in);
+        let second = if hold > 0 {
+            self.phase_terms(self.hold_rate, hold)
+        } else {
+            (0, 0)
+        };
+        let mut p = PulseHeat {
+            phases: [first, second],
+            poured: 0,
             credit: decay_factor(x_of(min_on as u64, self.tau)),
-        }
+        };
+        p.poured = self.on_bound(0, &p) + self.per_pulse as u64;
+        p
     }
 
     /// The bound at and after the pulse's off edge, from bound `u` at its start:
@@ -307,7 +313,7 @@ impl ThermalBucket {
 
     fn fits(&self, u: u64, p: &PulseHeat) -> bool {
         let cap = self.capacity as u64;
-        self.on_bound(u, p.pull_in, p.hold) <= cap && self.off_bound(u, p) <= cap
+        self.on_bound(u, p) <= cap && self.off_bound(u, p) <= cap
     }
 
     /// The fewest ticks after the previous off edge (which left the bound at `level`) at which
@@ -363,8 +369,8 @@ impl ThermalBucket {
 /// One pulse's effect on one bucket, prepared once per request.
 #[derive(Clone, Copy, Debug, PartialEq, Eq)]
 pub(crate) struct PulseHeat {
-    pull_in: u32,
-    hold: u32,
+    /// `(⌈P·d⌉, ⌈P·τ⌉)` of the pull-in and the hold phase, µJ.
+    phases: [(u64, u64); 2],
     /// `φ₂(φ₁(0)) + E`, µJ.
     poured: u64,
     /// `ĝ(t_min_on/τ)`, Q31.
@@ -495,12 +501,13 @@ mod tests {
                 EnergyRate::from_uj_per_tick(2),
                 EnergyRate::from_uj_per_tick(1),
             );
-        assert_eq!(b.on_bound(0, 100, 0), 200);
-        assert_eq!(b.on_bound(0, 1_000_000, 0), 2_000);
-        assert_eq!(b.on_bound(5_000, 1_000_000, 0), 5_000);
+        let on = |u: u64, pull_in: u32, hold: u32| b.on_bound(u, &b.plan(pull_in, hold, 1));
+        assert_eq!(on(0, 100, 0), 200);
+        assert_eq!(on(0, 1_000_000, 0), 2_000);
+        assert_eq!(on(5_000, 1_000_000, 0), 5_000);
         // Hold at 1 µJ/tick after a pull-in: the steady level of the hold phase is 1000 µJ.
-        assert_eq!(b.on_bound(0, 100, 1_000_000), 1_000);
-        assert_eq!(b.on_bound(0, 100, 100), 300);
+        assert_eq!(on(0, 100, 1_000_000), 1_000);
+        assert_eq!(on(0, 100, 100), 300);
         assert!(b.admits_min_pulse(100));
         let tiny = ThermalBucket::new(150, Ticks(1_000))
             .unwrap()
