@@ -42,23 +42,29 @@
 //!   once met, met at every later tick), then the inrush cap (staggering to the first tick at which
 //!   the new window fits). The start is the earliest tick meeting all of them.
 //! - Thermal buckets reserve each pulse's heat at its start; see [`thermal`] for the bound.
-//!   Stopping early or cancelling never refunds heat beyond the bound's own decay, so the bound
-//!   only overestimates.
+//!   Queued pulses dropped by a stop give their reservation back (they never run); a pulse stopped
+//!   early keeps its whole reservation, decaying from its actual off edge, so the bound only
+//!   overestimates.
 //! - Inrush windows are reserved by admitted pulses; an edge the firmware applies late (poll called
 //!   after [`Wake::at`]) is late in the real world too — the scheduler reports the scheduled tick in
 //!   [`PinEvent::at`], and guarantees the *scheduled* sequence.
 //! - Time: call with a `now` that never goes backwards and advances less than 2³¹ ticks between
 //!   calls (poll at [`Wake::at`], at least every [`KEEP_ALIVE`] ticks). Internally time is a u64
-//!   that never wraps ([`clock`](self) module docs); if the calls were too far apart,
+//!   extended from each `now`, which never wraps; if the calls were too far apart,
 //!   [`Scheduler::resync`] recovers conservatively.
 //!
 //! # Cost
 //!
-//! `poll` is O(1) when nothing is due and O(Q) per edge emitted (the edge's pulse is re-sorted in a
-//! byte array of slot numbers). `submit` is O(channels + Q) plus, only when the inrush cap could be
-//! reached, a sort of at most 2·Q window edges; each thermal bucket costs a few multiplies, and a
-//! 23-step bisection only when it has to delay. No division on these paths except one u64 division
-//! per bucket for the elapsed-time ratio.
+//! `poll` is O(1) when nothing is due and O(Q) per edge emitted (the edge's pulse is re-sorted in
+//! a byte array of slot numbers, in place). `submit` is O(channels + Q) plus, only when the inrush
+//! cap could be reached, a sort of at most 2·Q window edges; each thermal bucket costs two u64
+//! divisions and a few multiplies, and a 23-step bisection only when it has to delay.
+//!
+//! Measured under QEMU (`-icount`, instruction counts, release build, 4 channels, 8 slots, one
+//! clamp bucket, inrush cap 2): poll with 6 pending and nothing due 72 instructions on a
+//! Cortex-M4F / 96 on a Cortex-M0; with one edge due 190 / 265; submit 896–1220 / 1854–2480, and
+//! 3604 / 9169 when a full thermal bucket delays it (counts include the measuring harness's own
+//! few instructions; the firmware's cost report is the reference).
 
 mod clock;
 mod errors;
