@@ -1,0 +1,632 @@
+//! Verdicts: healthy, a named fault, or cannot tell — with the estimates behind them.
+//!
+//! # How a fitted rise is judged
+//!
+//! A fit gives the initial slope `s = k_s·V_d/L` and the time constant `τ = L/R_on`. In logarithms,
+//! with the healthy bands of [`Expected`] for the sensed drive `ν = ln(k_s·V_d)`, the inductance `ℓ`
+//! and the on-loop resistance `h`:
+//!
+//! 1. the inductance the slope implies is `ln L ∈ ν − ln s` (widened by the slope's error). Below
+//!    the band: the winding has lost turns → [`Finding::ShortedTurns`] (far below:
+//!    [`Finding::ShortCircuit`]). Above: the drive is lower than the supply band allows →
+//!    [`Finding::SupplyLow`], or, with a measured supply, [`Finding::InductanceHigh`];
+//! 2. intersected with the band, that inductance and τ give `ln R_on ∈ (ℓ ∩ (ν − ln s)) − ln τ`.
+//!    Below the resistance band → [`Finding::ShortedTurns`]; above → [`Finding::HighResistance`]
+//!    (a connector, crimp or wire adding resistance in series);
+//! 3. otherwise the coil is consistent with the design → [`Finding::Healthy`] (or
+//!    [`Finding::SupplyLow`] when a supply reading lies below the design range).
+//!
+//! Each interval is widened by `sigmas` standard errors of the fit plus `model_margin`. The slope
+//! does not depend on any resistance and τ not on the supply, which is what separates a low supply
+//! (slope low, τ normal) from a high resistance (slope normal, τ low) and from shorted turns (slope
+//! high). What cannot be separated is a resistance fault from a winding temperature inside the
+//! band: without a temperature window (see [`super::band::Conditions`]) a +50 % connector on a cold
+//! coil reads like a healthy hot coil.
+//!
+//! No verdict is [`Finding::Healthy`] unless the fit's noise ratio, slope error and τ error all
+//! pass [`Criteria`].
+
+use super::armature::{detect_movement, Movement, MovementCriteria};
+use super::band::{Expected, Span, ThresholdBand};
+use super::fit::{fit_rise, FitOptions, FitQuality, RiseFit, TraceFault};
+use super::sample::{Sample, Sampling};
+use crate::error::{Error, Param, Why};
+use crate::time::{Instant, TickRate};
+use crate::units::{Amps, Celsius, Henries, Ohms, Seconds};
+
+/// Why no coil verdict could be given although the trace looked like a sensor working.
+#[derive(Clone, Copy, Debug, PartialEq, Eq)]
+#[cfg_attr(feature = "defmt", derive(defmt::Format))]
+#[non_exhaustive]
+pub enum Undetermined {
+    /// Too few usable samples.
+    TooFewSamples,
+    /// The initial slope is not fixed precisely enough (too little signal above noise).
+    TooLittleSignal,
+    /// τ is not fixed precisely enough: the window covers too little of the rise.
+    WindowTooShort,
+    /// The fit did not settle.
+    NoConvergence,
+    /// The converter saturates so early that a healthy coil could have reached full scale too:
+    /// the converter range is too small to tell.
+    RangeTooSmall,
+    /// The comparator has not crossed yet, and a healthy coil may still be rising.
+    NotYet,
+}
+
+/// The finding of a diagnosis.
+#[derive(Clone, Copy, Debug, PartialEq)]
+#[cfg_attr(feature = "defmt", derive(defmt::Format))]
+#[non_exhaustive]
+pub enum Finding {
+    /// The rise is consistent with the design within its tolerances and the given conditions.
+    Healthy,
+    /// No current: open winding, broken wire or connector (a dead sensor that reads zero looks the
+    /// same; a second indication, e.g. the switch-node voltage, tells them apart).
+    OpenCircuit,
+    /// The winding is bypassed: the current is at or beyond full scale almost at once, or the
+    /// inductance is nearly gone.
+    ShortCircuit,
+    /// Inductance and/or resistance below the band: turns shorted inside the winding.
+    ShortedTurns,
+    /// Resistance above the band with normal inductance: a resistive connector, crimp or wire.
+    HighResistance,
+    /// The drive voltage is below what the design allows.
+    SupplyLow,
+    /// Inductance above the band at a measured supply: a different coil fitted, or the armature
+    /// held in its operated position.
+    InductanceHigh,
+    /// Comparator only: the threshold was reached later than the band allows. High resistance or a
+    /// low supply; one time cannot tell which (add a steady-current reading).
+    SlowRise,
+    /// The current passed the point where the armature must move and no dip was seen.
+    ArmatureStuck,
+    /// The trace cannot come from a coil current: the sensor, its wiring or the converter.
+    SensorImplausible(TraceFault),
+    /// The measurement is plausible but does not settle the question.
+    CannotTell(Undetermined),
+}
+
+impl Finding {
+    /// Whether this names a fault of the coil, its wiring or its supply (not of the sensor, and not
+    /// "cannot tell").
+    pub const fn is_coil_fault(&self) -> bool {
+        matches!(
+            self,
+            Finding::OpenCircuit
+                | Finding::ShortCircuit
+                | Finding::ShortedTurns
+                | Finding::HighResistance
+                | Finding::SupplyLow
+                | Finding::InductanceHigh
+                | Finding::SlowRise
+                | Finding::ArmatureStuck
+        )
+    }
+}
+
+/// What the measurement says about the coil, for logging. `None` where the measurement does not
+/// give it.
+#[derive(Clone, Copy, Debug, PartialEq, Default)]
+#[cfg_attr(feature = "defmt", derive(defmt::Format))]
+pub struct Estimates {
+    /// Final (steady) current, A in measured terms.
+    pub final_current: Option<Amps>,
+    /// Time constant, s.
+    pub tau: Option<Seconds>,
+    /// Winding resistance `R_w = k_s·V_d/I∞ − R_external`, Ω, at the mid-band drive (or the
+    /// measured supply). Carries the supply's and sense resistor's uncertainty.
+    pub resistance: Option<Ohms>,
+    /// Inductance `L = τ·R_on`, H.
+    pub inductance: Option<Henries>,
+    /// Winding temperature `T_ref + (R_w/R_ref − 1)/α` with the nominal R_ref, °C: ±(resistance
+    /// tolerance)/α, so ±25 K for a ±10 % copper winding; `None` outside the copper model's range.
+    pub temperature: Option<Celsius>,
+    /// Fit quality, for sampled traces.
+    pub quality: Option<FitQuality>,
+    /// Armature movement, for full actuation traces.
+    pub movement: Option<Movement>,
+}
+
+/// A verdict: the finding and the estimates behind it.
+#[derive(Clone, Copy, Debug, PartialEq)]
+#[cfg_attr(feature = "defmt", derive(defmt::Format))]
+pub struct Verdict {
+    /// Healthy, a named fault, sensor implausible, or cannot tell.
+    pub finding: Finding,
+    /// The estimates the finding was drawn from.
+    pub estimates: Estimates,
+}
+
+impl Verdict {
+    fn new(finding: Finding, estimates: Estimates) -> Self {
+        Self { finding, estimates }
+    }
+}
+
+/// How strict the verdicts are.
+#[derive(Clone, Copy, Debug, PartialEq)]
+#[cfg_attr(feature = "defmt", derive(defmt::Format))]
+#[non_exhaustive]
+pub struct Criteria {
+    /// Standard errors a fitted figure may lie outside a band before it counts (default 4).
+    pub sigmas: f32,
+    /// Relative allowance for what the model leaves out (default 0.01): eddy currents, converter
+    /// gain error, timer resolution.
+    pub model_margin: f32,
+    /// Largest residual-to-noise ratio for a trustworthy fit (default 2.5).
+    pub max_noise_ratio: f32,
+    /// Largest relative standard error of slope or τ for a verdict that uses it (default 0.1).
+    pub max_rel_sd: f32,
+    /// Inductance below this fraction of the band's minimum is a short circuit (default 0.1).
+    pub short_fraction: f32,
+    /// Current above this multiple of the band's maximum is a short circuit (default 4).
+    pub short_current: f32,
+    /// Mean current below this fraction of the band's minimum final current is no current
+    /// (default 0.02).
+    pub open_fraction: f32,
+    /// The part of a rise used for the coil fit when the armature moved: samples up to this
+    /// fraction of the peak before the dip (default 0.8).
+    pub pre_movement_fraction: f32,
+    /// Dip detection settings.
+    pub movement: MovementCriteria,
+}
+
+impl Default for Criteria {
+    fn default() -> Self {
+        Self {
+            sigmas: 4.0,
+            model_margin: 0.01,
+            max_noise_ratio: 2.5,
+            max_rel_sd: 0.1,
+            short_fraction: 0.1,
+            short_current: 4.0,
+            open_fraction: 0.02,
+            pre_movement_fraction: 0.8,
+            movement: MovementCriteria::default(),
+        }
+    }
+}
+
+/// `ln` of a span's ends.
+fn ln_span(min: f32, max: f32) -> Span<f32> {
+    Span {
+        min: libm::logf(min),
+        max: libm::logf(max),
+    }
+}
+
+fn finite_pos(x: f32) -> Option<f32> {
+    if x.is_finite() && x > 0.0 {
+        Some(x)
+    } else {
+        None
+    }
+}
+
+/// Estimates from a final current and (optionally) a time constant.
+fn estimates(expected: &Expected, final_current: f32, tau: Option<f32>) -> Estimates {
+    let i = finite_pos(final_current);
+    let r_on = i.and_then(|i| finite_pos(expected.nominal_drive().value() / i));
+    let r_w = r_on.and_then(|r| finite_pos(r - expected.external_resistance().value()));
+    let temperature = r_w.and_then(|r| {
+        expected
+            .coil()
+            .temperature_from_resistance(Ohms::new(r))
+            .ok()
+    });
+    let tau = tau.and_then(finite_pos);
+    Estimates {
+        final_current: i.map(Amps::new),
+        tau: tau.map(Seconds::new),
+        resistance: r_w.map(Ohms::new),
+        inductance: match (tau, r_on) {
+            (Some(t), Some(r)) => finite_pos(t * r).map(Henries::new),
+            _ => None,
+        },
+        temperature,
+        quality: None,
+        movement: None,
+    }
+}
+
+/// The finding for a healthy-looking coil: healthy, or supply low if a reading says so.
+fn healthy_or_supply(expected: &Expected) -> Finding {
+    if expected.supply_below_design {
+        Finding::SupplyLow
+    } else {
+        Finding::Healthy
+    }
+}
+
+/// Judges slope and τ with their relative half-widths (already including sigmas and margin).
+fn judge_slope_tau(
+    slope: f32,
+    tau: f32,
+    half_slope: f32,
+    half_tau: Option<f32>,
+    expected: &Expected,
+    criteria: &Criteria,
+) -> Finding {
+    let nu = ln_span(
+        expected.sensed_drive.min.value(),
+        expected.sensed_drive.max.value(),
+    );
+    let ell = ln_span(
+        expected.inductance.min.value(),
+        expected.inductance.max.value(),
+    );
+    let h = ln_span(
+        expected.loop_resistance.min.value(),
+        expected.loop_resistance.max.value(),
+    );
+    let ls = libm::logf(slope);
+    let l_est = Span {
+        min: nu.min - ls - half_slope,
+        max: nu.max - ls + half_slope,
+    };
+    if l_est.max < ell.min {
+        return if l_est.max < ell.min + libm::logf(criteria.short_fraction) {
+            Finding::ShortCircuit
+        } else {
+            Finding::ShortedTurns
+        };
+    }
+    if l_est.min > ell.max {
+        return if expected.supply_measured && !expected.supply_below_design {
+            Finding::InductanceHigh
+        } else {
+            Finding::SupplyLow
+        };
+    }
+    let Some(half_tau) = half_tau else {
+        return Finding::CannotTell(Undetermined::WindowTooShort);
+    };
+    let lt = libm::logf(tau);
+    let u = Span {
+        min: l_est.min.max(ell.min),
+        max: l_est.max.min(ell.max),
+    };
+    let r_est = Span {
+        min: u.min - lt - half_tau,
+        max: u.max - lt + half_tau,
+    };
+    if r_est.max < h.min {
+        Finding::ShortedTurns
+    } else if r_est.min > h.max {
+        Finding::HighResistance
+    } else {
+        healthy_or_supply(expected)
+    }
+}
+
+/// Judges a fitted rise against the bands (see the module docs).
+///
+/// Never [`Finding::Healthy`] when `fit.quality.noise_ratio > max_noise_ratio` or a relative
+/// standard error of slope or τ exceeds `max_rel_sd`. Never panics; the estimates are finite or
+/// `None`.
+pub fn judge_rise(fit: &RiseFit, expected: &Expected, criteria: &Criteria) -> Verdict {
+    let q = fit.quality;
+    let mut est = estimates(expected, fit.final_current.value(), Some(fit.tau.value()));
+    est.quality = Some(q);
+    let fail = |f| Verdict::new(f, est);
+    // A NaN ratio or error fails every comparison below and so is never trusted.
+    if !(q.noise_ratio <= criteria.max_noise_ratio) {
+        return fail(Finding::SensorImplausible(TraceFault::PoorFit));
+    }
+    if !(q.rel_sd_slope <= criteria.max_rel_sd) || !(fit.slope > 0.0) {
+        return fail(Finding::CannotTell(Undetermined::TooLittleSignal));
+    }
+    let k = criteria.sigmas;
+    let m = criteria.model_margin;
+    let half_tau = if q.rel_sd_tau <= criteria.max_rel_sd && fit.tau.value() > 0.0 {
+        Some(k * q.rel_sd_tau + m)
+    } else {
+        None
+    };
+    let finding = judge_slope_tau(
+        fit.slope,
+        fit.tau.value(),
+        k * q.rel_sd_slope + m,
+        half_tau,
+        expected,
+        criteria,
+    );
+    fail(finding)
+}
+
+/// What the fit's trace fault means for the coil, given the bands and the sampling.
+fn judge_trace_fault(
+    fault: TraceFault,
+    sampling: &Sampling,
+    expected: &Expected,
+    criteria: &Criteria,
+) -> Verdict {
+    let none = Estimates::default();
+    let finding = match fault {
+        TraceFault::TooFewSamples { .. } => Finding::CannotTell(Undetermined::TooFewSamples),
+        TraceFault::NoConvergence => Finding::CannotTell(Undetermined::NoConvergence),
+        TraceFault::SaturatedEarly { index } => {
+            // Could a healthy coil have reached full scale by then? Its current is at most
+            // min(s_max·t, I∞,max).
+            let t = sampling.time_of(index as usize).value();
+            let full = sampling.amps(sampling.full_scale());
+            let healthy_max = (expected.slope.max * t).min(expected.final_current.max.value());
+            if full > healthy_max * (1.0 + criteria.model_margin) {
+                Finding::ShortCircuit
+            } else {
+                Finding::CannotTell(Undetermined::RangeTooSmall)
+            }
+        }
+        TraceFault::Flat { level } => {
+            let l = level.value();
+            if l <= criteria.open_fraction * expected.final_current.min.value() {
+                if expected.supply_below_design {
+                    Finding::SupplyLow
+                } else {
+                    Finding::OpenCircuit
+                }
+            } else if l > expected.final_current.max.value() * (1.0 + criteria.model_margin) {
+                Finding::ShortCircuit
+            } else {
+                Finding::SensorImplausible(fault)
+            }
+        }
+        other => Finding::SensorImplausible(other),
+    };
+    Verdict::new(finding, none)
+}
+
+/// Fits and judges a sampled rise with no armature movement in it (a diagnostic pulse, or a coil
+/// without a moving armature). See [`fit_rise`] and [`judge_rise`].
+///
+/// Never panics, for any samples.
+pub fn judge_trace<S: Sample>(
+    samples: &[S],
+    sampling: &Sampling,
+    expected: &Expected,
+    criteria: &Criteria,
+    options: &FitOptions,
+) -> Verdict {
+    match fit_rise(samples, sampling, options) {
+        Ok(fit) => judge_rise(&fit, expected, criteria),
+        Err(fault) => judge_trace_fault(fault, sampling, expected, criteria),
+    }
+}
+
+/// Judges a full actuation trace: finds the armature's dip ([`detect_movement`]), judges the coil
+/// from the rise before the movement, and reports [`Finding::ArmatureStuck`] when no dip was seen
+/// although the current passed pull-in (measured, high sense corner) and the operate allowance has
+/// run out, or the trace outlasts [`Expected::movement_by`].
+///
+/// A coil fault found in the rise takes precedence over the movement. Never panics.
+pub fn judge_actuation<S: Sample>(
+    samples: &[S],
+    sampling: &Sampling,
+    expected: &Expected,
+    criteria: &Criteria,
+    options: &FitOptions,
+) -> Verdict {
+    let movement = match detect_movement(samples, sampling, &criteria.movement) {
+        Ok(m) => m,
+        Err(f) => return judge_trace_fault(f, sampling, expected, criteria),
+    };
+    let window = match movement {
+        Movement::Moved { peak, .. } => {
+            let limit = criteria.pre_movement_fraction * peak.value();
+            let end = samples
+                .iter()
+                .position(|s| !(sampling.amps(s.to_f32()) <= limit))
+                .unwrap_or(samples.len());
+            &samples[..end]
+        }
+        Movement::NotSeen { .. } => samples,
+    };
+    let mut v = judge_trace(window, sampling, expected, criteria, options);
+    v.estimates.movement = Some(movement);
+    if let Movement::NotSeen { by } = movement {
+        if v.finding == Finding::Healthy {
+            let crossed = samples
+                .iter()
+                .position(|s| sampling.amps(s.to_f32()) >= expected.pull_in_reading.value())
+                .map(|k| sampling.time_of(k).value() + expected.operate_allowance.value());
+            let due = match (crossed, expected.movement_by) {
+                (Some(a), Some(b)) => Some(a.min(b.value())),
+                (Some(a), None) => Some(a),
+                (None, b) => b.map(|b| b.value()),
+            };
+            if let Some(due) = due {
+                if by.value() >= due {
+                    v.finding = Finding::ArmatureStuck;
+                }
+            }
+        }
+    }
+    v
+}
+
+/// A comparator reading: when the measured current crossed the threshold, or how long it was
+/// watched without crossing.
+#[derive(Clone, Copy, Debug, PartialEq)]
+#[cfg_attr(feature = "defmt", derive(defmt::Format))]
+pub enum ThresholdReading {
+    /// Crossed this long after switch-on.
+    Crossed(Seconds),
+    /// Not crossed within this long after switch-on.
+    NotCrossed {
+        /// Time watched, s.
+        waited: Seconds,
+    },
+}
+
+impl ThresholdReading {
+    /// A reading from timer instants: switch-on, the capture of the crossing (if any) and now.
+    /// Wrap-safe for spans below 2³¹ ticks ([`Instant::since`]).
+    ///
+    /// # Errors
+    /// A crossing before switch-on, or `now` before switch-on (or before the crossing):
+    /// [`Error::Invalid`] ([`Param::Time`], [`Why::Negative`]).
+    pub fn from_instants(
+        rate: TickRate,
+        switch_on: Instant,
+        crossing: Option<Instant>,
+        now: Instant,
+    ) -> Result<Self, Error> {
+        let waited = now.since(switch_on);
+        if waited < 0 {
+            return Err(Error::invalid(Param::Time, Why::Negative));
+        }
+        match crossing {
+            Some(c) => {
+                let d = c.since(switch_on);
+                if d < 0 || now.since(c) < 0 {
+                    return Err(Error::invalid(Param::Time, Why::Negative));
+                }
+                Ok(Self::Crossed(rate.seconds(crate::time::Ticks(d as u32))))
+            }
+            None => Ok(Self::NotCrossed {
+                waited: rate.seconds(crate::time::Ticks(waited as u32)),
+            }),
+        }
+    }
+}
+
+/// Judges a comparator time-to-threshold, with a steady-current reading when there is one.
+///
+/// - Time only: before the band (less `model_margin`) → [`Finding::ShortedTurns`], before
+///   `short_fraction` of the band's minimum → [`Finding::ShortCircuit`]; after the band →
+///   [`Finding::SlowRise`]; never crossed although watched past the band → [`Finding::OpenCircuit`].
+/// - With a steady current `I` (above the threshold): `τ = t/ln(I/(I − I_th))` and `s = I/τ` are
+///   judged as a fitted rise, each with `model_margin` plus the sensitivity of τ to a
+///   `model_margin` error in I. Not crossed: the steady reading is judged alone
+///   ([`judge_steady`]).
+///
+/// Never panics; negative or non-finite times and currents are
+/// [`Finding::SensorImplausible`].
+pub fn judge_threshold(
+    reading: ThresholdReading,
+    band: &ThresholdBand,
+    steady: Option<Amps>,
+    expected: &Expected,
+    criteria: &Criteria,
+) -> Verdict {
+    let m = criteria.model_margin;
+    let none = Estimates::default();
+    let t_lo = band.time.min.value() * (1.0 - m);
+    let t_hi = band.time.max.value() * (1.0 + m);
+    match reading {
+        ThresholdReading::Crossed(t) => {
+            let t = t.value();
+            if !(t.is_finite() && t >= 0.0) {
+                return Verdict::new(Finding::SensorImplausible(TraceFault::BadTime), none);
+            }
+            if let Some(i) = steady {
+                let i = i.value();
+                let i_th = band.threshold.value();
+                if !i.is_finite() {
+                    return Verdict::new(
+                        Finding::SensorImplausible(TraceFault::NotFinite { index: 0 }),
+                        none,
+                    );
+                }
+                if i <= i_th * (1.0 + m) || t <= 0.0 {
+                    return Verdict::new(Finding::SensorImplausible(TraceFault::Inconsistent), none);
+                }
+                // τ = t / ln(I/(I − I_th)); d ln τ / d ln I = (I_th/(I − I_th)) / ln(I/(I − I_th)).
+                let g = libm::log1pf(i_th / (i - i_th));
+                let tau = t / g;
+                let sens = (i_th / (i - i_th)) / g;
+                let half_tau = m + sens * m;
+                let mut est = estimates(expected, i, Some(tau));
+                let finding = if finite_pos(tau).is_none() {
+                    Finding::SensorImplausible(TraceFault::Inconsistent)
+                } else {
+                    judge_slope_tau(i / tau, tau, half_tau + m, Some(half_tau), expected, criteria)
+                };
+                est.quality = None;
+                return Verdict::new(finding, est);
+            }
+            let finding = if t < t_lo * criteria.short_fraction {
+                Finding::ShortCircuit
+            } else if t < t_lo {
+                Finding::ShortedTurns
+            } else if t > t_hi {
+                Finding::SlowRise
+            } else {
+                healthy_or_supply(expected)
+            };
+            Verdict::new(finding, none)
+        }
+        ThresholdReading::NotCrossed { waited } => {
+            let w = waited.value();
+            if !(w.is_finite() && w >= 0.0) {
+                return Verdict::new(Finding::SensorImplausible(TraceFault::BadTime), none);
+            }
+            if w <= t_hi {
+                return Verdict::new(Finding::CannotTell(Undetermined::NotYet), none);
+            }
+            match steady {
+                Some(i) => judge_steady(i, expected, criteria),
+                None => Verdict::new(
+                    if expected.supply_below_design {
+                        Finding::SupplyLow
+                    } else {
+                        Finding::OpenCircuit
+                    },
+                    none,
+                ),
+            }
+        }
+    }
+}
+
+/// Judges a steady (final) current reading alone against the final-current band
+/// ([`Expected::final_current`], the hull of `k_s·V_d/R_on`), widened by `model_margin`. Below the band → [`Finding::ShortedTurns`] (beyond
+/// `short_current` × the band's top → [`Finding::ShortCircuit`]); above →
+/// [`Finding::HighResistance`] (assuming the supply within its band: without a supply reading a
+/// low supply reads the same); below `open_fraction` of the band → [`Finding::OpenCircuit`].
+///
+/// Never panics.
+pub fn judge_steady(current: Amps, expected: &Expected, criteria: &Criteria) -> Verdict {
+    let i = current.value();
+    let m = criteria.model_margin;
+    if !i.is_finite() {
+        return Verdict::new(
+            Finding::SensorImplausible(TraceFault::NotFinite { index: 0 }),
+            Estimates::default(),
+        );
+    }
+    let est = estimates(expected, i, None);
+    let i_min = expected.final_current.min.value();
+    let i_max = expected.final_current.max.value();
+    if i < -m * i_min {
+        return Verdict::new(
+            Finding::SensorImplausible(TraceFault::BelowZero { index: 0 }),
+            est,
+        );
+    }
+    if i <= criteria.open_fraction * i_min {
+        return Verdict::new(
+            if expected.supply_below_design {
+                Finding::SupplyLow
+            } else {
+                Finding::OpenCircuit
+            },
+            est,
+        );
+    }
+    let finding = if i > i_max * criteria.short_current {
+        Finding::ShortCircuit
+    } else if i > i_max * (1.0 + m) {
+        Finding::ShortedTurns
+    } else if i < i_min * (1.0 - m) {
+        if expected.supply_below_design {
+            Finding::SupplyLow
+        } else {
+            Finding::HighResistance
+        }
+    } else {
+        healthy_or_supply(expected)
+    };
+    Verdict::new(finding, est)
+}
