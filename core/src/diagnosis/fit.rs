@@ -52,9 +52,10 @@ const LAMBDA_MAX: f32 = 10.0;
 #[cfg_attr(feature = "defmt", derive(defmt::Format))]
 #[non_exhaustive]
 pub struct FitOptions {
-    /// Gauss–Newton passes after the one-pass estimate, 1 ≤ n ≤ [`MAX_REFINEMENTS`] (clamped).
+    /// Gauss–Newton passes after the one-pass estimate, 0 ≤ n ≤ [`MAX_REFINEMENTS`] (clamped).
     /// Each costs one pass over the buffer. Passes stop early once a step changes both parameters
-    /// by less than 10⁻⁵ (relative).
+    /// by less than 10⁻⁵ (relative). 0 keeps the closed-form one-pass estimate and spends one pass
+    /// on its residuals and standard errors only.
     pub refinements: u8,
 }
 
@@ -346,6 +347,7 @@ pub fn fit_rise<S: Sample>(
         return Err(TraceFault::NoConvergence);
     }
     let mut lambda = clamp(sv.lambda, LAMBDA_MIN, LAMBDA_MAX);
+    let apply = options.refinements > 0;
     let passes = options.refinements.clamp(1, MAX_REFINEMENTS);
     let mut last = None;
     for _ in 0..passes {
@@ -362,6 +364,10 @@ pub fn fit_rise<S: Sample>(
             LAMBDA_MIN,
             LAMBDA_MAX,
         );
+        if !apply {
+            last = Some((p, det, true, p.rr));
+            break;
+        }
         let full_step = new_sigma == sigma + d_sigma && new_lambda == lambda + d_lambda;
         let settled = (d_sigma / sigma).abs() < 1.0e-5 && (d_lambda / lambda).abs() < 1.0e-5;
         // Residual after the step, predicted to second order: Σr² − gᵀΔ.

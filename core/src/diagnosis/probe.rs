@@ -119,3 +119,77 @@ impl Probe {
         judge_trace(&samples[..within], sampling, expected, criteria, options)
     }
 }
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::diagnosis::band::tests::valve_design;
+    use crate::diagnosis::band::Conditions;
+    use crate::diagnosis::verdict::Finding;
+    use crate::physics::circuit::OperatingPoint;
+    use crate::units::{Celsius, Volts};
+    extern crate std;
+    use std::vec::Vec;
+
+    #[test]
+    fn the_probe_stays_below_its_limit_at_the_fastest_corner() {
+        let d = valve_design();
+        let p = Probe::new(&d, 0.5).unwrap();
+        // Fastest corner worked by hand: 26.4 V, L = 0.27 H, R_w = 180·0.9·(1 − 0.00393·60)
+        // = 123.80 Ω, R_on = 123.80 + 0.4 + 0.495 + 0.1 = 124.795 Ω; limit 0.5·15/180 A.
+        let (i_inf, tau) = (26.4f64 / 124.795, 0.27f64 / 124.795);
+        let limit = 0.5 * 15.0 / 180.0;
+        let t = tau * (i_inf / (i_inf - limit)).ln();
+        assert!((p.duration.value() as f64) <= t);
+        // Rounded down: one more tick would pass the limit's time.
+        assert!((p.length.get() + 1) as f64 / 1e6 > t);
+        assert!((p.limit.value() as f64 - limit).abs() < 1e-7);
+        let op = OperatingPoint {
+            supply: Volts::new(26.4),
+            temperature: Celsius::new(-40.0),
+            resistance_factor: 0.9,
+            inductance_factor: 0.9,
+            sense_factor: 0.99,
+        };
+        let rise = d
+            .circuit
+            .energize(&op, Armature::Released, Amps::new(0.0))
+            .unwrap();
+        assert!(rise.value_at(p.duration).unwrap() <= p.limit.value());
+        assert!(Probe::new(&d, 1.0).is_err());
+        assert!(Probe::new(&d, f32::NAN).is_err());
+        assert!(p.sample_period(0).is_err());
+    }
+
+    #[test]
+    fn a_probe_of_a_nominal_coil_is_healthy_and_of_a_shorted_one_is_not() {
+        let d = valve_design();
+        let p = Probe::new(&d, 0.5).unwrap();
+        let n = 64;
+        let dt = p.sample_period(n).unwrap();
+        let sampling = Sampling::adc(dt, 12, Amps::new(0.25))
+            .unwrap()
+            .with_first_sample(dt)
+            .unwrap()
+            .with_noise(0.5)
+            .unwrap();
+        let cond = Conditions::default();
+        let e = Expected::new(&d, &cond).unwrap();
+        let trace = |r_w: f64, l: f64| -> Vec<u16> {
+            let r_on = r_w + 1.0;
+            (1..=n)
+                .map(|k| {
+                    let t = k as f64 * dt.value() as f64;
+                    let i = 24.0 / r_on * -(-t * r_on / l).exp_m1();
+                    (i / (0.25 / 4095.0)).round() as u16
+                })
+                .collect()
+        };
+        let c = Criteria::default();
+        let o = FitOptions::default();
+        let v = p.judge(&trace(180.0, 0.30), &sampling, &e, &c, &o);
+        assert_eq!(v.finding, Finding::Healthy, "{v:?}");
+        let v = p.judge(&trace(90.0, 0.075), &sampling, &e, &c, &o);
+        assert_eq!(v.finding, Finding::ShortedTurns, "{v:?}");
+    }
+}
