@@ -365,7 +365,8 @@ pub fn fit_rise<S: Sample>(
             LAMBDA_MAX,
         );
         if !apply {
-            last = Some((p, det, true, p.rr));
+            let rr = p.rr;
+            last = Some((p, det, true, rr));
             break;
         }
         let full_step = new_sigma == sigma + d_sigma && new_lambda == lambda + d_lambda;
