@@ -61,7 +61,15 @@ pub struct FitOptions {
 
 impl Default for FitOptions {
     fn default() -> Self {
-        Self { refinements: 2 }
+        Self { refinements: 1 }
+    }
+}
+
+impl FitOptions {
+    /// The same options with `refinements` passes (see the field).
+    pub const fn with_refinements(mut self, refinements: u8) -> Self {
+        self.refinements = refinements;
+        self
     }
 }
 

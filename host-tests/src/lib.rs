@@ -1,0 +1,1 @@
+//! Host-side tests and simulation for `coilwise`.
