@@ -311,10 +311,15 @@ fn diagnostic_pulse_campaign() {
         let (mut a, mut b) = (Row::default(), Row::default());
         for _ in 0..count {
             let coil = draw(&mut rng, truth, HELD);
-            let step = (dt.value() as f64 / 20.0).min(coil.plant.l_released / coil.plant.resistance / 20.0);
+            let step = (dt.value() as f64 / 20.0)
+                .min(coil.plant.l_released / coil.plant.resistance / 20.0);
             let (current, _) = coil.plant.simulate(&times, step);
             let measured: Vec<f64> = current.iter().map(|i| i * coil.sense).collect();
-            let noise = if truth == Truth::SensorNoisy { 40.0 } else { NOISE };
+            let noise = if truth == Truth::SensorNoisy {
+                40.0
+            } else {
+                NOISE
+            };
             let mut counts = adc(&measured, full_scale, 12, noise, &mut rng);
             match truth {
                 Truth::SensorStuck => counts.fill(rng.uniform(500.0, 3500.0) as u16),
@@ -447,6 +452,14 @@ fn armature_campaign() {
                 stuck.add_with(v.finding == Finding::ArmatureStuck, &v.finding);
             } else {
                 moving.add_with(v.finding == Finding::Healthy, &v.finding);
+                if v.finding != Finding::Healthy {
+                    println!(
+                        "moving armature judged {:?}: operate at {:.0} % of must-operate, {:?}",
+                        v.finding,
+                        100.0 * operate / i_pull,
+                        v.estimates.movement
+                    );
+                }
                 if matches!(v.estimates.movement, Some(Movement::Moved { .. })) {
                     moved_seen += 1;
                 }
@@ -470,7 +483,10 @@ fn armature_campaign() {
         "movement seen in {moved_seen}/{count} moving coils ({not_seated} not seated by the end); {:.2} s",
         started.elapsed().as_secs_f64()
     );
-    assert_eq!(not_seated, 0, "the simulated armature must seat within the trace");
+    assert_eq!(
+        not_seated, 0,
+        "the simulated armature must seat within the trace"
+    );
     // A stuck armature is reported in ≥ 99 % of cases; a moving one is not called stuck in
     // ≥ 99 %, and the coil verdict before the movement stays healthy in ≥ 99 %.
     assert!(stuck.rate(stuck.right) >= 0.99);

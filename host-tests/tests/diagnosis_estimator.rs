@@ -82,10 +82,7 @@ fn crb(c: &Case) -> (f64, f64) {
     }
     let s2 = c.sigma * c.sigma;
     let det = a * d - b * b;
-    (
-        (s2 * d / det).sqrt() / c.i_inf,
-        (s2 * a / det).sqrt() / TAU,
-    )
+    ((s2 * d / det).sqrt() / c.i_inf, (s2 * a / det).sqrt() / TAU)
 }
 
 struct RiseProblem<'a> {

@@ -180,9 +180,7 @@ mod tests {
             .collect();
         assert_eq!(
             detect_movement(&t, &s, &MovementCriteria::default()),
-            Ok(Movement::NotSeen {
-                by: s.time_of(99)
-            })
+            Ok(Movement::NotSeen { by: s.time_of(99) })
         );
         assert!(detect_movement::<u16>(&[], &s, &MovementCriteria::default()).is_err());
         let f = Sampling::new(Seconds::new(1e-4), 1.0).unwrap();

@@ -388,8 +388,7 @@ impl ThresholdBand {
             let rise = design
                 .circuit
                 .energize(&op, Armature::Released, Amps::new(0.0))?;
-            let measured =
-                FirstOrder::new(0.0, op.sense_factor * rise.asymptote(), rise.tau())?;
+            let measured = FirstOrder::new(0.0, op.sense_factor * rise.asymptote(), rise.tau())?;
             hull.add(measured.time_to(i_th)?.value());
         }
         let h = hull.finite()?;

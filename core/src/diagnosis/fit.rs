@@ -227,14 +227,13 @@ fn survey<S: Sample>(samples: &[S], sampling: &Sampling) -> Result<Survey, Trace
         return Err(TraceFault::SaturatedEarly { index: used as u32 });
     }
     if used < MIN_SAMPLES {
-        return Err(TraceFault::TooFewSamples { usable: used as u32 });
+        return Err(TraceFault::TooFewSamples {
+            usable: used as u32,
+        });
     }
     let d = suu * sjj - suj * suj;
     let (mut sigma, mut lambda) = if d > 1.0e-6 * suu * sjj && d.is_finite() {
-        (
-            (scu * sjj - suj * scj) / d,
-            (suj * scu - suu * scj) / d,
-        )
+        ((scu * sjj - suj * scj) / d, (suj * scu - suu * scj) / d)
     } else {
         (scu / suu, 0.0)
     };
@@ -395,7 +394,7 @@ pub fn fit_rise<S: Sample>(
     let Some((p, det, full_step, rr)) = last else {
         return Err(TraceFault::NoConvergence);
     };
-    if !full_step || !(sigma.is_finite() && lambda.is_finite()) {
+    if !(full_step && sigma.is_finite() && lambda.is_finite()) {
         return Err(TraceFault::NoConvergence);
     }
     let dof = (n - 2.0).max(1.0);
@@ -508,7 +507,11 @@ pub(crate) mod tests {
                 .unwrap();
             let f = fit_rise(&s, &sm, &FitOptions::default()).unwrap();
             let rel = |a: f32, b: f64| ((a as f64 - b) / b).abs();
-            assert!(rel(f.tau.value(), tau) < 2e-5, "tau {} vs {tau}", f.tau.value());
+            assert!(
+                rel(f.tau.value(), tau) < 2e-5,
+                "tau {} vs {tau}",
+                f.tau.value()
+            );
             assert!(rel(f.final_current.value(), 0.12) < 2e-5);
             assert!(rel(f.slope, 0.12 / tau) < 2e-5);
             assert!(f.quality.noise_ratio < 3.0);

@@ -48,8 +48,8 @@ pub struct Sampling {
 }
 
 impl Sampling {
-    /// Samples every `period` (s, finite, > 0) scaled by `amps_per_count` (A per count, finite,
-    /// > 0; 1.0 for samples already in amperes). Defaults: first sample at switch-on (t = 0), zero
+    /// Samples every `period` (s, finite, positive) scaled by `amps_per_count` (A per count,
+    /// finite, positive; 1.0 for samples already in amperes). Defaults: first sample at switch-on (t = 0), zero
     /// at count 0, no saturation level, no noise beyond quantisation.
     ///
     /// # Errors
@@ -229,7 +229,11 @@ mod tests {
         assert!(Sampling::new(Seconds::new(0.0), 1.0).is_err());
         assert!(Sampling::new(Seconds::new(1e-4), f32::NAN).is_err());
         assert!(s.with_first_sample(Seconds::new(-1.0)).is_err());
-        assert!(s.with_zero(5000.0).unwrap().with_full_scale(4095.0).is_err());
+        assert!(s
+            .with_zero(5000.0)
+            .unwrap()
+            .with_full_scale(4095.0)
+            .is_err());
         assert!(s.with_noise(-0.1).is_err());
         assert!((s.time_of(10).value() - 5e-4).abs() < 1e-9);
     }

@@ -52,6 +52,9 @@ pub enum Undetermined {
     RangeTooSmall,
     /// The comparator has not crossed yet, and a healthy coil may still be rising.
     NotYet,
+    /// The armature started to move so early that too little of the rise before it is left to
+    /// judge the coil (sample faster, or judge the coil with a diagnostic pulse).
+    MovementTooEarly,
 }
 
 /// The finding of a diagnosis.
@@ -196,6 +199,11 @@ fn ln_span(min: f32, max: f32) -> Span<f32> {
     }
 }
 
+/// `x ≤ limit`, false when either is NaN (so a NaN figure never passes a check).
+fn at_most(x: f32, limit: f32) -> bool {
+    x <= limit
+}
+
 fn finite_pos(x: f32) -> Option<f32> {
     if x.is_finite() && x > 0.0 {
         Some(x)
@@ -311,10 +319,10 @@ pub fn judge_rise(fit: &RiseFit, expected: &Expected, criteria: &Criteria) -> Ve
     est.quality = Some(q);
     let fail = |f| Verdict::new(f, est);
     // A NaN ratio or error fails every comparison below and so is never trusted.
-    if !(q.noise_ratio <= criteria.max_noise_ratio) {
+    if !at_most(q.noise_ratio, criteria.max_noise_ratio) {
         return fail(Finding::SensorImplausible(TraceFault::PoorFit));
     }
-    if !(q.rel_sd_slope <= criteria.max_rel_sd) || !(fit.slope > 0.0) {
+    if !at_most(q.rel_sd_slope, criteria.max_rel_sd) || !at_most(f32::MIN_POSITIVE, fit.slope) {
         return fail(Finding::CannotTell(Undetermined::TooLittleSignal));
     }
     let k = criteria.sigmas;
@@ -395,7 +403,9 @@ pub fn judge_trace<S: Sample>(
 }
 
 /// Judges a full actuation trace: finds the armature's dip ([`detect_movement`]), judges the coil
-/// from the rise before the movement, and reports [`Finding::ArmatureStuck`] when no dip was seen
+/// from the rise before the movement (up to `pre_movement_fraction` of the peak; when that fits
+/// badly because the armature was already moving, once more on 60 % of it, else
+/// [`Undetermined::MovementTooEarly`]), and reports [`Finding::ArmatureStuck`] when no dip was seen
 /// although the current passed pull-in (measured, high sense corner) and the operate allowance has
 /// run out, or the trace outlasts [`Expected::movement_by`].
 ///
@@ -411,18 +421,48 @@ pub fn judge_actuation<S: Sample>(
         Ok(m) => m,
         Err(f) => return judge_trace_fault(f, sampling, expected, criteria),
     };
-    let window = match movement {
-        Movement::Moved { peak, .. } => {
-            let limit = criteria.pre_movement_fraction * peak.value();
-            let end = samples
-                .iter()
-                .position(|s| !(sampling.amps(s.to_f32()) <= limit))
-                .unwrap_or(samples.len());
-            &samples[..end]
-        }
-        Movement::NotSeen { .. } => samples,
+    let prefix = |fraction: f32, peak: f32| {
+        let limit = fraction * peak;
+        let end = samples
+            .iter()
+            .position(|s| !at_most(sampling.amps(s.to_f32()), limit))
+            .unwrap_or(samples.len());
+        &samples[..end]
     };
-    let mut v = judge_trace(window, sampling, expected, criteria, options);
+    let mut v = match movement {
+        Movement::Moved { peak, .. } => {
+            // The rise before the dip, up to a fraction of the peak; if the armature was already
+            // moving within it (residuals far above noise), once more on 60 % of that window.
+            let f = criteria.pre_movement_fraction;
+            let first = judge_trace(
+                prefix(f, peak.value()),
+                sampling,
+                expected,
+                criteria,
+                options,
+            );
+            if first.finding == Finding::SensorImplausible(TraceFault::PoorFit) {
+                let second = judge_trace(
+                    prefix(0.6 * f, peak.value()),
+                    sampling,
+                    expected,
+                    criteria,
+                    options,
+                );
+                match second.finding {
+                    Finding::SensorImplausible(TraceFault::PoorFit)
+                    | Finding::CannotTell(Undetermined::TooFewSamples) => Verdict::new(
+                        Finding::CannotTell(Undetermined::MovementTooEarly),
+                        second.estimates,
+                    ),
+                    _ => second,
+                }
+            } else {
+                first
+            }
+        }
+        Movement::NotSeen { .. } => judge_trace(samples, sampling, expected, criteria, options),
+    };
     v.estimates.movement = Some(movement);
     if let Movement::NotSeen { by } = movement {
         if v.finding == Finding::Healthy {
@@ -530,7 +570,10 @@ pub fn judge_threshold(
                     );
                 }
                 if i <= i_th * (1.0 + m) || t <= 0.0 {
-                    return Verdict::new(Finding::SensorImplausible(TraceFault::Inconsistent), none);
+                    return Verdict::new(
+                        Finding::SensorImplausible(TraceFault::Inconsistent),
+                        none,
+                    );
                 }
                 // τ = t / ln(I/(I − I_th)); d ln τ / d ln I = (I_th/(I − I_th)) / ln(I/(I − I_th)).
                 let g = libm::log1pf(i_th / (i - i_th));
@@ -541,7 +584,14 @@ pub fn judge_threshold(
                 let finding = if finite_pos(tau).is_none() {
                     Finding::SensorImplausible(TraceFault::Inconsistent)
                 } else {
-                    judge_slope_tau(i / tau, tau, half_tau + m, Some(half_tau), expected, criteria)
+                    judge_slope_tau(
+                        i / tau,
+                        tau,
+                        half_tau + m,
+                        Some(half_tau),
+                        expected,
+                        criteria,
+                    )
                 };
                 est.quality = None;
                 return Verdict::new(finding, est);
@@ -714,7 +764,10 @@ mod tests {
             Finding::SupplyLow
         );
         assert_eq!(judge(&[0u16; 64], &at_20c()).finding, Finding::OpenCircuit);
-        assert_eq!(judge(&[4095u16; 64], &at_20c()).finding, Finding::ShortCircuit);
+        assert_eq!(
+            judge(&[4095u16; 64], &at_20c()).finding,
+            Finding::ShortCircuit
+        );
         let Finding::SensorImplausible(TraceFault::Flat { level }) =
             judge(&[2000u16; 64], &at_20c()).finding
         else {
@@ -804,8 +857,13 @@ mod tests {
         let r =
             ThresholdReading::from_instants(rate, on, Some(Instant(900)), Instant(2000)).unwrap();
         assert_eq!(r, ThresholdReading::Crossed(Seconds::new(1000e-6)));
-        assert!(ThresholdReading::from_instants(rate, on, Some(Instant(u32::MAX - 200)), Instant(5))
-            .is_err());
+        assert!(ThresholdReading::from_instants(
+            rate,
+            on,
+            Some(Instant(u32::MAX - 200)),
+            Instant(5)
+        )
+        .is_err());
         assert!(ThresholdReading::from_instants(rate, Instant(100), None, Instant(50)).is_err());
     }
 

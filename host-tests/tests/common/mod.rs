@@ -176,7 +176,10 @@ mod checks {
         let (i, _) = p.simulate(&times, tau / 50.0);
         for (t, i) in times.iter().zip(&i) {
             let exact = 24.0 / 181.0 * -(-t / tau).exp_m1();
-            assert!((i - exact).abs() < 1e-9 * 24.0 / 181.0, "{t}: {i} vs {exact}");
+            assert!(
+                (i - exact).abs() < 1e-9 * 24.0 / 181.0,
+                "{t}: {i} vs {exact}"
+            );
         }
     }
 }
