@@ -6,7 +6,8 @@
 //! Layers, each using only the ones above it:
 //!
 //! - [`units`], [`error`], [`time`]: SI newtypes, the error type, timer ticks;
-//! - [`physics`]: the coil and its drive circuit, rise, release per clamp, energy, off-time;
+//! - [`physics`]: the coil and its drive circuit, rise, release per clamp, energy, off-time,
+//!   switch drive check, hold PWM, coil heating, capacitive nodes;
 //! - [`design`]: one call for a whole driver design's timing budget;
 //! - [`diagnosis`]: coil faults from the measured current rise (bands, fit, verdicts).
 //!
@@ -23,7 +24,7 @@ pub mod physics;
 pub mod time;
 pub mod units;
 
-pub use design::{DriverDesign, Figures, TickBudget, TimingBudget};
+pub use design::{DriverDesign, Figures, TickBudget, TimingBudget, CORNER_COUNT};
 pub use diagnosis::{Finding, Verdict};
 pub use error::{Error, Limit, Param, Why};
 pub use physics::circuit::{
@@ -31,6 +32,13 @@ pub use physics::circuit::{
 };
 pub use physics::clamp::{Clamp, ClampKind, EnergySplit, Release};
 pub use physics::coil::{Armature, Coil};
+pub use physics::drive::{
+    check_bipolar, check_mosfet, BaseDrive, BipolarCheck, GateDrive, MosfetCheck, COMMON_OVERDRIVE,
+};
 pub use physics::first_order::FirstOrder;
+pub use physics::heating::SelfHeating;
+pub use physics::hold::Hold;
+pub use physics::rc_node::{RcNode, SwitchOffEdge};
+pub use physics::snubber::{SnubberEnergy, SnubberRelease};
 pub use time::{Instant, TickRate, Ticks};
 pub use units::*;

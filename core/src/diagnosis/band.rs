@@ -35,12 +35,12 @@
 //! are evaluated (the cost is 32 resolves), so no sign above is relied on to pick one corner; the
 //! tests check random interior points against the bands.
 
-use crate::design::DriverDesign;
+use crate::design::{DriverDesign, CORNER_COUNT};
 use crate::error::{positive, Error, Param, Why};
-use crate::physics::circuit::{OperatingPoint, TemperatureRange};
+use crate::physics::circuit::{OperatingPoint, SupplyRange, TemperatureRange};
 use crate::physics::coil::{Armature, Coil};
 use crate::physics::first_order::FirstOrder;
-use crate::units::{Amps, Celsius, Henries, Ohms, Seconds, Volts};
+use crate::units::{Amps, Henries, Ohms, Seconds, Volts};
 
 /// A closed interval `[min, max]` of one quantity.
 #[derive(Clone, Copy, Debug, PartialEq)]
@@ -202,27 +202,27 @@ pub struct Expected {
     drive_mid: f32,
 }
 
-/// The toleranced inputs at one corner: index bit 0 = resistance, 1 = inductance, 2 =
-/// temperature, 3 = supply, 4 = sense; bit set = high end.
-pub(crate) fn corner(
+/// The design with its supply and temperature ranges replaced by what the conditions say, so that
+/// [`DriverDesign::corner`] walks the narrowed box.
+pub(crate) fn narrowed(
     design: &DriverDesign,
-    supply: Span<f32>,
-    temperature: Span<f32>,
-    index: u8,
-) -> OperatingPoint {
-    let t = &design.tolerances;
-    let pick = |bit: u8, lo: f32, hi: f32| if index & (1 << bit) != 0 { hi } else { lo };
-    OperatingPoint {
-        resistance_factor: pick(0, 1.0 - t.resistance, 1.0 + t.resistance),
-        inductance_factor: pick(1, 1.0 - t.inductance, 1.0 + t.inductance),
-        temperature: Celsius::new(pick(2, temperature.min, temperature.max)),
-        supply: Volts::new(pick(3, supply.min, supply.max)),
-        sense_factor: pick(4, 1.0 - t.sense, 1.0 + t.sense),
+    conditions: &Conditions,
+) -> Result<DriverDesign, Error> {
+    let mut d = *design;
+    if let Some(r) = conditions.supply {
+        let s = r.span();
+        d.supply = SupplyRange::new(s.min, r.volts(), s.max)?;
     }
+    if let Some(t) = conditions.winding_temperature {
+        d.temperature = t;
+    }
+    Ok(d)
 }
 
-/// Number of tolerance corners evaluated: 2⁵.
-pub const CORNERS: u8 = 32;
+/// Every corner of the (narrowed) tolerance box.
+pub(crate) fn corners(d: &DriverDesign) -> impl Iterator<Item = OperatingPoint> + '_ {
+    (0..CORNER_COUNT).map_while(|k| d.corner(k))
+}
 
 impl Expected {
     /// The bands of `design` under `conditions`, each the hull of its value over the 32 tolerance
@@ -236,19 +236,8 @@ impl Expected {
     /// drive voltage.
     pub fn new(design: &DriverDesign, conditions: &Conditions) -> Result<Self, Error> {
         design.tolerances.validate()?;
+        let d = narrowed(design, conditions)?;
         let c = &design.circuit;
-        let supply = match conditions.supply {
-            Some(r) => r.span().to_f32(),
-            None => Span {
-                min: design.supply.min().value(),
-                max: design.supply.max().value(),
-            },
-        };
-        let tr = conditions.winding_temperature.unwrap_or(design.temperature);
-        let temperature = Span {
-            min: tr.min().value(),
-            max: tr.max().value(),
-        };
         let operate = crate::error::non_negative(design.operate_allowance.value(), Param::Time)?;
         let (mut i_inf, mut tau, mut slope, mut r_on, mut ind, mut drive) = (
             Hull::EMPTY,
@@ -261,8 +250,7 @@ impl Expected {
         let mut latest_pull_in = Hull::EMPTY;
         let mut always_pulls_in = true;
         let i_pull = c.coil().pull_in_current().value();
-        for index in 0..CORNERS {
-            let op = corner(design, supply, temperature, index);
+        for op in corners(&d) {
             let resolved = c.resolve(&op)?;
             let rise = c.energize(&op, Armature::Released, Amps::new(0.0))?;
             let k_s = op.sense_factor;
@@ -322,7 +310,7 @@ impl Expected {
             pull_in_reading: Amps::new(i_pull * (1.0 + design.tolerances.sense)),
             operate_allowance: Seconds::new(operate),
             supply_measured: conditions.supply.is_some(),
-            supply_below_design: supply.max < design.supply.min().value(),
+            supply_below_design: d.supply.max().value() < design.supply.min().value(),
             coil: *c.coil(),
             external: c.wiring().value() + nominal_sense + switch_r,
             drive_mid: 0.5 * (drive.min + drive.max),
@@ -370,21 +358,9 @@ impl ThresholdBand {
     ) -> Result<Self, Error> {
         let i_th = positive(threshold.value(), Param::Current)?;
         design.tolerances.validate()?;
-        let supply = match conditions.supply {
-            Some(r) => r.span().to_f32(),
-            None => Span {
-                min: design.supply.min().value(),
-                max: design.supply.max().value(),
-            },
-        };
-        let tr = conditions.winding_temperature.unwrap_or(design.temperature);
-        let temperature = Span {
-            min: tr.min().value(),
-            max: tr.max().value(),
-        };
+        let d = narrowed(design, conditions)?;
         let mut hull = Hull::EMPTY;
-        for index in 0..CORNERS {
-            let op = corner(design, supply, temperature, index);
+        for op in corners(&d) {
             let rise = design
                 .circuit
                 .energize(&op, Armature::Released, Amps::new(0.0))?;
@@ -405,9 +381,10 @@ impl ThresholdBand {
 #[cfg(test)]
 pub(crate) mod tests {
     use super::*;
-    use crate::physics::circuit::{Circuit, SupplyRange, Switch, Tolerances, Topology};
+    use crate::physics::circuit::{Circuit, Switch, Tolerances, Topology};
     use crate::physics::clamp::Clamp;
     use crate::time::TickRate;
+    use crate::units::Celsius;
 
     /// Invented demo design: a greenhouse controller's 24 V valve, 180 Ω, 0.30/0.45 H, must-operate
     /// 15 V, low-side MOSFET, 0.5 Ω sense, ±10 % supply, −40…+85 °C winding.

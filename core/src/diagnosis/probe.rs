@@ -6,7 +6,7 @@
 //! verdicts of [`super::verdict::judge_rise`] apply; τ is less precise than from a full rise, and a
 //! window too short to fix it gives [`super::verdict::Undetermined::WindowTooShort`].
 
-use super::band::{corner, Expected, Span, CORNERS};
+use super::band::{corners, Expected};
 use super::fit::FitOptions;
 use super::sample::{Sample, Sampling};
 use super::verdict::{judge_trace, Criteria, Verdict};
@@ -48,18 +48,9 @@ impl Probe {
         }
         design.tolerances.validate()?;
         let limit = f * design.circuit.coil().pull_in_current().value();
-        let supply = Span {
-            min: design.supply.min().value(),
-            max: design.supply.max().value(),
-        };
-        let temperature = Span {
-            min: design.temperature.min().value(),
-            max: design.temperature.max().value(),
-        };
         let mut shortest = f32::INFINITY;
         let mut highest = 0.0f32;
-        for index in 0..CORNERS {
-            let op = corner(design, supply, temperature, index);
+        for op in corners(design) {
             let rise = design
                 .circuit
                 .energize(&op, Armature::Released, Amps::new(0.0))?;
