@@ -27,7 +27,7 @@
 //! pass [`Criteria`].
 
 use super::armature::{detect_movement, Movement, MovementCriteria};
-use super::band::{Expected, Span, ThresholdBand};
+use super::band::{Expected, ThresholdBand};
 use super::fit::{fit_rise, FitOptions, FitQuality, RiseFit, TraceFault};
 use super::sample::{Sample, Sampling};
 use crate::error::{Error, Param, Why};
@@ -191,14 +191,6 @@ impl Default for Criteria {
     }
 }
 
-/// `ln` of a span's ends.
-fn ln_span(min: f32, max: f32) -> Span<f32> {
-    Span {
-        min: libm::logf(min),
-        max: libm::logf(max),
-    }
-}
-
 /// `x ≤ limit`, false when either is NaN (so a NaN figure never passes a check).
 fn at_most(x: f32, limit: f32) -> bool {
     x <= limit
@@ -248,6 +240,10 @@ fn healthy_or_supply(expected: &Expected) -> Finding {
 }
 
 /// Judges slope and τ with their relative half-widths (already including sigmas and margin).
+///
+/// The interval arithmetic of the module docs in ratio form (no logarithms): a relative
+/// half-width `w` widens `[a, b]` to `[a/(1 + w), b·(1 + w)]`, which is `ln(1 + w) ≈ w` wide
+/// either side in logarithms.
 fn judge_slope_tau(
     slope: f32,
     tau: f32,
@@ -256,31 +252,20 @@ fn judge_slope_tau(
     expected: &Expected,
     criteria: &Criteria,
 ) -> Finding {
-    let nu = ln_span(
-        expected.sensed_drive.min.value(),
-        expected.sensed_drive.max.value(),
-    );
-    let ell = ln_span(
-        expected.inductance.min.value(),
-        expected.inductance.max.value(),
-    );
-    let h = ln_span(
-        expected.loop_resistance.min.value(),
-        expected.loop_resistance.max.value(),
-    );
-    let ls = libm::logf(slope);
-    let l_est = Span {
-        min: nu.min - ls - half_slope,
-        max: nu.max - ls + half_slope,
-    };
-    if l_est.max < ell.min {
-        return if l_est.max < ell.min + libm::logf(criteria.short_fraction) {
+    let ws = 1.0 + half_slope;
+    // Inductance the slope implies: L = k_s·V_d / s.
+    let l_lo = expected.sensed_drive.min.value() / (slope * ws);
+    let l_hi = expected.sensed_drive.max.value() * ws / slope;
+    let ell_lo = expected.inductance.min.value();
+    let ell_hi = expected.inductance.max.value();
+    if l_hi < ell_lo {
+        return if l_hi < ell_lo * criteria.short_fraction {
             Finding::ShortCircuit
         } else {
             Finding::ShortedTurns
         };
     }
-    if l_est.min > ell.max {
+    if l_lo > ell_hi {
         return if expected.supply_measured && !expected.supply_below_design {
             Finding::InductanceHigh
         } else {
@@ -290,18 +275,13 @@ fn judge_slope_tau(
     let Some(half_tau) = half_tau else {
         return Finding::CannotTell(Undetermined::WindowTooShort);
     };
-    let lt = libm::logf(tau);
-    let u = Span {
-        min: l_est.min.max(ell.min),
-        max: l_est.max.min(ell.max),
-    };
-    let r_est = Span {
-        min: u.min - lt - half_tau,
-        max: u.max - lt + half_tau,
-    };
-    if r_est.max < h.min {
+    let wt = 1.0 + half_tau;
+    // The inductance both the slope and the band allow, over τ: R_on = L/τ.
+    let r_lo = l_lo.max(ell_lo) / (tau * wt);
+    let r_hi = l_hi.min(ell_hi) * wt / tau;
+    if r_hi < expected.loop_resistance.min.value() {
         Finding::ShortedTurns
-    } else if r_est.min > h.max {
+    } else if r_lo > expected.loop_resistance.max.value() {
         Finding::HighResistance
     } else {
         healthy_or_supply(expected)
