@@ -487,7 +487,7 @@ pub fn fit_rise<S: Sample>(
 /// against f64). About 12 instructions on a Cortex-M4F, where `libm::sqrtf` is a software loop.
 /// Returns 0 for x ≤ 0 or NaN and x for +∞.
 pub(crate) fn sqrt(x: f32) -> f32 {
-    if !(x > 0.0) {
+    if x.is_nan() || x <= 0.0 {
         return 0.0;
     }
     if x == f32::INFINITY {
