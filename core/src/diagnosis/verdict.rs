@@ -384,8 +384,9 @@ pub fn judge_trace<S: Sample>(
 
 /// Judges a full actuation trace: finds the armature's dip ([`detect_movement`]), judges the coil
 /// from the rise before the movement (up to `pre_movement_fraction` of the peak; when that fits
-/// badly because the armature was already moving, once more on 60 % of it, else
-/// [`Undetermined::MovementTooEarly`]), and reports [`Finding::ArmatureStuck`] when no dip was seen
+/// badly because the armature was already moving, once more on 60 % of it; failing that, a coil
+/// fault found from the first 8 samples alone, else [`Undetermined::MovementTooEarly`]), and
+/// reports [`Finding::ArmatureStuck`] when no dip was seen
 /// although the current passed pull-in (measured, high sense corner) and the operate allowance has
 /// run out, or the trace outlasts [`Expected::movement_by`].
 ///
@@ -431,10 +432,20 @@ pub fn judge_actuation<S: Sample>(
                 );
                 match second.finding {
                     Finding::SensorImplausible(TraceFault::PoorFit)
-                    | Finding::CannotTell(Undetermined::TooFewSamples) => Verdict::new(
-                        Finding::CannotTell(Undetermined::MovementTooEarly),
-                        second.estimates,
-                    ),
+                    | Finding::CannotTell(Undetermined::TooFewSamples) => {
+                        // Last resort: the slope alone from the first samples, before the
+                        // armature has travelled far. Only an inductance fault is taken from it.
+                        let head = &samples[..samples.len().min(EARLY_SAMPLES)];
+                        let early = judge_trace(head, sampling, expected, criteria, options);
+                        if early.finding.is_coil_fault() {
+                            early
+                        } else {
+                            Verdict::new(
+                                Finding::CannotTell(Undetermined::MovementTooEarly),
+                                second.estimates,
+                            )
+                        }
+                    }
                     _ => second,
                 }
             } else {
@@ -464,6 +475,9 @@ pub fn judge_actuation<S: Sample>(
     }
     v
 }
+
+/// Samples of the slope-only last resort of [`judge_actuation`].
+const EARLY_SAMPLES: usize = super::fit::MIN_SAMPLES + 2;
 
 /// A comparator reading: when the measured current crossed the threshold, or how long it was
 /// watched without crossing.
