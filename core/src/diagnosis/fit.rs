@@ -19,13 +19,21 @@
 //! 2. **Refinement**: a bounded number of Gauss–Newton passes over the buffer on the exact model
 //!    (the trapezoid rule and the noise in `J_k` bias step 1 slightly). Each pass computes
 //!    `e_k = 1 − e^(−λκ_k)` by the recurrence `e_{k+1} = q·e_k + (1 − q)`, `q = e^(−λ)`, so a pass
-//!    costs three libm calls in all, and ~15 flops per sample. The last pass gives the residual and
-//!    the curvature matrix, hence the goodness of fit and the standard errors
+//!    costs one or two `expm1f` calls in all, and ~15 flops per sample. The last pass gives the
+//!    residual and the curvature matrix, hence the goodness of fit and the standard errors
 //!    (`cov = σ̂²·(JᵀJ)⁻¹`).
 //!
-//! Accuracy (measured in `host-tests/tests/diagnosis_estimator.rs`): with the default one
-//! refinement the RMS error of τ and of R ∝ 1/I∞ is within a few per cent of the Cramér–Rao bound
-//! for white Gaussian noise; a noise-free trace is recovered to f32 precision.
+//! Accuracy (measured in `host-tests/tests/diagnosis_estimator.rs`, 2000 traces per case, white
+//! Gaussian noise): with the default one refinement the RMS error of τ and of R ∝ 1/I∞ is within
+//! 2 % of the Cramér–Rao bound in every case tried (full rise, early rise of a diagnostic pulse,
+//! 32 to 128 samples), the same as a general-purpose Levenberg–Marquardt fit in f64; the one-pass
+//! estimate alone is within 17 %. A noise-free trace is recovered to f32 precision (property
+//! test).
+//!
+//! Cost (Cortex-M4F, QEMU instruction count, 64 `u16` samples): 3 862 instructions for the fit,
+//! 4 316 with the verdict ([`super::verdict::judge_trace`]); per sample 30 instructions in the
+//! survey pass and 22 per refinement pass, the rest fixed. Stack 248 bytes (fit), 552 (verdict).
+//! On a Cortex-M0 without FPU the same fit takes about 296 000 instructions (soft float).
 
 use super::sample::{Sample, Sampling};
 use crate::units::{Amps, Seconds};
@@ -332,8 +340,9 @@ fn gn_pass<S: Sample>(samples: &[S], zero: f32, k0: f32, sigma: f32, lambda: f32
 /// Samples at or above the saturation level end the window. The trace is checked first; a trace
 /// that cannot be a coil's rise is a [`TraceFault`], never a fit.
 ///
-/// Cost: one survey pass plus `options.refinements` passes (fewer when converged), O(1) memory,
-/// no heap; about 6 libm calls per refinement pass and none per sample.
+/// Cost: one survey pass plus `options.refinements` passes (at least one; fewer when converged),
+/// O(1) memory, no heap; one or two `expm1f` per pass and no libm call per sample (see the
+/// module docs for measured instruction counts).
 ///
 /// Never panics and never returns a non-finite figure, for any input.
 ///
