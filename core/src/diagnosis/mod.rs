@@ -23,4 +23,7 @@ pub use band::{Conditions, Expected, Span, SupplyReading, ThresholdBand};
 pub use fit::{fit_rise, FitOptions, FitQuality, RiseFit, TraceFault};
 pub use probe::Probe;
 pub use sample::{Sample, SampleBuffer, Sampling};
-pub use verdict::{Criteria, Estimates, Finding, ThresholdReading, Undetermined, Verdict};
+pub use verdict::{
+    judge_actuation, judge_rise, judge_steady, judge_threshold, judge_trace, Criteria, Estimates,
+    Finding, ThresholdReading, Undetermined, Verdict,
+};
