@@ -16,9 +16,9 @@
 //! to [`replays`]: it sees the edges in time order with the tick rate.
 
 use coilwise::schedule::{
-    Admission, ChannelId, ChannelLimits, DelayReason, EnergyRate, HeatRatings, HoldDuty, HoldPhase,
-    HoldPlan, PinAction, PinEvent, Refusal, Request, Scheduler, Start, Stopping, ThermalBucket,
-    WakeCause,
+    Admission, ChannelId, ChannelLimits, DelayReason, EdgeBuffer, EnergyRate, HeatRatings,
+    HoldDuty, HoldPhase, HoldPlan, PinAction, PinEvent, Refusal, Request, Scheduler, Start,
+    Stopping, ThermalBucket, WakeCause,
 };
 use coilwise::{
     Amps, Celsius, Circuit, Clamp, Coil, DriverDesign, Henries, Hertz, Instant, Ohms,
@@ -792,7 +792,7 @@ impl Driver {
 
     fn poll(&mut self) -> Result<(), String> {
         loop {
-            let mut out: heapless::Vec<PinEvent, 3> = heapless::Vec::new();
+            let mut out: EdgeBuffer<3> = EdgeBuffer::new();
             let wake = self
                 .s
                 .poll(self.instant(self.now), &mut out)
@@ -1064,7 +1064,7 @@ impl Driver {
                     let before = self.s.clone();
                     let back = Instant(self.instant(self.now).0.wrapping_sub(b));
                     let r = self.s.submit(back, Request::now(ChannelId(0), Ticks(100)));
-                    let mut out: heapless::Vec<PinEvent, 2> = heapless::Vec::new();
+                    let mut out: EdgeBuffer<2> = EdgeBuffer::new();
                     let p = self.s.poll(back, &mut out);
                     if r != Err(Refusal::TimeWentBackwards) || p.is_ok() || self.s != before {
                         return Err(format!("time backwards by {b}: {r:?} {p:?}"));
