@@ -1,0 +1,882 @@
+//! Everything the outputs show, computed once: figures at the nominal point and both worst
+//! corners, tick budget, pass/warn/fail checks, time-to-threshold bands, clamp comparison, hold
+//! and drive figures.
+
+use coilwise::physics::off_time::OffTimeLimit;
+use coilwise::{
+    Amps, Armature, Celsius, Clamp, DriverDesign, Figures, Ohms, OperatingPoint, Switch, Volts,
+};
+
+use crate::error::{ErrorClass, ToolError};
+use crate::interim::{self, BaseDriveFigures, HoldPoint};
+use crate::quantity::eng;
+use crate::spec::Spec;
+
+/// E12 mantissas.
+pub const E12: [f64; 12] = [1.0, 1.2, 1.5, 1.8, 2.2, 2.7, 3.3, 3.9, 4.7, 5.6, 6.8, 8.2];
+/// E24 mantissas.
+pub const E24: [f64; 24] = [
+    1.0, 1.1, 1.2, 1.3, 1.5, 1.6, 1.8, 2.0, 2.2, 2.4, 2.7, 3.0, 3.3, 3.6, 3.9, 4.3, 4.7, 5.1, 5.6,
+    6.2, 6.8, 7.5, 8.2, 9.1,
+];
+
+/// The largest value of an E series not above `x` (x > 0).
+pub fn e_series_down(x: f64, series: &[f64]) -> f64 {
+    if !(x.is_finite() && x > 0.0) {
+        return 0.0;
+    }
+    let decade = 10f64.powf(x.log10().floor());
+    let m = x / decade;
+    match series.iter().rev().find(|&&s| s <= m * (1.0 + 1e-9)) {
+        Some(&s) => s * decade,
+        None => series.last().copied().unwrap_or(1.0) * decade / 10.0,
+    }
+}
+
+/// f32 → f64 by its shortest decimal form, so that 0.15f32 prints as 0.15, not 0.15000000596….
+pub fn wide(x: f32) -> f64 {
+    let s = x.to_string();
+    s.parse().unwrap_or(x as f64)
+}
+
+/// Check outcome.
+#[derive(Clone, Copy, Debug, PartialEq, Eq)]
+pub enum Status {
+    /// Within limits with the stated headroom.
+    Pass,
+    /// Within the hard limit but short of the recommended headroom.
+    Warn,
+    /// Outside the limit.
+    Fail,
+    /// Not a pass/fail figure, or not enough inputs to check.
+    Info,
+}
+
+impl Status {
+    /// Lower-case word used in the report and JSON.
+    pub fn word(self) -> &'static str {
+        match self {
+            Status::Pass => "pass",
+            Status::Warn => "warn",
+            Status::Fail => "fail",
+            Status::Info => "info",
+        }
+    }
+}
+
+/// One pass / warn / fail check.
+#[derive(Clone, Debug, PartialEq)]
+pub struct Check {
+    /// Stable identifier (JSON).
+    pub id: &'static str,
+    /// What is checked.
+    pub title: &'static str,
+    /// Outcome.
+    pub status: Status,
+    /// The figure checked, with unit.
+    pub value: String,
+    /// The limit it is checked against, with unit.
+    pub limit: String,
+    /// Headroom as a fraction (positive: inside the limit), when it applies.
+    pub margin: Option<f64>,
+    /// Rule and remarks.
+    pub note: String,
+}
+
+/// Expected time for the coil current to reach a threshold, over all tolerance corners.
+#[derive(Clone, Copy, Debug, PartialEq)]
+pub struct Band {
+    /// Threshold, A.
+    pub threshold: f64,
+    /// Earliest crossing over the corners, s (`None`: reached at no corner).
+    pub earliest: Option<f64>,
+    /// Latest crossing, s (`None`: not reached at one or more corners).
+    pub latest: Option<f64>,
+    /// Earliest in ticks, rounded down.
+    pub earliest_ticks: Option<u32>,
+    /// Latest in ticks, rounded up.
+    pub latest_ticks: Option<u32>,
+    /// How many corners never reach the threshold.
+    pub unreachable_corners: usize,
+}
+
+/// Where the bands come from.
+pub const BAND_SOURCE: &str = "corners-of-energize";
+/// The same, in words.
+pub const BAND_SOURCE_TEXT: &str = "computed by this tool from the core's energize curve over all 32 tolerance corners (supply, winding temperature, resistance, inductance, sense); this build of the core has no diagnosis module";
+
+/// One clamp in the comparison.
+#[derive(Clone, Debug, PartialEq)]
+pub struct ClampRow {
+    /// Label with values ("zener 16 V + diode").
+    pub label: String,
+    /// Kind word as in `clamp.kind`.
+    pub kind: &'static str,
+    /// Whether this is the clamp in the design file.
+    pub fitted: bool,
+    /// The clamp.
+    pub clamp: Clamp,
+    /// Figures at the release corner, or why there are none.
+    pub figures: Result<Figures, String>,
+    /// Switch-voltage check of this clamp.
+    pub status: Status,
+}
+
+/// Hold phase figures.
+#[derive(Clone, Copy, Debug, PartialEq)]
+pub struct HoldFigures {
+    /// At the nominal point.
+    pub nominal: HoldPoint,
+    /// At the pull-in corner (lowest supply, hottest coil: the highest duty).
+    pub worst_duty: HoldPoint,
+    /// At the release corner (highest supply: the largest ripple).
+    pub worst_ripple: HoldPoint,
+}
+
+/// Firmware tick counts (each rounded toward safety).
+#[derive(Clone, Copy, Debug, PartialEq, Eq)]
+pub struct TickCounts {
+    /// Minimum on-time, rounded up; `None` when the coil never pulls in at the pull-in corner.
+    pub min_on: Option<u32>,
+    /// Safe minimum off-time, rounded up.
+    pub min_off: u32,
+    /// Worst pull-in time, rounded up.
+    pub pull_in: Option<u32>,
+    /// Worst release time to drop-out, rounded up.
+    pub release: u32,
+}
+
+/// Everything computed for one design.
+#[derive(Clone, Debug)]
+pub struct Analysis<'a> {
+    /// The design.
+    pub spec: &'a Spec,
+    /// At the nominal point.
+    pub nominal: Figures,
+    /// At the pull-in corner.
+    pub pull_in: Figures,
+    /// At the release corner.
+    pub release: Figures,
+    /// Minimum on-time (worst pull-in + operate allowance), s.
+    pub min_on_time: Option<f64>,
+    /// Safe minimum off-time over nominal and release corner, s.
+    pub min_off_time: f64,
+    /// Which requirement set the off-time.
+    pub off_time_limit: OffTimeLimit,
+    /// The same in ticks.
+    pub ticks: TickCounts,
+    /// Checks, in report order.
+    pub checks: Vec<Check>,
+    /// Time-to-threshold bands, one per threshold.
+    pub bands: Vec<Band>,
+    /// Clamp comparison rows.
+    pub comparison: Vec<ClampRow>,
+    /// Hold phase, when configured.
+    pub hold: Option<HoldFigures>,
+    /// Bipolar base drive, when configured.
+    pub base_drive: Option<BaseDriveFigures>,
+    /// Switch conduction loss at the release corner's current while on, W.
+    pub conduction_loss: f64,
+    /// Coil dissipation when on continuously: nominal and release corner, W.
+    pub coil_power: (f64, f64),
+}
+
+/// Pull-in current, A.
+pub fn pull_in_current(spec: &Spec) -> f64 {
+    wide(spec.design.circuit.coil().pull_in_current().value())
+}
+
+/// Drop-out current, A.
+pub fn drop_out_current(spec: &Spec) -> f64 {
+    wide(spec.design.circuit.coil().drop_out_current().value())
+}
+
+fn figures_error(spec: &Spec, err: coilwise::Error, corner: &str) -> ToolError {
+    use coilwise::Param;
+    let key = match err {
+        coilwise::Error::Invalid { param, .. } => match param {
+            Param::ClampVoltage => "clamp.zener",
+            Param::BreakdownVoltage => "switch.breakdown",
+            Param::Temperature | Param::TemperatureRange => "temperature.max",
+            Param::Supply => "supply.min",
+            Param::Current => "timing.residual_current",
+            Param::Time => "timing.release_allowance",
+            Param::PowerRating => "clamp.power_rating",
+            Param::Frequency => "timing.repetition",
+            _ => "design.name",
+        },
+        coilwise::Error::OutsideModel(coilwise::Limit::NoHeadroom) => "switch.saturation",
+        coilwise::Error::TickOverflow => "timing.tick_rate",
+        _ => "design.name",
+    };
+    spec.inputs.error(
+        key,
+        ErrorClass::Impossible,
+        format!("at the {corner}: {err}"),
+    )
+}
+
+/// Every operating point over the tolerance corners (2⁵ = 32).
+pub fn all_corners(d: &DriverDesign) -> Vec<OperatingPoint> {
+    let t = d.tolerances;
+    let mut out = Vec::with_capacity(32);
+    for bits in 0u32..32 {
+        let pick = |bit: u32, lo: f32, hi: f32| if bits & (1 << bit) == 0 { lo } else { hi };
+        out.push(OperatingPoint {
+            supply: Volts::new(pick(0, d.supply.min().value(), d.supply.max().value())),
+            temperature: Celsius::new(pick(
+                1,
+                d.temperature.min().value(),
+                d.temperature.max().value(),
+            )),
+            resistance_factor: pick(2, 1.0 - t.resistance, 1.0 + t.resistance),
+            inductance_factor: pick(3, 1.0 - t.inductance, 1.0 + t.inductance),
+            sense_factor: pick(4, 1.0 - t.sense, 1.0 + t.sense),
+        });
+    }
+    out
+}
+
+fn band(spec: &Spec, threshold: f64) -> Result<Band, ToolError> {
+    let d = &spec.design;
+    let mut earliest: Option<f64> = None;
+    let mut latest: Option<f64> = Some(0.0);
+    let mut unreachable = 0;
+    for op in all_corners(d) {
+        let rise = d
+            .circuit
+            .energize(&op, Armature::Released, Amps::new(0.0))
+            .map_err(|e| figures_error(spec, e, "a tolerance corner"))?;
+        match rise.time_to(threshold as f32) {
+            Ok(t) => {
+                let t = wide(t.value());
+                earliest = Some(earliest.map_or(t, |e| e.min(t)));
+                latest = latest.map(|l| l.max(t));
+            }
+            Err(coilwise::Error::Unreachable { .. }) => {
+                unreachable += 1;
+                latest = None;
+            }
+            Err(e) => return Err(figures_error(spec, e, "a tolerance corner")),
+        }
+    }
+    if earliest.is_none() {
+        latest = None;
+    }
+    let rate = d.tick_rate;
+    let tick_err = |e| figures_error(spec, e, "diagnosis band");
+    let earliest_ticks = match earliest {
+        Some(t) => Some(
+            rate.ticks_at_most(coilwise::Seconds::new(t as f32))
+                .map_err(tick_err)?
+                .0,
+        ),
+        None => None,
+    };
+    let latest_ticks = match latest {
+        Some(t) => Some(
+            rate.ticks_at_least(coilwise::Seconds::new(t as f32))
+                .map_err(tick_err)?
+                .0,
+        ),
+        None => None,
+    };
+    Ok(Band {
+        threshold,
+        earliest,
+        latest,
+        earliest_ticks,
+        latest_ticks,
+        unreachable_corners: unreachable,
+    })
+}
+
+/// The comparison set: the fitted clamp, a plain diode, zeners, resistors, and no clamp.
+fn comparison_clamps(spec: &Spec, release: &Figures) -> Vec<(String, &'static str, Clamp)> {
+    let d = &spec.design;
+    let vf = spec.compare_diode_drop;
+    let v_max = d.supply.max().value() as f64;
+    let v_br = d.circuit.switch().breakdown().value() as f64;
+    let headroom = (v_br - v_max - vf).max(0.0);
+    let zeners = spec.compare_zener.clone().unwrap_or_else(|| {
+        let mut z: Vec<f64> = [0.25, 0.5, 0.75]
+            .iter()
+            .map(|k| e_series_down(k * headroom, &E24))
+            .filter(|&v| v > 0.0)
+            .collect();
+        z.dedup();
+        z
+    });
+    let i0 = release.final_current.value() as f64;
+    let resistors = spec.compare_resistor.clone().unwrap_or_else(|| {
+        let mut r: Vec<f64> = [1.0 / 3.0, 2.0 / 3.0]
+            .iter()
+            .map(|k| e_series_down(k * headroom / i0, &E12))
+            .filter(|&v| v > 0.0)
+            .collect();
+        r.dedup();
+        r
+    });
+    let vf32 = Volts::new(vf as f32);
+    let mut out = vec![(
+        format!("diode ({})", eng(vf, "V")),
+        "diode",
+        Clamp::Diode { forward: vf32 },
+    )];
+    for z in zeners {
+        out.push((
+            format!("zener {} + diode", eng(z, "V")),
+            "zener",
+            Clamp::DiodeZener {
+                forward: vf32,
+                clamp_voltage: Volts::new((z + vf) as f32),
+            },
+        ));
+    }
+    for r in resistors {
+        out.push((
+            format!("resistor {} + diode", eng(r, "Ω")),
+            "resistor",
+            Clamp::DiodeResistor {
+                forward: vf32,
+                resistance: Ohms::new(r as f32),
+            },
+        ));
+    }
+    out.push((
+        "none (switch avalanches)".to_string(),
+        "none",
+        Clamp::Unclamped,
+    ));
+    out
+}
+
+fn label_of(spec: &Spec) -> String {
+    match *spec.design.circuit.clamp() {
+        Clamp::Diode { forward } => format!("diode ({})", eng(wide(forward.value()), "V")),
+        Clamp::DiodeZener {
+            forward,
+            clamp_voltage,
+        } => format!(
+            "zener {} + diode",
+            eng(wide(clamp_voltage.value()) - wide(forward.value()), "V")
+        ),
+        Clamp::DiodeResistor { resistance, .. } => {
+            format!("resistor {} + diode", eng(wide(resistance.value()), "Ω"))
+        }
+        Clamp::AcrossSwitch { clamp_voltage } => {
+            format!(
+                "zener {} across switch",
+                eng(wide(clamp_voltage.value()), "V")
+            )
+        }
+        _ => "none (switch avalanches)".to_string(),
+    }
+}
+
+/// Fitted clamp's label, for the report.
+pub fn fitted_label(spec: &Spec) -> String {
+    label_of(spec)
+}
+
+/// Switch-voltage status: pass below 80 % of breakdown, warn up to breakdown, fail at or above;
+/// an avalanching switch passes only as a warning within its avalanche rating.
+fn voltage_status(peak: f64, breakdown: f64, avalanche: bool, within_rating: bool) -> Status {
+    if avalanche {
+        if within_rating {
+            Status::Warn
+        } else {
+            Status::Fail
+        }
+    } else if peak >= breakdown {
+        Status::Fail
+    } else if peak > 0.8 * breakdown {
+        Status::Warn
+    } else {
+        Status::Pass
+    }
+}
+
+fn graded(margin: f64, warn_below: f64) -> Status {
+    if margin < 0.0 {
+        Status::Fail
+    } else if margin < warn_below {
+        Status::Warn
+    } else {
+        Status::Pass
+    }
+}
+
+impl<'a> Analysis<'a> {
+    /// Computes everything for `spec`.
+    ///
+    /// # Errors
+    /// A combination the model cannot evaluate (reported at the key most likely to blame), or a
+    /// time that does not fit the 32-bit tick counter.
+    pub fn new(spec: &'a Spec) -> Result<Self, ToolError> {
+        let d = &spec.design;
+        let nominal = d
+            .figures(&d.nominal_point())
+            .map_err(|e| figures_error(spec, e, "nominal point"))?;
+        let pull_in = d
+            .figures(&d.pull_in_corner())
+            .map_err(|e| figures_error(spec, e, "pull-in corner"))?;
+        let release = d
+            .figures(&d.release_corner())
+            .map_err(|e| figures_error(spec, e, "release corner"))?;
+
+        let operate = wide(d.operate_allowance.value());
+        let min_on_time = pull_in.pull_in_time.map(|t| wide(t.value()) + operate);
+        let (min_off, off_time_limit) = if release.off_time.required >= nominal.off_time.required {
+            (release.off_time.required, release.off_time.limit)
+        } else {
+            (nominal.off_time.required, nominal.off_time.limit)
+        };
+        let min_off_time = wide(min_off.value());
+        let rate = d.tick_rate;
+        let tick_err = |e| figures_error(spec, e, "tick conversion");
+        let up = |t: f64| -> Result<u32, ToolError> {
+            rate.ticks_at_least(coilwise::Seconds::new(t as f32))
+                .map(|t| t.0)
+                .map_err(tick_err)
+        };
+        let ticks = TickCounts {
+            min_on: min_on_time.map(up).transpose()?,
+            min_off: up(min_off_time)?,
+            pull_in: pull_in
+                .pull_in_time
+                .map(|t| up(wide(t.value())))
+                .transpose()?,
+            release: up(wide(release.release_time.value()))?,
+        };
+
+        let bands = spec
+            .thresholds
+            .iter()
+            .map(|&t| band(spec, t))
+            .collect::<Result<Vec<_>, _>>()?;
+
+        let fitted_clamp = *d.circuit.clamp();
+        let avalanche_rating = spec.avalanche_energy;
+        let v_br = wide(d.circuit.switch().breakdown().value());
+        let row_status = |clamp: &Clamp, f: &Figures| {
+            let avalanche = matches!(clamp, Clamp::Unclamped);
+            let e = wide(f.energy.clamp.value());
+            voltage_status(
+                wide(f.peak_switch_voltage.value()),
+                v_br,
+                avalanche,
+                avalanche_rating.is_some_and(|r| e <= r),
+            )
+        };
+        let mut comparison = vec![ClampRow {
+            label: label_of(spec),
+            kind: spec.clamp_kind,
+            fitted: true,
+            clamp: fitted_clamp,
+            figures: Ok(release),
+            status: row_status(&fitted_clamp, &release),
+        }];
+        for (label, kind, clamp) in comparison_clamps(spec, &release) {
+            if clamp == fitted_clamp || label == comparison[0].label {
+                continue;
+            }
+            let mut alt = *d;
+            let figures = match d.circuit.with_clamp(clamp) {
+                Ok(c) => {
+                    alt.circuit = c;
+                    alt.figures(&alt.release_corner())
+                        .map_err(|e| e.to_string())
+                }
+                Err(e) => Err(e.to_string()),
+            };
+            let status = match &figures {
+                Ok(f) => row_status(&clamp, f),
+                Err(_) => Status::Info,
+            };
+            comparison.push(ClampRow {
+                label,
+                kind,
+                fitted: false,
+                clamp,
+                figures,
+                status,
+            });
+        }
+
+        let breakdown = v_br;
+        let hold = match spec.hold {
+            Some(h) => {
+                let at = |op: &OperatingPoint| -> Result<HoldPoint, ToolError> {
+                    let r = d
+                        .circuit
+                        .resolve(op)
+                        .map_err(|e| figures_error(spec, e, "hold phase"))?;
+                    Ok(interim::hold_point(
+                        &r,
+                        &fitted_clamp,
+                        breakdown,
+                        h.current,
+                        h.pwm_frequency,
+                    ))
+                };
+                Some(HoldFigures {
+                    nominal: at(&d.nominal_point())?,
+                    worst_duty: at(&d.pull_in_corner())?,
+                    worst_ripple: at(&d.release_corner())?,
+                })
+            }
+            None => None,
+        };
+        let i_max = wide(release.final_current.value());
+        let base_drive = spec.base_drive.map(|b| {
+            interim::base_drive(
+                b.drive_voltage,
+                b.base_emitter,
+                b.base_resistor,
+                b.min_gain,
+                i_max,
+            )
+        });
+        let conduction_loss = interim::conduction_loss(d.circuit.switch(), i_max);
+        let coil_power = |op: &OperatingPoint, f: &Figures| -> Result<f64, ToolError> {
+            let r = d
+                .circuit
+                .resolve(op)
+                .map_err(|e| figures_error(spec, e, "coil dissipation"))?;
+            let i = wide(f.final_current.value());
+            Ok(i * i * wide(r.winding.value()))
+        };
+        let coil_power = (
+            coil_power(&d.nominal_point(), &nominal)?,
+            coil_power(&d.release_corner(), &release)?,
+        );
+
+        let mut a = Analysis {
+            spec,
+            nominal,
+            pull_in,
+            release,
+            min_on_time,
+            min_off_time,
+            off_time_limit,
+            ticks,
+            checks: Vec::new(),
+            bands,
+            comparison,
+            hold,
+            base_drive,
+            conduction_loss,
+            coil_power,
+        };
+        a.checks = a.make_checks();
+        Ok(a)
+    }
+
+    /// Whether any check failed.
+    pub fn any_failed(&self) -> bool {
+        self.checks.iter().any(|c| c.status == Status::Fail)
+    }
+
+    fn make_checks(&self) -> Vec<Check> {
+        let spec = self.spec;
+        let d = &spec.design;
+        let mut out = Vec::new();
+        let i_pull = pull_in_current(spec);
+        let i_drop = drop_out_current(spec);
+
+        // Pull-in at the pull-in corner.
+        let m = wide(self.pull_in.pull_in_margin);
+        out.push(Check {
+            id: "pull_in",
+            title: "pull-in at the pull-in corner",
+            status: if m <= 0.0 {
+                Status::Fail
+            } else {
+                graded(m, 0.10)
+            },
+            value: format!(
+                "final current {}",
+                eng(wide(self.pull_in.final_current.value()), "A")
+            ),
+            limit: format!("pull-in current {}", eng(i_pull, "A")),
+            margin: Some(m),
+            note: if m <= 0.0 {
+                "the coil never pulls in at the lowest supply and hottest winding".to_string()
+            } else {
+                "pass at 10 % or more current than pull-in needs".to_string()
+            },
+        });
+
+        // Planned pulse and off-time.
+        if let Some((on, rate)) = spec.planned {
+            let (status, margin, note) = match self.min_on_time {
+                Some(min_on) => {
+                    let m = on / min_on - 1.0;
+                    (
+                        graded(m, 0.2),
+                        Some(m),
+                        "pass at 20 % or more above the minimum on-time".to_string(),
+                    )
+                }
+                None => (
+                    Status::Fail,
+                    None,
+                    "the coil never pulls in at the pull-in corner".to_string(),
+                ),
+            };
+            out.push(Check {
+                id: "on_time",
+                title: "planned pulse against minimum on-time",
+                status,
+                value: format!("pulse {}", eng(on, "s")),
+                limit: match self.min_on_time {
+                    Some(t) => format!("minimum on-time {}", eng(t, "s")),
+                    None => "no pull-in".to_string(),
+                },
+                margin,
+                note,
+            });
+            let off = 1.0 / rate - on;
+            let m = off / self.min_off_time - 1.0;
+            out.push(Check {
+                id: "off_time",
+                title: "planned off-time against safe minimum off-time",
+                status: graded(m, 0.2),
+                value: format!("off-time {}", eng(off, "s")),
+                limit: format!("safe minimum {}", eng(self.min_off_time, "s")),
+                margin: Some(m),
+                note: "pass at 20 % or more above the safe minimum off-time".to_string(),
+            });
+        } else {
+            out.push(Check {
+                id: "off_time",
+                title: "planned off-time against safe minimum off-time",
+                status: Status::Info,
+                value: "no planned pulse".to_string(),
+                limit: format!("safe minimum {}", eng(self.min_off_time, "s")),
+                margin: None,
+                note: "give timing.on_time and timing.repetition to check".to_string(),
+            });
+        }
+
+        // Switch voltage.
+        let v_br = wide(d.circuit.switch().breakdown().value());
+        let peak = wide(self.release.peak_switch_voltage.value());
+        let unclamped = matches!(d.circuit.clamp(), Clamp::Unclamped);
+        let e_clamp = wide(self.release.energy.clamp.value());
+        let within = spec.avalanche_energy.is_some_and(|r| e_clamp <= r);
+        out.push(Check {
+            id: "switch_voltage",
+            title: "peak switch voltage against breakdown",
+            status: voltage_status(peak, v_br, unclamped, within),
+            value: format!("peak {}", eng(peak, "V")),
+            limit: format!("breakdown {}", eng(v_br, "V")),
+            margin: Some(1.0 - peak / v_br),
+            note: if unclamped {
+                "no clamp: the switch avalanches on every switch-off".to_string()
+            } else {
+                "pass at or below 80 % of breakdown (usual derating)".to_string()
+            },
+        });
+        if unclamped {
+            let (status, limit, margin) = match spec.avalanche_energy {
+                Some(r) => (
+                    if e_clamp <= r {
+                        Status::Warn
+                    } else {
+                        Status::Fail
+                    },
+                    format!("rating {}", eng(r, "J")),
+                    Some(1.0 - e_clamp / r),
+                ),
+                None => (Status::Fail, "no switch.avalanche_energy".to_string(), None),
+            };
+            out.push(Check {
+                id: "avalanche",
+                title: "avalanche energy per switch-off",
+                status,
+                value: format!("energy {}", eng(e_clamp, "J")),
+                limit,
+                margin,
+                note: "repetitive avalanche is a last resort: fit a clamp".to_string(),
+            });
+        }
+
+        // Clamp power.
+        if !unclamped {
+            let max_rep = self.release.max_repetition.map(|h| wide(h.value()));
+            let (status, value, limit, margin, note) =
+                match (spec.design.clamp_rating, self.release.clamp_power) {
+                    (Some(rating), Some(p)) => {
+                        let rating = wide(rating.value());
+                        let p = wide(p.value());
+                        let m = 1.0 - p / rating;
+                        (
+                            graded(m, 0.5),
+                            format!("average {}", eng(p, "W")),
+                            format!("rating {}", eng(rating, "W")),
+                            Some(m),
+                            format!(
+                                "pass at or below half the rating; highest repetition rate {}",
+                                max_rep.map_or("unlimited".to_string(), |f| eng(f, "Hz"))
+                            ),
+                        )
+                    }
+                    (Some(rating), None) => (
+                        Status::Info,
+                        format!("{} per pulse", eng(e_clamp, "J")),
+                        format!("rating {}", eng(wide(rating.value()), "W")),
+                        None,
+                        format!(
+                            "highest repetition rate {}; give timing.on_time and timing.repetition to check",
+                            max_rep.map_or("unlimited".to_string(), |f| eng(f, "Hz"))
+                        ),
+                    ),
+                    (None, p) => (
+                        Status::Info,
+                        match p {
+                            Some(p) => format!("average {}", eng(wide(p.value()), "W")),
+                            None => format!("{} per pulse", eng(e_clamp, "J")),
+                        },
+                        "no clamp.power_rating".to_string(),
+                        None,
+                        "give clamp.power_rating to check".to_string(),
+                    ),
+                };
+            out.push(Check {
+                id: "clamp_power",
+                title: "clamp average power against its rating",
+                status,
+                value,
+                limit,
+                margin,
+                note,
+            });
+        }
+
+        // Drive.
+        match (d.circuit.switch(), self.base_drive, spec.gate_drive) {
+            (Switch::Bipolar { .. }, Some(b), _) => {
+                let status = if b.overdrive >= 2.0 {
+                    Status::Pass
+                } else if b.overdrive >= 1.0 {
+                    Status::Warn
+                } else {
+                    Status::Fail
+                };
+                out.push(Check {
+                    id: "drive",
+                    title: "bipolar switch saturated at minimum gain",
+                    status,
+                    value: format!(
+                        "base {} (forced gain {:.1})",
+                        eng(b.base_current, "A"),
+                        b.forced_gain
+                    ),
+                    limit: format!(
+                        "needs {} at minimum gain",
+                        eng(b.base_current / b.overdrive, "A")
+                    ),
+                    margin: Some(b.overdrive - 1.0),
+                    note: format!(
+                        "pass at 2x overdrive or more; largest base resistor for 2x: {}",
+                        eng(b.recommended_resistor, "Ω")
+                    ),
+                });
+            }
+            (Switch::Mosfet { .. }, _, Some(g)) => {
+                let m = g.applied / g.rated - 1.0;
+                out.push(Check {
+                    id: "drive",
+                    title: "MOSFET gate drive against the on-resistance rating",
+                    status: if m < 0.0 { Status::Fail } else { Status::Pass },
+                    value: format!("gate {}", eng(g.applied, "V")),
+                    limit: format!("on-resistance rated at {}", eng(g.rated, "V")),
+                    margin: Some(m),
+                    note: "below the rated gate voltage the on-resistance is not guaranteed".to_string(),
+                });
+            }
+            _ => out.push(Check {
+                id: "drive",
+                title: "switch drive",
+                status: Status::Info,
+                value: "not given".to_string(),
+                limit: "-".to_string(),
+                margin: None,
+                note: match d.circuit.switch() {
+                    Switch::Bipolar { .. } => "give switch.drive_voltage, switch.base_resistor and switch.min_gain to check saturation".to_string(),
+                    Switch::Mosfet { .. } => "give switch.gate_voltage and switch.rated_gate_voltage to check enhancement".to_string(),
+                },
+            }),
+        }
+
+        // Hold.
+        if let (Some(h), Some(hold)) = (self.hold, spec.hold) {
+            let duty = h.worst_duty.duty;
+            out.push(Check {
+                id: "hold_duty",
+                title: "hold duty at the pull-in corner",
+                status: if duty > 1.0 {
+                    Status::Fail
+                } else if duty > 0.9 {
+                    Status::Warn
+                } else {
+                    Status::Pass
+                },
+                value: if duty.is_finite() {
+                    format!("duty {:.1} %", duty * 100.0)
+                } else {
+                    "no headroom".to_string()
+                },
+                limit: "100 %".to_string(),
+                margin: duty.is_finite().then_some(1.0 - duty),
+                note: "pass at or below 90 % duty".to_string(),
+            });
+            if let Some(rating) = spec.design.clamp_rating {
+                let rating = wide(rating.value());
+                let p = h
+                    .nominal
+                    .clamp_power
+                    .max(h.worst_duty.clamp_power)
+                    .max(h.worst_ripple.clamp_power);
+                let m = 1.0 - p / rating;
+                out.push(Check {
+                    id: "hold_clamp_power",
+                    title: "clamp power while holding against its rating",
+                    status: graded(m, 0.5),
+                    value: format!("average {}", eng(p, "W")),
+                    limit: format!("rating {}", eng(rating, "W")),
+                    margin: Some(m),
+                    note: "the clamp carries the coil current in every PWM off-interval; pass at or below half the rating".to_string(),
+                });
+            }
+            let m = hold.current / i_drop - 1.0;
+            out.push(Check {
+                id: "hold_current",
+                title: "hold current above drop-out",
+                status: if m <= 0.0 { Status::Fail } else { graded(m, 0.5) },
+                value: format!("hold {}", eng(hold.current, "A")),
+                limit: format!("drop-out {}", eng(i_drop, "A")),
+                margin: Some(m),
+                note: "pass at 1.5x drop-out current or more; the datasheet's hold rating takes precedence".to_string(),
+            });
+        }
+
+        // Diagnosis bands.
+        for b in &self.bands {
+            let reached = b.unreachable_corners == 0;
+            out.push(Check {
+                id: "rise_band",
+                title: "threshold reached at every corner",
+                status: if reached { Status::Pass } else { Status::Warn },
+                value: format!("threshold {}", eng(b.threshold, "A")),
+                limit: format!("{} of 32 corners never reach it", b.unreachable_corners),
+                margin: None,
+                note: "a threshold the coil never reaches cannot tell a healthy coil from a fault"
+                    .to_string(),
+            });
+        }
+        out
+    }
+}

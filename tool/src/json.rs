@@ -1,0 +1,368 @@
+//! Machine output (`--json`): the schema documented in `docs/json-output.md`.
+//!
+//! SI units, plain numbers; `null` where a figure does not exist (a coil that never pulls in has
+//! no pull-in time). The nominal figures sit at the top level, the worst case of each in `worst`.
+
+use serde::Serialize;
+
+use crate::analysis::{self, wide, Analysis, BAND_SOURCE};
+use crate::report::CAUTIONS;
+use coilwise::{Figures, OperatingPoint};
+
+/// Schema identifier.
+pub const SCHEMA: &str = "coilwise-report";
+/// Schema version; bumped on any incompatible change.
+pub const SCHEMA_VERSION: u32 = 1;
+
+/// The figures that appear both at the top level (nominal) and in `worst`.
+#[derive(Debug, Serialize)]
+pub struct FigureSet {
+    /// Final on-state current, A.
+    pub final_current_a: f64,
+    /// Switch-on time constant (armature released), s.
+    pub tau_on_s: f64,
+    /// Switch-off time constant (armature operated, clamp loop), s.
+    pub tau_off_s: f64,
+    /// Electrical pull-in time, s; null: never pulls in.
+    pub pull_in_time_s: Option<f64>,
+    /// `I∞ / I_pull − 1`.
+    pub pull_in_margin: f64,
+    /// Switch-off to drop-out current, s.
+    pub release_time_s: f64,
+    /// Switch-off to zero current, s.
+    pub time_to_zero_s: f64,
+    /// Safe minimum off-time, s.
+    pub min_off_time_s: f64,
+    /// ½·L·I², J.
+    pub stored_energy_j: f64,
+    /// Energy into the clamp (the switch when unclamped), J.
+    pub clamp_energy_j: f64,
+    /// Energy into winding and wiring, J.
+    pub winding_energy_j: f64,
+    /// Energy drawn from the supply during the release, J.
+    pub supply_energy_j: f64,
+    /// Peak voltage across the switch, V.
+    pub peak_switch_voltage_v: f64,
+    /// Clamp average power at the planned rate, W; null without a planned rate.
+    pub clamp_power_w: Option<f64>,
+    /// Highest repetition rate for the clamp rating, Hz; null without a rating.
+    pub max_repetition_hz: Option<f64>,
+}
+
+impl FigureSet {
+    fn from(f: &Figures, min_off: f64) -> Self {
+        FigureSet {
+            final_current_a: wide(f.final_current.value()),
+            tau_on_s: wide(f.tau_on.value()),
+            tau_off_s: wide(f.tau_off.value()),
+            pull_in_time_s: f.pull_in_time.map(|t| wide(t.value())),
+            pull_in_margin: wide(f.pull_in_margin),
+            release_time_s: wide(f.release_time.value()),
+            time_to_zero_s: wide(f.time_to_zero.value()),
+            min_off_time_s: min_off,
+            stored_energy_j: wide(f.energy.stored.value()),
+            clamp_energy_j: wide(f.energy.clamp.value()),
+            winding_energy_j: wide(f.energy.winding.value()),
+            supply_energy_j: wide(f.energy.supply.value()),
+            peak_switch_voltage_v: wide(f.peak_switch_voltage.value()),
+            clamp_power_w: f.clamp_power.map(|w| wide(w.value())),
+            max_repetition_hz: f.max_repetition.map(|h| wide(h.value())),
+        }
+    }
+}
+
+/// An operating point.
+#[derive(Debug, Serialize)]
+pub struct Point {
+    /// Supply, V.
+    pub supply_v: f64,
+    /// Winding temperature, °C.
+    pub winding_temperature_c: f64,
+    /// Multiplier on the winding resistance.
+    pub resistance_factor: f64,
+    /// Multiplier on the inductance.
+    pub inductance_factor: f64,
+    /// Multiplier on the sense resistor.
+    pub sense_factor: f64,
+}
+
+impl From<&OperatingPoint> for Point {
+    fn from(p: &OperatingPoint) -> Self {
+        Point {
+            supply_v: wide(p.supply.value()),
+            winding_temperature_c: wide(p.temperature.value()),
+            resistance_factor: wide(p.resistance_factor),
+            inductance_factor: wide(p.inductance_factor),
+            sense_factor: wide(p.sense_factor),
+        }
+    }
+}
+
+/// The three evaluated points.
+#[derive(Debug, Serialize)]
+pub struct Corners {
+    /// Nominal point.
+    pub nominal: Point,
+    /// Pull-in corner.
+    pub pull_in: Point,
+    /// Release corner.
+    pub release: Point,
+}
+
+/// Tick counts.
+#[derive(Debug, Serialize)]
+pub struct Ticks {
+    /// Timer rate, Hz.
+    pub tick_rate_hz: u32,
+    /// Minimum on-time, ticks (rounded up); null: never pulls in.
+    pub min_on: Option<u32>,
+    /// Safe minimum off-time, ticks (rounded up).
+    pub min_off: u32,
+    /// Worst pull-in, ticks (rounded up); null: never pulls in.
+    pub pull_in: Option<u32>,
+    /// Worst release to drop-out, ticks (rounded up).
+    pub release: u32,
+}
+
+/// One check.
+#[derive(Debug, Serialize)]
+pub struct CheckOut {
+    /// Stable id.
+    pub id: &'static str,
+    /// "pass" | "warn" | "fail" | "info".
+    pub status: &'static str,
+    /// Headroom fraction; null when it does not apply.
+    pub margin: Option<f64>,
+    /// What was checked.
+    pub title: &'static str,
+    /// Value, in words with unit.
+    pub value: String,
+    /// Limit, in words with unit.
+    pub limit: String,
+    /// Rule and remarks.
+    pub note: String,
+}
+
+/// One time-to-threshold band.
+#[derive(Debug, Serialize)]
+pub struct BandOut {
+    /// Threshold, A.
+    pub threshold_a: f64,
+    /// Earliest crossing, s; null: reached at no corner.
+    pub earliest_s: Option<f64>,
+    /// Latest crossing, s; null: not reached at one or more corners.
+    pub latest_s: Option<f64>,
+    /// Earliest, ticks rounded down.
+    pub earliest_ticks: Option<u32>,
+    /// Latest, ticks rounded up.
+    pub latest_ticks: Option<u32>,
+    /// Corners (of 32) at which the threshold is never reached.
+    pub unreachable_corners: usize,
+}
+
+/// One compared clamp.
+#[derive(Debug, Serialize)]
+pub struct ClampOut {
+    /// Label.
+    pub label: String,
+    /// Kind, as in `clamp.kind`.
+    pub kind: &'static str,
+    /// Whether this is the fitted clamp.
+    pub fitted: bool,
+    /// Release time, s (null: not evaluated).
+    pub release_time_s: Option<f64>,
+    /// Time to zero, s.
+    pub time_to_zero_s: Option<f64>,
+    /// Peak switch voltage, V.
+    pub peak_switch_voltage_v: Option<f64>,
+    /// Clamp energy, J.
+    pub clamp_energy_j: Option<f64>,
+    /// Winding energy, J.
+    pub winding_energy_j: Option<f64>,
+    /// Switch-voltage status.
+    pub status: &'static str,
+    /// Why not evaluated, if so.
+    pub error: Option<String>,
+}
+
+/// Hold figures at one point.
+#[derive(Debug, Serialize)]
+pub struct HoldOut {
+    /// Point name.
+    pub point: &'static str,
+    /// PWM duty fraction; null: no headroom.
+    pub duty: Option<f64>,
+    /// Ripple peak-to-peak, A.
+    pub ripple_a: f64,
+    /// Winding power, W.
+    pub coil_power_w: f64,
+    /// Clamp power, W.
+    pub clamp_power_w: f64,
+}
+
+/// The whole document.
+#[derive(Debug, Serialize)]
+pub struct Report {
+    /// Always [`SCHEMA`].
+    pub schema: &'static str,
+    /// Always [`SCHEMA_VERSION`].
+    pub schema_version: u32,
+    /// `design.name`.
+    pub name: String,
+    /// Design file as given.
+    pub design_file: String,
+    /// Nominal figures.
+    #[serde(flatten)]
+    pub nominal: FigureSet,
+    /// Worst figures (see docs for the corner of each key).
+    pub worst: FigureSet,
+    /// Pull-in current, A.
+    pub pull_in_current_a: f64,
+    /// Drop-out current, A.
+    pub drop_out_current_a: f64,
+    /// Minimum on-time, s; null: never pulls in.
+    pub min_on_time_s: Option<f64>,
+    /// Evaluated points.
+    pub corners: Corners,
+    /// Firmware tick counts.
+    pub ticks: Ticks,
+    /// Checks.
+    pub checks: Vec<CheckOut>,
+    /// "pass" | "warn" | "fail": the worst check status.
+    pub result: &'static str,
+    /// Source of the bands.
+    pub rise_band_source: &'static str,
+    /// Time-to-threshold bands.
+    pub rise_bands: Vec<BandOut>,
+    /// Clamp comparison at the release corner.
+    pub clamp_comparison: Vec<ClampOut>,
+    /// Hold figures (empty without a hold section).
+    pub hold: Vec<HoldOut>,
+    /// Coil dissipation when on, nominal and worst, W.
+    pub coil_power_w: [f64; 2],
+    /// Switch conduction loss at the worst current, W.
+    pub conduction_loss_w: f64,
+    /// Safety cautions.
+    pub cautions: Vec<&'static str>,
+}
+
+/// Builds the JSON document.
+pub fn build(a: &Analysis<'_>) -> Report {
+    let n = &a.nominal;
+    let mut worst = FigureSet::from(&a.release, a.min_off_time);
+    let p = FigureSet::from(&a.pull_in, a.min_off_time);
+    worst.tau_on_s = p.tau_on_s;
+    worst.pull_in_time_s = p.pull_in_time_s;
+    worst.pull_in_margin = p.pull_in_margin;
+    let status_rank = |s: &str| match s {
+        "fail" => 3,
+        "warn" => 2,
+        "pass" => 1,
+        _ => 0,
+    };
+    let result = a
+        .checks
+        .iter()
+        .map(|c| c.status.word())
+        .max_by_key(|s| status_rank(s))
+        .filter(|s| *s != "info")
+        .unwrap_or("pass");
+    let hold = match a.hold {
+        Some(h) => [
+            ("nominal", h.nominal),
+            ("pull_in", h.worst_duty),
+            ("release", h.worst_ripple),
+        ]
+        .into_iter()
+        .map(|(point, x)| HoldOut {
+            point,
+            duty: x.duty.is_finite().then_some(x.duty),
+            ripple_a: x.ripple,
+            coil_power_w: x.coil_power,
+            clamp_power_w: x.clamp_power,
+        })
+        .collect(),
+        None => Vec::new(),
+    };
+    Report {
+        schema: SCHEMA,
+        schema_version: SCHEMA_VERSION,
+        name: a.spec.name.clone(),
+        design_file: a.spec.inputs.path().to_string(),
+        nominal: FigureSet::from(n, wide(n.off_time.required.value())),
+        worst,
+        pull_in_current_a: analysis::pull_in_current(a.spec),
+        drop_out_current_a: analysis::drop_out_current(a.spec),
+        min_on_time_s: a.min_on_time,
+        corners: Corners {
+            nominal: (&n.point).into(),
+            pull_in: (&a.pull_in.point).into(),
+            release: (&a.release.point).into(),
+        },
+        ticks: Ticks {
+            tick_rate_hz: a.spec.design.tick_rate.hz(),
+            min_on: a.ticks.min_on,
+            min_off: a.ticks.min_off,
+            pull_in: a.ticks.pull_in,
+            release: a.ticks.release,
+        },
+        checks: a
+            .checks
+            .iter()
+            .map(|c| CheckOut {
+                id: c.id,
+                status: c.status.word(),
+                margin: c.margin.filter(|m| m.is_finite()),
+                title: c.title,
+                value: c.value.clone(),
+                limit: c.limit.clone(),
+                note: c.note.clone(),
+            })
+            .collect(),
+        result,
+        rise_band_source: BAND_SOURCE,
+        rise_bands: a
+            .bands
+            .iter()
+            .map(|b| BandOut {
+                threshold_a: b.threshold,
+                earliest_s: b.earliest,
+                latest_s: b.latest,
+                earliest_ticks: b.earliest_ticks,
+                latest_ticks: b.latest_ticks,
+                unreachable_corners: b.unreachable_corners,
+            })
+            .collect(),
+        clamp_comparison: a
+            .comparison
+            .iter()
+            .map(|r| {
+                let f = r.figures.as_ref().ok();
+                ClampOut {
+                    label: r.label.clone(),
+                    kind: r.kind,
+                    fitted: r.fitted,
+                    release_time_s: f.map(|f| wide(f.release_time.value())),
+                    time_to_zero_s: f.map(|f| wide(f.time_to_zero.value())),
+                    peak_switch_voltage_v: f.map(|f| wide(f.peak_switch_voltage.value())),
+                    clamp_energy_j: f.map(|f| wide(f.energy.clamp.value())),
+                    winding_energy_j: f.map(|f| wide(f.energy.winding.value())),
+                    status: r.status.word(),
+                    error: r.figures.as_ref().err().cloned(),
+                }
+            })
+            .collect(),
+        hold,
+        coil_power_w: [a.coil_power.0, a.coil_power.1],
+        conduction_loss_w: a.conduction_loss,
+        cautions: CAUTIONS.to_vec(),
+    }
+}
+
+/// The JSON text, pretty-printed, with a trailing newline.
+pub fn render(a: &Analysis<'_>) -> String {
+    let mut s = serde_json::to_string_pretty(&build(a))
+        .unwrap_or_else(|e| format!("{{\"schema\":\"{SCHEMA}\",\"error\":\"{e}\"}}"));
+    s.push('\n');
+    s
+}
