@@ -53,7 +53,7 @@ mod tests {
         let t = render(&rows, &[false, true]);
         assert_eq!(
             t,
-            "what     value\n---------------\nτ        2.188 ms\ncurrent  150.0 mA\n"
+            "what     value\n-----------------\nτ        2.188 ms\ncurrent  150.0 mA\n"
         );
     }
 }
