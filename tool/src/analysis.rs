@@ -434,11 +434,22 @@ impl<'a> Analysis<'a> {
         };
         let min_off_time = wide(min_off.value());
         let rate = d.tick_rate;
-        let tick_err = |e| figures_error(spec, e, "tick conversion");
         let up = |t: f64| -> Result<u32, ToolError> {
             rate.ticks_at_least(coilwise::Seconds::new(t as f32))
                 .map(|t| t.0)
-                .map_err(tick_err)
+                .map_err(|e| match e {
+                    coilwise::Error::TickOverflow => spec.inputs.error(
+                        "timing.tick_rate",
+                        ErrorClass::Impossible,
+                        format!(
+                            "{} does not fit the tick counter at {} Hz (at most 2^31 - 1 ticks, {}); use a slower tick",
+                            eng(t, "s"),
+                            rate.hz(),
+                            eng(i32::MAX as f64 / rate.hz() as f64, "s")
+                        ),
+                    ),
+                    other => figures_error(spec, other, "tick conversion"),
+                })
         };
         let ticks = TickCounts {
             min_on: min_on_time.map(up).transpose()?,

@@ -45,7 +45,10 @@ pub type Placed = (f64, Option<Place>);
 #[derive(Clone, Debug)]
 struct Entry {
     value: Raw,
+    /// Where the key is written.
     place: Option<Place>,
+    /// Where the value is written.
+    value_place: Option<Place>,
 }
 
 /// The flattened contents of a design file plus overrides.
@@ -137,7 +140,7 @@ impl Inputs {
                 let dotted = format!("{section}.{}", k.get_ref());
                 let place = file(k.span());
                 let raw = convert(v, &file);
-                inputs.insert_checked(&dotted, raw, place)?;
+                inputs.insert_checked(&dotted, raw, place, file(v.span()))?;
             }
         }
         Ok(inputs)
@@ -149,6 +152,7 @@ impl Inputs {
         key: &str,
         value: Raw,
         place: Option<Place>,
+        value_place: Option<Place>,
     ) -> Result<(), ToolError> {
         let Some(spec) = schema::spec(key) else {
             let mut err = ToolError::new(
@@ -182,10 +186,17 @@ impl Inputs {
                     value.type_name()
                 ),
             )
-            .at(place, Some(key))
+            .at(value_place, Some(key))
             .hint(format!("write it like {} = {}", key, spec.kind.describe())));
         }
-        self.entries.insert(key.to_string(), Entry { value, place });
+        self.entries.insert(
+            key.to_string(),
+            Entry {
+                value,
+                place,
+                value_place,
+            },
+        );
         Ok(())
     }
 
@@ -223,7 +234,7 @@ impl Inputs {
                 .unwrap_or(value);
             Raw::Str(unquoted.to_string())
         };
-        self.insert_checked(key, raw, place)
+        self.insert_checked(key, raw, place.clone(), place)
     }
 
     /// The file name the inputs were read from.
@@ -231,10 +242,11 @@ impl Inputs {
         &self.path
     }
 
-    /// Where `key` was set; failing that, the header of its section; failing that, the file.
+    /// Where the value of `key` is written; failing that, the header of its section; failing that,
+    /// the file.
     pub fn place(&self, key: &str) -> Option<Place> {
         if let Some(e) = self.entries.get(key) {
-            return e.place.clone();
+            return e.value_place.clone().or_else(|| e.place.clone());
         }
         let section = key.split('.').next().unwrap_or(key);
         if let Some(p) = self.sections.get(section) {
@@ -345,7 +357,9 @@ impl Inputs {
     pub fn quantity(&self, key: &str) -> Result<Option<f64>, ToolError> {
         match self.entries.get(key) {
             None => Ok(None),
-            Some(e) => self.parse_one(key, &e.value, e.place.clone()).map(Some),
+            Some(e) => self
+                .parse_one(key, &e.value, e.value_place.clone())
+                .map(Some),
         }
     }
 
@@ -374,7 +388,7 @@ impl Inputs {
         };
         let mut out = Vec::with_capacity(items.len());
         for (raw, place) in items {
-            let place = place.clone().or_else(|| e.place.clone());
+            let place = place.clone().or_else(|| e.value_place.clone());
             out.push((self.parse_one(key, raw, place.clone())?, place));
         }
         Ok(Some(out))

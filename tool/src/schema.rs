@@ -172,7 +172,7 @@ fn edit_distance(a: &str, b: &str) -> usize {
 pub fn table() -> String {
     let mut rows = vec![vec![
         "key".to_string(),
-        "value".to_string(),
+        "format".to_string(),
         "need".to_string(),
         "meaning".to_string(),
     ]];
