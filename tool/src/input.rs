@@ -201,7 +201,8 @@ impl Inputs {
     }
 
     /// Applies one `--set KEY=VALUE` override. The value is taken as a string (`supply.min=20 V`),
-    /// or as a TOML array when it starts with `[` (`compare.zener=["12 V", "24 V"]`).
+    /// or as a TOML array when it starts with `[` (`compare.zener=["12 V", "24 V"]`); an empty
+    /// value (`clamp.diode_drop=`) removes the key.
     ///
     /// # Errors
     /// [`ErrorClass::Usage`] for a missing `=`; schema errors as for the file.
@@ -218,6 +219,14 @@ impl Inputs {
         };
         let key = key.trim();
         let value = value.trim();
+        if value.is_empty() {
+            // `KEY=` removes the key: back to its default, or absent.
+            if schema::spec(key).is_none() {
+                return self.insert_checked(key, Raw::Str(String::new()), place.clone(), place);
+            }
+            self.entries.remove(key);
+            return Ok(());
+        }
         let raw = if value.starts_with('[') {
             let parsed = DeValue::parse(value).map_err(|e| {
                 ToolError::new(
@@ -515,6 +524,9 @@ mod tests {
             .apply_override("compare.zener=[\"12 V\", \"18 V\"]")
             .unwrap();
         assert_eq!(inputs.quantity("supply.nominal").unwrap(), Some(12.0));
+        inputs.apply_override("supply.nominal=").unwrap();
+        assert!(!inputs.has("supply.nominal"));
+        inputs.apply_override("supply.nominal=12 V").unwrap();
         let z = inputs.quantities("compare.zener").unwrap().unwrap();
         assert_eq!(z.len(), 2);
         assert!(matches!(
