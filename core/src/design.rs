@@ -140,6 +140,9 @@ impl DriverDesign {
             time_to_zero: release.time_to_zero()?,
             energy,
             peak_switch_voltage: release.peak_switch_voltage(),
+            switch_headroom: Volts::new(
+                c.switch().breakdown().value() - release.peak_switch_voltage().value(),
+            ),
             peak_node_voltage: release.peak_node_voltage(),
             clamp_power,
             max_repetition,
@@ -228,6 +231,9 @@ pub struct Figures {
     pub energy: EnergySplit,
     /// Peak voltage across the switch (magnitude), V.
     pub peak_switch_voltage: Volts,
+    /// Switch breakdown minus peak switch voltage, V. Negative: the switch avalanches before the
+    /// clamp takes over, and the release figures (which assume the clamp conducts) do not hold.
+    pub switch_headroom: Volts,
     /// Peak voltage of the switch node against ground (signed), V.
     pub peak_node_voltage: Volts,
     /// Clamp average power at the planned duty, W.

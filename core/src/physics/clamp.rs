@@ -331,7 +331,7 @@ fn alternating_log_tail(x: f32, k: u32) -> f32 {
     let mut n = k;
     while n < k + 16 {
         let term = p / n as f32;
-        sum += if n % 2 == 0 { term } else { -term };
+        sum += if n.is_multiple_of(2) { term } else { -term };
         p *= x;
         n += 1;
     }

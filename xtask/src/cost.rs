@@ -1,0 +1,497 @@
+//! `cargo xtask cost`: instructions and stack per call on the device, flash as linked, checked
+//! against `firmware-example/cost-budget.toml` and written to `docs/performance.md`.
+//!
+//! Sources of each figure:
+//! - `insns.<case>` / `stack.<case>`: the `cost` firmware binary, one `cost <case> insns <n>
+//!   stack <bytes>` log line per measured call (QEMU with a fixed `-icount`; see
+//!   firmware-example/src/measure.rs);
+//! - `stack_peak_bytes`: the main firmware's own high-water mark line
+//!   (`stack high-water mark: ~<bytes> bytes`), whole run;
+//! - `firmware_flash_bytes`: `.vector_table + .text + .rodata + .data` of the main firmware ELF
+//!   (`arm-none-eabi-size -A`);
+//! - `core_flash_bytes`: sizes of the text and read-only symbols whose demangled name belongs to
+//!   the `coilwise` crate, in the main firmware ELF (`arm-none-eabi-nm -S -C --size-sort`). Code of
+//!   the core that LTO inlined into a caller outside the crate is not counted.
+
+use std::collections::BTreeMap;
+use std::fmt::Write as _;
+use std::fs;
+use std::process::{Command, ExitCode};
+
+use crate::boards::{self, Board};
+use crate::firmware;
+use crate::tools;
+
+/// One measured figure.
+#[derive(Clone, Debug, PartialEq)]
+struct Figure {
+    key: String,
+    what: String,
+    value: u64,
+    unit: &'static str,
+}
+
+/// Budgets and goals of one target: `key → limit`.
+#[derive(Default, Debug)]
+struct Limits {
+    budget: BTreeMap<String, u64>,
+    goal: BTreeMap<String, u64>,
+}
+
+const BUDGET_FILE: &str = "firmware-example/cost-budget.toml";
+const DOC_FILE: &str = "docs/performance.md";
+
+pub fn run(check: bool, write: bool) -> Result<ExitCode, String> {
+    let ci = boards::ci_boards();
+    for b in &ci {
+        tools::ensure_target(b.triple)?;
+    }
+    tools::ensure_qemu_and_binutils()?;
+    let mut measured: Vec<(&Board, Vec<Figure>)> = Vec::new();
+    for b in &ci {
+        measured.push((b, measure(b)?));
+    }
+    let root = firmware::repo_root();
+    let budget_text = fs::read_to_string(root.join(BUDGET_FILE))
+        .map_err(|e| format!("read {BUDGET_FILE}: {e}"))?;
+    let limits = parse_budget(&budget_text)?;
+
+    let mut failures = Vec::new();
+    let mut notes = Vec::new();
+    for (b, figs) in &measured {
+        let empty = Limits::default();
+        let lim = limits.get(b.key).unwrap_or(&empty);
+        for f in figs {
+            match lim.budget.get(&f.key) {
+                Some(&max) if f.value > max => failures.push(format!(
+                    "{}: {} = {} {} exceeds its budget {}",
+                    b.key, f.key, f.value, f.unit, max
+                )),
+                Some(_) => {}
+                None => notes.push(format!("{}: {} has no budget", b.key, f.key)),
+            }
+            if let Some(&g) = lim.goal.get(&f.key) {
+                if f.value > g {
+                    notes.push(format!(
+                        "{}: {} = {} {} misses its goal {}",
+                        b.key, f.key, f.value, f.unit, g
+                    ));
+                }
+            }
+        }
+        for k in lim.budget.keys() {
+            if !figs.iter().any(|f| &f.key == k) {
+                failures.push(format!(
+                    "{}: budget for `{k}` but nothing measured it (renamed or removed?)",
+                    b.key
+                ));
+            }
+        }
+    }
+
+    let table = render(&measured, &limits);
+    if write {
+        let doc = document(&table);
+        let path = root.join(DOC_FILE);
+        if let Some(dir) = path.parent() {
+            fs::create_dir_all(dir).map_err(|e| format!("create {}: {e}", dir.display()))?;
+        }
+        fs::write(&path, doc).map_err(|e| format!("write {DOC_FILE}: {e}"))?;
+        eprintln!("xtask: wrote {DOC_FILE}");
+    } else {
+        print!("{table}");
+    }
+    for n in &notes {
+        eprintln!("xtask: note: {n}");
+    }
+    if check {
+        if failures.is_empty() {
+            println!("cost check: every figure within its budget ({BUDGET_FILE})");
+        } else {
+            for f in &failures {
+                println!("cost check FAILED: {f}");
+            }
+            return Ok(ExitCode::FAILURE);
+        }
+    }
+    Ok(ExitCode::SUCCESS)
+}
+
+/// Builds and runs both binaries for `b` and collects every figure.
+fn measure(b: &Board) -> Result<Vec<Figure>, String> {
+    firmware::build(b)?;
+    let mut figs = Vec::new();
+
+    let cost = firmware::run(b, firmware::COST_BIN, true)?;
+    if cost.status != 0 {
+        return Err(format!(
+            "cost firmware for {} exited with status {} — {}\n{}",
+            b.triple,
+            cost.status,
+            firmware::describe_status(cost.status),
+            cost.log
+        ));
+    }
+    figs.extend(parse_cost_log(&cost.log)?);
+    if !cost.log.lines().any(|l| l.ends_with("cost done")) {
+        return Err(format!(
+            "cost log for {} is incomplete:\n{}",
+            b.triple, cost.log
+        ));
+    }
+
+    let main = firmware::run(b, firmware::MAIN_BIN, true)?;
+    if main.status != 0 {
+        return Err(format!(
+            "firmware for {} exited with status {} — {}",
+            b.triple,
+            main.status,
+            firmware::describe_status(main.status)
+        ));
+    }
+    let peak = parse_marked_number(&main.log, "stack high-water mark: ~")
+        .ok_or("the firmware log has no `stack high-water mark: ~N` line")?;
+    figs.push(Figure {
+        key: "stack_peak_bytes".into(),
+        what: "stack high-water mark, whole firmware run".into(),
+        value: peak,
+        unit: "bytes",
+    });
+
+    let elf = firmware::elf_path(b, firmware::MAIN_BIN);
+    let elf_s = elf.to_string_lossy().into_owned();
+    let size = tool_output("arm-none-eabi-size", &["-A", &elf_s])?;
+    figs.push(Figure {
+        key: "firmware_flash_bytes".into(),
+        what: "firmware flash (.vector_table+.text+.rodata+.data)".into(),
+        value: flash_of_sections(&size),
+        unit: "bytes",
+    });
+    let nm = tool_output("arm-none-eabi-nm", &["-S", "-C", "--size-sort", &elf_s])?;
+    figs.push(Figure {
+        key: "core_flash_bytes".into(),
+        what: "core flash as linked (coilwise symbols, .text+.rodata)".into(),
+        value: crate_symbol_bytes(&nm, "coilwise"),
+        unit: "bytes",
+    });
+    Ok(figs)
+}
+
+fn tool_output(program: &str, args: &[&str]) -> Result<String, String> {
+    let out = Command::new(program)
+        .args(args)
+        .output()
+        .map_err(|e| format!("could not start {program}: {e}"))?;
+    if !out.status.success() {
+        return Err(format!(
+            "{program} {} failed: {}",
+            args.join(" "),
+            String::from_utf8_lossy(&out.stderr)
+        ));
+    }
+    Ok(String::from_utf8_lossy(&out.stdout).into_owned())
+}
+
+/// `cost <case> insns <n> stack <bytes>` lines → figures.
+fn parse_cost_log(log: &str) -> Result<Vec<Figure>, String> {
+    let mut figs = Vec::new();
+    for line in log.lines() {
+        let Some(pos) = line.find("cost ") else {
+            continue;
+        };
+        let (numbers, what) = match line[pos + 5..].split_once(" | ") {
+            Some((n, w)) => (n, w.trim()),
+            None => (&line[pos + 5..], ""),
+        };
+        let t: Vec<&str> = numbers.split_whitespace().collect();
+        if t.len() != 5 || t[1] != "insns" || t[3] != "stack" {
+            continue;
+        }
+        let name = t[0];
+        let insns: u64 = t[2]
+            .parse()
+            .map_err(|_| format!("bad instruction count in `{line}`"))?;
+        let stack: u64 = t[4]
+            .parse()
+            .map_err(|_| format!("bad stack figure in `{line}`"))?;
+        figs.push(Figure {
+            key: format!("insns.{name}"),
+            what: format!("{what}: instructions"),
+            value: insns,
+            unit: "insns",
+        });
+        figs.push(Figure {
+            key: format!("stack.{name}"),
+            what: format!("{what}: stack"),
+            value: stack,
+            unit: "bytes",
+        });
+    }
+    if figs.is_empty() {
+        return Err(format!(
+            "no `cost … insns … stack …` lines in the log:\n{log}"
+        ));
+    }
+    Ok(figs)
+}
+
+/// The number right after `marker` on the first line containing it.
+fn parse_marked_number(log: &str, marker: &str) -> Option<u64> {
+    let line = log.lines().find(|l| l.contains(marker))?;
+    let rest = &line[line.find(marker)? + marker.len()..];
+    let digits: String = rest.chars().take_while(char::is_ascii_digit).collect();
+    digits.parse().ok()
+}
+
+/// Flash bytes from `size -A` output: `.vector_table`, `.text`, `.rodata`, `.data` (initialised
+/// data is stored in flash and copied to RAM at start-up).
+fn flash_of_sections(size_a: &str) -> u64 {
+    size_a
+        .lines()
+        .filter_map(|l| {
+            let mut t = l.split_whitespace();
+            let name = t.next()?;
+            let bytes: u64 = t.next()?.parse().ok()?;
+            matches!(name, ".vector_table" | ".text" | ".rodata" | ".data").then_some(bytes)
+        })
+        .sum()
+}
+
+/// Bytes of text (`t`/`T`) and read-only (`r`/`R`) symbols of crate `krate` in `nm -S -C`
+/// output: names starting `krate::` or `<krate::` (inherent and trait impls on its types).
+fn crate_symbol_bytes(nm: &str, krate: &str) -> u64 {
+    let plain = format!("{krate}::");
+    let impl_ = format!("<{krate}::");
+    nm.lines()
+        .filter_map(|l| {
+            let mut t = l.splitn(4, ' ');
+            let _addr = t.next()?;
+            let size = u64::from_str_radix(t.next()?, 16).ok()?;
+            let kind = t.next()?;
+            let name = t.next()?;
+            let ours = name.starts_with(&plain) || name.starts_with(&impl_);
+            (ours && matches!(kind, "t" | "T" | "r" | "R")).then_some(size)
+        })
+        .sum()
+}
+
+/// Parses the budget file: `[<target>]` and `[<target>.goals]` sections of `key = integer`
+/// lines (a small subset of TOML; `_` digit separators allowed, `#` comments).
+fn parse_budget(text: &str) -> Result<BTreeMap<String, Limits>, String> {
+    let mut out: BTreeMap<String, Limits> = BTreeMap::new();
+    let mut section: Option<(String, bool)> = None;
+    for (n, raw) in text.lines().enumerate() {
+        let line = raw.split('#').next().unwrap_or("").trim();
+        if line.is_empty() {
+            continue;
+        }
+        let at = || format!("{BUDGET_FILE}:{}", n + 1);
+        if let Some(name) = line.strip_prefix('[').and_then(|l| l.strip_suffix(']')) {
+            let name = name.trim();
+            let (target, goals) = match name.strip_suffix(".goals") {
+                Some(t) => (t, true),
+                None => (name, false),
+            };
+            if boards::find(target).is_none() {
+                return Err(format!("{}: unknown target section [{name}]", at()));
+            }
+            section = Some((target.to_string(), goals));
+            continue;
+        }
+        let (key, value) = line
+            .split_once('=')
+            .ok_or_else(|| format!("{}: expected `key = integer`", at()))?;
+        let key = key.trim().trim_matches('"').to_string();
+        let value: u64 = value
+            .trim()
+            .replace('_', "")
+            .parse()
+            .map_err(|_| format!("{}: `{}` is not a whole number", at(), value.trim()))?;
+        let (target, goals) = section
+            .as_ref()
+            .ok_or_else(|| format!("{}: key outside a [target] section", at()))?;
+        let lim = out.entry(target.clone()).or_default();
+        let map = if *goals {
+            &mut lim.goal
+        } else {
+            &mut lim.budget
+        };
+        if map.insert(key.clone(), value).is_some() {
+            return Err(format!("{}: `{key}` given twice", at()));
+        }
+    }
+    Ok(out)
+}
+
+fn thousands(v: u64) -> String {
+    let s = v.to_string();
+    let mut out = String::new();
+    for (i, c) in s.chars().enumerate() {
+        if i > 0 && (s.len() - i).is_multiple_of(3) {
+            out.push(' ');
+        }
+        out.push(c);
+    }
+    out
+}
+
+fn render(measured: &[(&Board, Vec<Figure>)], limits: &BTreeMap<String, Limits>) -> String {
+    let mut s = String::new();
+    let empty = Limits::default();
+    for (b, figs) in measured {
+        let lim = limits.get(b.key).unwrap_or(&empty);
+        let _ = writeln!(
+            s,
+            "### {} — `{}`, QEMU `{}` ({})\n",
+            b.core, b.triple, b.machine, b.key
+        );
+        let _ = writeln!(s, "| figure | key | measured | budget (CI) | goal |");
+        let _ = writeln!(s, "|---|---|---:|---:|---:|");
+        for f in figs {
+            let budget = lim
+                .budget
+                .get(&f.key)
+                .map_or("—".to_string(), |v| thousands(*v));
+            let goal = match lim.goal.get(&f.key) {
+                Some(&g) if f.value <= g => format!("{} (met)", thousands(g)),
+                Some(&g) => format!("{} (**missed**)", thousands(g)),
+                None => "—".to_string(),
+            };
+            let _ = writeln!(
+                s,
+                "| {} | `{}` | {} {} | {} | {} |",
+                f.what,
+                f.key,
+                thousands(f.value),
+                f.unit,
+                budget,
+                goal
+            );
+        }
+        s.push('\n');
+    }
+    s
+}
+
+fn first_line_of(program: &str, arg: &str) -> String {
+    Command::new(program)
+        .arg(arg)
+        .output()
+        .ok()
+        .and_then(|o| {
+            String::from_utf8_lossy(&o.stdout)
+                .lines()
+                .next()
+                .map(str::to_string)
+        })
+        .unwrap_or_else(|| format!("{program} (version unknown)"))
+}
+
+fn document(table: &str) -> String {
+    let rustc = first_line_of("rustc", "-V");
+    let qemu = first_line_of("qemu-system-arm", "--version");
+    format!(
+        "# Cost on the device
+
+<!-- Generated by `cargo xtask cost --write`; edit the generator (xtask/src/cost.rs), not this file. -->
+
+Regenerate with:
+
+```sh
+cargo xtask cost --write     # measure and rewrite this file
+cargo xtask cost --check     # measure and compare with firmware-example/cost-budget.toml (CI)
+```
+
+Measured with:
+
+- {rustc}
+- {qemu}
+- release profile of `firmware-example` (`opt-level = \"s\"`, fat LTO, one codegen unit)
+
+How:
+
+- **Instructions per call**: the `cost` firmware binary runs under QEMU with `-icount shift=10`,
+  where every instruction advances virtual time by 1024 ns, so SysTick deltas count instructions
+  exactly and repeat from run to run. The meter calibrates itself on a block of 1024 `nop`s and
+  subtracts the cost of an empty call through the same harness; before reporting, it checks
+  itself on a 300-`nop` probe (must read exactly 300). Counts include everything the call
+  executes (callees, soft-float helpers on the M0). They are instruction counts, not cycles: a
+  real M4F with flash wait states takes more cycles than instructions.
+- **Stack per call**: free RAM below the stack pointer is painted before a separate run of the
+  same call, with interrupts masked; the lowest overwritten word gives its depth (checked on a
+  256-byte probe). Reserved but never written slots are not seen.
+- **Stack high-water mark**: the main firmware paints free RAM at entry and reports the lowest
+  overwritten word at the end of its run.
+- **Flash**: `arm-none-eabi-size -A` of the main firmware ELF; the core's share is the sum of the
+  symbols of the `coilwise` crate in `arm-none-eabi-nm -S -C` (code that LTO inlined into callers
+  outside the crate is not counted there).
+- **Budget** is what CI enforces (`firmware-example/cost-budget.toml`, a regression guard a little
+  above the measured value); **goal** is the target the design aims at. A missed goal is reported
+  but does not fail CI.
+
+{table}"
+    )
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn parses_cost_lines_and_ignores_others() {
+        let log = "INFO  calibration: 26215 ticks per 1024 instructions\n\
+                   INFO  cost libm_expf_x1 insns 63 stack 16 | one expf\n\
+                   INFO  cost done\n";
+        let f = parse_cost_log(log).unwrap();
+        assert_eq!(f.len(), 2);
+        assert_eq!((f[0].key.as_str(), f[0].value), ("insns.libm_expf_x1", 63));
+        assert_eq!((f[1].key.as_str(), f[1].value), ("stack.libm_expf_x1", 16));
+        assert_eq!(f[0].what, "one expf: instructions");
+        assert!(parse_cost_log("INFO  nothing here\n").is_err());
+    }
+
+    #[test]
+    fn sums_flash_sections_from_size_output() {
+        // Layout of `arm-none-eabi-size -A` output (GNU binutils, "sysv" format).
+        let out = "ELF  :\nsection size addr\n.vector_table 1024 0\n.text 5000 1024\n\
+                   .rodata 300 6024\n.data 8 536870912\n.bss 40 536870920\n.defmt 12 0\n\
+                   Total 6384\n";
+        assert_eq!(flash_of_sections(out), 1024 + 5000 + 300 + 8);
+    }
+
+    #[test]
+    fn counts_only_the_crates_text_and_rodata_symbols() {
+        // Layout of `arm-none-eabi-nm -S -C` output: address, size (hex), type, name.
+        let nm = "00000100 00000010 T coilwise::design::DriverDesign::budget\n\
+                  00000200 00000020 t <coilwise::units::Volts as defmt::traits::Format>::format\n\
+                  00000300 00000040 T libm::math::expf::expf\n\
+                  20000000 00000004 b coilwise::SOME_STATIC\n\
+                  00000400 00000008 r coilwise::physics::TABLE\n\
+                  00000500 00000100 T <&T as coilwise_other::Thing>::f\n";
+        assert_eq!(crate_symbol_bytes(nm, "coilwise"), 0x10 + 0x20 + 0x08);
+    }
+
+    #[test]
+    fn budget_file_sections_and_errors() {
+        let t = "# c\n[m4f]\ninsns.a = 1_500 # x\n\"stack.a\" = 64\n[m4f.goals]\ninsns.a = 1000\n";
+        let l = parse_budget(t).unwrap();
+        assert_eq!(l["m4f"].budget["insns.a"], 1500);
+        assert_eq!(l["m4f"].budget["stack.a"], 64);
+        assert_eq!(l["m4f"].goal["insns.a"], 1000);
+        assert!(parse_budget("[nope]\na = 1\n").is_err());
+        assert!(parse_budget("a = 1\n").is_err());
+        assert!(parse_budget("[m0]\na = x\n").is_err());
+        assert!(parse_budget("[m0]\na = 1\na = 2\n").is_err());
+    }
+
+    #[test]
+    fn marked_number_and_thousands() {
+        assert_eq!(
+            parse_marked_number("INFO  stack high-water mark: ~576 bytes\n", "mark: ~"),
+            Some(576)
+        );
+        assert_eq!(parse_marked_number("INFO  x\n", "mark: ~"), None);
+        assert_eq!(thousands(1234567), "1 234 567");
+        assert_eq!(thousands(999), "999");
+    }
+}

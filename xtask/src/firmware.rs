@@ -1,0 +1,154 @@
+//! Building and running the example firmware (firmware-example/, its own cargo workspace).
+
+use std::path::{Path, PathBuf};
+use std::process::{Command, ExitCode, Stdio};
+
+use crate::boards::Board;
+use crate::tools;
+
+/// The firmware's main binary.
+pub const MAIN_BIN: &str = "coilwise-firmware-example";
+/// The cost measurement binary.
+pub const COST_BIN: &str = "cost";
+
+/// defmt-print line format used for every captured log: level and message, no timestamp and
+/// no source location, so that logs compare across builds.
+pub const LOG_FORMAT: &str = "{L} {s}";
+
+/// Root of the repository (the parent of this crate's folder).
+pub fn repo_root() -> PathBuf {
+    let here = PathBuf::from(env!("CARGO_MANIFEST_DIR"));
+    here.parent().map(Path::to_path_buf).unwrap_or(here)
+}
+
+/// The firmware workspace.
+pub fn firmware_dir() -> PathBuf {
+    repo_root().join("firmware-example")
+}
+
+/// Where the release ELF of `bin` for `board` lands.
+pub fn elf_path(board: &Board, bin: &str) -> PathBuf {
+    let target_dir = match std::env::var_os("CARGO_TARGET_DIR") {
+        Some(d) => {
+            let d = PathBuf::from(d);
+            if d.is_absolute() {
+                d
+            } else {
+                firmware_dir().join(d)
+            }
+        }
+        None => firmware_dir().join("target"),
+    };
+    target_dir.join(board.triple).join("release").join(bin)
+}
+
+fn firmware_cargo(args: &[&str]) -> Command {
+    let mut c = Command::new(tools::cargo());
+    c.current_dir(firmware_dir()).args(args);
+    // Settings of the outer (host) cargo must not leak into the firmware build.
+    for v in ["RUSTFLAGS", "CARGO_ENCODED_RUSTFLAGS", "CARGO_BUILD_TARGET"] {
+        c.env_remove(v);
+    }
+    c
+}
+
+/// Builds every binary of the firmware for `board` in release mode.
+pub fn build(board: &Board) -> Result<(), String> {
+    eprintln!(
+        "xtask: building the firmware for {} ({}, QEMU {})",
+        board.triple, board.core, board.machine
+    );
+    let st = firmware_cargo(&["build", "--release", "--target", board.triple, "--bins"])
+        .status()
+        .map_err(|e| format!("could not start cargo: {e}"))?;
+    if st.success() {
+        Ok(())
+    } else {
+        Err(format!("firmware build for {} failed ({st})", board.triple))
+    }
+}
+
+/// Outcome of one firmware run.
+pub struct RunResult {
+    /// The firmware's exit status (semihosting exit code; 124 = timed out).
+    pub status: i32,
+    /// The decoded log, when captured.
+    pub log: String,
+}
+
+/// Runs an already built `bin` for `board` through `cargo run` (and so through the runner in
+/// firmware-example/.cargo/config.toml). With `capture`, the decoded log is returned instead of
+/// shown; stderr (plain text from QEMU and the firmware) always goes to the terminal.
+pub fn run(board: &Board, bin: &str, capture: bool) -> Result<RunResult, String> {
+    let decoder = tools::ensure_defmt_print()?;
+    let mut c = firmware_cargo(&[
+        "run",
+        "--quiet",
+        "--release",
+        "--target",
+        board.triple,
+        "--bin",
+        bin,
+    ]);
+    c.env("COILWISE_LOG_FORMAT", LOG_FORMAT)
+        .env("DEFMT_PRINT", &decoder);
+    if capture {
+        c.stdout(Stdio::piped());
+        let out = c
+            .output()
+            .map_err(|e| format!("could not start cargo run: {e}"))?;
+        Ok(RunResult {
+            status: out.status.code().unwrap_or(-1),
+            log: String::from_utf8_lossy(&out.stdout).into_owned(),
+        })
+    } else {
+        let st = c
+            .status()
+            .map_err(|e| format!("could not start cargo run: {e}"))?;
+        Ok(RunResult {
+            status: st.code().unwrap_or(-1),
+            log: String::new(),
+        })
+    }
+}
+
+/// What a firmware exit status means (see `firmware-example/src/lib.rs`, module `status`).
+pub fn describe_status(status: i32) -> String {
+    match status {
+        0 => "all firmware checks held".into(),
+        1 => "a firmware check failed (see the ERROR lines above)".into(),
+        101 => "the firmware panicked".into(),
+        102 => "the firmware hit a HardFault".into(),
+        103 => "an unexpected interrupt fired".into(),
+        124 => "the firmware did not finish before the timeout".into(),
+        127 => "a tool the runner needs is missing".into(),
+        -1 => "the run was killed by a signal".into(),
+        n => format!("unexpected exit status {n}"),
+    }
+}
+
+/// `cargo xtask demo`: install what is missing, build, run with the log shown, print a verdict.
+pub fn demo(board: &Board) -> Result<ExitCode, String> {
+    tools::ensure_target(board.triple)?;
+    tools::ensure_qemu()?;
+    tools::ensure_defmt_print()?;
+    build(board)?;
+    eprintln!(
+        "xtask: running under qemu-system-arm -machine {} (decoded defmt log follows)",
+        board.machine
+    );
+    let r = run(board, MAIN_BIN, false)?;
+    let verdict = if r.status == 0 { "PASS" } else { "FAIL" };
+    println!(
+        "verdict: {verdict} on {} ({}): exit status {} — {}",
+        board.core,
+        board.triple,
+        r.status,
+        describe_status(r.status)
+    );
+    Ok(if r.status == 0 {
+        ExitCode::SUCCESS
+    } else {
+        ExitCode::FAILURE
+    })
+}
