@@ -82,7 +82,7 @@ pub fn render(a: &Analysis<'_>, module: Option<&str>) -> Result<String, ToolErro
         let s = v.to_string();
         let mut out = String::new();
         for (n, ch) in s.chars().enumerate() {
-            if n > 0 && (s.len() - n) % 3 == 0 {
+            if n > 0 && (s.len() - n).is_multiple_of(3) {
                 out.push('_');
             }
             out.push(ch);
