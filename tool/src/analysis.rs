@@ -195,25 +195,33 @@ fn figures_error(spec: &Spec, err: coilwise::Error, corner: &str) -> ToolError {
     use coilwise::Param;
     let key = match err {
         coilwise::Error::Invalid { param, .. } => match param {
-            Param::ClampVoltage => "clamp.zener",
-            Param::BreakdownVoltage => "switch.breakdown",
-            Param::Temperature | Param::TemperatureRange => "temperature.max",
-            Param::Supply => "supply.min",
-            Param::Current => "timing.residual_current",
-            Param::Time => "timing.release_allowance",
-            Param::PowerRating => "clamp.power_rating",
-            Param::Frequency => "timing.repetition",
-            _ => "design.name",
+            Param::ClampVoltage => Some("clamp.zener"),
+            Param::BreakdownVoltage => Some("switch.breakdown"),
+            Param::Temperature | Param::TemperatureRange => Some("temperature.max"),
+            Param::Supply => Some("supply.min"),
+            Param::Current => Some("timing.residual_current"),
+            Param::Time => Some("timing.release_allowance"),
+            Param::PowerRating => Some("clamp.power_rating"),
+            Param::Frequency => Some("timing.repetition"),
+            _ => None,
         },
-        coilwise::Error::OutsideModel(coilwise::Limit::NoHeadroom) => "switch.saturation",
-        coilwise::Error::TickOverflow => "timing.tick_rate",
-        _ => "design.name",
+        coilwise::Error::OutsideModel(coilwise::Limit::NoHeadroom) => Some("switch.saturation"),
+        coilwise::Error::TickOverflow => Some("timing.tick_rate"),
+        _ => None,
     };
-    spec.inputs.error(
-        key,
-        ErrorClass::Impossible,
-        format!("at the {corner}: {err}"),
-    )
+    let message = format!("at the {corner}: {err}");
+    match key {
+        Some(k) => spec.inputs.error(k, ErrorClass::Impossible, message),
+        // No single key to blame: name the file.
+        None => ToolError::new(ErrorClass::Impossible, message).at(
+            Some(crate::error::Place::File {
+                path: spec.inputs.path().to_string(),
+                line: 1,
+                column: 1,
+            }),
+            None,
+        ),
+    }
 }
 
 /// Every operating point over the tolerance corners (2⁵ = 32).
