@@ -9,12 +9,20 @@
 //! - **release corner**: coldest winding, resistance at −tolerance, highest supply, inductance at
 //!   +tolerance, sense at −tolerance. The switch-off current `I₀ = V/R_on` is highest, so stored
 //!   energy, clamp energy, peak voltage and decay times are all largest.
+//!
+//! The RC snubber breaks the second rule for its *times*: its pre-charged capacitor drives a slow
+//! tail of about `I₀·R/(R + R_s)` decaying with `C·(R + R_s)`, so its release is longest with a hot,
+//! high-resistance winding and low inductance. The release corner still carries its worst stress
+//! (peak voltage, energy), but for a snubber [`DriverDesign::budget`] takes the release time and
+//! off-time as the maximum over all [`CORNER_COUNT`] corners (about 30× the work of the budget of a
+//! first-order clamp).
 
 use crate::error::Error;
 use crate::physics::circuit::{Circuit, OperatingPoint, SupplyRange, TemperatureRange, Tolerances};
 use crate::physics::clamp::{EnergySplit, Release};
 use crate::physics::coil::Armature;
-use crate::physics::off_time::{min_off_time, OffTime, OffTimeNeeds};
+use crate::physics::hold::Hold;
+use crate::physics::off_time::{off_time_from_parts, OffTime, OffTimeNeeds};
 use crate::physics::repetition::{clamp_average_power, max_repetition_rate};
 use crate::time::{TickRate, Ticks};
 use crate::units::{Amps, Hertz, Seconds, Volts, Watts};
@@ -99,7 +107,36 @@ impl DriverDesign {
         }
     }
 
+    /// Corner `index` (0 ≤ index < [`CORNER_COUNT`]) of the tolerance box: bit 0 supply (min/max),
+    /// bit 1 winding temperature (min/max), bit 2 resistance (−/+ tolerance), bit 3 inductance
+    /// (−/+), bit 4 sense (−/+). `None` past the last corner.
+    pub fn corner(&self, index: u32) -> Option<OperatingPoint> {
+        if index >= CORNER_COUNT {
+            return None;
+        }
+        let t = &self.tolerances;
+        let pick = |bit: u32, lo: f32, hi: f32| if index & bit == 0 { lo } else { hi };
+        Some(OperatingPoint {
+            supply: Volts::new(pick(
+                1,
+                self.supply.min().value(),
+                self.supply.max().value(),
+            )),
+            temperature: crate::units::Celsius::new(pick(
+                2,
+                self.temperature.min().value(),
+                self.temperature.max().value(),
+            )),
+            resistance_factor: pick(4, 1.0 - t.resistance, 1.0 + t.resistance),
+            inductance_factor: pick(8, 1.0 - t.inductance, 1.0 + t.inductance),
+            sense_factor: pick(16, 1.0 - t.sense, 1.0 + t.sense),
+        })
+    }
+
     /// Every figure at one operating point, the coil switched off from its final current.
+    ///
+    /// # Errors
+    /// Invalid tolerances or inputs; a planned duty `t_on·f` above 1 ([`crate::Param::Duty`]).
     pub fn figures(&self, op: &OperatingPoint) -> Result<Figures, Error> {
         self.tolerances.validate()?;
         let c = &self.circuit;
@@ -112,6 +149,13 @@ impl DriverDesign {
         };
         let release = c.release(op, final_current)?;
         let energy = release.energy()?;
+        let release_time = release.time_to_current(c.coil().drop_out_current())?;
+        let time_to_zero = release.time_to_zero()?;
+        let residual = if self.residual_current.value() == 0.0 {
+            time_to_zero
+        } else {
+            release.settle_time(self.residual_current)?
+        };
         let needs = OffTimeNeeds {
             residual_current: self.residual_current,
             mechanical_release: self.release_allowance,
@@ -120,7 +164,7 @@ impl DriverDesign {
                 _ => None,
             },
         };
-        let off_time = min_off_time(&release, c.coil().drop_out_current(), &needs)?;
+        let off_time = off_time_from_parts(release_time, residual, energy.clamp, &needs)?;
         let clamp_power = match self.duty {
             Some((_, f)) => Some(clamp_average_power(energy.clamp, f)?),
             None => None,
@@ -136,8 +180,8 @@ impl DriverDesign {
             pull_in_time,
             pull_in_margin: final_current.value() / c.coil().pull_in_current().value() - 1.0,
             tau_off: release.tau(),
-            release_time: release.time_to_current(c.coil().drop_out_current())?,
-            time_to_zero: release.time_to_zero()?,
+            release_time,
+            time_to_zero,
             energy,
             peak_switch_voltage: release.peak_switch_voltage(),
             switch_headroom: Volts::new(
@@ -148,6 +192,58 @@ impl DriverDesign {
             max_repetition,
             off_time,
         })
+    }
+
+    /// Longest off-time and release time over all corners (the RC snubber's times are not
+    /// monotone in the parts). Kept out of line so its figures do not grow the stack of
+    /// [`DriverDesign::budget`] for the first-order clamps.
+    #[inline(never)]
+    fn slowest_corner_times(&self) -> Result<(Seconds, Seconds), Error> {
+        let mut off = Seconds::new(0.0);
+        let mut rel = Seconds::new(0.0);
+        let mut k = 0;
+        while let Some(op) = self.corner(k) {
+            let f = self.figures(&op)?;
+            if f.off_time.required > off {
+                off = f.off_time.required;
+            }
+            if f.release_time > rel {
+                rel = f.release_time;
+            }
+            k += 1;
+        }
+        Ok((off, rel))
+    }
+
+    /// Time-average winding dissipation at the planned duty at `op`: `P = I∞²·R_w·D` with
+    /// `D = t_on·f` (transients neglected; see [`crate::physics::heating`]), W. `None` when the
+    /// design has no planned duty. Kept out of [`Figures`] to keep the budget's stack small.
+    ///
+    /// # Errors
+    /// A duty above 1 ([`crate::Param::Duty`]) or invalid inputs.
+    pub fn coil_power(&self, op: &OperatingPoint) -> Result<Option<Watts>, Error> {
+        let Some((on, f)) = self.duty else {
+            return Ok(None);
+        };
+        let d = crate::error::non_negative(on.value(), crate::error::Param::Time)?
+            * crate::error::non_negative(f.value(), crate::error::Param::Frequency)?;
+        self.circuit.coil_dissipation(op, d).map(Some)
+    }
+
+    /// The hold PWM for `hold_current` at `frequency` at the nominal point, the pull-in corner
+    /// (hot, low supply: the highest duty) and the release corner (cold, high supply: the lowest
+    /// duty), in that order. See [`Circuit::hold`].
+    pub fn hold_at_corners(
+        &self,
+        hold_current: Amps,
+        frequency: Hertz,
+    ) -> Result<[Hold; 3], Error> {
+        let c = &self.circuit;
+        Ok([
+            c.hold(&self.nominal_point(), hold_current, frequency)?,
+            c.hold(&self.pull_in_corner(), hold_current, frequency)?,
+            c.hold(&self.release_corner(), hold_current, frequency)?,
+        ])
     }
 
     /// The release at the worst release corner (for plotting or custom checks).
@@ -161,7 +257,8 @@ impl DriverDesign {
     /// minimum on- and off-times in ticks (rounded up).
     ///
     /// `min_on = t_pull_in(pull-in corner) + operate allowance`;
-    /// `min_off = max over corners of the safe off-time` (see [`min_off_time`]).
+    /// `min_off = max over corners of the safe off-time` (see
+    /// [`crate::physics::off_time::min_off_time`]).
     ///
     /// # Errors
     /// [`Error::Unreachable`] when the coil cannot pull in at the pull-in corner (firmware must not
@@ -184,17 +281,27 @@ impl DriverDesign {
                     crate::error::Param::Time,
                 )?,
         );
-        let min_off = if release.off_time.required >= nominal.off_time.required {
+        let mut min_off = if release.off_time.required >= nominal.off_time.required {
             release.off_time.required
         } else {
             nominal.off_time.required
         };
+        let mut release_time = release.release_time;
+        if self.circuit.clamp().kind() == crate::physics::clamp::ClampKind::RcSnubber {
+            let (off, rel) = self.slowest_corner_times()?;
+            if off > min_off {
+                min_off = off;
+            }
+            if rel > release_time {
+                release_time = rel;
+            }
+        }
         let r = self.tick_rate;
         let ticks = TickBudget {
             min_on: r.ticks_at_least(min_on)?,
             min_off: r.ticks_at_least(min_off)?,
             pull_in: r.ticks_at_least(t_pull)?,
-            release: r.ticks_at_least(release.release_time)?,
+            release: r.ticks_at_least(release_time)?,
         };
         Ok(TimingBudget {
             nominal,
@@ -202,6 +309,7 @@ impl DriverDesign {
             release_corner: release,
             min_on_time: min_on,
             min_off_time: min_off,
+            release_time,
             ticks,
         })
     }
@@ -244,6 +352,10 @@ pub struct Figures {
     pub off_time: OffTime,
 }
 
+/// Number of corners of the tolerance box searched by [`DriverDesign::corner`]: 2⁵ (supply,
+/// temperature, resistance, inductance, sense).
+pub const CORNER_COUNT: u32 = 32;
+
 /// The firmware's timing constants in ticks, each rounded up.
 #[derive(Clone, Copy, Debug, PartialEq, Eq)]
 #[cfg_attr(feature = "defmt", derive(defmt::Format))]
@@ -254,7 +366,7 @@ pub struct TickBudget {
     pub min_off: Ticks,
     /// Worst-corner electrical pull-in time.
     pub pull_in: Ticks,
-    /// Worst-corner electrical release time (to drop-out).
+    /// Worst electrical release time (to drop-out), [`TimingBudget::release_time`].
     pub release: Ticks,
 }
 
@@ -272,6 +384,183 @@ pub struct TimingBudget {
     pub min_on_time: Seconds,
     /// Safe minimum off-time, s.
     pub min_off_time: Seconds,
+    /// Longest electrical release time (switch-off to drop-out current), s: the release corner's,
+    /// or for an RC snubber the longest over all corners.
+    pub release_time: Seconds,
     /// The same in ticks.
     pub ticks: TickBudget,
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::physics::circuit::tests::valve;
+    use crate::physics::clamp::Clamp;
+    use crate::physics::off_time::min_off_time;
+    use crate::units::{Celsius, Farads, Ohms};
+
+    fn every_clamp() -> [Clamp; 6] {
+        [
+            Clamp::diode(Volts::new(0.8)).unwrap(),
+            Clamp::diode_zener(Volts::new(0.8), Volts::new(34.0)).unwrap(),
+            Clamp::diode_resistor(Volts::new(0.8), Ohms::new(220.0)).unwrap(),
+            Clamp::AcrossSwitch {
+                clamp_voltage: Volts::new(47.0),
+            },
+            Clamp::Unclamped,
+            Clamp::rc_snubber(Ohms::new(1000.0), Farads::from_micro(10.0)).unwrap(),
+        ]
+    }
+
+    /// Invented demo design: the 24 V greenhouse valve, 21.6…26.4 V, −25…+60 °C winding, ±5 % R,
+    /// ±20 % L, ±1 % sense, 1 MHz timer, 8 ms / 5 ms mechanical allowances.
+    fn design(clamp: Clamp) -> DriverDesign {
+        let mut d = DriverDesign::new(
+            valve(clamp),
+            SupplyRange::new(Volts::new(21.6), Volts::new(24.0), Volts::new(26.4)).unwrap(),
+            TemperatureRange::new(Celsius::new(-25.0), Celsius::new(60.0)).unwrap(),
+            TickRate::new(1_000_000).unwrap(),
+        );
+        d.tolerances = Tolerances {
+            resistance: 0.05,
+            inductance: 0.2,
+            sense: 0.01,
+        };
+        d.operate_allowance = Seconds::from_millis(8.0);
+        d.release_allowance = Seconds::from_millis(5.0);
+        d
+    }
+
+    fn corners(d: &DriverDesign) -> impl Iterator<Item = OperatingPoint> + '_ {
+        (0..).map_while(|k| d.corner(k))
+    }
+
+    #[test]
+    fn the_two_chosen_corners_are_the_worst_of_all_32() {
+        // Brute force over every combination of supply, temperature, R, L and sense extremes
+        // (16 supply/temperature/R/L corners, each with both sense extremes).
+        for clamp in every_clamp() {
+            let mut d = design(clamp);
+            d.duty = Some((Seconds::from_millis(50.0), Hertz::new(2.0)));
+            d.clamp_rating = Some(Watts::new(0.25));
+            let b = d.budget().unwrap();
+            let p = &b.pull_in_corner;
+            let r = &b.release_corner;
+            let close = |worst: f32, any: f32| any <= worst * (1.0 + 2e-5) + 1e-9;
+            let snubber = clamp.kind() == crate::physics::clamp::ClampKind::RcSnubber;
+            assert_eq!(corners(&d).count(), 32);
+            let mut longest = 0.0f32;
+            for op in corners(&d) {
+                let f = d.figures(&op).unwrap();
+                let pull = f.pull_in_time.unwrap().value();
+                longest = longest.max(f.release_time.value());
+                assert!(
+                    close(p.pull_in_time.unwrap().value(), pull),
+                    "{clamp:?} pull-in {op:?}"
+                );
+                assert!(
+                    close(b.release_time.value(), f.release_time.value()),
+                    "{clamp:?} release {op:?}"
+                );
+                if !snubber {
+                    // First-order clamps: the release corner itself is the slowest.
+                    assert!(close(r.release_time.value(), f.release_time.value()));
+                    assert!(close(r.time_to_zero.value(), f.time_to_zero.value()));
+                }
+                assert!(
+                    close(r.peak_switch_voltage.value(), f.peak_switch_voltage.value()),
+                    "{clamp:?} peak {op:?}"
+                );
+                assert!(
+                    close(r.energy.clamp.value(), f.energy.clamp.value()),
+                    "{clamp:?} energy {op:?}"
+                );
+                assert!(
+                    close(r.energy.stored.value(), f.energy.stored.value()),
+                    "{clamp:?} stored"
+                );
+                assert!(
+                    close(b.min_off_time.value(), f.off_time.required.value()),
+                    "{clamp:?} off-time {op:?}"
+                );
+            }
+            // The budget's release time is one of the corners' (not an overestimate either).
+            assert!((b.release_time.value() - longest).abs() <= 1e-6 * longest);
+        }
+    }
+
+    #[test]
+    fn budget_is_pull_in_plus_allowance_and_rounds_up() {
+        for clamp in every_clamp() {
+            let d = design(clamp);
+            let b = d.budget().unwrap();
+            let t_pull = b.pull_in_corner.pull_in_time.unwrap().value();
+            assert!((b.min_on_time.value() - (t_pull + 0.008)).abs() < 1e-7);
+            let rate = 1.0e6f64;
+            for (ticks, s) in [
+                (b.ticks.min_on, b.min_on_time),
+                (b.ticks.min_off, b.min_off_time),
+                (b.ticks.pull_in, b.pull_in_corner.pull_in_time.unwrap()),
+                (b.ticks.release, b.release_time),
+            ] {
+                assert!(ticks.get() as f64 / rate >= s.value() as f64);
+                assert!((ticks.get() as f64 - 1.0) / rate < s.value() as f64);
+            }
+            assert!(b.min_off_time >= b.nominal.off_time.required);
+        }
+    }
+
+    #[test]
+    fn the_fast_path_off_time_equals_the_public_one() {
+        for clamp in every_clamp() {
+            let mut d = design(clamp);
+            d.duty = Some((Seconds::from_millis(50.0), Hertz::new(2.0)));
+            d.clamp_rating = Some(Watts::new(0.05));
+            for op in [d.nominal_point(), d.release_corner(), d.pull_in_corner()] {
+                let f = d.figures(&op).unwrap();
+                let rel = d.circuit.release(&op, f.final_current).unwrap();
+                let needs = OffTimeNeeds {
+                    residual_current: d.residual_current,
+                    mechanical_release: d.release_allowance,
+                    clamp_thermal: Some((Watts::new(0.05), Seconds::from_millis(50.0))),
+                };
+                let slow = min_off_time(&rel, d.circuit.coil().drop_out_current(), &needs).unwrap();
+                assert_eq!(slow, f.off_time, "{clamp:?}");
+            }
+        }
+    }
+
+    #[test]
+    fn a_coil_that_cannot_pull_in_at_the_corner_fails_the_budget() {
+        let mut d = design(every_clamp()[0]);
+        d.supply = SupplyRange::new(Volts::new(14.0), Volts::new(24.0), Volts::new(28.0)).unwrap();
+        assert!(matches!(d.budget(), Err(Error::Unreachable { .. })));
+        assert!(d
+            .figures(&d.pull_in_corner())
+            .unwrap()
+            .pull_in_time
+            .is_none());
+    }
+
+    #[test]
+    fn duty_gives_coil_power_and_hold_is_optional() {
+        let mut d = design(every_clamp()[0]);
+        d.duty = Some((Seconds::from_millis(100.0), Hertz::new(5.0)));
+        let b = d.budget().unwrap();
+        let f = &b.nominal;
+        let r = d.circuit.resolve(&f.point).unwrap().winding.value();
+        let i = f.final_current.value();
+        let p = d.coil_power(&f.point).unwrap().unwrap().value();
+        assert!((p - i * i * r * 0.5).abs() < 1e-6);
+        let [h, hot, cold] = d
+            .hold_at_corners(Amps::new(0.05), Hertz::new(20_000.0))
+            .unwrap();
+        assert!(h.duty > 0.0 && h.duty < 1.0);
+        // Hold duty is highest at the hot, low-supply corner, lowest at the cold, high one.
+        assert!(hot.duty > h.duty && cold.duty < h.duty);
+        d.duty = Some((Seconds::new(1.0), Hertz::new(5.0)));
+        assert!(d.coil_power(&f.point).is_err());
+        d.duty = None;
+        assert_eq!(d.coil_power(&f.point), Ok(None));
+    }
 }

@@ -107,6 +107,15 @@ pub enum Limit {
     NoHeadroom,
     /// A result does not fit an `f32` (overflow to infinity).
     Overflow,
+    /// The drive voltage is at or below the base-emitter (or gate) voltage: the switch stays off.
+    NoDrive,
+    /// The calculation needs a first-order clamp loop; the RC snubber is second-order.
+    NotFirstOrder,
+    /// PWM too slow for the coil: the current falls to zero in every off phase (discontinuous
+    /// conduction), outside the continuous-conduction hold model.
+    DiscontinuousConduction,
+    /// The winding would settle above the copper model's temperature range: it overheats.
+    Overtemperature,
 }
 
 /// Error returned by every fallible function of the crate.
@@ -202,6 +211,12 @@ impl fmt::Display for Limit {
             Limit::SnubberUnderdamped => "RC snubber is underdamped (current rings)",
             Limit::NoHeadroom => "switch drop leaves no voltage across the coil",
             Limit::Overflow => "result overflows f32",
+            Limit::NoDrive => "drive voltage does not exceed the base-emitter or gate voltage",
+            Limit::NotFirstOrder => "needs a first-order clamp; the RC snubber is second-order",
+            Limit::DiscontinuousConduction => {
+                "PWM too slow: the coil current falls to zero every period"
+            }
+            Limit::Overtemperature => "winding would settle above the model's temperature range",
         };
         f.write_str(s)
     }

@@ -6,7 +6,8 @@
 //! Layers, each using only the ones above it:
 //!
 //! - [`units`], [`error`], [`time`]: SI newtypes, the error type, timer ticks;
-//! - [`physics`]: the coil and its drive circuit, rise, release per clamp, energy, off-time;
+//! - [`physics`]: the coil and its drive circuit, rise, release per clamp, energy, off-time,
+//!   switch drive check, hold PWM, coil heating, capacitive nodes;
 //! - [`design`]: one call for a whole driver design's timing budget.
 //!
 //! All results are engineering estimates from first-order models. They do not replace the
@@ -21,13 +22,20 @@ pub mod physics;
 pub mod time;
 pub mod units;
 
-pub use design::{DriverDesign, Figures, TickBudget, TimingBudget};
+pub use design::{DriverDesign, Figures, TickBudget, TimingBudget, CORNER_COUNT};
 pub use error::{Error, Limit, Param, Why};
 pub use physics::circuit::{
     Circuit, OperatingPoint, SupplyRange, Switch, TemperatureRange, Tolerances, Topology,
 };
 pub use physics::clamp::{Clamp, ClampKind, EnergySplit, Release};
 pub use physics::coil::{Armature, Coil};
+pub use physics::drive::{
+    check_bipolar, check_mosfet, BaseDrive, BipolarCheck, GateDrive, MosfetCheck, COMMON_OVERDRIVE,
+};
 pub use physics::first_order::FirstOrder;
+pub use physics::heating::SelfHeating;
+pub use physics::hold::Hold;
+pub use physics::rc_node::{RcNode, SwitchOffEdge};
+pub use physics::snubber::{SnubberEnergy, SnubberRelease};
 pub use time::{Instant, TickRate, Ticks};
 pub use units::*;

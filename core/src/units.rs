@@ -106,6 +106,12 @@ quantity!(
     "K/W"
 );
 
+quantity!(
+    /// Rate of change of voltage in volts per second (V/s).
+    VoltsPerSecond,
+    "V/s"
+);
+
 impl Seconds {
     /// `t = ms · 10⁻³ s`.
     #[inline]

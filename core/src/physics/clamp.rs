@@ -9,11 +9,16 @@
 //! which reaches zero in finite time `t₀ = τ·ln(1 + I₀/a)`. With `x = I₀/a`, the charge and the
 //! square-current integral over the release are `Q = ∫i dt = τ·a·(x − ln(1+x))` and
 //! `S = ∫i² dt = τ·a²·(ln(1+x) − x + x²/2)`, so that `R·S + V·Q = ½·L·I₀²` exactly.
+//!
+//! The series R–C snubber ([`Clamp::RcSnubber`]) adds the capacitor voltage as a second state; its
+//! release is second-order and lives in [`super::snubber`]. [`Release`] carries either shape and
+//! answers the same questions for both.
 
 use super::circuit::{Circuit, OperatingPoint, Topology};
 use super::first_order::FirstOrder;
+use super::snubber::SnubberRelease;
 use crate::error::{positive, result, Error, Param, Why};
-use crate::units::{Amps, Joules, Ohms, Seconds, Volts};
+use crate::units::{Amps, Farads, Henries, Joules, Ohms, Seconds, Volts};
 
 /// What absorbs the coil's energy at switch-off.
 #[derive(Clone, Copy, Debug, PartialEq)]
@@ -46,6 +51,15 @@ pub enum Clamp {
     },
     /// No clamp: the switch avalanches at its breakdown voltage and absorbs the energy itself.
     Unclamped,
+    /// Series resistor + capacitor across the coil, no diode. Second-order: modelled exactly while
+    /// overdamped or critically damped (`(R + R_s)² ≥ 4L/C`), an error when it would ring. The
+    /// capacitor is taken as charged to the on-state coil voltage at switch-off.
+    RcSnubber {
+        /// Snubber resistor R_s, Ω (> 0).
+        resistance: Ohms,
+        /// Snubber capacitor C, F (> 0).
+        capacitance: Farads,
+    },
 }
 
 /// The clamp type without its values (for reports and logs).
@@ -62,6 +76,8 @@ pub enum ClampKind {
     AcrossSwitch,
     /// [`Clamp::Unclamped`].
     Unclamped,
+    /// [`Clamp::RcSnubber`].
+    RcSnubber,
 }
 
 impl Clamp {
@@ -85,6 +101,16 @@ impl Clamp {
         let c = Clamp::DiodeResistor {
             forward,
             resistance,
+        };
+        c.validate().map(|()| c)
+    }
+
+    /// Series R–C snubber across the coil (`resistance` > 0 Ω, `capacitance` > 0 F). Whether it is
+    /// damped enough for the model is checked at release, where L and R are known.
+    pub fn rc_snubber(resistance: Ohms, capacitance: Farads) -> Result<Self, Error> {
+        let c = Clamp::RcSnubber {
+            resistance,
+            capacitance,
         };
         c.validate().map(|()| c)
     }
@@ -117,6 +143,13 @@ impl Clamp {
                 positive(clamp_voltage.value(), Param::ClampVoltage)?;
             }
             Clamp::Unclamped => {}
+            Clamp::RcSnubber {
+                resistance,
+                capacitance,
+            } => {
+                positive(resistance.value(), Param::ClampResistance)?;
+                positive(capacitance.value(), Param::Capacitance)?;
+            }
         }
         Ok(())
     }
@@ -129,14 +162,16 @@ impl Clamp {
             Clamp::DiodeResistor { .. } => ClampKind::DiodeResistor,
             Clamp::AcrossSwitch { .. } => ClampKind::AcrossSwitch,
             Clamp::Unclamped => ClampKind::Unclamped,
+            Clamp::RcSnubber { .. } => ClampKind::RcSnubber,
         }
     }
 }
 
 /// Where the coil's stored energy goes during one release, J.
 ///
-/// Balance: `clamp + winding = stored + supply` (the supply term is non-zero only when the clamp is
-/// across the switch or the switch avalanches, because the supply then stays in the loop).
+/// Balance: `clamp + winding = stored + supply + capacitor` (the supply term is non-zero only when
+/// the clamp is across the switch or the switch avalanches, because the supply then stays in the
+/// loop; the capacitor term only for the RC snubber).
 #[derive(Clone, Copy, Debug, PartialEq)]
 #[cfg_attr(feature = "defmt", derive(defmt::Format))]
 pub struct EnergySplit {
@@ -148,6 +183,32 @@ pub struct EnergySplit {
     pub winding: Joules,
     /// Energy drawn from the supply during the release.
     pub supply: Joules,
+    /// Energy given up by a snubber capacitor over the release (its pre-charge ½·C·V₀²); 0 J for
+    /// every other clamp.
+    pub capacitor: Joules,
+}
+
+impl EnergySplit {
+    /// What the balance leaves over: `clamp + winding − stored − supply − capacitor`, J (zero up to
+    /// rounding for every release of this crate).
+    pub fn imbalance(&self) -> Joules {
+        Joules::new(
+            self.clamp.value() + self.winding.value()
+                - self.stored.value()
+                - self.supply.value()
+                - self.capacitor.value(),
+        )
+    }
+}
+
+/// Which waveform a release follows.
+#[derive(Clone, Copy, Debug, PartialEq)]
+#[cfg_attr(feature = "defmt", derive(defmt::Format))]
+enum Shape {
+    /// First-order: resistance against a constant opposing voltage (every clamp but the snubber).
+    Linear,
+    /// Second-order: the series R–C snubber.
+    Snubber(SnubberRelease),
 }
 
 /// The release after switch-off from current I₀, for one circuit at one operating point.
@@ -167,14 +228,19 @@ pub struct Release {
     supply: f32,
     topology: Topology,
     inductance: f32,
+    shape: Shape,
 }
 
 impl Circuit {
     /// The release after switch-off from `initial` amperes (≥ 0), armature operated, at `op`.
     ///
+    /// For the RC snubber the capacitor's pre-charge is the on-state voltage across the coil
+    /// terminals at I₀: `V₀ = V_drive − I₀·(R_sense + R_DS(on))` (= `I₀·R_loop` at the final current).
+    ///
     /// # Errors
     /// Invalid operating point or current; [`Why::BelowSupply`] when the switch breakdown or a
-    /// clamp across the switch does not exceed the supply.
+    /// clamp across the switch does not exceed the supply; [`crate::Limit::SnubberUnderdamped`] for
+    /// a snubber that would ring.
     pub fn release(&self, op: &OperatingPoint, initial: Amps) -> Result<Release, Error> {
         let r = self.resolve(op)?;
         let i0 = crate::error::non_negative(initial.value(), Param::Current)?;
@@ -204,6 +270,33 @@ impl Circuit {
                 }
                 (0.0, breakdown - supply, breakdown, supply)
             }
+            Clamp::RcSnubber {
+                resistance,
+                capacitance,
+            } => {
+                // Pre-charge: the on-state voltage across the coil terminals at I₀.
+                let precharge = r.drive.value() - i0 * (r.on_loop.value() - r_loop);
+                let s = SnubberRelease::new(
+                    Henries::new(r.inductance_operated),
+                    r.off_loop,
+                    resistance,
+                    capacitance,
+                    Amps::new(i0),
+                    Volts::new(precharge),
+                )?;
+                return Ok(Release {
+                    curve: FirstOrder::new(i0, 0.0, s.slow_time_constant())?,
+                    loop_resistance: r_loop,
+                    clamp_resistance: resistance.value(),
+                    opposing: 0.0,
+                    clamp_element_voltage: 0.0,
+                    supply_in_loop: 0.0,
+                    supply,
+                    topology: self.topology(),
+                    inductance: r.inductance_operated,
+                    shape: Shape::Snubber(s),
+                });
+            }
         };
         let r_total = r_loop + r_clamp;
         let tau = r.inductance_operated / r_total;
@@ -218,14 +311,26 @@ impl Circuit {
             supply,
             topology: self.topology(),
             inductance: r.inductance_operated,
+            shape: Shape::Linear,
         })
     }
 }
 
 impl Release {
     /// The underlying first-order curve `i(t) = (I₀ + a)·e^(−t/τ) − a`, valid while i ≥ 0.
+    ///
+    /// For the RC snubber, which is not first-order, this is only the envelope of its slow mode:
+    /// from I₀ towards 0 with the slow time constant (see [`Release::snubber`] for the waveform).
     pub const fn curve(&self) -> &FirstOrder {
         &self.curve
+    }
+
+    /// The exact second-order release when the clamp is an RC snubber, else `None`.
+    pub const fn snubber(&self) -> Option<&SnubberRelease> {
+        match &self.shape {
+            Shape::Snubber(s) => Some(s),
+            Shape::Linear => None,
+        }
     }
 
     /// Current at switch-off, A.
@@ -233,32 +338,62 @@ impl Release {
         Amps::new(self.curve.initial())
     }
 
-    /// Release time constant `τ = L_operated / (R_loop + R_clamp)`, s.
+    /// Release time constant `τ = L_operated / (R_loop + R_clamp)`, s; for the RC snubber its slow
+    /// time constant `−1/s₁`.
     pub const fn tau(&self) -> Seconds {
         self.curve.tau()
     }
 
     /// Coil current at time t after switch-off, A: the curve above until it reaches zero, then 0
-    /// (the diode blocks reverse current). Domain: t ≥ 0.
+    /// (the diode blocks reverse current). For the RC snubber the exact second-order current,
+    /// which may swing negative (no diode). Domain: t ≥ 0.
     pub fn current_at(&self, t: Seconds) -> Result<Amps, Error> {
-        Ok(Amps::new(libm::fmaxf(self.curve.value_at(t)?, 0.0)))
+        match &self.shape {
+            Shape::Linear => Ok(Amps::new(libm::fmaxf(self.curve.value_at(t)?, 0.0))),
+            Shape::Snubber(s) => s.current_at(t),
+        }
     }
 
     /// Time for the current to fall to `target` (0 ≤ target; a target above I₀ gives 0 s):
-    /// `t = τ·ln((I₀ + a)/(I_target + a))`, s.
+    /// `t = τ·ln((I₀ + a)/(I_target + a))`, s. RC snubber: the first crossing, solved numerically
+    /// (see [`SnubberRelease::time_to_current`]).
     pub fn time_to_current(&self, target: Amps) -> Result<Seconds, Error> {
-        let target = crate::error::non_negative(target.value(), Param::Current)?;
-        self.curve.time_to(target)
+        match &self.shape {
+            Shape::Linear => {
+                let target = crate::error::non_negative(target.value(), Param::Current)?;
+                self.curve.time_to(target)
+            }
+            Shape::Snubber(s) => s.time_to_current(target),
+        }
     }
 
-    /// Time for the current to reach zero: `t₀ = τ·ln(1 + I₀/a)`, s.
+    /// Time for the current to reach zero: `t₀ = τ·ln(1 + I₀/a)`, s. RC snubber: its current only
+    /// tends to zero (or swings through it), so this is the time after which it stays within
+    /// e⁻⁵·I₀ (see [`SnubberRelease::time_to_rest`]).
     pub fn time_to_zero(&self) -> Result<Seconds, Error> {
-        self.curve.time_to(0.0)
+        match &self.shape {
+            Shape::Linear => self.curve.time_to(0.0),
+            Shape::Snubber(s) => s.time_to_rest(),
+        }
     }
 
-    /// Peak voltage across the switch, V (magnitude), reached at the instant of switch-off:
-    /// `V_supply + V + I₀·R_clamp`, where V is the clamp's opposing voltage (for a clamp across
-    /// the switch or avalanche, simply the clamping / breakdown voltage).
+    /// Time after which the current stays at or below `residual` (A, ≥ 0), s. For the first-order
+    /// clamps (the current falls monotonically to zero and stops) this equals
+    /// [`Release::time_to_current`]; a residual of 0 A is [`Release::time_to_zero`]. RC snubber:
+    /// `|i| ≤ residual` for good, the reverse lobe included.
+    pub fn settle_time(&self, residual: Amps) -> Result<Seconds, Error> {
+        let r = crate::error::non_negative(residual.value(), Param::Current)?;
+        match &self.shape {
+            Shape::Linear => self.curve.time_to(r),
+            Shape::Snubber(s) if r == 0.0 => s.time_to_rest(),
+            Shape::Snubber(s) => s.settle_time(residual),
+        }
+    }
+
+    /// Peak voltage across the switch, V (magnitude): `V_supply + V + I₀·R_clamp`, reached at the
+    /// instant of switch-off, where V is the clamp's opposing voltage (for a clamp across the
+    /// switch or avalanche, simply the clamping / breakdown voltage). RC snubber:
+    /// `V_supply + max_t(R_s·i − v_C)`, whose maximum may come after switch-off (closed form).
     pub fn peak_switch_voltage(&self) -> Volts {
         Volts::new(self.supply + self.peak_coil_voltage())
     }
@@ -273,9 +408,12 @@ impl Release {
         })
     }
 
-    /// Reverse voltage across the coil at the instant of switch-off, V (magnitude).
+    /// Largest reverse voltage across the coil during the release, V (magnitude).
     fn peak_coil_voltage(&self) -> f32 {
-        self.opposing + self.curve.initial() * self.clamp_resistance
+        match &self.shape {
+            Shape::Linear => self.opposing + self.curve.initial() * self.clamp_resistance,
+            Shape::Snubber(s) => s.peak_reverse_voltage().value(),
+        }
     }
 
     /// Energy balance over the whole release (to zero current), J:
@@ -285,8 +423,21 @@ impl Release {
     /// For a switch that avalanches (no clamp) this is the single-pulse unclamped inductive
     /// switching energy: as R → 0 it tends to `½·L·I₀²·V_BR/(V_BR − V_supply)`.
     ///
+    /// RC snubber: `clamp` is the snubber resistor's share and `capacitor` the pre-charge given up,
+    /// see [`SnubberRelease::energy`].
+    ///
     /// Accuracy: relative error ≲ 1e-5 of `stored` (series evaluation for small I₀/a).
     pub fn energy(&self) -> Result<EnergySplit, Error> {
+        if let Shape::Snubber(s) = &self.shape {
+            let e = s.energy();
+            return Ok(EnergySplit {
+                stored: e.stored,
+                clamp: e.snubber_resistor,
+                winding: e.winding,
+                supply: Joules::new(0.0),
+                capacitor: e.capacitor,
+            });
+        }
         let i0 = self.curve.initial();
         let tau = self.curve.tau().value();
         let a = -self.curve.asymptote();
@@ -298,6 +449,7 @@ impl Release {
             clamp: Joules::new(self.clamp_element_voltage * q + self.clamp_resistance * s),
             winding: Joules::new(self.loop_resistance * s),
             supply: Joules::new(self.supply_in_loop * q),
+            capacitor: Joules::new(0.0),
         })
     }
 }
@@ -348,7 +500,7 @@ mod tests {
         OperatingPoint::new(Volts::new(24.0), Celsius::new(20.0))
     }
 
-    fn every_clamp() -> [Clamp; 5] {
+    fn every_clamp() -> [Clamp; 6] {
         [
             Clamp::diode(Volts::new(0.8)).unwrap(),
             Clamp::diode_zener(Volts::new(0.8), Volts::new(34.0)).unwrap(),
@@ -357,6 +509,7 @@ mod tests {
                 clamp_voltage: Volts::new(47.0),
             },
             Clamp::Unclamped,
+            Clamp::rc_snubber(Ohms::new(1000.0), Farads::from_micro(10.0)).unwrap(),
         ]
     }
 
@@ -366,9 +519,11 @@ mod tests {
             let c = valve(clamp);
             let rel = c.release(&op(), Amps::new(0.13)).unwrap();
             let e = rel.energy().unwrap();
-            let lhs = e.clamp.value() + e.winding.value();
-            let rhs = e.stored.value() + e.supply.value();
-            assert!((lhs - rhs).abs() <= 1e-5 * rhs, "{clamp:?}: {lhs} vs {rhs}");
+            let rhs = e.stored.value() + e.supply.value() + e.capacitor.value();
+            assert!(
+                e.imbalance().value().abs() <= 1e-5 * rhs,
+                "{clamp:?}: {e:?}"
+            );
         }
     }
 
@@ -450,5 +605,45 @@ mod tests {
             let direct2 = (x as f64).ln_1p() - x as f64 + 0.5 * (x as f64) * (x as f64);
             assert!((ln_1p_minus_x_plus_half_x2(x) as f64 - direct2).abs() < 1e-4 * direct2);
         }
+    }
+
+    #[test]
+    fn snubber_release_through_the_circuit() {
+        let c = valve(Clamp::rc_snubber(Ohms::new(1000.0), Farads::from_micro(10.0)).unwrap());
+        let i0 = c.final_current(&op()).unwrap();
+        let rel = c.release(&op(), i0).unwrap();
+        let s = rel.snubber().expect("snubber shape");
+        // Settled on-state: the capacitor holds I₀ times the freewheel loop (winding + wiring).
+        assert!((s.precharge().value() - i0.value() * 180.4).abs() < 1e-4);
+        assert_eq!(rel.tau(), s.slow_time_constant());
+        assert_eq!(
+            rel.current_at(Seconds::new(1e-3)).unwrap(),
+            s.current_at(Seconds::new(1e-3)).unwrap()
+        );
+        // The switch sees supply + the snubber's peak reverse voltage.
+        let peak = rel.peak_switch_voltage().value();
+        assert!((peak - 24.0 - s.peak_reverse_voltage().value()).abs() < 1e-4);
+        // Peak at least R_s·I₀ − V₀ (its value at switch-off).
+        assert!(peak >= 24.0 + 1000.0 * i0.value() - s.precharge().value() - 1e-4);
+        assert!(rel.settle_time(Amps::new(0.0)).unwrap() == rel.time_to_zero().unwrap());
+        assert!(valve(Clamp::diode(Volts::new(0.8)).unwrap())
+            .release(&op(), i0)
+            .unwrap()
+            .snubber()
+            .is_none());
+        // Ringing snubber: error, not a wrong answer.
+        let ring = valve(Clamp::rc_snubber(Ohms::new(100.0), Farads::from_micro(1.0)).unwrap());
+        assert_eq!(
+            ring.release(&op(), i0),
+            Err(Error::OutsideModel(crate::error::Limit::SnubberUnderdamped))
+        );
+        assert!(Clamp::rc_snubber(Ohms::new(0.0), Farads::from_micro(1.0)).is_err());
+        assert!(Clamp::rc_snubber(Ohms::new(10.0), Farads::new(f32::INFINITY)).is_err());
+        assert_eq!(
+            Clamp::rc_snubber(Ohms::new(10.0), Farads::new(1e-6))
+                .unwrap()
+                .kind(),
+            ClampKind::RcSnubber
+        );
     }
 }

@@ -1,9 +1,16 @@
-//! Closed-form physics of a switched coil: first-order rise and release, clamps, energy,
-//! off-time and repetition limits.
+//! Closed-form physics of a switched coil: first-order rise and release, clamps (the RC snubber
+//! second-order), energy, off-time and repetition limits, switch drive, hold PWM, heating, and
+//! capacitive nodes.
 
 pub mod circuit;
 pub mod clamp;
 pub mod coil;
+pub mod drive;
 pub mod first_order;
+pub mod heating;
+pub mod hold;
 pub mod off_time;
+pub mod rc_node;
 pub mod repetition;
+mod root;
+pub mod snubber;

@@ -3,7 +3,7 @@
 use super::clamp::Release;
 use super::repetition::min_period;
 use crate::error::{non_negative, Error, Param};
-use crate::units::{Amps, Seconds, Watts};
+use crate::units::{Amps, Joules, Seconds, Watts};
 
 /// What the off-time has to cover besides the electrical release.
 #[derive(Clone, Copy, Debug, PartialEq)]
@@ -49,6 +49,9 @@ pub struct OffTime {
 /// Safe minimum off-time for one release:
 /// `t_off = max(t(i = I_drop) + t_mech, t(i = I_residual), E_clamp/P_rating − t_on)`, s.
 ///
+/// The residual time is [`Release::settle_time`]: for the first-order clamps the plain time to
+/// that current, for the RC snubber the time after which it stays within it.
+///
 /// The mechanical allowance is added to the electrical release (the armature only starts to move
 /// once the current is below drop-out), which is longer than taking the larger of the two.
 pub fn min_off_time(
@@ -56,14 +59,31 @@ pub fn min_off_time(
     drop_out: Amps,
     needs: &OffTimeNeeds,
 ) -> Result<OffTime, Error> {
+    let electrical = release.time_to_current(drop_out)?;
+    let residual = release.settle_time(needs.residual_current)?;
+    let clamp_energy = match needs.clamp_thermal {
+        None => Joules::new(0.0),
+        Some(_) => release.energy()?.clamp,
+    };
+    off_time_from_parts(electrical, residual, clamp_energy, needs)
+}
+
+/// [`min_off_time`] from the release's times and clamp energy already in hand (the design budget
+/// evaluates them once).
+pub(crate) fn off_time_from_parts(
+    electrical: Seconds,
+    residual: Seconds,
+    clamp_energy: Joules,
+    needs: &OffTimeNeeds,
+) -> Result<OffTime, Error> {
     let mech = non_negative(needs.mechanical_release.value(), Param::Time)?;
-    let electrical = release.time_to_current(drop_out)?.value();
-    let residual = release.time_to_current(needs.residual_current)?.value();
+    let electrical = electrical.value();
+    let residual = residual.value();
     let thermal = match needs.clamp_thermal {
         None => 0.0,
         Some((rating, on_time)) => {
             let on = non_negative(on_time.value(), Param::Time)?;
-            let period = min_period(release.energy()?.clamp, rating)?.value();
+            let period = min_period(clamp_energy, rating)?.value();
             libm::fmaxf(period - on, 0.0)
         }
     };

@@ -1,0 +1,249 @@
+//! Hold economiser (peak-and-hold): after pull-in, PWM the switch so the coil carries only the
+//! current it needs to stay operated.
+//!
+//! On phase (duty D of the period T = 1/f): `L·di/dt = V_drive − R_on·i`, towards `I_on = V_drive/R_on`
+//! with `τ_on = L/R_on`. Off phase: the clamp recirculates, `L·di/dt = −V − R_off·i`, towards `−a`
+//! (`a = V/R_off`) with `τ_off = L/R_off` — exactly the release of [`super::clamp`] restarted each
+//! period (plain diode: V = V_F and R_off = winding + wiring). L is the operated inductance.
+//!
+//! **Duty.** Over one steady period `∮L·di = 0`, so the average applied voltage equals the
+//! average resistive drop: `D·V_drive − (1 − D)·V = D·R_on·ī_on + (1 − D)·R_off·ī_off`. Taking both
+//! phase means equal to the hold current I_h gives
+//!
+//! `D = (V + I_h·R_off)/(V_drive + V − I_h·(R_on − R_off))`,
+//!
+//! exact for the average current when `R_on = R_off`, otherwise off by a fraction of order
+//! `|R_on − R_off|/R_off · ΔI/I_h` (the exact average is reported, see [`Hold::average`]).
+//! `D < 1` exactly when `I_h < I_on`.
+//!
+//! **Ripple.** Exact steady periodic solution of the two exponential segments, with
+//! `e_on = e^(−DT/τ_on)`, `e_off = e^(−(1−D)T/τ_off)`:
+//!
+//! `i_valley = (I_on·(1 − e_on)·e_off − a·(1 − e_off))/(1 − e_on·e_off)`,
+//! `i_peak = I_on·(1 − e_on) + i_valley·e_on`. For T ≪ τ this tends to the small-ripple
+//! `ΔI ≈ (V_drive − R_on·I_h)·D·T/L`.
+
+use super::circuit::{Circuit, OperatingPoint};
+use super::coil::Armature;
+use crate::error::{positive, result, Error, Limit, Param};
+use crate::units::{Amps, Hertz, Watts};
+
+/// A steady hold PWM and the current it produces.
+#[derive(Clone, Copy, Debug, PartialEq)]
+#[cfg_attr(feature = "defmt", derive(defmt::Format))]
+pub struct Hold {
+    /// PWM duty (on fraction), 0 < D < 1.
+    pub duty: f32,
+    /// PWM frequency, Hz.
+    pub frequency: Hertz,
+    /// Lowest current in the period (end of the off phase), A.
+    pub valley: Amps,
+    /// Highest current in the period (end of the on phase), A.
+    pub peak: Amps,
+    /// Peak-to-peak ripple `peak − valley`, A.
+    pub ripple: Amps,
+    /// Exact time-average current over the period, A.
+    pub average: Amps,
+    /// Winding dissipation while holding, `R_w·(ī² + ΔI²/12)`, W (the ripple treated as a
+    /// triangle; the exact exponential segments differ by a term of order ΔI²·T/τ).
+    pub winding_power: Watts,
+}
+
+impl Circuit {
+    /// The hold PWM for `hold_current` (A, > 0) at `frequency` (Hz, > 0) at an operating point;
+    /// formulas in the module docs.
+    ///
+    /// # Errors
+    /// [`Error::Unreachable`] when `I_h ≥ I_on = V_drive/R_on` (the coil cannot be held there even
+    /// at 100 %); [`Limit::NotFirstOrder`] for the RC snubber; [`Limit::DiscontinuousConduction`]
+    /// when the current would reach zero in the off phase (PWM too slow); invalid inputs.
+    pub fn hold(
+        &self,
+        op: &OperatingPoint,
+        hold_current: Amps,
+        frequency: Hertz,
+    ) -> Result<Hold, Error> {
+        let ih = positive(hold_current.value(), Param::Current)?;
+        let f = positive(frequency.value(), Param::Frequency)?;
+        let on = self.energize(op, Armature::Operated, Amps::new(0.0))?;
+        let i_on = on.asymptote();
+        if ih >= i_on {
+            return Err(Error::Unreachable {
+                target: ih,
+                asymptote: i_on,
+            });
+        }
+        let release = self.release(op, hold_current)?;
+        if release.snubber().is_some() {
+            return Err(Error::OutsideModel(Limit::NotFirstOrder));
+        }
+        let tau_on = on.tau().value();
+        let tau_off = release.tau().value();
+        let a = -release.curve().asymptote();
+        // R·τ = L for both loops, so the duty can be written with rates (1/τ) instead of ohms.
+        let r_on = 1.0 / tau_on; // ∝ R_on
+        let r_off = 1.0 / tau_off; // ∝ R_off
+        let duty = result(r_off * (a + ih) / (r_on * (i_on - ih) + r_off * (a + ih)))?;
+        let period = result(1.0 / f)?;
+        let x_on = duty * period / tau_on;
+        let x_off = (1.0 - duty) * period / tau_off;
+        let m_on = -libm::expm1f(-x_on);
+        let m_off = -libm::expm1f(-x_off);
+        let m_tot = -libm::expm1f(-(x_on + x_off));
+        if m_tot <= 0.0 {
+            return Err(Error::OutsideModel(Limit::Overflow));
+        }
+        let valley = (i_on * m_on * (1.0 - m_off) - a * m_off) / m_tot;
+        if valley < 0.0 {
+            return Err(Error::OutsideModel(Limit::DiscontinuousConduction));
+        }
+        let ripple = (i_on - valley) * m_on;
+        let peak = valley + ripple;
+        let mean_on = valley + (i_on - valley) * mean_fraction(x_on);
+        let mean_off = peak - (peak + a) * mean_fraction(x_off);
+        let average = result(duty * mean_on + (1.0 - duty) * mean_off)?;
+        let winding = self.resolve(op)?.winding.value();
+        Ok(Hold {
+            duty,
+            frequency: Hertz::new(f),
+            valley: Amps::new(valley),
+            peak: Amps::new(peak),
+            ripple: Amps::new(ripple),
+            average: Amps::new(average),
+            winding_power: Watts::new(winding * (average * average + ripple * ripple / 12.0)),
+        })
+    }
+}
+
+/// `φ(x) = 1 − (1 − e^(−x))/x`: the mean progress of a first-order step over x time constants
+/// (φ → x/2 for small x, → 1 for large x). Series below 0.25 (truncation < 1e-9 relative).
+fn mean_fraction(x: f32) -> f32 {
+    if x < 0.25 {
+        // x/2 − x²/6 + x³/24 − x⁴/120 + x⁵/720 − x⁶/5040 + x⁷/40320
+        let mut term = x;
+        let mut sum = 0.0f32;
+        let mut fact = 1.0f32;
+        let mut n = 1u32;
+        while n <= 7 {
+            fact *= (n + 1) as f32;
+            let t = term / fact;
+            sum += if n % 2 == 1 { t } else { -t };
+            term *= x;
+            n += 1;
+        }
+        sum
+    } else {
+        (x + libm::expm1f(-x)) / x
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::physics::circuit::tests::valve;
+    use crate::physics::clamp::Clamp;
+    use crate::units::{Celsius, Farads, Ohms, Seconds, Volts};
+
+    fn op() -> OperatingPoint {
+        OperatingPoint::new(Volts::new(24.0), Celsius::new(20.0))
+    }
+
+    /// Brute-force reference: step the two exact segments from zero until the period repeats.
+    fn simulate(c: &Circuit, h: &Hold) -> (f32, f32, f32) {
+        let period = 1.0 / h.frequency.value();
+        let mut i = 0.0f32;
+        let (mut lo, mut hi, mut avg) = (0.0, 0.0, 0.0);
+        for _ in 0..5000 {
+            let on = c.energize(&op(), Armature::Operated, Amps::new(i)).unwrap();
+            let t_on = Seconds::new(h.duty * period);
+            let t_off = Seconds::new((1.0 - h.duty) * period);
+            let top = on.value_at(t_on).unwrap();
+            let rel = c.release(&op(), Amps::new(top)).unwrap();
+            let bottom = rel.curve().value_at(t_off).unwrap();
+            avg =
+                (on.integral_to(t_on).unwrap() + rel.curve().integral_to(t_off).unwrap()) / period;
+            lo = bottom;
+            hi = top;
+            i = bottom;
+        }
+        (lo, hi, avg)
+    }
+
+    #[test]
+    fn duty_balances_the_average_voltage() {
+        // Plain diode: D·V_drive − (1 − D)·V_F = I_h·R when R_on = R_off (here they differ by the
+        // sense resistor and MOSFET, 0.6 Ω of 181 Ω).
+        let c = valve(Clamp::diode(Volts::new(0.8)).unwrap());
+        let ih = 0.05;
+        let h = c.hold(&op(), Amps::new(ih), Hertz::new(20_000.0)).unwrap();
+        let d = h.duty;
+        let expect = (0.8 + ih * 180.4) / (24.0 + 0.8 - ih * 0.6);
+        assert!((d - expect).abs() < 1e-6, "{d} vs {expect}");
+        assert!((h.average.value() - ih).abs() < 1e-3 * ih);
+        // Small ripple at 20 kHz: ΔI ≈ (V − R_on·I_h)·D·T/L.
+        let approx = (24.0 - 181.0 * ih) * d / 20_000.0 / 0.45;
+        assert!((h.ripple.value() - approx).abs() < 0.01 * approx);
+    }
+
+    #[test]
+    fn exact_ripple_matches_stepping_the_segments() {
+        for clamp in [
+            Clamp::diode(Volts::new(0.8)).unwrap(),
+            Clamp::diode_zener(Volts::new(0.8), Volts::new(20.0)).unwrap(),
+            Clamp::diode_resistor(Volts::new(0.8), Ohms::new(100.0)).unwrap(),
+        ] {
+            let c = valve(clamp);
+            for f in [1_000.0, 5_000.0] {
+                let h = c.hold(&op(), Amps::new(0.05), Hertz::new(f)).unwrap();
+                let (lo, hi, avg) = simulate(&c, &h);
+                assert!(
+                    (h.valley.value() - lo).abs() < 2e-5,
+                    "{clamp:?} {f}: {h:?} {lo}"
+                );
+                assert!(
+                    (h.peak.value() - hi).abs() < 2e-5,
+                    "{clamp:?} {f}: {h:?} {hi}"
+                );
+                assert!(
+                    (h.average.value() - avg).abs() < 2e-5,
+                    "{clamp:?} {f}: {avg}"
+                );
+            }
+        }
+    }
+
+    #[test]
+    fn impossible_holds_are_errors() {
+        let c = valve(Clamp::diode(Volts::new(0.8)).unwrap());
+        assert!(matches!(
+            c.hold(&op(), Amps::new(0.2), Hertz::new(1e3)),
+            Err(Error::Unreachable { .. })
+        ));
+        // 0.5 Hz: the current dies away in every off phase.
+        let z = valve(Clamp::diode_zener(Volts::new(0.8), Volts::new(40.0)).unwrap());
+        assert_eq!(
+            z.hold(&op(), Amps::new(0.03), Hertz::new(0.5)),
+            Err(Error::OutsideModel(Limit::DiscontinuousConduction))
+        );
+        let s = valve(Clamp::rc_snubber(Ohms::new(1000.0), Farads::from_micro(10.0)).unwrap());
+        assert_eq!(
+            s.hold(&op(), Amps::new(0.05), Hertz::new(1e3)),
+            Err(Error::OutsideModel(Limit::NotFirstOrder))
+        );
+        assert!(c.hold(&op(), Amps::new(0.0), Hertz::new(1e3)).is_err());
+        assert!(c
+            .hold(&op(), Amps::new(0.05), Hertz::new(f32::NAN))
+            .is_err());
+    }
+
+    #[test]
+    fn mean_fraction_is_continuous_at_the_switchover() {
+        let direct = |x: f64| 1.0 - (1.0 - (-x).exp()) / x;
+        for x in [0.2499f32, 0.2501] {
+            let exact = direct(x as f64);
+            assert!((mean_fraction(x) as f64 - exact).abs() < 1e-6 * exact);
+        }
+        assert!((mean_fraction(0.1) as f64 - direct(0.1)).abs() < 1e-7);
+        assert!((mean_fraction(3.0) as f64 - direct(3.0)).abs() < 1e-6);
+    }
+}

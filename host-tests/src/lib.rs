@@ -1,0 +1,117 @@
+//! # coilwise-host-tests: a numerical coil plant for driver tests
+//!
+//! A time-domain simulation of relay / solenoid coils driven by a transistor,
+//! with the clamp actually fitted, a moving armature, and injectable faults —
+//! behind the same embedded-hal 1.0 traits a board would implement. It is the
+//! *reference* the closed-form estimators of `coilwise` are tested against,
+//! so it is numerical and shares no formulas with them.
+//!
+//! Coils store energy: an unclamped coil can put hundreds of volts on a
+//! switch. Results are engineering estimates from a simplified model; check
+//! real designs against the component datasheets, local electrical codes and
+//! licensed practice.
+//!
+//! ## What is modelled
+//!
+//! * Winding resistance, reluctance-law inductance `L(x)` over the armature
+//!   position ([`Coil`]), flux linkage as the state: `dλ/dt = v_coil − R·i`,
+//!   `i = λ/L(x)`, so a moving armature gives the back-EMF dip.
+//! * Armature: virtual-work force `½·i²·dL/dx`, spring preload and rate,
+//!   mass, damping, hard stops with restitution ([`Armature`]).
+//! * Low-side or high-side switch: MOSFET (on-resistance, avalanche,
+//!   body diode) or bipolar (saturation) ([`Switch`]); sense resistor;
+//!   wiring resistance; supply with source resistance and bulk capacitor
+//!   shared by all channels ([`Supply`]).
+//! * Clamps ([`Clamp`]): none (avalanche), Shockley diode with series
+//!   resistance, diode + zener, diode + resistor, TVS; optional RC
+//!   [`Snubber`] (capacitor state).
+//! * Faults at any time ([`Fault`]): open, short, shorted turns, added
+//!   series resistance, stuck armature; supply changes.
+//! * Energy bookkeeping per channel ([`Energy`]) that closes to the
+//!   integration tolerance.
+//!
+//! Not modelled: iron saturation, eddy currents, hysteresis, diode reverse
+//! recovery, switching transients of the transistor (gate charge), node
+//! capacitance, temperature rise during a run.
+//!
+//! ## Integration
+//!
+//! Bogacki–Shampine 3(2) (an embedded explicit Runge–Kutta pair, FSAL) with
+//! error control on flux, position, velocity, capacitor and rail voltage,
+//! `rel_tol = 1e-7` and `1e-8 A` absolute by default, steps of at most
+//! 10 µs. The node voltage at the switch is algebraic and solved each
+//! evaluation with a safeguarded Newton iteration; the diode law is used in
+//! its explicit current→voltage form, so there is no stiff node. Steps land
+//! exactly on gate/PWM edges, recorder samples, end-stop contacts (within
+//! 1e-9 of the stroke) and on current zero; with the switch off and no
+//! snubber, a current below 1 µA is set to zero (diode blocking). A bench
+//! whose derivative is exactly zero (all at rest) skips ahead. Verified
+//! accuracy: see the crate tests (`tests/sim_*.rs`) and the README table.
+//!
+//! ## Features
+//!
+//! * `std` (default): the waveform [`record`]er. Without it the crate is
+//!   `no_std`, allocation-free, and builds for `thumbv6m-none-eabi`.
+//!
+//! ## Testing a driver against the plant
+//!
+//! A driver written against embedded-hal traits, pulsing a valve twice:
+//!
+//! ```
+//! use coilwise_host_tests::{demo, Bench, Rig, SolverSettings, Supply};
+//! use embedded_hal::delay::DelayNs;
+//! use embedded_hal::digital::OutputPin;
+//!
+//! /// The code under test: two 40 ms pulses, 60 ms apart.
+//! fn pulse_twice<P: OutputPin, D: DelayNs>(pin: &mut P, delay: &mut D) -> Result<(), P::Error> {
+//!     for _ in 0..2 {
+//!         pin.set_high()?;
+//!         delay.delay_ms(40);
+//!         pin.set_low()?;
+//!         delay.delay_ms(60);
+//!     }
+//!     Ok(())
+//! }
+//!
+//! let bench = Bench::single(Supply::ideal(24.0), demo::valve_24v(), SolverSettings::default()).unwrap();
+//! let rig = Rig::new(bench);
+//! rig.bench_mut().start_recording(20_000); // one sample each 20 µs
+//! let mut pin = rig.gate(0).unwrap();
+//! let mut clock = rig.clock();
+//!
+//! // Run the driver: pulses at t = 0 and t = 100 ms.
+//! pulse_twice(&mut pin, &mut clock).unwrap();
+//!
+//! let b = rig.bench();
+//! let stats = b.stats(0).unwrap();
+//! // The switch never saw more than 30 V (24 V + one diode drop, clamped).
+//! assert!(stats.peak_switch_volts < 30.0);
+//! let rec = b.recording().unwrap();
+//! // The armature operated in the first pulse and was back home before the
+//! // second pulse at t = 100 ms.
+//! assert!(rec.first_event(0, coilwise_host_tests::EventKind::ArmatureOperated, 0).unwrap() < 40_000_000);
+//! assert!(rec.released_before(0, 100_000_000));
+//! ```
+#![cfg_attr(not(feature = "std"), no_std)]
+#![forbid(unsafe_code)]
+#![deny(missing_docs)]
+
+mod bench;
+pub mod demo;
+mod hal;
+mod params;
+mod plant;
+#[cfg(feature = "std")]
+pub mod record;
+mod sense;
+
+pub use bench::{
+    ArmatureState, Bench, ChannelStats, Comparator, Energy, Event, EventKind, Probe, SensePoint,
+    SolverCounters, SupplyEnergy,
+};
+pub use hal::{GatePin, PwmGate, Rig, SenseAdc, VirtualClock};
+pub use params::{
+    Armature, ChannelParams, Clamp, Coil, DiodeLaw, Fault, Mechanics, SimError, Snubber,
+    SolverSettings, Stepping, Supply, Switch, Topology, THERMAL_VOLTS_25C,
+};
+pub use sense::{AdcConfig, Prng};
