@@ -2,15 +2,17 @@
 //! corners, tick budget, pass/warn/fail checks, time-to-threshold bands, clamp comparison, hold
 //! and drive figures.
 
+use coilwise::physics::drive::{check_bipolar, check_mosfet, BaseDrive, GateDrive};
 use coilwise::physics::off_time::OffTimeLimit;
 use coilwise::{
-    Amps, Armature, Celsius, Clamp, DriverDesign, Figures, Ohms, OperatingPoint, Switch, Volts,
+    Amps, Armature, BipolarCheck, Celsius, Clamp, Figures, Hertz, Hold, KelvinPerWatt, Limit,
+    MosfetCheck, Ohms, OperatingPoint, SelfHeating, Switch, Volts, COMMON_OVERDRIVE,
 };
 
+use crate::approx;
 use crate::error::{ErrorClass, ToolError};
-use crate::interim::{self, BaseDriveFigures, HoldPoint};
 use crate::quantity::eng;
-use crate::spec::Spec;
+use crate::spec::{core_error, Spec};
 
 /// E12 mantissas.
 pub const E12: [f64; 12] = [1.0, 1.2, 1.5, 1.8, 2.2, 2.7, 3.3, 3.9, 4.7, 5.6, 6.8, 8.2];
@@ -122,15 +124,90 @@ pub struct ClampRow {
     pub status: Status,
 }
 
-/// Hold phase figures.
+/// The hold PWM at one operating point (from the core) and the clamp's share while holding.
+#[derive(Clone, Copy, Debug, PartialEq)]
+pub struct HoldPoint {
+    /// Duty, valley, peak, ripple, average current and winding power of the periodic hold.
+    pub hold: Hold,
+    /// Average clamp power while holding, W (see [`approx::hold_clamp_power`]); `None` for a
+    /// clamp without a first-order freewheel loop.
+    pub clamp_power: Option<f64>,
+}
+
+/// Why there is no hold PWM at a point.
+#[derive(Clone, Copy, Debug, PartialEq)]
+pub enum HoldProblem {
+    /// The hold current is at or above what the supply can drive: not even 100 % duty holds it.
+    CannotHold,
+    /// The PWM is too slow: the current falls to zero in every off-interval.
+    Discontinuous,
+    /// The fitted clamp (RC snubber) has no first-order freewheel loop for the hold model.
+    NotFirstOrder,
+    /// Another error from the core.
+    Other(coilwise::Error),
+}
+
+impl HoldProblem {
+    /// A sentence for reports.
+    pub fn describe(&self) -> String {
+        match self {
+            HoldProblem::CannotHold => {
+                "cannot hold: the current is out of reach even at 100 % duty".to_string()
+            }
+            HoldProblem::Discontinuous => {
+                "PWM too slow: the current falls to zero in every off-interval".to_string()
+            }
+            HoldProblem::NotFirstOrder => "not modelled for an RC snubber".to_string(),
+            HoldProblem::Other(e) => e.to_string(),
+        }
+    }
+}
+
+/// The hold PWM at one point, or why there is none.
+pub type HoldOutcome = Result<HoldPoint, HoldProblem>;
+
+/// Hold phase at the three evaluated points.
 #[derive(Clone, Copy, Debug, PartialEq)]
 pub struct HoldFigures {
-    /// At the nominal point.
-    pub nominal: HoldPoint,
-    /// At the pull-in corner (lowest supply, hottest coil: the highest duty).
-    pub worst_duty: HoldPoint,
-    /// At the release corner (highest supply: the largest ripple).
-    pub worst_ripple: HoldPoint,
+    /// Nominal point.
+    pub nominal: HoldOutcome,
+    /// Pull-in corner: lowest supply, hottest coil, so the highest duty.
+    pub pull_in: HoldOutcome,
+    /// Release corner: highest supply, coldest coil, so the lowest duty and largest ripple.
+    pub release: HoldOutcome,
+}
+
+impl HoldFigures {
+    /// The three points with their names.
+    pub fn points(&self) -> [(&'static str, &HoldOutcome); 3] {
+        [
+            ("nominal", &self.nominal),
+            ("pull_in", &self.pull_in),
+            ("release", &self.release),
+        ]
+    }
+}
+
+/// The switch drive check from the core.
+#[derive(Clone, Copy, Debug, PartialEq)]
+pub enum DriveCheck {
+    /// Bipolar saturation at minimum gain.
+    Bipolar(BipolarCheck),
+    /// MOSFET gate voltage and conduction loss.
+    Mosfet(MosfetCheck),
+}
+
+/// Self-heated winding temperature (from the core) and the duty it was computed at.
+#[derive(Clone, Copy, Debug, PartialEq)]
+pub struct SelfHeatingCheck {
+    /// Hottest ambient, °C.
+    pub ambient: f64,
+    /// Thermal resistance, K/W.
+    pub r_th: f64,
+    /// Full-voltage duty used: the planned `on_time × repetition`, or 1 without a plan.
+    pub duty: f64,
+    /// The equilibrium, or the core's reason (overtemperature).
+    pub outcome: Result<SelfHeating, coilwise::Error>,
 }
 
 /// Firmware tick counts (each rounded toward safety).
@@ -173,12 +250,18 @@ pub struct Analysis<'a> {
     pub comparison: Vec<ClampRow>,
     /// Hold phase, when configured.
     pub hold: Option<HoldFigures>,
-    /// Bipolar base drive, when configured.
-    pub base_drive: Option<BaseDriveFigures>,
+    /// Switch drive check, when its inputs are given.
+    pub drive: Option<DriveCheck>,
     /// Switch conduction loss at the release corner's current while on, W.
     pub conduction_loss: f64,
+    /// The same averaged over the planned duty, W.
+    pub conduction_loss_planned: Option<f64>,
     /// Coil dissipation when on continuously: nominal and release corner, W.
     pub coil_power: (f64, f64),
+    /// Coil dissipation averaged over the planned duty: nominal and release corner, W.
+    pub coil_power_planned: Option<(f64, f64)>,
+    /// Self-heated winding temperature, when ambient and thermal resistance are given.
+    pub self_heating: Option<SelfHeatingCheck>,
 }
 
 /// Pull-in current, A.
@@ -206,11 +289,18 @@ fn figures_error(spec: &Spec, err: coilwise::Error, corner: &str) -> ToolError {
             _ => None,
         },
         coilwise::Error::OutsideModel(coilwise::Limit::NoHeadroom) => Some("switch.saturation"),
+        coilwise::Error::OutsideModel(coilwise::Limit::SnubberUnderdamped) => {
+            Some("clamp.capacitance")
+        }
         coilwise::Error::TickOverflow => Some("timing.tick_rate"),
         _ => None,
     };
     let message = format!("at the {corner}: {err}");
     match key {
+        Some(k @ "clamp.capacitance") => spec
+            .inputs
+            .error(k, ErrorClass::Impossible, message)
+            .hint("the snubber must be at least critically damped, (R_winding + R_s)^2 >= 4 L / C: use a larger capacitor or resistor"),
         Some(k) => spec.inputs.error(k, ErrorClass::Impossible, message),
         // No single key to blame: name the file.
         None => ToolError::new(ErrorClass::Impossible, message).at(
@@ -224,33 +314,14 @@ fn figures_error(spec: &Spec, err: coilwise::Error, corner: &str) -> ToolError {
     }
 }
 
-/// Every operating point over the tolerance corners (2⁵ = 32).
-pub fn all_corners(d: &DriverDesign) -> Vec<OperatingPoint> {
-    let t = d.tolerances;
-    let mut out = Vec::with_capacity(32);
-    for bits in 0u32..32 {
-        let pick = |bit: u32, lo: f32, hi: f32| if bits & (1 << bit) == 0 { lo } else { hi };
-        out.push(OperatingPoint {
-            supply: Volts::new(pick(0, d.supply.min().value(), d.supply.max().value())),
-            temperature: Celsius::new(pick(
-                1,
-                d.temperature.min().value(),
-                d.temperature.max().value(),
-            )),
-            resistance_factor: pick(2, 1.0 - t.resistance, 1.0 + t.resistance),
-            inductance_factor: pick(3, 1.0 - t.inductance, 1.0 + t.inductance),
-            sense_factor: pick(4, 1.0 - t.sense, 1.0 + t.sense),
-        });
-    }
-    out
-}
-
 fn band(spec: &Spec, threshold: f64) -> Result<Band, ToolError> {
     let d = &spec.design;
     let mut earliest: Option<f64> = None;
     let mut latest: Option<f64> = Some(0.0);
     let mut unreachable = 0;
-    for op in all_corners(d) {
+    let mut k = 0;
+    while let Some(op) = d.corner(k) {
+        k += 1;
         let rise = d
             .circuit
             .energize(&op, Armature::Released, Amps::new(0.0))
@@ -378,6 +449,14 @@ fn label_of(spec: &Spec) -> String {
                 eng(wide(clamp_voltage.value()), "V")
             )
         }
+        Clamp::RcSnubber {
+            resistance,
+            capacitance,
+        } => format!(
+            "RC snubber {} + {}",
+            eng(wide(resistance.value()), "Ω"),
+            eng(wide(capacitance.value()), "F")
+        ),
         _ => "none (switch avalanches)".to_string(),
     }
 }
@@ -435,11 +514,37 @@ impl<'a> Analysis<'a> {
 
         let operate = wide(d.operate_allowance.value());
         let min_on_time = pull_in.pull_in_time.map(|t| wide(t.value()) + operate);
-        let (min_off, off_time_limit) = if release.off_time.required >= nominal.off_time.required {
-            (release.off_time.required, release.off_time.limit)
-        } else {
-            (nominal.off_time.required, nominal.off_time.limit)
-        };
+        let (mut min_off, off_time_limit) =
+            if release.off_time.required >= nominal.off_time.required {
+                (release.off_time.required, release.off_time.limit)
+            } else {
+                (nominal.off_time.required, nominal.off_time.limit)
+            };
+        let mut release_worst = release.release_time;
+        // The core's budget is authoritative (for the RC snubber it searches every corner); it
+        // refuses a coil that never pulls in, and then the same search is done here.
+        match d.budget() {
+            Ok(b) => {
+                min_off = b.min_off_time;
+                release_worst = b.release_time;
+            }
+            Err(_) if d.circuit.clamp().kind() == coilwise::ClampKind::RcSnubber => {
+                let mut k = 0;
+                while let Some(op) = d.corner(k) {
+                    k += 1;
+                    let f = d
+                        .figures(&op)
+                        .map_err(|e| figures_error(spec, e, "a tolerance corner"))?;
+                    if f.off_time.required > min_off {
+                        min_off = f.off_time.required;
+                    }
+                    if f.release_time > release_worst {
+                        release_worst = f.release_time;
+                    }
+                }
+            }
+            Err(_) => {}
+        }
         let min_off_time = wide(min_off.value());
         let rate = d.tick_rate;
         let up = |t: f64| -> Result<u32, ToolError> {
@@ -466,7 +571,7 @@ impl<'a> Analysis<'a> {
                 .pull_in_time
                 .map(|t| up(wide(t.value())))
                 .transpose()?,
-            release: up(wide(release.release_time.value()))?,
+            release: up(wide(release_worst.value()))?,
         };
 
         let bands = spec
@@ -523,53 +628,108 @@ impl<'a> Analysis<'a> {
             });
         }
 
-        let breakdown = v_br;
-        let hold = match spec.hold {
-            Some(h) => {
-                let at = |op: &OperatingPoint| -> Result<HoldPoint, ToolError> {
-                    let r = d
-                        .circuit
-                        .resolve(op)
-                        .map_err(|e| figures_error(spec, e, "hold phase"))?;
-                    Ok(interim::hold_point(
-                        &r,
+        let c = &d.circuit;
+        let hold = spec.hold.map(|h| {
+            let at = |op: &OperatingPoint| -> HoldOutcome {
+                let held = c
+                    .hold(
+                        op,
+                        Amps::new(h.current as f32),
+                        Hertz::new(h.pwm_frequency as f32),
+                    )
+                    .map_err(|e| match e {
+                        coilwise::Error::Unreachable { .. } => HoldProblem::CannotHold,
+                        coilwise::Error::OutsideModel(Limit::DiscontinuousConduction) => {
+                            HoldProblem::Discontinuous
+                        }
+                        coilwise::Error::OutsideModel(Limit::NotFirstOrder) => {
+                            HoldProblem::NotFirstOrder
+                        }
+                        other => HoldProblem::Other(other),
+                    })?;
+                Ok(HoldPoint {
+                    hold: held,
+                    clamp_power: approx::hold_clamp_power(
                         &fitted_clamp,
-                        breakdown,
-                        h.current,
-                        h.pwm_frequency,
-                    ))
-                };
-                Some(HoldFigures {
-                    nominal: at(&d.nominal_point())?,
-                    worst_duty: at(&d.pull_in_corner())?,
-                    worst_ripple: at(&d.release_corner())?,
+                        wide(held.duty),
+                        wide(held.average.value()),
+                        wide(op.supply.value()),
+                        v_br,
+                    ),
                 })
+            };
+            HoldFigures {
+                nominal: at(&d.nominal_point()),
+                pull_in: at(&d.pull_in_corner()),
+                release: at(&d.release_corner()),
             }
-            None => None,
-        };
-        let i_max = wide(release.final_current.value());
-        let base_drive = spec.base_drive.map(|b| {
-            interim::base_drive(
-                b.drive_voltage,
-                b.base_emitter,
-                b.base_resistor,
-                b.min_gain,
-                i_max,
-            )
         });
-        let conduction_loss = interim::conduction_loss(d.circuit.switch(), i_max);
-        let coil_power = |op: &OperatingPoint, f: &Figures| -> Result<f64, ToolError> {
-            let r = d
-                .circuit
-                .resolve(op)
-                .map_err(|e| figures_error(spec, e, "coil dissipation"))?;
-            let i = wide(f.final_current.value());
-            Ok(i * i * wide(r.winding.value()))
+        let i_max = release.final_current;
+        let drive = match (*c.switch(), spec.base_drive, spec.gate_drive) {
+            (Switch::Bipolar { .. }, Some(b), _) => Some(DriveCheck::Bipolar(
+                check_bipolar(
+                    i_max,
+                    &BaseDrive {
+                        drive: Volts::new(b.drive_voltage as f32),
+                        base_emitter: Volts::new(b.base_emitter as f32),
+                        base_resistor: Ohms::new(b.base_resistor as f32),
+                        min_gain: b.min_gain as f32,
+                    },
+                    COMMON_OVERDRIVE,
+                )
+                .map_err(|e| core_error(&spec.inputs, "switch.base_resistor", e))?,
+            )),
+            (Switch::Mosfet { on_resistance, .. }, _, Some(g)) => Some(DriveCheck::Mosfet(
+                check_mosfet(
+                    i_max,
+                    1.0,
+                    &GateDrive {
+                        gate_voltage: Volts::new(g.applied as f32),
+                        rated_gate_voltage: Volts::new(g.rated as f32),
+                        on_resistance,
+                    },
+                )
+                .map_err(|e| core_error(&spec.inputs, "switch.gate_voltage", e))?,
+            )),
+            _ => None,
         };
+        let planned_duty = spec.planned.map(|(on, rate)| (on * rate) as f32);
+        let rc = d.release_corner();
+        let nc = d.nominal_point();
+        let watts = |r: Result<coilwise::Watts, coilwise::Error>, what: &str| {
+            r.map(|w| wide(w.value()))
+                .map_err(|e| figures_error(spec, e, what))
+        };
+        let conduction_loss = watts(c.switch_loss(&rc, 1.0), "switch loss")?;
+        let conduction_loss_planned = planned_duty
+            .map(|duty| watts(c.switch_loss(&rc, duty), "switch loss"))
+            .transpose()?;
         let coil_power = (
-            coil_power(&d.nominal_point(), &nominal)?,
-            coil_power(&d.release_corner(), &release)?,
+            watts(c.coil_dissipation(&nc, 1.0), "coil dissipation")?,
+            watts(c.coil_dissipation(&rc, 1.0), "coil dissipation")?,
         );
+        let coil_power_planned = planned_duty
+            .map(|duty| -> Result<(f64, f64), ToolError> {
+                Ok((
+                    watts(c.coil_dissipation(&nc, duty), "coil dissipation")?,
+                    watts(c.coil_dissipation(&rc, duty), "coil dissipation")?,
+                ))
+            })
+            .transpose()?;
+        let self_heating = spec.self_heating.map(|sh| {
+            let duty = planned_duty.unwrap_or(1.0);
+            SelfHeatingCheck {
+                ambient: sh.ambient,
+                r_th: sh.r_th,
+                duty: wide(duty),
+                outcome: c.self_heating(
+                    &rc,
+                    Celsius::new(sh.ambient as f32),
+                    KelvinPerWatt::new(sh.r_th as f32),
+                    duty,
+                ),
+            }
+        });
 
         let mut a = Analysis {
             spec,
@@ -584,9 +744,12 @@ impl<'a> Analysis<'a> {
             bands,
             comparison,
             hold,
-            base_drive,
+            drive,
             conduction_loss,
+            conduction_loss_planned,
             coil_power,
+            coil_power_planned,
+            self_heating,
         };
         a.checks = a.make_checks();
         Ok(a)
@@ -775,48 +938,53 @@ impl<'a> Analysis<'a> {
         }
 
         // Drive.
-        match (d.circuit.switch(), self.base_drive, spec.gate_drive) {
-            (Switch::Bipolar { .. }, Some(b), _) => {
-                let status = if b.overdrive >= 2.0 {
-                    Status::Pass
-                } else if b.overdrive >= 1.0 {
-                    Status::Warn
-                } else {
-                    Status::Fail
-                };
+        match self.drive {
+            Some(DriveCheck::Bipolar(b)) => {
+                let overdrive = wide(b.overdrive);
                 out.push(Check {
                     id: "drive",
                     title: "bipolar switch saturated at minimum gain",
-                    status,
+                    status: if b.saturated {
+                        Status::Pass
+                    } else if overdrive >= 1.0 {
+                        Status::Warn
+                    } else {
+                        Status::Fail
+                    },
                     value: format!(
-                        "base {} (forced gain {:.1})",
-                        eng(b.base_current, "A"),
-                        b.forced_gain
+                        "base {} (forced gain {:.1}, overdrive {:.2}x)",
+                        eng(wide(b.base_current.value()), "A"),
+                        b.forced_gain,
+                        overdrive
                     ),
-                    limit: format!(
-                        "needs {} at minimum gain",
-                        eng(b.base_current / b.overdrive, "A")
-                    ),
-                    margin: Some(b.overdrive - 1.0),
+                    limit: format!("{COMMON_OVERDRIVE:.0}x overdrive"),
+                    margin: Some(wide(b.margin)),
                     note: format!(
-                        "pass at 2x overdrive or more; largest base resistor for 2x: {}",
-                        eng(b.recommended_resistor, "Ω")
+                        "at the highest collector current; pass at {COMMON_OVERDRIVE:.0}x overdrive or more, fail below 1x; base resistor for exactly {COMMON_OVERDRIVE:.0}x: {}",
+                        eng(wide(b.recommended_base_resistor.value()), "Ω")
                     ),
                 });
             }
-            (Switch::Mosfet { .. }, _, Some(g)) => {
-                let m = g.applied / g.rated - 1.0;
+            Some(DriveCheck::Mosfet(m)) => {
+                let (applied, rated) = spec
+                    .gate_drive
+                    .map_or((0.0, 1.0), |g| (g.applied, g.rated));
                 out.push(Check {
                     id: "drive",
                     title: "MOSFET gate drive against the on-resistance rating",
-                    status: if m < 0.0 { Status::Fail } else { Status::Pass },
-                    value: format!("gate {}", eng(g.applied, "V")),
-                    limit: format!("on-resistance rated at {}", eng(g.rated, "V")),
-                    margin: Some(m),
-                    note: "below the rated gate voltage the on-resistance is not guaranteed".to_string(),
+                    status: if m.enhanced {
+                        Status::Pass
+                    } else {
+                        Status::Fail
+                    },
+                    value: format!("gate {}", eng(applied, "V")),
+                    limit: format!("on-resistance rated at {}", eng(rated, "V")),
+                    margin: Some(applied / rated - 1.0),
+                    note: "below the rated gate voltage the on-resistance is not guaranteed"
+                        .to_string(),
                 });
             }
-            _ => out.push(Check {
+            None => out.push(Check {
                 id: "drive",
                 title: "switch drive",
                 status: Status::Info,
@@ -832,53 +1000,130 @@ impl<'a> Analysis<'a> {
 
         // Hold.
         if let (Some(h), Some(hold)) = (self.hold, spec.hold) {
-            let duty = h.worst_duty.duty;
+            let (status, value, margin, note) = match h.pull_in {
+                Ok(p) => {
+                    let duty = wide(p.hold.duty);
+                    (
+                        if duty > 0.9 {
+                            Status::Warn
+                        } else {
+                            Status::Pass
+                        },
+                        format!("duty {:.1} %", duty * 100.0),
+                        Some(1.0 - duty),
+                        "pass at or below 90 % duty".to_string(),
+                    )
+                }
+                Err(HoldProblem::NotFirstOrder) => (
+                    Status::Info,
+                    "not modelled".to_string(),
+                    None,
+                    HoldProblem::NotFirstOrder.describe(),
+                ),
+                Err(problem) => (
+                    Status::Fail,
+                    "no hold".to_string(),
+                    None,
+                    problem.describe(),
+                ),
+            };
             out.push(Check {
                 id: "hold_duty",
                 title: "hold duty at the pull-in corner",
-                status: if duty > 1.0 {
-                    Status::Fail
-                } else if duty > 0.9 {
-                    Status::Warn
-                } else {
-                    Status::Pass
-                },
-                value: if duty.is_finite() {
-                    format!("duty {:.1} %", duty * 100.0)
-                } else {
-                    "no headroom".to_string()
-                },
+                status,
+                value,
                 limit: "100 %".to_string(),
-                margin: duty.is_finite().then_some(1.0 - duty),
-                note: "pass at or below 90 % duty".to_string(),
+                margin,
+                note,
             });
+            let points: Vec<HoldPoint> = h
+                .points()
+                .iter()
+                .filter_map(|(_, o)| o.as_ref().ok().copied())
+                .collect();
             if let Some(rating) = spec.design.clamp_rating {
-                let rating = wide(rating.value());
-                let p = h
-                    .nominal
-                    .clamp_power
-                    .max(h.worst_duty.clamp_power)
-                    .max(h.worst_ripple.clamp_power);
-                let m = 1.0 - p / rating;
-                out.push(Check {
-                    id: "hold_clamp_power",
-                    title: "clamp power while holding against its rating",
-                    status: graded(m, 0.5),
-                    value: format!("average {}", eng(p, "W")),
-                    limit: format!("rating {}", eng(rating, "W")),
-                    margin: Some(m),
-                    note: "the clamp carries the coil current in every PWM off-interval; pass at or below half the rating".to_string(),
-                });
+                let worst = points
+                    .iter()
+                    .filter_map(|p| p.clamp_power)
+                    .fold(None, |acc: Option<f64>, p| {
+                        Some(acc.map_or(p, |a| a.max(p)))
+                    });
+                if let Some(p) = worst {
+                    let rating = wide(rating.value());
+                    let m = 1.0 - p / rating;
+                    out.push(Check {
+                        id: "hold_clamp_power",
+                        title: "clamp power while holding against its rating",
+                        status: graded(m, 0.5),
+                        value: format!("average {}", eng(p, "W")),
+                        limit: format!("rating {}", eng(rating, "W")),
+                        margin: Some(m),
+                        note: "the clamp carries the coil current in every PWM off-interval; pass at or below half the rating".to_string(),
+                    });
+                }
             }
-            let m = hold.current / i_drop - 1.0;
+            // The lowest current of the ripple must stay above drop-out.
+            let valley = points
+                .iter()
+                .map(|p| wide(p.hold.valley.value()))
+                .fold(hold.current, f64::min);
+            let m = valley / i_drop - 1.0;
             out.push(Check {
                 id: "hold_current",
-                title: "hold current above drop-out",
-                status: if m <= 0.0 { Status::Fail } else { graded(m, 0.5) },
-                value: format!("hold {}", eng(hold.current, "A")),
+                title: "hold current (ripple valley) above drop-out",
+                status: if m <= 0.0 {
+                    Status::Fail
+                } else {
+                    graded(m, 0.5)
+                },
+                value: format!("valley {}", eng(valley, "A")),
                 limit: format!("drop-out {}", eng(i_drop, "A")),
                 margin: Some(m),
                 note: "pass at 1.5x drop-out current or more; the datasheet's hold rating takes precedence".to_string(),
+            });
+        }
+
+        // Self-heating.
+        if let Some(sh) = self.self_heating {
+            let t_max = wide(d.temperature.max().value());
+            let (status, value, margin, note) = match sh.outcome {
+                Ok(eq) => {
+                    let t = wide(eq.temperature.value());
+                    let room = (t_max - sh.ambient).max(1e-9);
+                    let m = (t_max - t) / room;
+                    (
+                        graded(m, 0.1),
+                        format!("winding {:.1} °C ({})", t, eng(wide(eq.power.value()), "W")),
+                        Some(m),
+                        format!(
+                            "steady state at {:.1} °C ambient, {} K/W, {:.1} % full-voltage duty (a hold economiser, if fitted, runs cooler); pass with 10 % of the allowed rise to spare",
+                            sh.ambient,
+                            sh.r_th,
+                            sh.duty * 100.0
+                        ),
+                    )
+                }
+                Err(coilwise::Error::OutsideModel(Limit::Overtemperature)) => (
+                    Status::Fail,
+                    "overheats".to_string(),
+                    None,
+                    "the winding settles above the copper model's range: it burns out".to_string(),
+                ),
+                Err(e) => (
+                    Status::Info,
+                    "not computed".to_string(),
+                    None,
+                    e.to_string(),
+                ),
+            };
+            out.push(Check {
+                id: "self_heating",
+                title: "self-heated winding against temperature.max",
+                status,
+                value,
+                limit: format!("temperature.max {t_max:.1} °C"),
+                margin,
+                note,
             });
         }
 

@@ -146,9 +146,8 @@ pub fn render(a: &Analysis<'_>, module: Option<&str>) -> Result<String, ToolErro
         grouped(micro(i_drop)? as u64),
     );
     if let (Some(h), Some(hold)) = (a.hold, spec.hold) {
-        let duty = h.worst_duty.duty;
-        if duty.is_finite() && duty <= 1.0 {
-            let permille = (duty * 1000.0).ceil().min(1000.0) as u32;
+        if let Ok(p) = h.pull_in {
+            let permille = (f64::from(p.hold.duty) * 1000.0).ceil().clamp(0.0, 1000.0) as u32;
             c(
                 format!(
                     "Hold PWM duty at the pull-in corner for {}, per mille, rounded up.",

@@ -188,16 +188,41 @@ pub struct ClampOut {
 /// Hold figures at one point.
 #[derive(Debug, Serialize)]
 pub struct HoldOut {
-    /// Point name.
+    /// Point name: "nominal", "pull_in" or "release".
     pub point: &'static str,
-    /// PWM duty fraction; null: no headroom.
+    /// PWM duty fraction; null when there is no hold here (see `error`).
     pub duty: Option<f64>,
-    /// Ripple peak-to-peak, A.
-    pub ripple_a: f64,
+    /// Lowest current of the periodic ripple, A.
+    pub valley_a: Option<f64>,
+    /// Highest current, A.
+    pub peak_a: Option<f64>,
+    /// Peak-to-peak ripple, A.
+    pub ripple_a: Option<f64>,
+    /// Time-average current, A.
+    pub average_a: Option<f64>,
     /// Winding power, W.
-    pub coil_power_w: f64,
-    /// Clamp power, W.
-    pub clamp_power_w: f64,
+    pub coil_power_w: Option<f64>,
+    /// Clamp power while holding (approximation), W.
+    pub clamp_power_w: Option<f64>,
+    /// Why there is no hold here, else null.
+    pub error: Option<String>,
+}
+
+/// Self-heating steady state.
+#[derive(Debug, Serialize)]
+pub struct SelfHeatingOut {
+    /// Ambient, °C.
+    pub ambient_c: f64,
+    /// Thermal resistance winding to ambient, K/W.
+    pub thermal_resistance_k_per_w: f64,
+    /// Full-voltage duty used.
+    pub duty: f64,
+    /// Winding temperature at equilibrium, °C; null: overheats or not computed (see `error`).
+    pub winding_temperature_c: Option<f64>,
+    /// Winding power at equilibrium, W.
+    pub power_w: Option<f64>,
+    /// Why there is no equilibrium, else null.
+    pub error: Option<String>,
 }
 
 /// The whole document.
@@ -240,8 +265,14 @@ pub struct Report {
     pub hold: Vec<HoldOut>,
     /// Coil dissipation when on, nominal and worst, W.
     pub coil_power_w: [f64; 2],
-    /// Switch conduction loss at the worst current, W.
+    /// Coil dissipation averaged over the planned duty, nominal and worst, W; null without a plan.
+    pub coil_power_planned_w: Option<[f64; 2]>,
+    /// Switch conduction loss at the worst current while on, W.
     pub conduction_loss_w: f64,
+    /// The same averaged over the planned duty, W; null without a plan.
+    pub conduction_loss_planned_w: Option<f64>,
+    /// Self-heated winding; null without `temperature.ambient` and `coil.thermal_resistance`.
+    pub self_heating: Option<SelfHeatingOut>,
     /// Safety cautions.
     pub cautions: Vec<&'static str>,
 }
@@ -268,22 +299,48 @@ pub fn build(a: &Analysis<'_>) -> Report {
         .filter(|s| *s != "info")
         .unwrap_or("pass");
     let hold = match a.hold {
-        Some(h) => [
-            ("nominal", h.nominal),
-            ("pull_in", h.worst_duty),
-            ("release", h.worst_ripple),
-        ]
-        .into_iter()
-        .map(|(point, x)| HoldOut {
-            point,
-            duty: x.duty.is_finite().then_some(x.duty),
-            ripple_a: x.ripple,
-            coil_power_w: x.coil_power,
-            clamp_power_w: x.clamp_power,
-        })
-        .collect(),
+        Some(h) => h
+            .points()
+            .into_iter()
+            .map(|(point, outcome)| match outcome {
+                Ok(p) => HoldOut {
+                    point,
+                    duty: Some(wide(p.hold.duty)),
+                    valley_a: Some(wide(p.hold.valley.value())),
+                    peak_a: Some(wide(p.hold.peak.value())),
+                    ripple_a: Some(wide(p.hold.ripple.value())),
+                    average_a: Some(wide(p.hold.average.value())),
+                    coil_power_w: Some(wide(p.hold.winding_power.value())),
+                    clamp_power_w: p.clamp_power,
+                    error: None,
+                },
+                Err(e) => HoldOut {
+                    point,
+                    duty: None,
+                    valley_a: None,
+                    peak_a: None,
+                    ripple_a: None,
+                    average_a: None,
+                    coil_power_w: None,
+                    clamp_power_w: None,
+                    error: Some(e.describe()),
+                },
+            })
+            .collect(),
         None => Vec::new(),
     };
+    let self_heating = a.self_heating.map(|sh| SelfHeatingOut {
+        ambient_c: sh.ambient,
+        thermal_resistance_k_per_w: sh.r_th,
+        duty: sh.duty,
+        winding_temperature_c: sh
+            .outcome
+            .as_ref()
+            .ok()
+            .map(|e| wide(e.temperature.value())),
+        power_w: sh.outcome.as_ref().ok().map(|e| wide(e.power.value())),
+        error: sh.outcome.as_ref().err().map(|e| e.to_string()),
+    });
     Report {
         schema: SCHEMA,
         schema_version: SCHEMA_VERSION,
@@ -354,7 +411,10 @@ pub fn build(a: &Analysis<'_>) -> Report {
             .collect(),
         hold,
         coil_power_w: [a.coil_power.0, a.coil_power.1],
+        coil_power_planned_w: a.coil_power_planned.map(|(n, w)| [n, w]),
         conduction_loss_w: a.conduction_loss,
+        conduction_loss_planned_w: a.conduction_loss_planned,
+        self_heating,
         cautions: CAUTIONS.to_vec(),
     }
 }

@@ -13,10 +13,10 @@
 #![deny(missing_docs)]
 
 pub mod analysis;
+pub mod approx;
 pub mod constants;
 pub mod error;
 pub mod input;
-pub mod interim;
 pub mod json;
 pub mod output;
 pub mod plot;

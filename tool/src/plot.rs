@@ -4,8 +4,8 @@ use coilwise::{Amps, Armature, OperatingPoint, Seconds, Switch};
 use plotters::prelude::*;
 
 use crate::analysis::{self, wide, Analysis};
+use crate::approx::freewheel_voltage;
 use crate::error::{ErrorClass, ToolError};
-use crate::interim::freewheel_voltage;
 
 /// Which operating point to draw.
 #[derive(Clone, Copy, Debug, PartialEq, Eq)]
@@ -114,8 +114,21 @@ pub fn cycle(a: &Analysis<'_>, corner: Corner, on_time: Option<f64>) -> Result<C
             samples.push((t, i, on_voltage(i)));
         }
         // Across the switch: supply plus the voltage opposing the freewheel current (for a
-        // zener across the switch or avalanche this is simply the clamping voltage).
-        let v_clamped = |i: f64| supply + freewheel_voltage(&clamp, i, supply, breakdown);
+        // zener across the switch or avalanche this is simply the clamping voltage; for the RC
+        // snubber the core's reverse voltage along its second-order release).
+        let v_clamped = |i: f64, dt: f64| -> Result<f64, ToolError> {
+            Ok(match rel.snubber() {
+                Some(sn) => {
+                    supply
+                        + wide(
+                            sn.reverse_voltage_at(Seconds::new(dt as f32))
+                                .map_err(err)?
+                                .value(),
+                        )
+                }
+                None => supply + freewheel_voltage(&clamp, i, supply, breakdown).unwrap_or(0.0),
+            })
+        };
         // Off-phase: dense until zero current, then one point at rest.
         for k in 0..=SAMPLES {
             let dt = t0 * k as f64 / SAMPLES as f64;
@@ -124,7 +137,11 @@ pub fn cycle(a: &Analysis<'_>, corner: Corner, on_time: Option<f64>) -> Result<C
                     .map_err(err)?
                     .value(),
             );
-            let v = if k < SAMPLES { v_clamped(i) } else { supply };
+            let v = if k < SAMPLES {
+                v_clamped(i, dt)?
+            } else {
+                supply
+            };
             samples.push((on + dt, i, v));
         }
         samples.push((end, 0.0, supply));

@@ -32,6 +32,10 @@ pub enum Dim {
     Percent,
     /// Temperature coefficient, 1/K (`"0.00393 1/K"`, `"3930 ppm/K"`).
     PerKelvin,
+    /// Farads.
+    Capacitance,
+    /// Thermal resistance, K/W.
+    ThermalResistance,
     /// A plain number without unit (a transistor gain).
     Number,
 }
@@ -51,6 +55,8 @@ impl Dim {
             Dim::Temperature => "a temperature",
             Dim::Percent => "a percentage",
             Dim::PerKelvin => "a temperature coefficient",
+            Dim::Capacitance => "a capacitance",
+            Dim::ThermalResistance => "a thermal resistance",
             Dim::Number => "a plain number",
         }
     }
@@ -69,6 +75,8 @@ impl Dim {
             Dim::Temperature => "degC",
             Dim::Percent => "%",
             Dim::PerKelvin => "1/K",
+            Dim::Capacitance => "F",
+            Dim::ThermalResistance => "K/W",
             Dim::Number => "(no unit)",
         }
     }
@@ -87,11 +95,13 @@ impl Dim {
             Dim::Temperature => "85 degC",
             Dim::Percent => "5 %",
             Dim::PerKelvin => "0.00393 1/K",
+            Dim::Capacitance => "1 uF",
+            Dim::ThermalResistance => "25 K/W",
             Dim::Number => "100",
         }
     }
 
-    const ALL: [Dim; 11] = [
+    const ALL: [Dim; 13] = [
         Dim::Voltage,
         Dim::Current,
         Dim::Resistance,
@@ -103,6 +113,8 @@ impl Dim {
         Dim::Temperature,
         Dim::Percent,
         Dim::PerKelvin,
+        Dim::Capacitance,
+        Dim::ThermalResistance,
     ];
 
     /// Base symbols accepted for this quantity, and whether SI prefixes may precede them.
@@ -122,6 +134,8 @@ impl Dim {
             Dim::Temperature => (&[("degC", 1.0), ("°C", 1.0)], false),
             Dim::Percent => (&[("%", 0.01)], false),
             Dim::PerKelvin => (&[("1/K", 1.0), ("/K", 1.0), ("ppm/K", 1.0e-6)], false),
+            Dim::Capacitance => (&[("F", 1.0)], true),
+            Dim::ThermalResistance => (&[("K/W", 1.0)], false),
             Dim::Number => (&[], false),
         }
     }
@@ -333,6 +347,11 @@ mod tests {
         assert!(close(parse(Dim::Temperature, "85 °C").unwrap(), 85.0));
         assert!(close(parse(Dim::Percent, "5 %").unwrap(), 0.05));
         assert!(close(parse(Dim::PerKelvin, "3930 ppm/K").unwrap(), 0.00393));
+        assert!(close(parse(Dim::Capacitance, "4.7 uF").unwrap(), 4.7e-6));
+        assert!(close(
+            parse(Dim::ThermalResistance, "25 K/W").unwrap(),
+            25.0
+        ));
         assert!(close(parse(Dim::Number, "100").unwrap(), 100.0));
     }
 

@@ -175,12 +175,28 @@ fn figures_table(a: &Analysis<'_>) -> String {
         eng(a.coil_power.1, "W"),
         "release corner (highest)",
     );
+    if let Some((pn, pw)) = a.coil_power_planned {
+        row(
+            "coil dissipation, planned duty",
+            eng(pn, "W"),
+            eng(pw, "W"),
+            "release corner, no hold economiser",
+        );
+    }
     row(
-        "switch conduction loss",
+        "switch conduction loss, on",
         "-".to_string(),
         eng(a.conduction_loss, "W"),
-        "release corner current, while on",
+        "release corner current",
     );
+    if let Some(p) = a.conduction_loss_planned {
+        row(
+            "switch conduction loss, planned",
+            "-".to_string(),
+            eng(p, "W"),
+            "release corner, planned duty",
+        );
+    }
     render(&rows, &[false, true, true, false])
 }
 
@@ -372,45 +388,51 @@ pub fn render_report(a: &Analysis<'_>) -> String {
             eng(hold.current, "A"),
             eng(hold.pwm_frequency, "Hz")
         );
-        let duty = |x: f64| {
-            if x.is_finite() {
-                format!("{:.1} %", x * 100.0)
-            } else {
-                "no headroom".to_string()
+        let mut rows = vec![vec![
+            "point".to_string(),
+            "duty".to_string(),
+            "valley".to_string(),
+            "peak".to_string(),
+            "ripple p-p".to_string(),
+            "coil power".to_string(),
+            "clamp power".to_string(),
+        ]];
+        let mut problems = Vec::new();
+        for (name, outcome) in h.points() {
+            let name = match name {
+                "pull_in" => "pull-in corner",
+                "release" => "release corner",
+                other => other,
+            };
+            match outcome {
+                Ok(p) => rows.push(vec![
+                    name.to_string(),
+                    format!("{:.1} %", wide(p.hold.duty) * 100.0),
+                    s(p.hold.valley.value(), "A"),
+                    s(p.hold.peak.value(), "A"),
+                    s(p.hold.ripple.value(), "A"),
+                    s(p.hold.winding_power.value(), "W"),
+                    p.clamp_power.map_or("-".to_string(), |w| eng(w, "W")),
+                ]),
+                Err(e) => {
+                    rows.push(vec![
+                        name.to_string(),
+                        "-".into(),
+                        "-".into(),
+                        "-".into(),
+                        "-".into(),
+                        "-".into(),
+                        "-".into(),
+                    ]);
+                    problems.push(format!("  {name}: {}", e.describe()));
+                }
             }
-        };
-        let rows = vec![
-            vec![
-                "point".to_string(),
-                "duty".to_string(),
-                "ripple p-p".to_string(),
-                "coil power".to_string(),
-                "clamp power".to_string(),
-            ],
-            vec![
-                "nominal".to_string(),
-                duty(h.nominal.duty),
-                eng(h.nominal.ripple, "A"),
-                eng(h.nominal.coil_power, "W"),
-                eng(h.nominal.clamp_power, "W"),
-            ],
-            vec![
-                "pull-in corner".to_string(),
-                duty(h.worst_duty.duty),
-                eng(h.worst_duty.ripple, "A"),
-                eng(h.worst_duty.coil_power, "W"),
-                eng(h.worst_duty.clamp_power, "W"),
-            ],
-            vec![
-                "release corner".to_string(),
-                duty(h.worst_ripple.duty),
-                eng(h.worst_ripple.ripple, "A"),
-                eng(h.worst_ripple.coil_power, "W"),
-                eng(h.worst_ripple.clamp_power, "W"),
-            ],
-        ];
-        out.push_str(&render(&rows, &[false, true, true, true, true]));
-        out.push_str("  duty from the volt-second balance with small ripple; ripple linearised over one PWM period.\n");
+        }
+        out.push_str(&render(&rows, &[false, true, true, true, true, true, true]));
+        for p in problems {
+            let _ = writeln!(out, "{p}");
+        }
+        out.push_str("  exact periodic steady state of the PWM (core); clamp power approximated as (1 - duty) x average current x clamp voltage.\n");
     }
 
     let _ = writeln!(

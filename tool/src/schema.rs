@@ -71,7 +71,14 @@ pub const SWITCH_KINDS: &[&str] = &["mosfet", "bipolar"];
 /// Switch positions.
 pub const SWITCH_SIDES: &[&str] = &["low", "high"];
 /// Clamp kinds.
-pub const CLAMP_KINDS: &[&str] = &["diode", "zener", "resistor", "switch-zener", "none"];
+pub const CLAMP_KINDS: &[&str] = &[
+    "diode",
+    "zener",
+    "resistor",
+    "switch-zener",
+    "snubber",
+    "none",
+];
 
 /// Every key, in the order the documentation lists them.
 pub const KEYS: &[KeySpec] = &[
@@ -87,12 +94,14 @@ pub const KEYS: &[KeySpec] = &[
     key("coil.inductance_tolerance", Quantity(Percent), false, Some("0 %"), "part-to-part spread of the inductance, ±"),
     key("coil.must_operate", Quantity(Voltage), true, None, "must-operate (pick-up) voltage at the reference temperature"),
     key("coil.must_release", Quantity(Voltage), true, None, "must-release (drop-out) voltage at the reference temperature"),
+    key("coil.thermal_resistance", Quantity(ThermalResistance), false, None, "thermal resistance winding to ambient, for the self-heating check (with temperature.ambient)"),
     key("supply.nominal", Quantity(Voltage), true, None, "nominal supply voltage"),
     key("supply.min", Quantity(Voltage), false, None, "lowest supply voltage (or give supply.tolerance)"),
     key("supply.max", Quantity(Voltage), false, None, "highest supply voltage (or give supply.tolerance)"),
     key("supply.tolerance", Quantity(Percent), false, None, "symmetric supply tolerance, instead of supply.min and supply.max"),
     key("temperature.min", Quantity(Temperature), true, None, "coldest winding temperature (cold start)"),
     key("temperature.max", Quantity(Temperature), true, None, "hottest winding temperature (hot ambient plus self-heating)"),
+    key("temperature.ambient", Quantity(Temperature), false, None, "hottest ambient around the coil, for the self-heating check (with coil.thermal_resistance)"),
     key("switch.kind", Choice(SWITCH_KINDS), true, None, "the transistor that switches the coil"),
     key("switch.side", Choice(SWITCH_SIDES), false, Some("low"), "low-side (switch to ground) or high-side (switch to supply)"),
     key("switch.breakdown", Quantity(Voltage), true, None, "breakdown voltage: V(BR)DSS of a MOSFET, VCEO of a bipolar transistor"),
@@ -111,7 +120,8 @@ pub const KEYS: &[KeySpec] = &[
     key("clamp.kind", Choice(CLAMP_KINDS), true, None, "what takes the coil's energy at switch-off"),
     key("clamp.diode_drop", Quantity(Voltage), false, None, "forward drop of the clamp diode at the coil current (diode, zener, resistor: required)"),
     key("clamp.zener", Quantity(Voltage), false, None, "zener / TVS clamping voltage (zener: in series with the diode across the coil; switch-zener: across the switch)"),
-    key("clamp.resistance", Quantity(Resistance), false, None, "clamp resistor in series with the diode (resistor: required)"),
+    key("clamp.resistance", Quantity(Resistance), false, None, "clamp resistor: in series with the diode (resistor) or with the capacitor (snubber); required for both"),
+    key("clamp.capacitance", Quantity(Capacitance), false, None, "snubber capacitor in series with clamp.resistance (snubber: required)"),
     key("clamp.power_rating", Quantity(Power), false, None, "average power rating of the clamp element, for the repetition check"),
     key("timing.tick_rate", Quantity(Frequency), true, None, "firmware timer tick rate"),
     key("timing.operate_allowance", Quantity(Time), false, Some("0 s"), "mechanical operate time after the current reaches pull-in"),

@@ -31,6 +31,15 @@ pub struct GateDrive {
     pub rated: f64,
 }
 
+/// Self-heating check settings.
+#[derive(Clone, Copy, Debug, PartialEq)]
+pub struct SelfHeatingSpec {
+    /// Hottest ambient, °C.
+    pub ambient: f64,
+    /// Thermal resistance winding to ambient, K/W.
+    pub r_th: f64,
+}
+
 /// Hold (economiser) phase settings.
 #[derive(Clone, Copy, Debug, PartialEq)]
 pub struct Hold {
@@ -63,6 +72,8 @@ pub struct Spec {
     pub gate_drive: Option<GateDrive>,
     /// Hold phase, when `hold.current` is given.
     pub hold: Option<Hold>,
+    /// Self-heating check, when ambient and thermal resistance are given.
+    pub self_heating: Option<SelfHeatingSpec>,
     /// Diagnosis thresholds, A (never empty).
     pub thresholds: Vec<f64>,
     /// Zener voltages to compare, V (`None`: choose defaults).
@@ -409,6 +420,45 @@ impl Spec {
             }
         };
 
+        // Self-heating.
+        let self_heating = match (
+            i.quantity("temperature.ambient")?,
+            i.quantity("coil.thermal_resistance")?,
+        ) {
+            (Some(ambient), Some(r_th)) => {
+                if r_th <= 0.0 {
+                    return Err(i.error(
+                        "coil.thermal_resistance",
+                        ErrorClass::Impossible,
+                        "must be greater than zero",
+                    ));
+                }
+                if ambient > t_max {
+                    return Err(i.error(
+                        "temperature.ambient",
+                        ErrorClass::Impossible,
+                        format!(
+                            "an ambient of {ambient} °C is above the hottest winding ({t_max} °C): a coil is never cooler than its surroundings"
+                        ),
+                    ));
+                }
+                Some(SelfHeatingSpec { ambient, r_th })
+            }
+            (None, None) => None,
+            (Some(_), None) => {
+                return Err(i.missing(
+                    "coil.thermal_resistance",
+                    " (it goes with temperature.ambient)",
+                ))
+            }
+            (None, Some(_)) => {
+                return Err(i.missing(
+                    "temperature.ambient",
+                    " (it goes with coil.thermal_resistance)",
+                ))
+            }
+        };
+
         // Wiring.
         let sense = i.quantity_or_default("wiring.sense")?;
         let harness = i.quantity_or_default("wiring.harness")?;
@@ -440,13 +490,24 @@ impl Spec {
             only_clamp(i, "clamp.zener", clamp_kind)?;
             None
         };
-        let clamp_r = if clamp_kind == "resistor" {
-            Some(
-                i.quantity("clamp.resistance")?
-                    .ok_or_else(|| i.missing("clamp.resistance", " (clamp.kind = \"resistor\")"))?,
-            )
+        let clamp_r = if matches!(clamp_kind, "resistor" | "snubber") {
+            Some(i.quantity("clamp.resistance")?.ok_or_else(|| {
+                i.missing(
+                    "clamp.resistance",
+                    &format!(" (clamp.kind = \"{clamp_kind}\")"),
+                )
+            })?)
         } else {
             only_clamp(i, "clamp.resistance", clamp_kind)?;
+            None
+        };
+        let clamp_c = if clamp_kind == "snubber" {
+            Some(
+                i.quantity("clamp.capacitance")?
+                    .ok_or_else(|| i.missing("clamp.capacitance", " (clamp.kind = \"snubber\")"))?,
+            )
+        } else {
+            only_clamp(i, "clamp.capacitance", clamp_kind)?;
             None
         };
         let vf = diode.unwrap_or(0.8);
@@ -473,6 +534,13 @@ impl Spec {
                     clamp_voltage: Volts::new(f(vz)),
                 })
             }
+            "snubber" => {
+                let c = Clamp::RcSnubber {
+                    resistance: Ohms::new(f(clamp_r.unwrap_or(0.0))),
+                    capacitance: coilwise::Farads::new(f(clamp_c.unwrap_or(0.0))),
+                };
+                c.validate().map(|()| c)
+            }
             _ => Ok(Clamp::Unclamped),
         }
         .map_err(|e| {
@@ -485,6 +553,10 @@ impl Spec {
                     param: coilwise::Param::ClampResistance,
                     ..
                 } => "clamp.resistance",
+                coilwise::Error::Invalid {
+                    param: coilwise::Param::Capacitance,
+                    ..
+                } => "clamp.capacitance",
                 _ => "clamp.diode_drop",
             };
             core_error(i, key, e)
@@ -724,6 +796,7 @@ impl Spec {
             base_drive,
             gate_drive,
             hold,
+            self_heating,
             thresholds,
             compare_zener,
             compare_resistor,

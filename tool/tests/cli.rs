@@ -136,6 +136,41 @@ fn compare_plot_constants_and_keys_succeed() {
 }
 
 #[test]
+fn every_clamp_kind_reports() {
+    let kinds: [&[&str]; 5] = [
+        &["clamp.kind=diode", "clamp.zener="],
+        &[
+            "clamp.kind=resistor",
+            "clamp.zener=",
+            "clamp.resistance=68 ohm",
+        ],
+        &[
+            "clamp.kind=switch-zener",
+            "clamp.diode_drop=",
+            "clamp.zener=47 V",
+        ],
+        &[
+            "clamp.kind=snubber",
+            "clamp.diode_drop=",
+            "clamp.zener=",
+            "clamp.resistance=150 ohm",
+            "clamp.capacitance=47 uF",
+        ],
+        &["clamp.kind=none", "clamp.diode_drop=", "clamp.zener="],
+    ];
+    for sets in kinds {
+        let mut args = vec!["report", VALVE];
+        for s in sets {
+            args.push("--set");
+            args.push(s);
+        }
+        let o = run(&args);
+        assert!(o.status.success(), "{sets:?}: {}", stderr(&o));
+        assert!(stdout(&o).contains("(fitted)"), "{sets:?}");
+    }
+}
+
+#[test]
 fn overrides_change_the_result() {
     let base = stdout(&run(&["report", VALVE, "--json"]));
     let o = run(&["report", VALVE, "--json", "--set", "supply.max=28 V"]);
@@ -355,6 +390,38 @@ fn impossible_combinations() {
     for (from, to, key, words) in cases {
         expect_error(&edit(&v, from, to), "impossible", None, key, words);
     }
+    // A snubber that would ring, and a snubber without its capacitor.
+    let snub = edit(
+        &v,
+        "kind = \"zener\"\ndiode_drop = \"0.8 V\"\nzener = \"18 V\"",
+        "kind = \"snubber\"\nresistance = \"150 ohm\"\ncapacitance = \"100 nF\"",
+    );
+    expect_error(
+        &snub,
+        "impossible",
+        None,
+        "clamp.capacitance",
+        "underdamped",
+    );
+    let snub = edit(&snub, "capacitance = \"100 nF\"\n", "");
+    expect_error(&snub, "missing-key", None, "clamp.capacitance", "snubber");
+    // Self-heating keys come in pairs; an ambient above the hottest winding is impossible.
+    let heat = edit(&v, "thermal_resistance = \"12 K/W\"\n", "");
+    expect_error(
+        &heat,
+        "missing-key",
+        None,
+        "coil.thermal_resistance",
+        "goes with",
+    );
+    let heat = edit(&v, "ambient = \"50 degC\"", "ambient = \"90 degC\"");
+    expect_error(
+        &heat,
+        "impossible",
+        None,
+        "temperature.ambient",
+        "never cooler",
+    );
     // A time that does not fit the 32-bit tick counter.
     let slow = edit(
         &v,
