@@ -140,31 +140,24 @@ impl DriverDesign {
     pub fn figures(&self, op: &OperatingPoint) -> Result<Figures, Error> {
         self.tolerances.validate()?;
         let c = &self.circuit;
-        let rise = c.energize(op, Armature::Released, Amps::new(0.0))?;
+        let resolved = c.resolve(op)?;
+        let rise = c.energize_resolved(&resolved, Armature::Released, Amps::new(0.0))?;
         let final_current = Amps::new(rise.asymptote());
         let pull_in_time = match rise.time_to(c.coil().pull_in_current().value()) {
             Ok(t) => Some(t),
             Err(Error::Unreachable { .. }) => None,
             Err(e) => return Err(e),
         };
-        let release = c.release(op, final_current)?;
-        let energy = release.energy()?;
+        let release = c.release_resolved(&resolved, final_current)?;
+        let (time_to_zero, energy) = release.zero_time_and_energy()?;
         let release_time = release.time_to_current(c.coil().drop_out_current())?;
-        let time_to_zero = release.time_to_zero()?;
         let residual = if self.residual_current.value() == 0.0 {
             time_to_zero
         } else {
             release.settle_time(self.residual_current)?
         };
-        let needs = OffTimeNeeds {
-            residual_current: self.residual_current,
-            mechanical_release: self.release_allowance,
-            clamp_thermal: match (self.clamp_rating, self.duty) {
-                (Some(p), Some((on, _))) => Some((p, on)),
-                _ => None,
-            },
-        };
-        let off_time = off_time_from_parts(release_time, residual, energy.clamp, &needs)?;
+        let off_time =
+            off_time_from_parts(release_time, residual, energy.clamp, &self.off_time_needs())?;
         let clamp_power = match self.duty {
             Some((_, f)) => Some(clamp_average_power(energy.clamp, f)?),
             None => None,
@@ -192,6 +185,72 @@ impl DriverDesign {
             max_repetition,
             off_time,
         })
+    }
+
+    fn off_time_needs(&self) -> OffTimeNeeds {
+        OffTimeNeeds {
+            residual_current: self.residual_current,
+            mechanical_release: self.release_allowance,
+            clamp_thermal: match (self.clamp_rating, self.duty) {
+                (Some(p), Some((on, _))) => Some((p, on)),
+                _ => None,
+            },
+        }
+    }
+
+    /// Minimum on-time `t_pull + t_operate` and the four tick constants, each rounded up.
+    fn ticks_from(
+        &self,
+        t_pull: Seconds,
+        min_off: Seconds,
+        release_time: Seconds,
+    ) -> Result<(Seconds, TickBudget), Error> {
+        let operate =
+            crate::error::non_negative(self.operate_allowance.value(), crate::error::Param::Time)?;
+        let min_on = Seconds::new(t_pull.value() + operate);
+        let r = self.tick_rate;
+        Ok((
+            min_on,
+            TickBudget {
+                min_on: r.ticks_at_least(min_on)?,
+                min_off: r.ticks_at_least(min_off)?,
+                pull_in: r.ticks_at_least(t_pull)?,
+                release: r.ticks_at_least(release_time)?,
+            },
+        ))
+    }
+
+    /// Only the firmware's tick constants: the same [`TickBudget`] as [`DriverDesign::budget`]
+    /// (tested equal), computed from the two worst corners alone — one rise and one release —
+    /// for a device that needs nothing else. Costs about a third of the full budget.
+    ///
+    /// For the first-order clamps the release corner bounds the nominal point (module docs), so
+    /// the nominal figures are skipped; an RC snubber falls back to the full budget.
+    ///
+    /// # Errors
+    /// As [`DriverDesign::budget`].
+    pub fn tick_budget(&self) -> Result<TickBudget, Error> {
+        if self.circuit.clamp().kind() == crate::physics::clamp::ClampKind::RcSnubber {
+            return self.budget().map(|b| b.ticks);
+        }
+        self.tolerances.validate()?;
+        let c = &self.circuit;
+        let t_pull = c
+            .energize(&self.pull_in_corner(), Armature::Released, Amps::new(0.0))?
+            .time_to(c.coil().pull_in_current().value())?;
+        let resolved = c.resolve(&self.release_corner())?;
+        let i0 = Amps::new(resolved.drive.value() / resolved.on_loop.value());
+        let release = c.release_resolved(&resolved, i0)?;
+        let release_time = release.time_to_current(c.coil().drop_out_current())?;
+        let (time_to_zero, energy) = release.zero_time_and_energy()?;
+        let residual = if self.residual_current.value() == 0.0 {
+            time_to_zero
+        } else {
+            release.settle_time(self.residual_current)?
+        };
+        let off =
+            off_time_from_parts(release_time, residual, energy.clamp, &self.off_time_needs())?;
+        Ok(self.ticks_from(t_pull, off.required, release_time)?.1)
     }
 
     /// Longest off-time and release time over all corners (the RC snubber's times are not
@@ -274,13 +333,6 @@ impl DriverDesign {
                 asymptote: pull_in.final_current.value(),
             });
         };
-        let min_on = Seconds::new(
-            t_pull.value()
-                + crate::error::non_negative(
-                    self.operate_allowance.value(),
-                    crate::error::Param::Time,
-                )?,
-        );
         let mut min_off = if release.off_time.required >= nominal.off_time.required {
             release.off_time.required
         } else {
@@ -296,13 +348,7 @@ impl DriverDesign {
                 release_time = rel;
             }
         }
-        let r = self.tick_rate;
-        let ticks = TickBudget {
-            min_on: r.ticks_at_least(min_on)?,
-            min_off: r.ticks_at_least(min_off)?,
-            pull_in: r.ticks_at_least(t_pull)?,
-            release: r.ticks_at_least(release_time)?,
-        };
+        let (min_on, ticks) = self.ticks_from(t_pull, min_off, release_time)?;
         Ok(TimingBudget {
             nominal,
             pull_in_corner: pull_in,
@@ -433,6 +479,35 @@ mod tests {
 
     fn corners(d: &DriverDesign) -> impl Iterator<Item = OperatingPoint> + '_ {
         (0..).map_while(|k| d.corner(k))
+    }
+
+    #[test]
+    fn tick_budget_equals_the_full_budget() {
+        for clamp in every_clamp() {
+            for (residual, duty) in [
+                (0.0, None),
+                (0.002, None),
+                (0.0, Some((Seconds::from_millis(50.0), Hertz::new(2.0)))),
+            ] {
+                let mut d = design(clamp);
+                d.residual_current = Amps::new(residual);
+                d.duty = duty;
+                d.clamp_rating = duty.map(|_| Watts::new(0.004));
+                assert_eq!(
+                    d.tick_budget().unwrap(),
+                    d.budget().unwrap().ticks,
+                    "{clamp:?}"
+                );
+            }
+        }
+        let mut hopeless = design(every_clamp()[0]);
+        hopeless.supply =
+            SupplyRange::new(Volts::new(9.0), Volts::new(10.0), Volts::new(11.0)).unwrap();
+        assert!(matches!(
+            hopeless.tick_budget(),
+            Err(Error::Unreachable { .. })
+        ));
+        assert!(matches!(hopeless.budget(), Err(Error::Unreachable { .. })));
     }
 
     #[test]

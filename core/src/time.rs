@@ -101,33 +101,28 @@ impl TickRate {
         Hertz::new(self.0 as f32)
     }
 
-    /// Smallest tick count not shorter than `t`: `n = ⌈t·f⌉`, computed in f64 so a u32 count is
-    /// exact, and nudged up by one tick when rounding of the f32 input could leave it short.
+    /// Smallest tick count not shorter than `t`: `n = ⌈t·f⌉`, exact.
     ///
-    /// Guarantee: `n / f ≥ t` for every finite t ≥ 0 (tested exhaustively over ranges).
+    /// The f32 `t = m·2^e` is split into its integer mantissa and exponent, `m·f` is formed exactly
+    /// in u64 (24 + 32 bits) and shifted with the rounding applied to the bits shifted out: no
+    /// float rounding can leave the count short, and no FPU or soft-double code is needed.
+    ///
+    /// Guarantee: `n / f ≥ t` for every finite t ≥ 0 (property-tested against f64).
     ///
     /// # Errors
     /// Negative or NaN t: [`Error::Invalid`] ([`Param::Time`]); a count above [`MAX_SPAN`]
     /// (or +∞): [`Error::TickOverflow`].
     pub fn ticks_at_least(self, t: Seconds) -> Result<Ticks, Error> {
-        let t = t.value();
-        if t.is_nan() {
-            return Err(Error::invalid(Param::Time, Why::NotFinite));
-        }
-        if t < 0.0 {
-            return Err(Error::invalid(Param::Time, Why::Negative));
-        }
-        let exact = t as f64 * self.0 as f64;
-        let n = libm::ceil(exact);
-        if n.is_nan() || n > MAX_SPAN.0 as f64 {
-            return Err(Error::TickOverflow);
-        }
-        Ok(Ticks(n as u32))
+        self.convert(t, true)
     }
 
-    /// Largest tick count not longer than `t`: `n = ⌊t·f⌋` (for maximum times and timeouts that
-    /// must not be overrun). Errors as [`TickRate::ticks_at_least`].
+    /// Largest tick count not longer than `t`: `n = ⌊t·f⌋`, exact (for maximum times and timeouts
+    /// that must not be overrun). Errors as [`TickRate::ticks_at_least`].
     pub fn ticks_at_most(self, t: Seconds) -> Result<Ticks, Error> {
+        self.convert(t, false)
+    }
+
+    fn convert(self, t: Seconds, round_up: bool) -> Result<Ticks, Error> {
         let t = t.value();
         if t.is_nan() {
             return Err(Error::invalid(Param::Time, Why::NotFinite));
@@ -135,16 +130,45 @@ impl TickRate {
         if t < 0.0 {
             return Err(Error::invalid(Param::Time, Why::Negative));
         }
-        let n = libm::floor(t as f64 * self.0 as f64);
-        if n.is_nan() || n > MAX_SPAN.0 as f64 {
+        if t == 0.0 {
+            return Ok(Ticks(0));
+        }
+        let bits = t.to_bits();
+        let field = ((bits >> 23) & 0xff) as i32;
+        if field == 0xff {
+            return Err(Error::TickOverflow); // +∞
+        }
+        let mantissa = bits & 0x7f_ffff;
+        let (m, e) = if field == 0 {
+            (mantissa, -149) // subnormal
+        } else {
+            (mantissa | 0x80_0000, field - 150)
+        };
+        let product = m as u64 * self.0 as u64; // < 2^56, exact
+        let n = if e >= 0 {
+            if e >= 8 || product > (u64::MAX >> e) {
+                return Err(Error::TickOverflow);
+            }
+            product << e
+        } else {
+            let shift = (-e) as u32;
+            if shift >= 64 {
+                u64::from(round_up) // 0 < t·f < 1
+            } else {
+                let whole = product >> shift;
+                let rest = product & ((1u64 << shift) - 1);
+                whole + u64::from(round_up && rest != 0)
+            }
+        };
+        if n > MAX_SPAN.0 as u64 {
             return Err(Error::TickOverflow);
         }
         Ok(Ticks(n as u32))
     }
 
-    /// The time a tick count stands for: `t = n / f`, s (f32; exact to f32 rounding).
+    /// The time a tick count stands for: `t = n / f`, s (f32 rounding).
     pub fn seconds(self, n: Ticks) -> Seconds {
-        Seconds::new((n.0 as f64 / self.0 as f64) as f32)
+        Seconds::new(n.0 as f32 / self.0 as f32)
     }
 }
 
@@ -167,6 +191,39 @@ mod tests {
         let k = TickRate::new(32_768).unwrap();
         let n = k.ticks_at_least(Seconds::new(0.015)).unwrap();
         assert!(n.0 as f64 / 32_768.0 >= 0.015f32 as f64);
+    }
+
+    #[test]
+    fn conversion_is_exact_against_f64() {
+        // Reference: f64 holds every f32 exactly and t·f exactly for f < 2^29, so ceil/floor of the
+        // f64 product is the exact answer.
+        let rates = [1u32, 1_000, 32_768, 1_000_000, 16_000_000, 480_000_000];
+        let mut x = 0x3000_0000u32; // ~4.7e-10 s
+        while x < 0x4120_0000 {
+            // up to 10 s
+            let t = f32::from_bits(x);
+            for hz in rates {
+                let r = TickRate::new(hz).unwrap();
+                let exact = t as f64 * hz as f64;
+                match r.ticks_at_least(Seconds::new(t)) {
+                    Ok(n) => {
+                        assert_eq!(n.0 as f64, exact.ceil(), "{t} s at {hz} Hz");
+                        assert!(n.0 as f64 >= exact);
+                    }
+                    Err(e) => {
+                        assert_eq!(e, Error::TickOverflow);
+                        assert!(exact.ceil() > MAX_SPAN.0 as f64);
+                    }
+                }
+                if let Ok(n) = r.ticks_at_most(Seconds::new(t)) {
+                    assert_eq!(n.0 as f64, exact.floor());
+                }
+            }
+            x += 0x1357; // a spread of mantissas and exponents
+        }
+        let r = TickRate::new(1_000_000).unwrap();
+        assert_eq!(r.ticks_at_least(Seconds::new(1.0e-45)).unwrap(), Ticks(1));
+        assert_eq!(r.ticks_at_most(Seconds::new(1.0e-45)).unwrap(), Ticks(0));
     }
 
     #[test]

@@ -349,7 +349,16 @@ impl Circuit {
         armature: Armature,
         initial: Amps,
     ) -> Result<FirstOrder, Error> {
-        let r = self.resolve(op)?;
+        self.energize_resolved(&self.resolve(op)?, armature, initial)
+    }
+
+    /// [`Circuit::energize`] on an already resolved operating point (saves resolving twice).
+    pub(crate) fn energize_resolved(
+        &self,
+        r: &Resolved,
+        armature: Armature,
+        initial: Amps,
+    ) -> Result<FirstOrder, Error> {
         let l = match armature {
             Armature::Released => r.inductance_released,
             Armature::Operated => r.inductance_operated,

@@ -14,7 +14,7 @@
 //! release is second-order and lives in [`super::snubber`]. [`Release`] carries either shape and
 //! answers the same questions for both.
 
-use super::circuit::{Circuit, OperatingPoint, Topology};
+use super::circuit::{Circuit, OperatingPoint, Resolved, Topology};
 use super::first_order::FirstOrder;
 use super::snubber::SnubberRelease;
 use crate::error::{positive, result, Error, Param, Why};
@@ -242,7 +242,11 @@ impl Circuit {
     /// clamp across the switch does not exceed the supply; [`crate::Limit::SnubberUnderdamped`] for
     /// a snubber that would ring.
     pub fn release(&self, op: &OperatingPoint, initial: Amps) -> Result<Release, Error> {
-        let r = self.resolve(op)?;
+        self.release_resolved(&self.resolve(op)?, initial)
+    }
+
+    /// [`Circuit::release`] on an already resolved operating point (saves resolving twice).
+    pub(crate) fn release_resolved(&self, r: &Resolved, initial: Amps) -> Result<Release, Error> {
         let i0 = crate::error::non_negative(initial.value(), Param::Current)?;
         let supply = r.supply.value();
         let r_loop = r.off_loop.value();
@@ -438,37 +442,49 @@ impl Release {
                 capacitor: e.capacitor,
             });
         }
+        self.linear_zero_and_energy().map(|(_, e)| e)
+    }
+
+    /// Time to zero and the energy split together, sharing one `log1p` for the first-order clamps
+    /// (the budget's hot path). Same results as [`Release::time_to_zero`] and [`Release::energy`].
+    pub(crate) fn zero_time_and_energy(&self) -> Result<(Seconds, EnergySplit), Error> {
+        if matches!(self.shape, Shape::Snubber(_)) {
+            return Ok((self.time_to_zero()?, self.energy()?));
+        }
+        self.linear_zero_and_energy()
+    }
+
+    /// First-order clamps: `t₀ = τ·ln(1 + x)` and the energy split with `x = I₀/a`.
+    fn linear_zero_and_energy(&self) -> Result<(Seconds, EnergySplit), Error> {
         let i0 = self.curve.initial();
         let tau = self.curve.tau().value();
         let a = -self.curve.asymptote();
         let x = i0 / a;
-        let q = result(tau * a * x_minus_ln_1p(x))?;
-        let s = result(tau * a * a * ln_1p_minus_x_plus_half_x2(x))?;
-        Ok(EnergySplit {
-            stored: Joules::new(0.5 * self.inductance * i0 * i0),
-            clamp: Joules::new(self.clamp_element_voltage * q + self.clamp_resistance * s),
-            winding: Joules::new(self.loop_resistance * s),
-            supply: Joules::new(self.supply_in_loop * q),
-            capacitor: Joules::new(0.0),
-        })
+        let (q_shape, s_shape, ln_1p_x) = log_tails(x);
+        let t0 = result(tau * ln_1p_x)?;
+        let q = result(tau * a * q_shape)?;
+        let s = result(tau * a * a * s_shape)?;
+        Ok((
+            Seconds::new(t0),
+            EnergySplit {
+                stored: Joules::new(0.5 * self.inductance * i0 * i0),
+                clamp: Joules::new(self.clamp_element_voltage * q + self.clamp_resistance * s),
+                winding: Joules::new(self.loop_resistance * s),
+                supply: Joules::new(self.supply_in_loop * q),
+                capacitor: Joules::new(0.0),
+            },
+        ))
     }
 }
 
-/// `x − ln(1 + x)` for x ≥ 0, with a series below 0.25 to avoid cancellation.
-fn x_minus_ln_1p(x: f32) -> f32 {
+/// `(x − ln(1 + x), ln(1 + x) − x + x²/2, ln(1 + x))` for x ≥ 0 from one `log1p`; the first two
+/// by a series below 0.25, where the direct forms cancel.
+fn log_tails(x: f32) -> (f32, f32, f32) {
+    let l = libm::log1pf(x);
     if x < 0.25 {
-        alternating_log_tail(x, 2)
+        (alternating_log_tail(x, 2), -alternating_log_tail(x, 3), l)
     } else {
-        x - libm::log1pf(x)
-    }
-}
-
-/// `ln(1 + x) − x + x²/2` for x ≥ 0, with a series below 0.25.
-fn ln_1p_minus_x_plus_half_x2(x: f32) -> f32 {
-    if x < 0.25 {
-        -alternating_log_tail(x, 3)
-    } else {
-        libm::log1pf(x) - x + 0.5 * x * x
+        (x - l, l - x + 0.5 * x * x, l)
     }
 }
 
@@ -601,9 +617,10 @@ mod tests {
     fn series_and_direct_forms_agree_at_the_switchover() {
         for x in [0.2499f32, 0.2501] {
             let direct = x as f64 - (x as f64).ln_1p();
-            assert!((x_minus_ln_1p(x) as f64 - direct).abs() < 1e-6 * direct);
+            let (q, s, _) = log_tails(x);
+            assert!((q as f64 - direct).abs() < 1e-6 * direct);
             let direct2 = (x as f64).ln_1p() - x as f64 + 0.5 * (x as f64) * (x as f64);
-            assert!((ln_1p_minus_x_plus_half_x2(x) as f64 - direct2).abs() < 1e-4 * direct2);
+            assert!((s as f64 - direct2).abs() < 1e-4 * direct2);
         }
     }
 

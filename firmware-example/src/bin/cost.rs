@@ -109,6 +109,12 @@ fn main() -> ! {
         "timing budget of the demo valve design (DriverDesign::budget)",
         black_box(&valve).budget()
     );
+    case!(
+        m,
+        "tick_budget",
+        "firmware tick constants of the demo valve design (DriverDesign::tick_budget)",
+        black_box(&valve).tick_budget()
+    );
     // TODO(integration): add as the APIs land: one time-to-threshold verdict;
     //   one 64-sample fit + verdict; one scheduler submit; one scheduler poll.
     // ------------------------------------------------------------------------------------------
