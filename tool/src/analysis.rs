@@ -105,7 +105,7 @@ pub struct Band {
 /// Where the bands come from.
 pub const BAND_SOURCE: &str = "corners-of-energize";
 /// The same, in words.
-pub const BAND_SOURCE_TEXT: &str = "computed by this tool from the core's energize curve over all 32 tolerance corners (supply, winding temperature, resistance, inductance, sense); this build of the core has no diagnosis module";
+pub const BAND_SOURCE_TEXT: &str = "computed by this tool from the core's energize curve over all 32 tolerance corners (supply, winding temperature, resistance, inductance, sense), in measured terms (current read through the sense resistor at its nominal value); this build of the core has no diagnosis module";
 
 /// One clamp in the comparison.
 #[derive(Clone, Debug, PartialEq)]
@@ -326,7 +326,12 @@ fn band(spec: &Spec, threshold: f64) -> Result<Band, ToolError> {
             .circuit
             .energize(&op, Armature::Released, Amps::new(0.0))
             .map_err(|e| figures_error(spec, e, "a tolerance corner"))?;
-        match rise.time_to(threshold as f32) {
+        // Measured terms: firmware converts the sense voltage with the nominal sense resistance,
+        // so a sense resistor k_s times its nominal value reads k_s times the true current.
+        let measured =
+            coilwise::FirstOrder::new(0.0, op.sense_factor * rise.asymptote(), rise.tau())
+                .map_err(|e| figures_error(spec, e, "a tolerance corner"))?;
+        match measured.time_to(threshold as f32) {
             Ok(t) => {
                 let t = wide(t.value());
                 earliest = Some(earliest.map_or(t, |e| e.min(t)));
