@@ -2,6 +2,7 @@
 //! corners, tick budget, pass/warn/fail checks, time-to-threshold bands, clamp comparison, hold
 //! and drive figures.
 
+use coilwise::diagnosis::{Conditions, Expected, Probe, ThresholdBand};
 use coilwise::physics::drive::{check_bipolar, check_mosfet, BaseDrive, GateDrive};
 use coilwise::physics::off_time::OffTimeLimit;
 use coilwise::{
@@ -103,9 +104,9 @@ pub struct Band {
 }
 
 /// Where the bands come from.
-pub const BAND_SOURCE: &str = "corners-of-energize";
+pub const BAND_SOURCE: &str = "diagnosis-module";
 /// The same, in words.
-pub const BAND_SOURCE_TEXT: &str = "computed by this tool from the core's energize curve over all 32 tolerance corners (supply, winding temperature, resistance, inductance, sense), in measured terms (current read through the sense resistor at its nominal value); this build of the core has no diagnosis module";
+pub const BAND_SOURCE_TEXT: &str = "from the core's diagnosis module (ThresholdBand): the hull over all 32 tolerance corners (supply, winding temperature, resistance, inductance, sense), in measured terms (current read through the sense resistor at its nominal value); for a threshold some corner never reaches, the tool counts those corners and gives the earliest crossing of the rest";
 
 /// One clamp in the comparison.
 #[derive(Clone, Debug, PartialEq)]
@@ -262,6 +263,10 @@ pub struct Analysis<'a> {
     pub coil_power_planned: Option<(f64, f64)>,
     /// Self-heated winding temperature, when ambient and thermal resistance are given.
     pub self_heating: Option<SelfHeatingCheck>,
+    /// What a healthy coil shows on the sense input (core diagnosis module).
+    pub expected: Result<Expected, coilwise::Error>,
+    /// The diagnostic pulse (core diagnosis module).
+    pub probe: Result<Probe, coilwise::Error>,
 }
 
 /// Pull-in current, A.
@@ -319,6 +324,33 @@ fn band(spec: &Spec, threshold: f64) -> Result<Band, ToolError> {
     let mut earliest: Option<f64> = None;
     let mut latest: Option<f64> = Some(0.0);
     let mut unreachable = 0;
+    match ThresholdBand::new(d, &Conditions::default(), Amps::new(threshold as f32)) {
+        Ok(b) => {
+            earliest = Some(wide(b.time.min.value()));
+            latest = Some(wide(b.time.max.value()));
+        }
+        // Some corner never reaches the threshold: the diagnosis module gives no band; count the
+        // corners and keep the earliest crossing of the others, in the same measured terms.
+        Err(coilwise::Error::Unreachable { .. }) => unreachable_scan(
+            spec,
+            threshold,
+            &mut earliest,
+            &mut latest,
+            &mut unreachable,
+        )?,
+        Err(e) => return Err(figures_error(spec, e, "diagnosis band")),
+    }
+    band_ticks(spec, threshold, earliest, latest, unreachable)
+}
+
+fn unreachable_scan(
+    spec: &Spec,
+    threshold: f64,
+    earliest: &mut Option<f64>,
+    latest: &mut Option<f64>,
+    unreachable: &mut usize,
+) -> Result<(), ToolError> {
+    let d = &spec.design;
     let mut k = 0;
     while let Some(op) = d.corner(k) {
         k += 1;
@@ -334,20 +366,30 @@ fn band(spec: &Spec, threshold: f64) -> Result<Band, ToolError> {
         match measured.time_to(threshold as f32) {
             Ok(t) => {
                 let t = wide(t.value());
-                earliest = Some(earliest.map_or(t, |e| e.min(t)));
-                latest = latest.map(|l| l.max(t));
+                *earliest = Some(earliest.map_or(t, |e| e.min(t)));
+                *latest = latest.map(|l| l.max(t));
             }
             Err(coilwise::Error::Unreachable { .. }) => {
-                unreachable += 1;
-                latest = None;
+                *unreachable += 1;
+                *latest = None;
             }
             Err(e) => return Err(figures_error(spec, e, "a tolerance corner")),
         }
     }
     if earliest.is_none() {
-        latest = None;
+        *latest = None;
     }
-    let rate = d.tick_rate;
+    Ok(())
+}
+
+fn band_ticks(
+    spec: &Spec,
+    threshold: f64,
+    earliest: Option<f64>,
+    latest: Option<f64>,
+    unreachable: usize,
+) -> Result<Band, ToolError> {
+    let rate = spec.design.tick_rate;
     let tick_err = |e| figures_error(spec, e, "diagnosis band");
     let earliest_ticks = match earliest {
         Some(t) => Some(
@@ -736,6 +778,9 @@ impl<'a> Analysis<'a> {
             }
         });
 
+        let expected = Expected::new(d, &Conditions::default());
+        let probe = Probe::new(d, spec.probe_fraction as f32);
+
         let mut a = Analysis {
             spec,
             nominal,
@@ -755,6 +800,8 @@ impl<'a> Analysis<'a> {
             coil_power,
             coil_power_planned,
             self_heating,
+            expected,
+            probe,
         };
         a.checks = a.make_checks();
         Ok(a)

@@ -171,6 +171,35 @@ pub fn render(a: &Analysis<'_>, module: Option<&str>) -> Result<String, ToolErro
             );
         }
     }
+    if let Ok(e) = &a.expected {
+        let lo = (f64::from(e.final_current.min.value()) * 1e6).floor();
+        let hi = (f64::from(e.final_current.max.value()) * 1e6).ceil();
+        if lo >= 0.0 && hi <= u32::MAX as f64 {
+            c(
+                "Lowest final current a healthy coil reads through the sense resistor, microamperes (rounded down).".into(),
+                "FINAL_CURRENT_MIN_UA",
+                "u32",
+                grouped(lo as u64),
+            );
+            c(
+                "Highest final current a healthy coil reads, microamperes (rounded up).".into(),
+                "FINAL_CURRENT_MAX_UA",
+                "u32",
+                grouped(hi as u64),
+            );
+        }
+    }
+    if let Ok(p) = &a.probe {
+        c(
+            format!(
+                "Longest diagnostic pulse that keeps the current below {:.0} % of pull-in at every corner, ticks (rounded down).",
+                spec.probe_fraction * 100.0
+            ),
+            "PROBE_TICKS",
+            "u32",
+            grouped(p.length.0 as u64),
+        );
+    }
     let _ = writeln!(
         b,
         "\n/// Expected time from switch-on for the coil current to reach a threshold, over all\n/// tolerance corners (earliest rounded down, latest rounded up). Outside the band: fault."

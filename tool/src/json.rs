@@ -208,6 +208,50 @@ pub struct HoldOut {
     pub error: Option<String>,
 }
 
+/// What a healthy coil shows on the sense input (measured terms), over all 32 corners.
+#[derive(Debug, Serialize)]
+pub struct ExpectedOut {
+    /// Final current as read, A.
+    pub final_current_min_a: Option<f64>,
+    /// Final current as read, A.
+    pub final_current_max_a: Option<f64>,
+    /// Time constant, s.
+    pub tau_min_s: Option<f64>,
+    /// Time constant, s.
+    pub tau_max_s: Option<f64>,
+    /// Initial slope, A/s.
+    pub slope_min_a_per_s: Option<f64>,
+    /// Initial slope, A/s.
+    pub slope_max_a_per_s: Option<f64>,
+    /// On-loop resistance, Ω.
+    pub loop_resistance_min_ohm: Option<f64>,
+    /// On-loop resistance, Ω.
+    pub loop_resistance_max_ohm: Option<f64>,
+    /// Inductance, armature released, H.
+    pub inductance_min_h: Option<f64>,
+    /// Inductance, armature released, H.
+    pub inductance_max_h: Option<f64>,
+    /// Latest time the armature has moved by, s; null: some corner never pulls in.
+    pub movement_by_s: Option<f64>,
+    /// Why there are no bands, else null.
+    pub error: Option<String>,
+}
+
+/// The diagnostic pulse.
+#[derive(Debug, Serialize)]
+pub struct ProbeOut {
+    /// Fraction of the pull-in current the pulse stays below.
+    pub fraction: f64,
+    /// That current, A.
+    pub limit_a: Option<f64>,
+    /// Longest pulse, ticks (rounded down).
+    pub length_ticks: Option<u32>,
+    /// The same, s.
+    pub duration_s: Option<f64>,
+    /// Why there is no pulse, else null.
+    pub error: Option<String>,
+}
+
 /// Self-heating steady state.
 #[derive(Debug, Serialize)]
 pub struct SelfHeatingOut {
@@ -259,6 +303,10 @@ pub struct Report {
     pub rise_band_source: &'static str,
     /// Time-to-threshold bands.
     pub rise_bands: Vec<BandOut>,
+    /// Expected sense-input figures of a healthy coil.
+    pub expected: ExpectedOut,
+    /// Diagnostic pulse.
+    pub probe: ProbeOut,
     /// Clamp comparison at the release corner.
     pub clamp_comparison: Vec<ClampOut>,
     /// Hold figures (empty without a hold section).
@@ -329,6 +377,29 @@ pub fn build(a: &Analysis<'_>) -> Report {
             .collect(),
         None => Vec::new(),
     };
+    let e = a.expected.as_ref().ok();
+    let expected = ExpectedOut {
+        final_current_min_a: e.map(|e| wide(e.final_current.min.value())),
+        final_current_max_a: e.map(|e| wide(e.final_current.max.value())),
+        tau_min_s: e.map(|e| wide(e.tau.min.value())),
+        tau_max_s: e.map(|e| wide(e.tau.max.value())),
+        slope_min_a_per_s: e.map(|e| wide(e.slope.min)),
+        slope_max_a_per_s: e.map(|e| wide(e.slope.max)),
+        loop_resistance_min_ohm: e.map(|e| wide(e.loop_resistance.min.value())),
+        loop_resistance_max_ohm: e.map(|e| wide(e.loop_resistance.max.value())),
+        inductance_min_h: e.map(|e| wide(e.inductance.min.value())),
+        inductance_max_h: e.map(|e| wide(e.inductance.max.value())),
+        movement_by_s: e.and_then(|e| e.movement_by.map(|t| wide(t.value()))),
+        error: a.expected.as_ref().err().map(|e| e.to_string()),
+    };
+    let p = a.probe.as_ref().ok();
+    let probe = ProbeOut {
+        fraction: a.spec.probe_fraction,
+        limit_a: p.map(|p| wide(p.limit.value())),
+        length_ticks: p.map(|p| p.length.0),
+        duration_s: p.map(|p| wide(p.duration.value())),
+        error: a.probe.as_ref().err().map(|e| e.to_string()),
+    };
     let self_heating = a.self_heating.map(|sh| SelfHeatingOut {
         ambient_c: sh.ambient,
         thermal_resistance_k_per_w: sh.r_th,
@@ -378,6 +449,8 @@ pub fn build(a: &Analysis<'_>) -> Report {
             .collect(),
         result,
         rise_band_source: BAND_SOURCE,
+        expected,
+        probe,
         rise_bands: a
             .bands
             .iter()

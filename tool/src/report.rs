@@ -435,12 +435,56 @@ pub fn render_report(a: &Analysis<'_>) -> String {
         out.push_str("  exact periodic steady state of the PWM (core); clamp power approximated as (1 - duty) x average current x clamp voltage.\n");
     }
 
-    let _ = writeln!(
-        out,
-        "\nEXPECTED TIME TO THRESHOLD (for diagnosis; armature released, from 0 A)"
-    );
+    out.push_str("\nDIAGNOSIS: WHAT A HEALTHY COIL SHOWS ON THE SENSE INPUT (all 32 corners)\n");
+    match &a.expected {
+        Ok(e) => {
+            let span = |name: &str, lo: f32, hi: f32, unit: &str| {
+                vec![name.to_string(), s(lo, unit), s(hi, unit)]
+            };
+            let rows = vec![
+                vec!["figure".to_string(), "min".to_string(), "max".to_string()],
+                span(
+                    "final current (as read)",
+                    e.final_current.min.value(),
+                    e.final_current.max.value(),
+                    "A",
+                ),
+                span("time constant", e.tau.min.value(), e.tau.max.value(), "s"),
+                span("initial slope", e.slope.min, e.slope.max, "A/s"),
+                span(
+                    "on-loop resistance",
+                    e.loop_resistance.min.value(),
+                    e.loop_resistance.max.value(),
+                    "Ω",
+                ),
+                span(
+                    "inductance (released)",
+                    e.inductance.min.value(),
+                    e.inductance.max.value(),
+                    "H",
+                ),
+            ];
+            out.push_str(&render(&rows, &[false, true, true]));
+            match e.movement_by {
+                Some(t) => {
+                    let _ = writeln!(
+                        out,
+                        "  armature movement expected by {} after switch-on (slowest pull-in + operate allowance).",
+                        s(t.value(), "s")
+                    );
+                }
+                None => out.push_str(
+                    "  some corner never pulls in: a missing armature movement proves nothing.\n",
+                ),
+            }
+        }
+        Err(e) => {
+            let _ = writeln!(out, "  no expected bands: {e}");
+        }
+    }
+    out.push('\n');
     let mut rows = vec![vec![
-        "threshold".to_string(),
+        "time to threshold".to_string(),
         "earliest".to_string(),
         "latest".to_string(),
         "earliest ticks".to_string(),
@@ -458,6 +502,21 @@ pub fn render_report(a: &Analysis<'_>) -> String {
     out.push_str(&render(&rows, &[true, true, true, true, true]));
     let _ = writeln!(out, "  {BAND_SOURCE_TEXT}.");
     out.push_str("  Earlier than the band: shorted turns or a short; later or never: open or high-resistance wiring, low supply.\n");
+    match &a.probe {
+        Ok(p) => {
+            let _ = writeln!(
+                out,
+                "  diagnostic pulse: at most {} ticks ({}) keeps the current below {} ({:.0} % of pull-in) at every corner.",
+                p.length.0,
+                s(p.duration.value(), "s"),
+                s(p.limit.value(), "A"),
+                spec.probe_fraction * 100.0
+            );
+        }
+        Err(e) => {
+            let _ = writeln!(out, "  diagnostic pulse: none: {e}.");
+        }
+    }
 
     out.push_str("\nCLAMP COMPARISON\n");
     out.push_str(&comparison_table(a));

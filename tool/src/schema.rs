@@ -132,6 +132,7 @@ pub const KEYS: &[KeySpec] = &[
     key("hold.current", Quantity(Current), false, None, "hold (economiser) current after pull-in; enables the hold section"),
     key("hold.pwm_frequency", Quantity(Frequency), false, None, "PWM frequency of the hold phase (required with hold.current)"),
     key("diagnosis.thresholds", QuantityList(Current), false, Some("[half the pull-in current]"), "comparator thresholds for the expected time-to-threshold bands"),
+    key("diagnosis.probe_fraction", Quantity(Percent), false, Some("50 %"), "diagnostic pulse: the longest pulse that keeps the current below this fraction of pull-in at every corner"),
     key("compare.zener", QuantityList(Voltage), false, Some("[three from the E24 series]"), "zener / TVS voltages for the clamp comparison"),
     key("compare.resistor", QuantityList(Resistance), false, Some("[two from the E12 series]"), "clamp resistors for the clamp comparison"),
     key("compare.diode_drop", Quantity(Voltage), false, Some("clamp.diode_drop, else 0.8 V"), "diode drop used for the compared clamps"),

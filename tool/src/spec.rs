@@ -76,6 +76,8 @@ pub struct Spec {
     pub self_heating: Option<SelfHeatingSpec>,
     /// Diagnosis thresholds, A (never empty).
     pub thresholds: Vec<f64>,
+    /// Diagnostic pulse: fraction of the pull-in current it must stay below.
+    pub probe_fraction: f64,
     /// Zener voltages to compare, V (`None`: choose defaults).
     pub compare_zener: Option<Vec<f64>>,
     /// Clamp resistors to compare, Ω (`None`: choose defaults).
@@ -752,6 +754,15 @@ impl Spec {
             None => vec![0.5 * pull_in],
         };
 
+        let probe_fraction = i.quantity_or_default("diagnosis.probe_fraction")?;
+        if !(probe_fraction > 0.0 && probe_fraction < 1.0) {
+            return Err(i.error(
+                "diagnosis.probe_fraction",
+                ErrorClass::Impossible,
+                "must lie between 0 % and 100 % (exclusive): a diagnostic pulse stays below pull-in",
+            ));
+        }
+
         // Comparison set.
         let positive_list = |key: &str| -> Result<Option<Vec<f64>>, ToolError> {
             match i.quantities(key)? {
@@ -798,6 +809,7 @@ impl Spec {
             hold,
             self_heating,
             thresholds,
+            probe_fraction,
             compare_zener,
             compare_resistor,
             compare_diode_drop,

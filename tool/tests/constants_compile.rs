@@ -42,6 +42,10 @@ const CHECKS: &str = r#"
 const _: () = assert!(MIN_ON_TICKS >= PULL_IN_TICKS);
 const _: () = assert!(MIN_OFF_TICKS >= RELEASE_TICKS);
 const _: () = assert!(PULL_IN_CURRENT_UA > DROP_OUT_CURRENT_UA);
+const _: () = assert!(FINAL_CURRENT_MIN_UA <= FINAL_CURRENT_MAX_UA);
+// The diagnostic pulse stays below pull-in at the fastest corner, so it is shorter than the
+// slowest pull-in.
+const _: () = assert!(PROBE_TICKS < PULL_IN_TICKS);
 const _: () = {
     let mut i = 0;
     while i < RISE_BANDS.len() {

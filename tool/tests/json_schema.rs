@@ -94,6 +94,33 @@ struct Band {
 
 #[derive(Debug, Serialize, Deserialize)]
 #[serde(deny_unknown_fields)]
+struct Expected {
+    final_current_min_a: Option<f64>,
+    final_current_max_a: Option<f64>,
+    tau_min_s: Option<f64>,
+    tau_max_s: Option<f64>,
+    slope_min_a_per_s: Option<f64>,
+    slope_max_a_per_s: Option<f64>,
+    loop_resistance_min_ohm: Option<f64>,
+    loop_resistance_max_ohm: Option<f64>,
+    inductance_min_h: Option<f64>,
+    inductance_max_h: Option<f64>,
+    movement_by_s: Option<f64>,
+    error: Option<String>,
+}
+
+#[derive(Debug, Serialize, Deserialize)]
+#[serde(deny_unknown_fields)]
+struct ProbeOut {
+    fraction: f64,
+    limit_a: Option<f64>,
+    length_ticks: Option<u32>,
+    duration_s: Option<f64>,
+    error: Option<String>,
+}
+
+#[derive(Debug, Serialize, Deserialize)]
+#[serde(deny_unknown_fields)]
 struct ClampRow {
     label: String,
     kind: String,
@@ -166,6 +193,8 @@ struct Report {
     result: Status,
     rise_band_source: String,
     rise_bands: Vec<Band>,
+    expected: Expected,
+    probe: ProbeOut,
     clamp_comparison: Vec<ClampRow>,
     hold: Vec<Hold>,
     coil_power_w: [f64; 2],
