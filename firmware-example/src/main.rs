@@ -8,13 +8,61 @@
 #![no_std]
 #![no_main]
 
+use core::mem::MaybeUninit;
+
 use coilwise_firmware_example as fw;
 use cortex_m_rt::entry;
 use fw::app::{Controller, INRUSH_CAP};
+use fw::board::{SimBoard, SimClock, SimHold, SimSense, SimSwitch};
 use fw::demo::{self, Checker};
 use fw::hw::Channel;
 use fw::scenario::{self, ChannelSpec, CHANNELS};
 use fw::ticks::TickSource;
+
+/// The controller on the QEMU board.
+type Ctl = Controller<
+    'static,
+    SimSwitch<'static>,
+    SimHold<'static>,
+    SimSense<'static>,
+    SimClock<'static>,
+    CHANNELS,
+>;
+
+/// The scenario's channel designs, in static memory (out of line: the temporaries of building
+/// them stay out of `main`'s frame).
+#[inline(never)]
+fn specs() -> Option<&'static [ChannelSpec; CHANNELS]> {
+    let Ok(specs) = scenario::channels() else {
+        defmt::error!("the scenario's designs are invalid");
+        return None;
+    };
+    let s: &'static [ChannelSpec; CHANNELS] =
+        cortex_m::singleton!(: [ChannelSpec; CHANNELS] = specs)?;
+    Some(s)
+}
+
+/// Builds the board and the controller in static memory, out of line for the same reason.
+#[inline(never)]
+fn setup() -> Option<(&'static SimBoard, &'static mut Ctl)> {
+    let specs = specs()?;
+    let Some(board) = fw::board::take(specs, &demo::SCRIPT) else {
+        defmt::error!("the simulated plant could not be built");
+        return None;
+    };
+    let hw = core::array::from_fn(|ch| {
+        let (switch, hold, sense) = board.channel(ch);
+        Channel::new(switch, hold, sense)
+    });
+    let slot = cortex_m::singleton!(: MaybeUninit<Ctl> = MaybeUninit::uninit())?;
+    match Controller::init(slot, specs, hw, board.clock()) {
+        Ok(c) => Some((board, c)),
+        Err(e) => {
+            defmt::error!("controller set-up failed: {}", e);
+            None
+        }
+    }
+}
 
 #[entry]
 fn main() -> ! {
@@ -27,34 +75,15 @@ fn main() -> ! {
     );
     defmt::info!("results are engineering estimates; real designs follow the datasheets, local codes and licensed practice");
 
-    let Ok(specs) = scenario::channels() else {
-        defmt::error!("the scenario's designs are invalid");
+    let Some((board, ctl)) = setup() else {
         fw::exit(fw::status::CHECK_FAILED)
-    };
-    let Some(specs) = cortex_m::singleton!(: [ChannelSpec; CHANNELS] = specs) else {
-        fw::exit(fw::status::CHECK_FAILED)
-    };
-    let Some(board) = fw::board::take(specs, &demo::SCRIPT) else {
-        defmt::error!("the simulated plant could not be built");
-        fw::exit(fw::status::CHECK_FAILED)
-    };
-    let hw = core::array::from_fn(|ch| {
-        let (switch, hold, sense) = board.channel(ch);
-        Channel::new(switch, hold, sense)
-    });
-    let mut ctl = match Controller::new(specs, hw, board.clock()) {
-        Ok(c) => c,
-        Err(e) => {
-            defmt::error!("controller set-up failed: {}", e);
-            fw::exit(fw::status::CHECK_FAILED)
-        }
     };
     board.plant().monitor.set_limits(&ctl.limits(), INRUSH_CAP);
     ctl.log_design();
 
     let mut checker = Checker::new(board.clock().now());
     let ok_run = match ctl.self_check(&mut checker) {
-        Ok(_) => match ctl.run(&demo::steps(), &mut checker) {
+        Ok(_) => match ctl.run(&demo::STEPS_ONLY, &mut checker) {
             Ok(_) => true,
             Err(e) => {
                 defmt::error!("run stopped: {}", e);

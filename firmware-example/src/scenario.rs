@@ -99,6 +99,7 @@ fn mosfet_60v() -> Switch {
     }
 }
 
+#[inline(never)]
 fn valve(coil: Coil, wiring: f32, clamp: Clamp) -> Result<DriverDesign, Error> {
     let circuit = Circuit::new(
         coil,
@@ -124,6 +125,7 @@ fn valve(coil: Coil, wiring: f32, clamp: Clamp) -> Result<DriverDesign, Error> {
 /// 0.30 H with the plunger out / 0.45 H in, must-operate 16.8 V (70 %), must-release 2.4 V;
 /// low-side 60 V MOSFET (0.05 Ω), 0.1 Ω shunt, 0.5 Ω of cable; diode + 24 V zener clamp
 /// (24.7 V across the coil, so the switch sees at most 26.4 + 24.7 = 51.1 V).
+#[inline(never)]
 pub fn valve_design(tick_hz: u32) -> Result<DriverDesign, Error> {
     let coil = Coil::new(
         Ohms::new(72.0),
@@ -145,6 +147,7 @@ pub fn valve_design(tick_hz: u32) -> Result<DriverDesign, Error> {
 /// Valve B, zone 2 "tomato rows" (invented): 82 Ω at 20 °C (≈ 7 W), 0.36 H / 0.52 H,
 /// must-operate 17.0 V, must-release 3.0 V; 1.2 Ω of longer cable; diode + 47 Ω resistor clamp
 /// (peak switch voltage 26.4 V + 0.41 A · 47 Ω + 0.7 V ≈ 46 V).
+#[inline(never)]
 pub fn valve_b_design() -> Result<DriverDesign, Error> {
     let coil = Coil::new(
         Ohms::new(82.0),
@@ -164,6 +167,7 @@ pub fn valve_b_design() -> Result<DriverDesign, Error> {
 /// Valve C, zone 3 "misting line" (invented): 60 Ω at 20 °C (≈ 10 W), 0.22 H / 0.34 H,
 /// must-operate 16.0 V, must-release 2.0 V; 0.5 Ω of cable; plain freewheel diode (0.8 V):
 /// the slowest release of the three, hence the longest safe off-time.
+#[inline(never)]
 pub fn valve_c_design() -> Result<DriverDesign, Error> {
     let coil = Coil::new(
         Ohms::new(60.0),
@@ -190,6 +194,7 @@ const PUMP_SENSE: SenseDesign = SenseDesign {
 /// shunt, 0.3 Ω of wiring; diode + 15 V zener clamp (15.7 V). Supply 12 V ± 10 %, winding
 /// −20…+60 °C (inside the pump housing), winding ± 8 %, inductance ± 15 %, shunt ± 1 %;
 /// 5 ms operate and 5 ms release allowance.
+#[inline(never)]
 pub fn pump_design() -> Result<DriverDesign, Error> {
     let coil = Coil::new(
         Ohms::new(150.0),
@@ -231,6 +236,7 @@ pub fn pump_design() -> Result<DriverDesign, Error> {
 /// Valves hold at PWM after pull-in (economiser, invented: 55 % of the pull-in current); the
 /// pump relay runs at full drive and has a winding heat rating (invented: 0.6 W continuous,
 /// 3 s thermal time constant), so back-to-back pump runs meet the scheduler's thermal budget.
+#[inline(never)]
 pub fn channels() -> Result<[ChannelSpec; CHANNELS], Error> {
     Ok([
         ChannelSpec {

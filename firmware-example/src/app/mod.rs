@@ -21,6 +21,9 @@
 pub mod text;
 pub mod vectors;
 
+use core::mem::MaybeUninit;
+use core::ptr::addr_of_mut;
+
 use coilwise::diagnosis::verdict::{judge_actuation, judge_threshold};
 use coilwise::diagnosis::{
     Conditions, Criteria, Expected, Finding, FitOptions, Probe, Sampling, ThresholdBand,
@@ -210,6 +213,67 @@ fn hold_plan(spec: &ChannelSpec) -> Option<HoldPlan> {
     })
 }
 
+/// The scheduler limits of a channel (out of line: the timing budget's figures stay in this
+/// frame only).
+#[inline(never)]
+fn limits_of(spec: &ChannelSpec, i: usize) -> Result<ChannelLimits, AppError> {
+    let heat = HeatRatings {
+        clamp: None,
+        coil: spec.coil_rating.map(|(p, tau)| HeatRating {
+            power: Watts::new(p),
+            time_constant: Seconds::new(tau),
+        }),
+    };
+    ChannelLimits::from_design(&spec.design, &heat, hold_plan(spec))
+        .map_err(|e| AppError::Limits(i, e))
+}
+
+/// The healthy bands of a channel (out of line, as [`limits_of`]).
+#[inline(never)]
+fn expected_of(spec: &ChannelSpec, i: usize) -> Result<Expected, AppError> {
+    Expected::new(&spec.design, &Conditions::default()).map_err(|e| AppError::Design(i, e))
+}
+
+/// Builds the scheduler for the channels at `ch` (`N` of them, initialised) and writes it to
+/// `dst` (out of line: its temporaries stay in this frame only).
+///
+/// # Safety
+/// `ch` points to `N` initialised channels; `dst` is valid for writing a scheduler.
+#[inline(never)]
+unsafe fn write_scheduler<const N: usize>(
+    dst: *mut Scheduler<N, QUEUE>,
+    ch: *const Chan,
+    now: Instant,
+) -> Result<(), AppError> {
+    // SAFETY: the caller guarantees `N` initialised channels at `ch`.
+    let limits: [ChannelLimits; N] = core::array::from_fn(|i| unsafe { (*ch.add(i)).limits });
+    let sched = Scheduler::new(limits, INRUSH_CAP, now).map_err(|e| AppError::Limits(0, e))?;
+    // SAFETY: the caller guarantees `dst` is valid for a write.
+    unsafe { dst.write(sched) };
+    Ok(())
+}
+
+/// What channel `i` needs from its design: scheduler limits, healthy bands, diagnostic pulse.
+#[inline(never)]
+fn chan(spec: &ChannelSpec, i: usize, now: Instant) -> Result<Chan, AppError> {
+    let limits = limits_of(spec, i)?;
+    let expected = expected_of(spec, i)?;
+    let probe = Probe::new(&spec.design, PROBE_FRACTION).map_err(|e| AppError::Design(i, e))?;
+    Ok(Chan {
+        health: Health::Ok,
+        limits,
+        expected,
+        probe,
+        band: None,
+        trip: 0,
+        zero: 0.0,
+        rise: None,
+        rest_at: now,
+        probe_rest_at: now,
+        pulses: 0,
+    })
+}
+
 impl<'s, Sw, Pwm, Sense, Clk, const N: usize> Controller<'s, Sw, Pwm, Sense, Clk, N>
 where
     Sw: OutputPin,
@@ -218,62 +282,43 @@ where
     Clk: TickSource + DelayNs,
 {
     /// Builds the per-channel limits, bands and diagnostic pulses from the designs, and the
-    /// scheduler. Nothing is driven yet.
+    /// scheduler, straight into `slot` (e.g. a `static`): the controller is a few KiB, and a small
+    /// part's stack should not hold another copy of it on the way. Nothing is driven yet.
     ///
     /// # Errors
-    /// A design that cannot be evaluated or limits the scheduler cannot use.
-    pub fn new(
+    /// A design that cannot be evaluated or limits the scheduler cannot use; `slot` then stays
+    /// uninitialised.
+    #[inline(never)]
+    pub fn init<'a>(
+        slot: &'a mut MaybeUninit<Self>,
         specs: &'s [ChannelSpec; N],
         hw: [Channel<Sw, Pwm, Sense>; N],
         clock: Clk,
-    ) -> Result<Self, AppError> {
-        let mut chans: heapless::Vec<Chan, N> = heapless::Vec::new();
+    ) -> Result<&'a mut Self, AppError> {
         let now = clock.now();
+        let p = slot.as_mut_ptr();
+        // SAFETY (all blocks below): `p` points to memory valid for a `Self` that nothing else
+        // refers to (`slot` is borrowed mutably). Each field is written exactly once through a
+        // raw field pointer, never read before it is written, and `&mut *p` is formed only after
+        // every field has been written. On an early error some fields stay unwritten and the
+        // `MaybeUninit` is simply never assumed initialised (no field needs dropping).
+        let ch = unsafe { addr_of_mut!((*p).ch) }.cast::<Chan>();
         for (i, spec) in specs.iter().enumerate() {
-            let d = &spec.design;
-            let heat = HeatRatings {
-                clamp: None,
-                coil: spec.coil_rating.map(|(p, tau)| HeatRating {
-                    power: Watts::new(p),
-                    time_constant: Seconds::new(tau),
-                }),
-            };
-            let limits = ChannelLimits::from_design(d, &heat, hold_plan(spec))
-                .map_err(|e| AppError::Limits(i, e))?;
-            let expected =
-                Expected::new(d, &Conditions::default()).map_err(|e| AppError::Design(i, e))?;
-            let probe = Probe::new(d, PROBE_FRACTION).map_err(|e| AppError::Design(i, e))?;
-            let _ = chans.push(Chan {
-                health: Health::Ok,
-                limits,
-                expected,
-                probe,
-                band: None,
-                trip: 0,
-                zero: 0.0,
-                rise: None,
-                rest_at: now,
-                probe_rest_at: now,
-                pulses: 0,
-            });
+            let c = chan(spec, i, now)?;
+            unsafe { ch.add(i).write(c) };
         }
-        let ch: [Chan; N] = chans
-            .into_array()
-            .map_err(|_| AppError::Schedule(ScheduleError::UnknownChannel))?;
-        let limits: [ChannelLimits; N] = core::array::from_fn(|i| ch[i].limits);
-        let sched = Scheduler::new(limits, INRUSH_CAP, now).map_err(|e| AppError::Limits(0, e))?;
-        Ok(Self {
-            specs,
-            hw,
-            clock,
-            sched,
-            ch,
-            rail_low: [false; 2],
-            t0: now,
-            criteria: Criteria::default(),
-            options: FitOptions::default(),
-            buf: [0; SAMPLES],
-        })
+        unsafe { write_scheduler(addr_of_mut!((*p).sched), ch, now)? };
+        unsafe {
+            addr_of_mut!((*p).specs).write(specs);
+            addr_of_mut!((*p).hw).write(hw);
+            addr_of_mut!((*p).clock).write(clock);
+            addr_of_mut!((*p).rail_low).write([false; 2]);
+            addr_of_mut!((*p).t0).write(now);
+            addr_of_mut!((*p).criteria).write(Criteria::default());
+            addr_of_mut!((*p).options).write(FitOptions::default());
+            addr_of_mut!((*p).buf).write([0; SAMPLES]);
+            Ok(&mut *p)
+        }
     }
 
     /// The limits the scheduler enforces, per channel.
@@ -295,6 +340,7 @@ where
     }
 
     /// Logs what the designs give each channel: the scheduler limits and the diagnostics set-up.
+    #[inline(never)]
     pub fn log_design(&self) {
         defmt::info!(
             "design: {=usize} channels, scheduler ticks of 1 us, queue {=usize}, at most {=u8} coil(s) pulling in at once",
@@ -345,6 +391,7 @@ where
     /// # Errors
     /// [`AppError::SelfCheck`] when a reference value does not hold (nothing is driven then);
     /// hardware errors.
+    #[inline(never)]
     pub fn self_check(&mut self, obs: &mut impl Observer) -> Result<usize, AppError> {
         defmt::info!("self-check 1/2: core calculations against reference values");
         let mut ok = true;
@@ -453,6 +500,7 @@ where
 
     /// One diagnostic pulse on channel `i` (blocking, about a millisecond): sampled across the
     /// pulse and judged. The caller makes sure the coil is at rest and nothing else is due.
+    #[inline(never)]
     fn probe(&mut self, i: usize) -> Result<Verdict, AppError> {
         let p = self.ch[i].probe;
         let period = Ticks((p.length.get() / SAMPLES as u32).max(1));
@@ -690,6 +738,7 @@ where
     }
 
     /// Judges channel `i`'s rise once its capture is complete.
+    #[inline(never)]
     fn collect(&mut self, i: usize, now: Instant, obs: &mut impl Observer) -> Result<(), AppError> {
         let Some(w) = self.ch[i].rise else {
             return Ok(());
@@ -901,6 +950,7 @@ where
     ///
     /// # Errors
     /// Hardware or scheduler errors (the scheduler state stays consistent; the caller stops).
+    #[inline(never)]
     pub fn run(&mut self, programme: &[Step], obs: &mut impl Observer) -> Result<u32, AppError> {
         defmt::info!(
             "run: {=usize} requests (times are from power-up)",

@@ -80,6 +80,7 @@ fn hand_circuit() -> Result<Circuit, coilwise::Error> {
 }
 
 /// Computes every check vector on this device.
+#[inline(never)]
 pub fn compute() -> [Vector; COUNT] {
     let op = OperatingPoint::new(Volts::new(black_box(24.0)), Celsius::new(20.0));
     let circuit = hand_circuit();

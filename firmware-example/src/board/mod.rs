@@ -183,6 +183,7 @@ impl Plant {
     /// Fits the greenhouse coils (see [`parts`]) at the scenario's nominal rail voltages, one at a
     /// time (so that no copy of the whole plant passes through the stack), and loads `script`
     /// (events at 0 ms are applied now).
+    #[inline(never)]
     pub fn install(
         &mut self,
         specs: &[crate::scenario::ChannelSpec; CHANNELS],
@@ -371,6 +372,7 @@ impl Plant {
 
     /// Ends the run: hands the final state to the monitor, which logs its findings and returns
     /// whether every constraint held.
+    #[inline(never)]
     pub fn finish(&mut self) -> bool {
         self.monitor.finish()
     }
@@ -395,6 +397,7 @@ static TAKEN: core::sync::atomic::AtomicBool = core::sync::atomic::AtomicBool::n
 
 /// The board, with the scenario's coils fitted and `script` loaded; `None` when already taken or
 /// when a coil's parameters are invalid.
+#[inline(never)]
 pub fn take(
     specs: &[crate::scenario::ChannelSpec; CHANNELS],
     script: &'static [Scripted],
