@@ -8,7 +8,9 @@
 //! - [`units`], [`error`], [`time`]: SI newtypes, the error type, timer ticks;
 //! - [`physics`]: the coil and its drive circuit, rise, release per clamp, energy, off-time,
 //!   switch drive check, hold PWM, coil heating, capacitive nodes;
-//! - [`design`]: one call for a whole driver design's timing budget.
+//! - [`design`]: one call for a whole driver design's timing budget;
+//! - [`diagnosis`]: coil faults from the measured current rise (bands, fit, verdicts);
+//! - [`schedule`]: a fixed-capacity pulse scheduler on integer ticks that keeps every channel's limits.
 //!
 //! All results are engineering estimates from first-order models. They do not replace the
 //! component datasheets, local electrical codes, or licensed practice.
@@ -17,12 +19,15 @@
 #![deny(missing_docs)]
 
 pub mod design;
+pub mod diagnosis;
 pub mod error;
 pub mod physics;
+pub mod schedule;
 pub mod time;
 pub mod units;
 
 pub use design::{DriverDesign, Figures, TickBudget, TimingBudget, CORNER_COUNT};
+pub use diagnosis::{Finding, Verdict};
 pub use error::{Error, Limit, Param, Why};
 pub use physics::circuit::{
     Circuit, OperatingPoint, SupplyRange, Switch, TemperatureRange, Tolerances, Topology,

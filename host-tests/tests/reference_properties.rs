@@ -35,9 +35,12 @@ fn circuit(r: f32, l: f32, clamp: Clamp, breakdown: f32) -> Circuit {
     .unwrap()
 }
 
-/// Every clamp kind, parameterised from a few draws; the snubber's C is chosen overdamped.
+/// Every clamp kind, parameterised from a few draws; the snubber's C is chosen overdamped over the
+/// whole temperature range drawn (−40 °C gives the lowest winding resistance, hence the largest
+/// critical capacitance 4L/R²).
 fn clamps(v: f32, r: f32, l: f32, vf: f32, vz: f32, rc: f32, k: f32) -> Vec<Clamp> {
-    let r_tot = r + 0.3 + rc;
+    let r_coldest = r * (1.0 + coilwise::physics::coil::COPPER_ALPHA_20C.value() * (-40.0 - 20.0));
+    let r_tot = r_coldest + 0.3 + rc;
     let c_crit = 4.0 * l * 1.5 / (r_tot * r_tot);
     vec![
         Clamp::diode(Volts::new(vf)).unwrap(),

@@ -1,0 +1,672 @@
+//! Fitting the first-order rise to a sampled trace.
+//!
+//! # Model
+//!
+//! From switch-on at t = 0 with no current, the coil current is
+//! `i(t) = s·τ·(1 − e^(−t/τ))`, s = initial slope (A/s), τ = time constant; `I∞ = s·τ`
+//! ([`crate::FirstOrder`] with f(0) = 0). Samples are taken at `t_k = t₀ + k·Δt`. In sample units
+//! (`κ_k = t_k/Δt`, `λ = Δt/τ`, `σ = s·Δt` in counts per sample) the model is
+//! `c_k = σ·φ_k`, `φ_k = (1 − e^(−λκ_k))/λ`.
+//!
+//! # Estimator
+//!
+//! 1. **One pass, closed form** (integral equation). Integrating `τ·di/dt + i = I∞` from 0 gives
+//!    `i(t) = s·t − (1/τ)·∫₀ᵗ i dt`, which is *linear* in (s, 1/τ). The running integral `J_k` is
+//!    accumulated from the samples by the trapezoid rule (with i(0) = 0), and the five sums of the
+//!    2 × 2 least-squares problem `c_k ≈ σ·κ_k − λ·J_k` are kept on the way: O(1) memory, no libm
+//!    call per sample. The same pass checks the trace (finite, unsaturated, not below zero,
+//!    monotone within noise, not flat).
+//! 2. **Refinement**: a bounded number of Gauss–Newton passes over the buffer on the exact model
+//!    (the trapezoid rule and the noise in `J_k` bias step 1 slightly). Each pass computes
+//!    `e_k = 1 − e^(−λκ_k)` by the recurrence `e_{k+1} = q·e_k + (1 − q)`, `q = e^(−λ)`, so a pass
+//!    costs one or two `expm1f` calls in all, and ~15 flops per sample. The last pass gives the
+//!    residual and the curvature matrix, hence the goodness of fit and the standard errors
+//!    (`cov = σ̂²·(JᵀJ)⁻¹`).
+//!
+//! Accuracy (measured in `host-tests/tests/diagnosis_estimator.rs`, 2000 traces per case, white
+//! Gaussian noise): with the default one refinement the RMS error of τ and of R ∝ 1/I∞ is within
+//! 2 % of the Cramér–Rao bound in every case tried (full rise, early rise of a diagnostic pulse,
+//! 32 to 128 samples), the same as a general-purpose Levenberg–Marquardt fit in f64; the one-pass
+//! estimate alone is within 17 %. A noise-free trace is recovered to f32 precision (property
+//! test).
+//!
+//! Cost (Cortex-M4F, QEMU instruction count, 64 `u16` samples): 3 862 instructions for the fit,
+//! 4 316 with the verdict ([`super::verdict::judge_trace`]); per sample 30 instructions in the
+//! survey pass and 22 per refinement pass, the rest fixed. Stack 248 bytes (fit), 552 (verdict).
+//! On a Cortex-M0 without FPU the same fit takes about 296 000 instructions (soft float).
+
+use super::sample::{Sample, Sampling};
+use crate::units::{Amps, Seconds};
+
+/// Fewest usable samples the fit accepts.
+pub const MIN_SAMPLES: usize = 6;
+/// Most refinement passes [`FitOptions::refinements`] may ask for.
+pub const MAX_REFINEMENTS: u8 = 6;
+
+/// A trace drop below its running maximum larger than this many noise RMS is "not monotone".
+pub const MONOTONE_SIGMAS: f32 = 8.0;
+/// A trace whose first sample is below zero by more than this many noise RMS is implausible
+/// (with the monotone check this bounds every sample from below).
+pub const BELOW_ZERO_SIGMAS: f32 = 6.0;
+/// A trace whose whole range is below this many noise RMS is flat.
+pub const FLAT_SIGMAS: f32 = 10.0;
+
+/// Smallest λ = Δt/τ the fit uses: τ = 10⁶ sample periods (a straight line).
+const LAMBDA_MIN: f32 = 1.0e-6;
+/// Largest λ: τ = 0.1 sample period (the rise is over before the second sample).
+const LAMBDA_MAX: f32 = 10.0;
+
+/// Fit settings.
+#[derive(Clone, Copy, Debug, PartialEq, Eq)]
+#[cfg_attr(feature = "defmt", derive(defmt::Format))]
+#[non_exhaustive]
+pub struct FitOptions {
+    /// Gauss–Newton passes after the one-pass estimate, 0 ≤ n ≤ [`MAX_REFINEMENTS`] (clamped).
+    /// Each costs one pass over the buffer. Passes stop early once a step changes both parameters
+    /// by less than 10⁻⁵ (relative). 0 keeps the closed-form one-pass estimate and spends one pass
+    /// on its residuals and standard errors only.
+    pub refinements: u8,
+}
+
+impl Default for FitOptions {
+    fn default() -> Self {
+        Self { refinements: 1 }
+    }
+}
+
+impl FitOptions {
+    /// The same options with `refinements` passes (see the field).
+    pub const fn with_refinements(mut self, refinements: u8) -> Self {
+        self.refinements = refinements;
+        self
+    }
+}
+
+/// Why a trace cannot be fitted: it is not the rise of a coil current as sampled.
+#[derive(Clone, Copy, Debug, PartialEq)]
+#[cfg_attr(feature = "defmt", derive(defmt::Format))]
+#[non_exhaustive]
+pub enum TraceFault {
+    /// Fewer than [`MIN_SAMPLES`] usable samples (before any saturation).
+    TooFewSamples {
+        /// Usable samples.
+        usable: u32,
+    },
+    /// A sample is NaN or infinite.
+    NotFinite {
+        /// Its index.
+        index: u32,
+    },
+    /// The converter saturates before [`MIN_SAMPLES`] usable samples.
+    SaturatedEarly {
+        /// Index of the first saturated sample.
+        index: u32,
+    },
+    /// The current reads below zero by more than noise (offset, polarity or wiring of the sensor).
+    BelowZero {
+        /// Index of the lowest sample.
+        index: u32,
+    },
+    /// The current falls below its running maximum by more than noise (a coil current only rises).
+    NotMonotone {
+        /// Index of the largest drop.
+        index: u32,
+    },
+    /// The trace does not rise by more than noise.
+    Flat {
+        /// Its mean level, A.
+        level: Amps,
+    },
+    /// The refinement did not settle within its passes.
+    NoConvergence,
+    /// Reported by the verdict: the residuals are far above the expected noise, so the trace is
+    /// not a first-order rise (a noisy or intermittent sensor, or a model that does not apply).
+    PoorFit,
+    /// Reported by the verdict: a measured time is negative or not finite.
+    BadTime,
+    /// Reported by the verdict: readings contradict each other (a threshold crossed by a current
+    /// whose steady value stays below the threshold).
+    Inconsistent,
+}
+
+/// How well the model fits, and how precisely the trace fixes its parameters.
+#[derive(Clone, Copy, Debug, PartialEq)]
+#[cfg_attr(feature = "defmt", derive(defmt::Format))]
+pub struct FitQuality {
+    /// Samples used (the trace up to its first saturated sample).
+    pub samples: u32,
+    /// Whether the trace was cut at a saturated sample.
+    pub truncated: bool,
+    /// RMS of the residuals, `√(Σr²/(n − 2))`, A.
+    pub rms_residual: Amps,
+    /// `rms_residual` over the expected noise (converter noise and quantisation): ≈ 1 for a good
+    /// fit, larger when the trace is not a first-order rise.
+    pub noise_ratio: f32,
+    /// Relative standard error of the initial slope.
+    pub rel_sd_slope: f32,
+    /// Relative standard error of τ.
+    pub rel_sd_tau: f32,
+    /// Relative standard error of I∞.
+    pub rel_sd_final: f32,
+    /// Correlation of the errors of ln s and ln τ, in [−1, 1].
+    pub correlation: f32,
+    /// Fraction of the rise the window covers, `1 − e^(−t_last/τ)`.
+    pub rise_covered: f32,
+    /// Largest current in the window, A.
+    pub peak: Amps,
+}
+
+/// The fitted rise.
+#[derive(Clone, Copy, Debug, PartialEq)]
+#[cfg_attr(feature = "defmt", derive(defmt::Format))]
+pub struct RiseFit {
+    /// Initial slope `s = I∞/τ`, A/s (= `k_s·V_d/L`).
+    pub slope: f32,
+    /// Time constant τ, s.
+    pub tau: Seconds,
+    /// Final current `I∞ = s·τ`, A.
+    pub final_current: Amps,
+    /// Goodness of fit and standard errors.
+    pub quality: FitQuality,
+}
+
+/// What the first pass learns about a trace.
+struct Survey {
+    used: usize,
+    truncated: bool,
+    sigma: f32,
+    lambda: f32,
+    first: f32,
+    max: f32,
+    drop: f32,
+}
+
+/// Σ u² for u = (k0 + k)/n, k = 0…m−1, in closed form: (m·k0² + k0·m(m−1) + (m−1)m(2m−1)/6)/n².
+fn sum_u2(k0: f32, m: usize, n: usize) -> f32 {
+    let (m, n) = (m as f32, n as f32);
+    (m * k0 * k0 + k0 * m * (m - 1.0) + (m - 1.0) * m * (2.0 * m - 1.0) / 6.0) / (n * n)
+}
+
+fn survey<S: Sample>(samples: &[S], sampling: &Sampling) -> Result<Survey, TraceFault> {
+    let n = samples.len();
+    let zero = sampling.zero();
+    let full = sampling.full_scale();
+    let k0 = sampling.first().value() / sampling.period().value();
+    let h = 1.0 / (n.max(1) as f32);
+    let half_h = 0.5 * h;
+    let Some((head, tail)) = samples.split_first() else {
+        return Err(TraceFault::TooFewSamples { usable: 0 });
+    };
+    let x = head.to_f32();
+    if !S::IS_INTEGER && !x.is_finite() {
+        return Err(TraceFault::NotFinite { index: 0 });
+    }
+    if x >= full {
+        return Err(TraceFault::SaturatedEarly { index: 0 });
+    }
+    // Scaled time u = κ/n and integral J/n keep the sums near unity in size. The integral from
+    // switch-on (i = 0) to the first sample is one trapezoid of width k0.
+    let c0 = x - zero;
+    let mut u = k0 * h;
+    let mut jj = 0.5 * c0 * k0 * h;
+    let (mut suj, mut sjj, mut scu, mut scj) = (u * jj, jj * jj, c0 * u, c0 * jj);
+    let (mut hi, mut drop) = (c0, 0.0f32);
+    let mut c_prev = c0;
+    let mut used = 1usize;
+    let mut truncated = false;
+    for s in tail {
+        let x = s.to_f32();
+        if !S::IS_INTEGER && !x.is_finite() {
+            return Err(TraceFault::NotFinite { index: used as u32 });
+        }
+        if x >= full {
+            truncated = true;
+            break;
+        }
+        let c = x - zero;
+        u += h;
+        jj += (c_prev + c) * half_h;
+        c_prev = c;
+        suj += u * jj;
+        sjj += jj * jj;
+        scu += c * u;
+        scj += c * jj;
+        // Plain compares: `f32::max` may become a library call on the target.
+        if c > hi {
+            hi = c;
+        }
+        let fall = hi - c;
+        if fall > drop {
+            drop = fall;
+        }
+        used += 1;
+    }
+    if used < MIN_SAMPLES {
+        return Err(if truncated {
+            TraceFault::SaturatedEarly { index: used as u32 }
+        } else {
+            TraceFault::TooFewSamples {
+                usable: used as u32,
+            }
+        });
+    }
+    let suu = sum_u2(k0, used, n);
+    let d = suu * sjj - suj * suj;
+    let (mut sigma, mut lambda) = if d > 1.0e-6 * suu * sjj && d.is_finite() {
+        ((scu * sjj - suj * scj) / d, (suj * scu - suu * scj) / d)
+    } else {
+        (scu / suu, 0.0)
+    };
+    // Back to per-sample units: σ = σ'/n, λ = λ'/n.
+    sigma *= h;
+    lambda *= h;
+    Ok(Survey {
+        used,
+        truncated,
+        sigma,
+        lambda,
+        first: c0,
+        max: hi,
+        drop,
+    })
+}
+
+/// Index of the largest drop below the running maximum (rescan; only when reporting it).
+fn drop_index<S: Sample>(samples: &[S], zero: f32) -> u32 {
+    let (mut hi, mut best, mut at) = (f32::NEG_INFINITY, 0.0f32, 0usize);
+    for (k, s) in samples.iter().enumerate() {
+        let c = s.to_f32() - zero;
+        if c > hi {
+            hi = c;
+        } else if hi - c > best {
+            best = hi - c;
+            at = k;
+        }
+    }
+    at as u32
+}
+
+/// Sums of one Gauss–Newton pass at (σ, λ).
+struct Pass {
+    a11: f32,
+    a12: f32,
+    a22: f32,
+    b1: f32,
+    b2: f32,
+    rr: f32,
+}
+
+fn gn_pass<S: Sample>(samples: &[S], zero: f32, k0: f32, sigma: f32, lambda: f32) -> Pass {
+    let inv = 1.0 / lambda;
+    // d = 1 − e^(−λ) to full precision, q = 1 − d (q is near 1: its absolute error is the ulp).
+    let d = -libm::expm1f(-lambda);
+    let q = 1.0 - d;
+    let mut e = if k0 == 0.0 {
+        0.0
+    } else if k0 == 1.0 {
+        d
+    } else {
+        -libm::expm1f(-lambda * k0)
+    };
+    let mut kap = k0;
+    let mut p = Pass {
+        a11: 0.0,
+        a12: 0.0,
+        a22: 0.0,
+        b1: 0.0,
+        b2: 0.0,
+        rr: 0.0,
+    };
+    for s in samples {
+        let c = s.to_f32() - zero;
+        let phi = e * inv;
+        let psi = (kap * (1.0 - e) - phi) * inv;
+        let r = c - sigma * phi;
+        p.a11 += phi * phi;
+        p.a12 += phi * psi;
+        p.a22 += psi * psi;
+        p.b1 += phi * r;
+        p.b2 += psi * r;
+        p.rr += r * r;
+        e = e * q + d;
+        kap += 1.0;
+    }
+    p
+}
+
+/// Fits `i(t) = s·τ·(1 − e^(−t/τ))` to `samples` taken as `sampling` describes (see the module
+/// docs for the method).
+///
+/// Samples at or above the saturation level end the window. The trace is checked first; a trace
+/// that cannot be a coil's rise is a [`TraceFault`], never a fit.
+///
+/// Cost: one survey pass plus `options.refinements` passes (at least one; fewer when converged),
+/// O(1) memory, no heap; one or two `expm1f` per pass and no libm call per sample (see the
+/// module docs for measured instruction counts).
+///
+/// Never panics and never returns a non-finite figure, for any input.
+///
+/// # Errors
+/// [`TraceFault`] as documented on each variant.
+pub fn fit_rise<S: Sample>(
+    samples: &[S],
+    sampling: &Sampling,
+    options: &FitOptions,
+) -> Result<RiseFit, TraceFault> {
+    let sv = survey(samples, sampling)?;
+    let window = &samples[..sv.used];
+    let n = sv.used as f32;
+    let apc = sampling.amps_per_count();
+    let period = sampling.period().value();
+    let k0 = sampling.first().value() / period;
+    let peak_raw = larger(sv.max.abs(), sv.first.abs());
+    // Expected noise, raw units: converter noise and quantisation, floored at f32 resolution of
+    // the signal so that float traces without noise are judged fairly.
+    let quantum = if S::IS_INTEGER { 1.0 } else { 0.0 };
+    let base = sqrt(sampling.noise() * sampling.noise() + quantum * quantum / 12.0);
+    let noise = larger(larger(base, peak_raw * 7.6e-6), f32::MIN_POSITIVE);
+    // A trace monotone within noise has no sample more than the drop limit below its first one,
+    // so checking the first sample for "below zero" covers the whole trace to within that limit.
+    if sv.first < -BELOW_ZERO_SIGMAS * noise {
+        return Err(TraceFault::BelowZero { index: 0 });
+    }
+    if sv.max - sv.first < FLAT_SIGMAS * noise {
+        let sum: f32 = window.iter().map(|s| s.to_f32() - sampling.zero()).sum();
+        return Err(TraceFault::Flat {
+            level: Amps::new(finite_or_zero(sum / n * apc)),
+        });
+    }
+    if sv.drop > MONOTONE_SIGMAS * noise {
+        return Err(TraceFault::NotMonotone {
+            index: drop_index(window, sampling.zero()),
+        });
+    }
+    let mut sigma = if sv.sigma.is_finite() && sv.sigma > 0.0 {
+        sv.sigma
+    } else {
+        // Fall back to the mean slope through the origin.
+        sv.max / (k0 + n)
+    };
+    if !(sigma.is_finite() && sigma > 0.0) {
+        return Err(TraceFault::NoConvergence);
+    }
+    let mut lambda = clamp(sv.lambda, LAMBDA_MIN, LAMBDA_MAX);
+    let apply = options.refinements > 0;
+    let passes = options.refinements.clamp(1, MAX_REFINEMENTS);
+    let mut last = None;
+    for _ in 0..passes {
+        let p = gn_pass(window, sampling.zero(), k0, sigma, lambda);
+        let det = p.a11 * p.a22 - p.a12 * p.a12;
+        if !(det.is_finite() && det > 0.0) {
+            return Err(TraceFault::NoConvergence);
+        }
+        let d_sigma = (p.a22 * p.b1 - p.a12 * p.b2) / det;
+        let d_lambda = (p.a11 * p.b2 - p.a12 * p.b1) / (sigma * det);
+        let new_sigma = clamp(sigma + d_sigma, 0.25 * sigma, 4.0 * sigma);
+        let new_lambda = clamp(
+            clamp(lambda + d_lambda, 0.25 * lambda, 4.0 * lambda),
+            LAMBDA_MIN,
+            LAMBDA_MAX,
+        );
+        if !apply {
+            let rr = p.rr;
+            last = Some((p, det, true, rr));
+            break;
+        }
+        let full_step = new_sigma == sigma + d_sigma && new_lambda == lambda + d_lambda;
+        let settled = (d_sigma / sigma).abs() < 1.0e-5 && (d_lambda / lambda).abs() < 1.0e-5;
+        // Residual after the step, predicted to second order: Σr² − gᵀΔ.
+        let rr_after = if full_step {
+            larger(p.rr - (d_sigma * p.b1 + d_lambda * sigma * p.b2), 0.0)
+        } else {
+            p.rr
+        };
+        sigma = new_sigma;
+        lambda = new_lambda;
+        last = Some((p, det, full_step, rr_after));
+        if settled {
+            break;
+        }
+    }
+    let Some((p, det, full_step, rr)) = last else {
+        return Err(TraceFault::NoConvergence);
+    };
+    if !(full_step && sigma.is_finite() && lambda.is_finite()) {
+        return Err(TraceFault::NoConvergence);
+    }
+    let dof = larger(n - 2.0, 1.0);
+    let rms = sqrt(rr / dof);
+    let s_hat2 = {
+        let s = larger(rms, noise);
+        s * s
+    };
+    // cov(σ, λ) = σ̂²·N⁻¹ with N = [[a11, σ·a12], [σ·a12, σ²·a22]].
+    let v_s = s_hat2 * p.a22 / det / (sigma * sigma);
+    let v_l = s_hat2 * p.a11 / det / (sigma * sigma * lambda * lambda);
+    let c_sl = -s_hat2 * p.a12 / det / (sigma * sigma * lambda);
+    let rel_sd_slope = sqrt(v_s);
+    let rel_sd_tau = sqrt(v_l);
+    let rel_sd_final = sqrt(v_s + v_l - 2.0 * c_sl);
+    let correlation = if rel_sd_slope > 0.0 && rel_sd_tau > 0.0 {
+        clamp(c_sl / (rel_sd_slope * rel_sd_tau), -1.0, 1.0)
+    } else {
+        0.0
+    };
+    let slope = sigma * apc / period;
+    let tau = period / lambda;
+    let final_current = sigma / lambda * apc;
+    let rise_covered = -libm::expm1f(-lambda * (k0 + n - 1.0));
+    let figures = [
+        slope,
+        tau,
+        final_current,
+        rms * apc,
+        rms / noise,
+        rel_sd_slope,
+        rel_sd_tau,
+        rel_sd_final,
+        correlation,
+        rise_covered,
+        sv.max * apc,
+    ];
+    if figures.iter().any(|x| !x.is_finite()) {
+        return Err(TraceFault::NoConvergence);
+    }
+    Ok(RiseFit {
+        slope,
+        tau: Seconds::new(tau),
+        final_current: Amps::new(final_current),
+        quality: FitQuality {
+            samples: sv.used as u32,
+            truncated: sv.truncated,
+            rms_residual: Amps::new(rms * apc),
+            noise_ratio: rms / noise,
+            rel_sd_slope,
+            rel_sd_tau,
+            rel_sd_final,
+            correlation,
+            rise_covered,
+            peak: Amps::new(sv.max * apc),
+        },
+    })
+}
+
+/// `√x` for the standard errors and RMS figures: a bit-level first guess (≈ 3 % off) and three
+/// Newton steps `y ← ½(y + x/y)`, relative error below 2·10⁻⁷ over the normal f32 range (tested
+/// against f64). About 12 instructions on a Cortex-M4F, where `libm::sqrtf` is a software loop.
+/// Returns 0 for x ≤ 0 or NaN and x for +∞.
+pub(crate) fn sqrt(x: f32) -> f32 {
+    if x.is_nan() || x <= 0.0 {
+        return 0.0;
+    }
+    if x == f32::INFINITY {
+        return x;
+    }
+    let mut y = f32::from_bits((x.to_bits() >> 1) + 0x1fbd_1df5);
+    y = 0.5 * (y + x / y);
+    y = 0.5 * (y + x / y);
+    0.5 * (y + x / y)
+}
+
+/// The larger of two numbers by a plain compare (`a` when `b` is NaN). `f32::max` may compile to
+/// a library call on the target.
+fn larger(a: f32, b: f32) -> f32 {
+    if b > a {
+        b
+    } else {
+        a
+    }
+}
+
+/// `x` limited to `[lo, hi]`; NaN goes to `lo`.
+fn clamp(x: f32, lo: f32, hi: f32) -> f32 {
+    if x > hi {
+        hi
+    } else if x >= lo {
+        x
+    } else {
+        lo
+    }
+}
+
+fn finite_or_zero(x: f32) -> f32 {
+    if x.is_finite() {
+        x
+    } else {
+        0.0
+    }
+}
+
+#[cfg(test)]
+pub(crate) mod tests {
+    use super::*;
+    extern crate std;
+    use std::vec::Vec;
+
+    /// Noise-free model samples (f64 evaluation, rounded once to f32).
+    pub(crate) fn model(i_inf: f64, tau: f64, period: f64, first: f64, n: usize) -> Vec<f32> {
+        (0..n)
+            .map(|k| {
+                let t = first + k as f64 * period;
+                (i_inf * -(-t / tau).exp_m1()) as f32
+            })
+            .collect()
+    }
+
+    fn amps_sampling(period: f32) -> Sampling {
+        Sampling::new(Seconds::new(period), 1.0).unwrap()
+    }
+
+    #[test]
+    fn recovers_a_noise_free_rise() {
+        // Long window (3τ), short window (early rise, 30 % of I∞), late first sample.
+        for &(tau, period, first) in &[
+            (2.0e-3, 1.0e-4, 0.0),
+            (2.0e-3, 1.0e-5, 0.0),
+            (1.0e-3, 5.0e-5, 2.0e-4),
+        ] {
+            let s = model(0.12, tau, period, first, 64);
+            let sm = amps_sampling(period as f32)
+                .with_first_sample(Seconds::new(first as f32))
+                .unwrap();
+            let f = fit_rise(&s, &sm, &FitOptions::default()).unwrap();
+            let rel = |a: f32, b: f64| ((a as f64 - b) / b).abs();
+            assert!(
+                rel(f.tau.value(), tau) < 2e-5,
+                "tau {} vs {tau}",
+                f.tau.value()
+            );
+            assert!(rel(f.final_current.value(), 0.12) < 2e-5);
+            assert!(rel(f.slope, 0.12 / tau) < 2e-5);
+            assert!(f.quality.noise_ratio < 3.0);
+        }
+    }
+
+    #[test]
+    fn integer_counts_with_offset() {
+        let s: Vec<u16> = model(3000.0, 2.0e-3, 1.0e-4, 0.0, 64)
+            .iter()
+            .map(|&c| (c + 100.0).round() as u16)
+            .collect();
+        let sm = Sampling::adc(Seconds::new(1.0e-4), 12, Amps::new(0.4095))
+            .unwrap()
+            .with_zero(100.0)
+            .unwrap();
+        let f = fit_rise(&s, &sm, &FitOptions::default()).unwrap();
+        assert!((f.final_current.value() - 0.3).abs() < 1e-3);
+        assert!((f.tau.value() - 2.0e-3).abs() < 2e-5);
+        assert!(f.quality.noise_ratio < 1.5);
+    }
+
+    #[test]
+    fn implausible_traces_are_trace_faults() {
+        let sm = Sampling::adc(Seconds::new(1.0e-4), 12, Amps::new(0.4095)).unwrap();
+        let o = FitOptions::default();
+        assert_eq!(
+            fit_rise::<u16>(&[], &sm, &o),
+            Err(TraceFault::TooFewSamples { usable: 0 })
+        );
+        assert_eq!(
+            fit_rise(&[4095u16; 64], &sm, &o),
+            Err(TraceFault::SaturatedEarly { index: 0 })
+        );
+        assert!(matches!(
+            fit_rise(&[0u16; 64], &sm, &o),
+            Err(TraceFault::Flat { .. })
+        ));
+        assert!(matches!(
+            fit_rise(&[1234u16; 64], &sm, &o),
+            Err(TraceFault::Flat { .. })
+        ));
+        let mut up: Vec<u16> = (0..64).map(|k| (k * 40) as u16).collect();
+        up[30] = 100;
+        assert!(matches!(
+            fit_rise(&up, &sm, &o),
+            Err(TraceFault::NotMonotone { index: 30 })
+        ));
+        let f: Vec<f32> = (0..64).map(|k| k as f32 * 0.01 - 0.3).collect();
+        let fm = Sampling::new(Seconds::new(1e-4), 1.0)
+            .unwrap()
+            .with_noise(0.001)
+            .unwrap();
+        assert!(matches!(
+            fit_rise(&f, &fm, &o),
+            Err(TraceFault::BelowZero { index: 0 })
+        ));
+        let mut nan = model(0.1, 1e-3, 1e-4, 0.0, 32);
+        nan[5] = f32::NAN;
+        assert_eq!(
+            fit_rise(&nan, &fm, &o),
+            Err(TraceFault::NotFinite { index: 5 })
+        );
+    }
+
+    #[test]
+    fn newton_square_root_is_accurate() {
+        // Against f64 `sqrt` (IEEE 754 correctly rounded) over the normal f32 range.
+        let mut x = f32::MIN_POSITIVE;
+        while x < 1.0e38 {
+            let r = sqrt(x) as f64;
+            let exact = (x as f64).sqrt();
+            assert!(((r - exact) / exact).abs() < 2e-7, "{x}: {r} vs {exact}");
+            x *= 1.37;
+        }
+        assert_eq!(sqrt(0.0), 0.0);
+        assert_eq!(sqrt(-1.0), 0.0);
+        assert_eq!(sqrt(f32::NAN), 0.0);
+        assert_eq!(sqrt(f32::INFINITY), f32::INFINITY);
+    }
+
+    #[test]
+    fn saturation_ends_the_window() {
+        let sm = Sampling::adc(Seconds::new(1.0e-4), 12, Amps::new(0.4095)).unwrap();
+        let s: Vec<u16> = model(8000.0, 2.0e-3, 1.0e-4, 0.0, 64)
+            .iter()
+            .map(|&c| c.round().min(4095.0) as u16)
+            .collect();
+        let f = fit_rise(&s, &sm, &FitOptions::default()).unwrap();
+        assert!(f.quality.truncated);
+        assert!(f.quality.samples < 64);
+        assert!((f.final_current.value() - 0.8).abs() < 0.8 * 0.01);
+    }
+}

@@ -1,0 +1,441 @@
+//! What one channel may do, in ticks: minimum on- and off-time, maximum on-time, inrush window,
+//! optional peak-and-hold, and its thermal buckets.
+
+use super::errors::LimitsError;
+use super::thermal::{joules_to_uj_up, EnergyRate, ThermalBucket};
+use crate::design::{DriverDesign, TimingBudget};
+use crate::time::{TickRate, Ticks};
+use crate::units::{Amps, Hertz, Joules, Seconds, Watts};
+
+/// The longest time limit a channel may have, ticks (2³⁰): keeps every sum of limits inside the
+/// 2³¹-tick span in which instants compare unambiguously.
+pub const MAX_LIMIT: Ticks = Ticks(1 << 30);
+
+/// A PWM duty for the hold phase, as a fraction `value / 65 536` (so `HoldDuty(32_768)` is 50 %).
+///
+/// Firmware sets its PWM compare to `⌈period·duty/65 536⌉` ([`HoldDuty::compare`]).
+#[derive(Clone, Copy, Debug, PartialEq, Eq, PartialOrd, Ord, Hash)]
+#[cfg_attr(feature = "defmt", derive(defmt::Format))]
+pub struct HoldDuty(pub u16);
+
+impl HoldDuty {
+    /// The raw fraction, 1/65 536 units.
+    pub const fn get(self) -> u16 {
+        self.0
+    }
+
+    /// A duty from a fraction in (0, 1), rounded **up** to the next 1/65 536 (more hold current,
+    /// so the armature stays held), e.g. the economiser duty the physics computes for the present
+    /// supply.
+    ///
+    /// # Errors
+    /// [`LimitsError::NotAFraction`] for NaN, ±∞, ≤ 0 or a value that rounds to 1 or more (a
+    /// duty of 100 % is no hold phase at all).
+    pub fn from_fraction(x: f32) -> Result<Self, LimitsError> {
+        if !(x.is_finite() && x > 0.0 && x < 1.0) {
+            return Err(LimitsError::NotAFraction);
+        }
+        let v = libm::ceil(x as f64 * 65_536.0);
+        if v >= 65_536.0 {
+            return Err(LimitsError::NotAFraction);
+        }
+        Ok(HoldDuty(v as u16))
+    }
+
+    /// The duty as a fraction (exact in f32).
+    pub fn fraction(self) -> f32 {
+        self.0 as f32 / 65_536.0
+    }
+
+    /// PWM compare value for a timer period of `period` counts: `⌈period·duty/65 536⌉`.
+    pub const fn compare(self, period: u32) -> u32 {
+        (period as u64 * self.0 as u64).div_ceil(65_536) as u32
+    }
+}
+
+/// Peak-and-hold: full drive for `after` ticks (the pull-in phase, at least the minimum on-time),
+/// then PWM at a hold duty until the off edge.
+#[derive(Clone, Copy, Debug, PartialEq, Eq)]
+#[cfg_attr(feature = "defmt", derive(defmt::Format))]
+pub struct HoldPhase {
+    after: Ticks,
+    duty: HoldDuty,
+    ceiling: HoldDuty,
+}
+
+impl HoldPhase {
+    /// Hold at `duty` from `after` ticks into each pulse. The duty may later be lowered or raised
+    /// at run time (for the present supply) up to a ceiling, which is `duty` unless
+    /// [`HoldPhase::with_ceiling`] raises it.
+    ///
+    /// # Errors
+    /// [`LimitsError::ZeroDuty`]; [`LimitsError::TooLong`] for `after` above [`MAX_LIMIT`].
+    pub const fn new(after: Ticks, duty: HoldDuty) -> Result<Self, LimitsError> {
+        if duty.0 == 0 {
+            return Err(LimitsError::ZeroDuty);
+        }
+        if after.0 > MAX_LIMIT.0 {
+            return Err(LimitsError::TooLong);
+        }
+        Ok(Self {
+            after,
+            duty,
+            ceiling: duty,
+        })
+    }
+
+    /// The same hold phase allowing run-time duties up to `ceiling` (≥ the initial duty).
+    ///
+    /// # Errors
+    /// [`LimitsError::DutyAboveCeiling`] when the initial duty is above `ceiling`.
+    pub const fn with_ceiling(mut self, ceiling: HoldDuty) -> Result<Self, LimitsError> {
+        if self.duty.0 > ceiling.0 {
+            return Err(LimitsError::DutyAboveCeiling);
+        }
+        self.ceiling = ceiling;
+        Ok(self)
+    }
+
+    /// Length of the pull-in phase, ticks.
+    pub const fn after(&self) -> Ticks {
+        self.after
+    }
+    /// Initial hold duty.
+    pub const fn duty(&self) -> HoldDuty {
+        self.duty
+    }
+    /// Highest duty allowed at run time.
+    pub const fn ceiling(&self) -> HoldDuty {
+        self.ceiling
+    }
+}
+
+/// A power rating and thermal time constant of one part, for a thermal bucket.
+#[derive(Clone, Copy, Debug, PartialEq)]
+#[cfg_attr(feature = "defmt", derive(defmt::Format))]
+pub struct HeatRating {
+    /// Average power the part may dissipate indefinitely, W.
+    pub power: Watts,
+    /// Its thermal time constant `R_th·C_th`, s.
+    pub time_constant: Seconds,
+}
+
+/// Peak-and-hold as the physics should size it: hold `current` with PWM at `frequency`.
+#[derive(Clone, Copy, Debug, PartialEq)]
+#[cfg_attr(feature = "defmt", derive(defmt::Format))]
+pub struct HoldPlan {
+    /// Current to hold the armature with, A (above the coil's drop-out, with margin).
+    pub current: Amps,
+    /// PWM frequency, Hz.
+    pub frequency: Hertz,
+}
+
+/// Which parts of a channel get a thermal bucket when limits are derived from a design.
+#[derive(Clone, Copy, Debug, PartialEq, Default)]
+#[cfg_attr(feature = "defmt", derive(defmt::Format))]
+pub struct HeatRatings {
+    /// The clamp (diode, zener, resistor, or the switch itself when unclamped).
+    pub clamp: Option<HeatRating>,
+    /// The winding.
+    pub coil: Option<HeatRating>,
+}
+
+/// Everything the scheduler must respect for one channel, in ticks.
+///
+/// Built by [`ChannelLimits::new`] and the `with_*` methods (each re-validates the whole set), or
+/// from a driver design by [`ChannelLimits::from_budget`] / [`ChannelLimits::from_design`].
+#[derive(Clone, Copy, Debug, PartialEq, Eq)]
+#[cfg_attr(feature = "defmt", derive(defmt::Format))]
+pub struct ChannelLimits {
+    min_on: Ticks,
+    min_off: Ticks,
+    max_on: Option<Ticks>,
+    inrush_window: Ticks,
+    hold: Option<HoldPhase>,
+    clamp_heat: Option<ThermalBucket>,
+    coil_heat: Option<ThermalBucket>,
+}
+
+impl ChannelLimits {
+    /// A channel that must stay on at least `min_on` ticks and off at least `min_off` ticks (both
+    /// ≥ 1, ≤ [`MAX_LIMIT`]); no maximum on-time, no inrush window, no hold phase, no thermal
+    /// buckets.
+    ///
+    /// # Errors
+    /// [`LimitsError::ZeroMinOn`], [`LimitsError::ZeroMinOff`], [`LimitsError::TooLong`].
+    pub fn new(min_on: Ticks, min_off: Ticks) -> Result<Self, LimitsError> {
+        Self {
+            min_on,
+            min_off,
+            max_on: None,
+            inrush_window: Ticks(0),
+            hold: None,
+            clamp_heat: None,
+            coil_heat: None,
+        }
+        .validated()
+    }
+
+    /// The same limits with a maximum on-time (≥ `min_on`).
+    pub fn with_max_on(mut self, max_on: Ticks) -> Result<Self, LimitsError> {
+        self.max_on = Some(max_on);
+        self.validated()
+    }
+
+    /// The same limits where each turn-on counts against the scheduler's inrush cap for `window`
+    /// ticks from its on edge (typically the worst-case pull-in time); 0 = never counts.
+    pub fn with_inrush_window(mut self, window: Ticks) -> Result<Self, LimitsError> {
+        self.inrush_window = window;
+        self.validated()
+    }
+
+    /// The same limits with a peak-and-hold phase (its `after` ≥ `min_on`).
+    pub fn with_hold(mut self, hold: HoldPhase) -> Result<Self, LimitsError> {
+        self.hold = Some(hold);
+        self.validated()
+    }
+
+    /// The same limits with a thermal bucket for the clamp.
+    pub fn with_clamp_heat(mut self, bucket: ThermalBucket) -> Result<Self, LimitsError> {
+        self.clamp_heat = Some(bucket);
+        self.validated()
+    }
+
+    /// The same limits with a thermal bucket for the winding.
+    pub fn with_coil_heat(mut self, bucket: ThermalBucket) -> Result<Self, LimitsError> {
+        self.coil_heat = Some(bucket);
+        self.validated()
+    }
+
+    fn validated(self) -> Result<Self, LimitsError> {
+        if self.min_on.0 == 0 {
+            return Err(LimitsError::ZeroMinOn);
+        }
+        if self.min_off.0 == 0 {
+            return Err(LimitsError::ZeroMinOff);
+        }
+        if self.min_on.0 > MAX_LIMIT.0
+            || self.min_off.0 > MAX_LIMIT.0
+            || self.inrush_window.0 > MAX_LIMIT.0
+        {
+            return Err(LimitsError::TooLong);
+        }
+        if let Some(max) = self.max_on {
+            if max.0 > MAX_LIMIT.0 {
+                return Err(LimitsError::TooLong);
+            }
+            if max.0 < self.min_on.0 {
+                return Err(LimitsError::MaxOnBelowMinOn);
+            }
+        }
+        if let Some(h) = self.hold {
+            if h.after.0 < self.min_on.0 {
+                return Err(LimitsError::HoldBeforeMinOn);
+            }
+        }
+        if let Some(b) = self.clamp_heat {
+            if !b.admits_min_pulse(self.min_on.0) {
+                return Err(LimitsError::BucketTooSmall);
+            }
+        }
+        if let Some(b) = self.coil_heat {
+            if !b.admits_min_pulse(self.min_on.0) {
+                return Err(LimitsError::BucketTooSmall);
+            }
+        }
+        Ok(self)
+    }
+
+    /// Limits from a timing budget computed at tick rate `rate` (the design's), rounding toward
+    /// safety:
+    ///
+    /// - `min_on = ticks.min_on` (worst-corner pull-in + operate allowance, rounded up), `min_off =
+    ///   ticks.min_off` (worst-corner safe off-time, rounded up), each at least 1 tick;
+    /// - inrush window = `ticks.pull_in` (worst-corner electrical pull-in, rounded up);
+    /// - hold (if `hold_duty` is given): pull-in phase of `min_on` ticks, then that duty (ceiling =
+    ///   that duty);
+    /// - clamp bucket (if rated): `per_pulse = ⌈max over corners of E_clamp⌉` µJ;
+    /// - winding bucket (if rated): `per_pulse = ⌈max E_winding⌉` (release energy dissipated in the
+    ///   winding), full-drive rate `⌈max V·I∞⌉` per tick (supply power, an upper bound of the
+    ///   winding's dissipation), hold rate that times the duty ceiling.
+    ///
+    /// # Errors
+    /// [`LimitsError::Design`] for a time constant that does not fit the ticks, any conversion out
+    /// of range, and every check of [`ChannelLimits::new`] and the `with_*` methods.
+    pub fn from_budget(
+        budget: &TimingBudget,
+        rate: TickRate,
+        heat: &HeatRatings,
+        hold_duty: Option<HoldDuty>,
+    ) -> Result<Self, LimitsError> {
+        let t = &budget.ticks;
+        let min_on = t.min_on.max(Ticks(1));
+        let mut limits = Self::new(min_on, t.min_off.max(Ticks(1)))?
+            .with_inrush_window(t.pull_in.min(min_on))?;
+        let corners = [
+            &budget.nominal,
+            &budget.pull_in_corner,
+            &budget.release_corner,
+        ];
+        let max_of = |f: &dyn Fn(&crate::design::Figures) -> f32| {
+            corners.iter().fold(0.0f32, |m, c| libm::fmaxf(m, f(c)))
+        };
+        if let Some(d) = hold_duty {
+            limits = limits.with_hold(HoldPhase::new(min_on, d)?)?;
+        }
+        if let Some(r) = heat.clamp {
+            let e = max_of(&|c| c.energy.clamp.value());
+            let b = ThermalBucket::from_rating(r.power, r.time_constant, rate)?
+                .with_per_pulse(joules_to_uj_up(Joules::new(e))?);
+            limits = limits.with_clamp_heat(b)?;
+        }
+        if let Some(r) = heat.coil {
+            let e = max_of(&|c| c.energy.winding.value());
+            let p = max_of(&|c| c.point.supply.value() * c.final_current.value());
+            let on = EnergyRate::from_watts(Watts::new(p), rate)?;
+            let hold = match limits.hold {
+                Some(h) => on.scaled_by(h.ceiling),
+                None => on,
+            };
+            let b = ThermalBucket::from_rating(r.power, r.time_constant, rate)?
+                .with_per_pulse(joules_to_uj_up(Joules::new(e))?)
+                .with_rates(on, hold);
+            limits = limits.with_coil_heat(b)?;
+        }
+        Ok(limits)
+    }
+
+    /// [`ChannelLimits::from_budget`] of `design.budget()` at the design's tick rate, with the hold
+    /// duty from the physics: the PWM duty that holds `hold.current` ([`crate::Circuit::hold`]),
+    /// highest over the design's corners ([`DriverDesign::hold_at_corners`]; the hot, low-supply
+    /// corner needs most), rounded up. That duty is both the initial duty and the ceiling; at run
+    /// time firmware may lower it to the duty for the present supply
+    /// ([`super::Scheduler::set_hold_duty`]).
+    ///
+    /// # Errors
+    /// As [`ChannelLimits::from_budget`]; a hold current the coil cannot reach, or a PWM too slow
+    /// for continuous conduction, as [`LimitsError::Design`].
+    pub fn from_design(
+        design: &DriverDesign,
+        heat: &HeatRatings,
+        hold: Option<HoldPlan>,
+    ) -> Result<Self, LimitsError> {
+        let budget = design.budget().map_err(LimitsError::Design)?;
+        let duty = match hold {
+            Some(h) => {
+                let corners = design
+                    .hold_at_corners(h.current, h.frequency)
+                    .map_err(LimitsError::Design)?;
+                let d = corners.iter().fold(0.0f32, |m, c| libm::fmaxf(m, c.duty));
+                Some(HoldDuty::from_fraction(d)?)
+            }
+            None => None,
+        };
+        Self::from_budget(&budget, design.tick_rate, heat, duty)
+    }
+
+    /// Minimum on-time, ticks.
+    pub const fn min_on(&self) -> Ticks {
+        self.min_on
+    }
+    /// Minimum off-time, ticks (measured from the actual off edge).
+    pub const fn min_off(&self) -> Ticks {
+        self.min_off
+    }
+    /// Maximum on-time, ticks, if any.
+    pub const fn max_on(&self) -> Option<Ticks> {
+        self.max_on
+    }
+    /// How long each turn-on counts against the inrush cap, ticks (0 = never).
+    pub const fn inrush_window(&self) -> Ticks {
+        self.inrush_window
+    }
+    /// The hold phase, if any.
+    pub const fn hold(&self) -> Option<HoldPhase> {
+        self.hold
+    }
+    /// The clamp's thermal bucket, if any.
+    pub const fn clamp_heat(&self) -> Option<ThermalBucket> {
+        self.clamp_heat
+    }
+    /// The winding's thermal bucket, if any.
+    pub const fn coil_heat(&self) -> Option<ThermalBucket> {
+        self.coil_heat
+    }
+
+    /// Ticks at full drive and ticks holding, for a pulse of `duration` ticks.
+    pub(crate) const fn phases(&self, duration: u32) -> (u32, u32) {
+        match self.hold {
+            Some(h) if duration > h.after.0 => (h.after.0, duration - h.after.0),
+            _ => (duration, 0),
+        }
+    }
+
+    /// The buckets in the scheduler's fixed order: clamp, winding.
+    pub(crate) const fn buckets(&self) -> [Option<ThermalBucket>; 2] {
+        [self.clamp_heat, self.coil_heat]
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn limits_validate() {
+        assert_eq!(
+            ChannelLimits::new(Ticks(0), Ticks(5)),
+            Err(LimitsError::ZeroMinOn)
+        );
+        assert_eq!(
+            ChannelLimits::new(Ticks(5), Ticks(0)),
+            Err(LimitsError::ZeroMinOff)
+        );
+        assert_eq!(
+            ChannelLimits::new(Ticks(5), Ticks((1 << 30) + 1)),
+            Err(LimitsError::TooLong)
+        );
+        let l = ChannelLimits::new(Ticks(10), Ticks(20)).unwrap();
+        assert_eq!(l.with_max_on(Ticks(9)), Err(LimitsError::MaxOnBelowMinOn));
+        let h = HoldPhase::new(Ticks(9), HoldDuty(1000)).unwrap();
+        assert_eq!(l.with_hold(h), Err(LimitsError::HoldBeforeMinOn));
+        assert_eq!(
+            HoldPhase::new(Ticks(10), HoldDuty(0)),
+            Err(LimitsError::ZeroDuty)
+        );
+        assert_eq!(
+            HoldPhase::new(Ticks(10), HoldDuty(9000))
+                .unwrap()
+                .with_ceiling(HoldDuty(8000)),
+            Err(LimitsError::DutyAboveCeiling)
+        );
+        let small = ThermalBucket::new(100, Ticks(1000))
+            .unwrap()
+            .with_per_pulse(100);
+        assert_eq!(l.with_clamp_heat(small), Err(LimitsError::BucketTooSmall));
+    }
+
+    #[test]
+    fn duty_rounds_up_and_rejects_non_fractions() {
+        assert_eq!(HoldDuty::from_fraction(0.5), Ok(HoldDuty(32_768)));
+        let d = HoldDuty::from_fraction(0.3).unwrap();
+        assert!(d.fraction() >= 0.3);
+        assert!(d.fraction() - 0.3 < 1.0 / 65_536.0 + 1e-7);
+        for bad in [0.0, -0.1, 1.0, 0.999_999_9, f32::NAN, f32::INFINITY] {
+            assert_eq!(HoldDuty::from_fraction(bad), Err(LimitsError::NotAFraction));
+        }
+        assert_eq!(HoldDuty(32_768).compare(1000), 500);
+        assert_eq!(HoldDuty(1).compare(1000), 1);
+    }
+
+    #[test]
+    fn phases_split_at_the_hold_point() {
+        let l = ChannelLimits::new(Ticks(10), Ticks(20))
+            .unwrap()
+            .with_hold(HoldPhase::new(Ticks(15), HoldDuty(20_000)).unwrap())
+            .unwrap();
+        assert_eq!(l.phases(12), (12, 0));
+        assert_eq!(l.phases(15), (15, 0));
+        assert_eq!(l.phases(40), (15, 25));
+    }
+}
