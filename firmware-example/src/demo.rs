@@ -36,9 +36,9 @@ use coilwise::diagnosis::Finding;
 use coilwise::schedule::{DelayReason, Refusal};
 use coilwise_host_tests::Fault;
 
-use crate::app::{Kind, Observer, Outcome, Report, StartAt, Step};
+use crate::app::{Observer, Outcome, Report, StartAt, Step};
 use crate::board::{Happening, Scripted};
-use crate::scenario::{Rail, CHANNELS};
+use crate::scenario::Rail;
 
 /// Valve A, B, C and the pump relay.
 const A: usize = 0;
@@ -341,11 +341,11 @@ impl Observer for Checker {
             match e.what {
                 Happening::Fault { channel, .. } if channel == r.channel => credit = Some(k),
                 Happening::Supply { rail, volts }
-                    if rail == rail_of(r.channel) && volts < 0.9 * nominal(rail) =>
+                    if rail == rail_of(r.channel)
+                        && volts < 0.9 * nominal(rail)
+                        && want == Finding::SupplyLow =>
                 {
-                    if want == Finding::SupplyLow {
-                        credit = Some(k);
-                    }
+                    credit = Some(k);
                 }
                 _ => {}
             }
@@ -355,6 +355,5 @@ impl Observer for Checker {
                 self.detected[k] = true;
             }
         }
-        let _ = (Kind::Probe, CHANNELS);
     }
 }

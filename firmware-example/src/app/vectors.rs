@@ -80,6 +80,9 @@ fn hand_circuit() -> Result<Circuit, coilwise::Error> {
 }
 
 /// Computes every check vector on this device.
+// The reference values are typed in from their sources on purpose: the point is to compare the
+// device's arithmetic with numbers that do not come from this toolchain (not `core::f32::consts`).
+#[allow(clippy::approx_constant)]
 #[inline(never)]
 pub fn compute() -> [Vector; COUNT] {
     let op = OperatingPoint::new(Volts::new(black_box(24.0)), Celsius::new(20.0));

@@ -84,13 +84,14 @@ pub struct Scripted {
 /// the M0 run short and tight enough for the converter (1e-6 relative is 0.004 counts at full
 /// scale) and the comparator (crossings within a few ns).
 fn solver() -> SolverSettings {
-    let mut s = SolverSettings::default();
-    s.stepping = Stepping::Adaptive {
-        rel_tol: 1e-6,
-        abs_tol_amps: 1e-7,
-        max_step_s: 1e-3,
-    };
-    s
+    SolverSettings {
+        stepping: Stepping::Adaptive {
+            rel_tol: 1e-6,
+            abs_tol_amps: 1e-7,
+            max_step_s: 1e-3,
+        },
+        ..SolverSettings::default()
+    }
 }
 
 /// Converter of one channel as built (invented): the scenario's shunt/gain/reference, an
@@ -189,15 +190,15 @@ impl Plant {
         specs: &[crate::scenario::ChannelSpec; CHANNELS],
         script: &'static [Scripted],
     ) -> Result<(), BoardError> {
-        for ch in 0..CHANNELS {
+        for (ch, spec) in specs.iter().enumerate() {
             let params = parts::channel(ch).ok_or(BoardError)?;
-            let v = f64::from(specs[ch].design.supply.nominal().value());
+            let v = f64::from(spec.design.supply.nominal().value());
             self.benches[ch] =
                 Some(Bench::single(Supply::ideal(v), params, solver()).map_err(|_| BoardError)?);
-            self.adc[ch] = converter(&specs[ch], ch);
+            self.adc[ch] = converter(spec, ch);
             self.rng[ch] = Prng::new(self.adc[ch].seed);
-            self.rails[ch] = specs[ch].rail;
-            self.design_min[ch] = f64::from(specs[ch].design.supply.min().value());
+            self.rails[ch] = spec.rail;
+            self.design_min[ch] = f64::from(spec.design.supply.min().value());
         }
         self.script = script;
         self.apply_due_events(0);
