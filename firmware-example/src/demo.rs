@@ -29,7 +29,7 @@
 //! | 1200 | | valve B | diagnostic pulse healthy: go ahead |
 //! | 1250 | | valve B at 1400 ms | accept the set time |
 //! | 1600 | pump wire breaks | | |
-//! | ≈2300 | | (the delayed pump run) | rise says open circuit: isolate the pump |
+//! | ≈2231 | | (the thermally delayed pump run) | rise says open circuit: isolate the pump |
 //! | 2600 | | pump | refuse: isolated |
 
 use coilwise::diagnosis::Finding;
