@@ -1,0 +1,548 @@
+//! Reading a design file: TOML with spans, flattened to dotted keys, checked against the schema,
+//! with command-line overrides; every value keeps where it came from for error messages.
+
+use std::collections::BTreeMap;
+use std::ops::Range;
+
+use toml::de::{DeTable, DeValue};
+use toml::Spanned;
+
+use crate::error::{ErrorClass, Place, ToolError};
+use crate::quantity::{self, Dim, QuantityError};
+use crate::schema::{self, Kind};
+
+/// A value as read, before interpretation.
+#[derive(Clone, Debug, PartialEq)]
+pub enum Raw {
+    /// A TOML string.
+    Str(String),
+    /// A TOML integer or float (kept as written, for messages).
+    Number(f64, String),
+    /// A TOML boolean.
+    Bool(bool),
+    /// A TOML array.
+    List(Vec<(Raw, Option<Place>)>),
+    /// Anything else (date, table inside an array), by name.
+    Other(&'static str),
+}
+
+impl Raw {
+    fn type_name(&self) -> &'static str {
+        match self {
+            Raw::Str(_) => "a string",
+            Raw::Number(..) => "a number",
+            Raw::Bool(_) => "a boolean",
+            Raw::List(_) => "an array",
+            Raw::Other(what) => what,
+        }
+    }
+}
+
+/// A value in SI units and where it was written.
+pub type Placed = (f64, Option<Place>);
+
+/// One key's value and where it came from.
+#[derive(Clone, Debug)]
+struct Entry {
+    value: Raw,
+    /// Where the key is written.
+    place: Option<Place>,
+    /// Where the value is written.
+    value_place: Option<Place>,
+}
+
+/// The flattened contents of a design file plus overrides.
+#[derive(Clone, Debug)]
+pub struct Inputs {
+    path: String,
+    entries: BTreeMap<String, Entry>,
+    sections: BTreeMap<String, Place>,
+}
+
+/// 1-based line and character column of byte offset `at` in `text`.
+fn line_col(text: &str, at: usize) -> (usize, usize) {
+    let at = at.min(text.len());
+    let mut start = at;
+    while !text.is_char_boundary(start) {
+        start -= 1;
+    }
+    let before = &text[..start];
+    let line = before.matches('\n').count() + 1;
+    let line_start = before.rfind('\n').map_or(0, |i| i + 1);
+    let column = before[line_start..].chars().count() + 1;
+    (line, column)
+}
+
+impl Inputs {
+    /// Parses `text` (the contents of `path`) and checks every key against the schema.
+    ///
+    /// # Errors
+    /// [`ErrorClass::Syntax`] for invalid TOML, [`ErrorClass::UnknownKey`] for a key outside the
+    /// schema, [`ErrorClass::BadValue`] for a value of the wrong TOML type.
+    pub fn parse(path: &str, text: &str) -> Result<Self, ToolError> {
+        let table = DeTable::parse(text).map_err(|e| {
+            let place = e.span().map(|s| {
+                let (line, column) = line_col(text, s.start);
+                Place::File {
+                    path: path.to_string(),
+                    line,
+                    column,
+                }
+            });
+            ToolError::new(
+                ErrorClass::Syntax,
+                format!("not valid TOML: {}", e.message().trim()),
+            )
+            .at(place, None)
+        })?;
+        let mut inputs = Inputs {
+            path: path.to_string(),
+            entries: BTreeMap::new(),
+            sections: BTreeMap::new(),
+        };
+        let file = |span: Range<usize>| {
+            let (line, column) = line_col(text, span.start);
+            Some(Place::File {
+                path: path.to_string(),
+                line,
+                column,
+            })
+        };
+        for (name, value) in table.get_ref().iter() {
+            let section = name.get_ref().to_string();
+            let DeValue::Table(inner) = value.get_ref() else {
+                return Err(ToolError::new(
+                    ErrorClass::UnknownKey,
+                    format!(
+                        "top-level key `{section}` is not part of the design file; keys belong in a section such as [coil]"
+                    ),
+                )
+                .at(file(name.span()), Some(&section)));
+            };
+            if !schema::sections().contains(&section.as_str()) {
+                let mut err = ToolError::new(
+                    ErrorClass::UnknownKey,
+                    format!("section [{section}] is not part of the design file"),
+                )
+                .at(file(name.span()), Some(&section));
+                err = err.hint(format!("sections are {}", schema::sections().join(", ")));
+                return Err(err);
+            }
+            inputs.sections.insert(
+                section.clone(),
+                file(name.span()).unwrap_or(Place::File {
+                    path: path.to_string(),
+                    line: 1,
+                    column: 1,
+                }),
+            );
+            for (k, v) in inner.iter() {
+                let dotted = format!("{section}.{}", k.get_ref());
+                let place = file(k.span());
+                let raw = convert(v, &file);
+                inputs.insert_checked(&dotted, raw, place, file(v.span()))?;
+            }
+        }
+        Ok(inputs)
+    }
+
+    /// Checks `key` against the schema and stores it.
+    fn insert_checked(
+        &mut self,
+        key: &str,
+        value: Raw,
+        place: Option<Place>,
+        value_place: Option<Place>,
+    ) -> Result<(), ToolError> {
+        let Some(spec) = schema::spec(key) else {
+            let mut err = ToolError::new(
+                ErrorClass::UnknownKey,
+                format!("`{key}` is not a key of the design file"),
+            )
+            .at(place, Some(key));
+            err = match schema::closest(key) {
+                Some(k) => err.hint(format!("did you mean `{k}`? (`coilwise keys` lists all)")),
+                None => err.hint("`coilwise keys` lists every key"),
+            };
+            return Err(err);
+        };
+        let ok = match (spec.kind, &value) {
+            (Kind::Quantity(_) | Kind::Text | Kind::Choice(_), Raw::Str(_)) => true,
+            // Numbers are let through so that a missing unit gets its own message.
+            (Kind::Quantity(_), Raw::Number(..)) => true,
+            (Kind::QuantityList(_), Raw::List(_)) => true,
+            _ => false,
+        };
+        if !ok {
+            return Err(ToolError::new(
+                ErrorClass::BadValue,
+                format!(
+                    "expected {}, found {}",
+                    match spec.kind {
+                        Kind::QuantityList(_) => "an array of strings",
+                        Kind::Quantity(Dim::Number) => "a number",
+                        _ => "a string",
+                    },
+                    value.type_name()
+                ),
+            )
+            .at(value_place, Some(key))
+            .hint(format!("write it like {} = {}", key, spec.kind.describe())));
+        }
+        self.entries.insert(
+            key.to_string(),
+            Entry {
+                value,
+                place,
+                value_place,
+            },
+        );
+        Ok(())
+    }
+
+    /// Applies one `--set KEY=VALUE` override. The value is taken as a string (`supply.min=20 V`),
+    /// or as a TOML array when it starts with `[` (`compare.zener=["12 V", "24 V"]`); an empty
+    /// value (`clamp.diode_drop=`) removes the key.
+    ///
+    /// # Errors
+    /// [`ErrorClass::Usage`] for a missing `=`; schema errors as for the file.
+    pub fn apply_override(&mut self, argument: &str) -> Result<(), ToolError> {
+        let place = Some(Place::CommandLine {
+            argument: argument.to_string(),
+        });
+        let Some((key, value)) = argument.split_once('=') else {
+            return Err(
+                ToolError::new(ErrorClass::Usage, "an override must look like KEY=VALUE")
+                    .at(place, None)
+                    .hint("for example --set supply.min=\"20 V\""),
+            );
+        };
+        let key = key.trim();
+        let value = value.trim();
+        if value.is_empty() {
+            // `KEY=` removes the key: back to its default, or absent.
+            if schema::spec(key).is_none() {
+                return self.insert_checked(key, Raw::Str(String::new()), place.clone(), place);
+            }
+            self.entries.remove(key);
+            return Ok(());
+        }
+        let raw = if value.starts_with('[') {
+            let parsed = DeValue::parse(value).map_err(|e| {
+                ToolError::new(
+                    ErrorClass::Syntax,
+                    format!("the array is not valid TOML: {}", e.message().trim()),
+                )
+                .at(place.clone(), Some(key))
+            })?;
+            convert(&parsed, &|_| place.clone())
+        } else {
+            let unquoted = value
+                .strip_prefix('"')
+                .and_then(|v| v.strip_suffix('"'))
+                .unwrap_or(value);
+            Raw::Str(unquoted.to_string())
+        };
+        self.insert_checked(key, raw, place.clone(), place)
+    }
+
+    /// The file name the inputs were read from.
+    pub fn path(&self) -> &str {
+        &self.path
+    }
+
+    /// Where the value of `key` is written; failing that, the header of its section; failing that,
+    /// the file.
+    pub fn place(&self, key: &str) -> Option<Place> {
+        if let Some(e) = self.entries.get(key) {
+            return e.value_place.clone().or_else(|| e.place.clone());
+        }
+        let section = key.split('.').next().unwrap_or(key);
+        if let Some(p) = self.sections.get(section) {
+            return Some(p.clone());
+        }
+        Some(Place::File {
+            path: self.path.clone(),
+            line: 1,
+            column: 1,
+        })
+    }
+
+    /// Whether `key` is present.
+    pub fn has(&self, key: &str) -> bool {
+        self.entries.contains_key(key)
+    }
+
+    /// Whether any key of `section` is present.
+    pub fn has_section(&self, section: &str) -> bool {
+        let prefix = format!("{section}.");
+        self.entries.keys().any(|k| k.starts_with(&prefix))
+    }
+
+    /// An error of `class` at `key`.
+    pub fn error(&self, key: &str, class: ErrorClass, message: impl Into<String>) -> ToolError {
+        ToolError::new(class, message).at(self.place(key), Some(key))
+    }
+
+    /// A missing-key error naming the section the key belongs in.
+    pub fn missing(&self, key: &str, why: &str) -> ToolError {
+        let kind = schema::spec(key)
+            .map(|s| s.kind.describe())
+            .unwrap_or_default();
+        let section = key.split('.').next().unwrap_or(key);
+        let name = key.split('.').nth(1).unwrap_or(key);
+        self.error(
+            key,
+            ErrorClass::MissingKey,
+            format!("`{key}` is missing{why}"),
+        )
+        .hint(format!("add `{name} = {kind}` under [{section}]"))
+    }
+
+    fn dim_of(key: &str) -> Dim {
+        match schema::spec(key).map(|s| s.kind) {
+            Some(Kind::Quantity(d) | Kind::QuantityList(d)) => d,
+            _ => Dim::Number,
+        }
+    }
+
+    fn quantity_error(
+        &self,
+        key: &str,
+        place: Option<Place>,
+        text: &str,
+        e: QuantityError,
+    ) -> ToolError {
+        let dim = Self::dim_of(key);
+        let class = match e {
+            QuantityError::MissingUnit => ErrorClass::MissingUnit,
+            QuantityError::WrongUnit { .. } | QuantityError::UnknownUnit(_) => {
+                ErrorClass::WrongUnit
+            }
+            _ => ErrorClass::BadValue,
+        };
+        let mut err = ToolError::new(
+            class,
+            format!(
+                "value \"{text}\" {e}; expected {} in {}",
+                dim.name(),
+                dim.unit_hint()
+            ),
+        )
+        .at(place, Some(key));
+        let hint = match (&e, dim) {
+            (QuantityError::UnknownUnit(u), Dim::Temperature) if u == "C" => {
+                "write degrees Celsius as degC or °C, e.g. \"85 degC\"".to_string()
+            }
+            (_, Dim::Number) => format!("write a plain number, e.g. {}", dim.example()),
+            _ => format!(
+                "write it like \"{}\" (SI prefixes p n u µ m k M G allowed where it makes sense)",
+                dim.example()
+            ),
+        };
+        err = err.hint(hint);
+        err
+    }
+
+    fn parse_one(&self, key: &str, raw: &Raw, place: Option<Place>) -> Result<f64, ToolError> {
+        let dim = Self::dim_of(key);
+        match raw {
+            Raw::Str(s) => {
+                quantity::parse(dim, s).map_err(|e| self.quantity_error(key, place, s, e))
+            }
+            Raw::Number(v, _) if dim == Dim::Number => Ok(*v),
+            Raw::Number(_, written) => {
+                Err(self.quantity_error(key, place, written, QuantityError::MissingUnit))
+            }
+            other => Err(ToolError::new(
+                ErrorClass::BadValue,
+                format!("expected a string, found {}", other.type_name()),
+            )
+            .at(place, Some(key))),
+        }
+    }
+
+    /// The value of a quantity key in SI units, if present.
+    pub fn quantity(&self, key: &str) -> Result<Option<f64>, ToolError> {
+        match self.entries.get(key) {
+            None => Ok(None),
+            Some(e) => self
+                .parse_one(key, &e.value, e.value_place.clone())
+                .map(Some),
+        }
+    }
+
+    /// The value of a quantity key, or its schema default.
+    pub fn quantity_or_default(&self, key: &str) -> Result<f64, ToolError> {
+        if let Some(v) = self.quantity(key)? {
+            return Ok(v);
+        }
+        let text = schema::spec(key).and_then(|s| s.default).unwrap_or("");
+        quantity::parse(Self::dim_of(key), text)
+            .map_err(|e| self.quantity_error(key, None, text, e))
+    }
+
+    /// The value of a required quantity key.
+    pub fn required(&self, key: &str) -> Result<f64, ToolError> {
+        self.quantity(key)?.ok_or_else(|| self.missing(key, ""))
+    }
+
+    /// The values of a quantity-list key with their places, if present.
+    pub fn quantities(&self, key: &str) -> Result<Option<Vec<Placed>>, ToolError> {
+        let Some(e) = self.entries.get(key) else {
+            return Ok(None);
+        };
+        let Raw::List(items) = &e.value else {
+            return Err(self.error(key, ErrorClass::BadValue, "expected an array"));
+        };
+        let mut out = Vec::with_capacity(items.len());
+        for (raw, place) in items {
+            let place = place.clone().or_else(|| e.value_place.clone());
+            out.push((self.parse_one(key, raw, place.clone())?, place));
+        }
+        Ok(Some(out))
+    }
+
+    /// A text key, if present.
+    pub fn text(&self, key: &str) -> Option<String> {
+        match self.entries.get(key).map(|e| &e.value) {
+            Some(Raw::Str(s)) => Some(s.clone()),
+            _ => None,
+        }
+    }
+
+    /// A choice key: one of the words in its schema, or its default.
+    pub fn choice(&self, key: &str) -> Result<Option<&'static str>, ToolError> {
+        let Some(spec) = schema::spec(key) else {
+            return Ok(None);
+        };
+        let Kind::Choice(words) = spec.kind else {
+            return Ok(None);
+        };
+        let written = match self.text(key) {
+            Some(w) => w,
+            None => {
+                return Ok(spec
+                    .default
+                    .and_then(|d| words.iter().copied().find(|w| *w == d)))
+            }
+        };
+        words
+            .iter()
+            .copied()
+            .find(|w| *w == written)
+            .map(Some)
+            .ok_or_else(|| {
+                self.error(
+                    key,
+                    ErrorClass::BadValue,
+                    format!("\"{written}\" is not one of: {}", words.join(", ")),
+                )
+            })
+    }
+}
+
+fn number(text: &str, radix: u32) -> f64 {
+    let clean: String = text.chars().filter(|&c| c != '_').collect();
+    let body = clean
+        .strip_prefix("0x")
+        .or_else(|| clean.strip_prefix("0o"))
+        .or_else(|| clean.strip_prefix("0b"))
+        .unwrap_or(&clean);
+    if radix == 10 {
+        body.parse::<f64>().unwrap_or(f64::NAN)
+    } else {
+        i64::from_str_radix(body, radix).map_or(f64::NAN, |v| v as f64)
+    }
+}
+
+fn convert(value: &Spanned<DeValue<'_>>, place: &dyn Fn(Range<usize>) -> Option<Place>) -> Raw {
+    match value.get_ref() {
+        DeValue::String(s) => Raw::Str(s.to_string()),
+        DeValue::Integer(i) => Raw::Number(number(i.as_str(), i.radix()), i.as_str().to_string()),
+        DeValue::Float(f) => Raw::Number(number(f.as_str(), 10), f.as_str().to_string()),
+        DeValue::Boolean(b) => Raw::Bool(*b),
+        DeValue::Datetime(_) => Raw::Other("a date"),
+        DeValue::Table(_) => Raw::Other("a table"),
+        DeValue::Array(items) => Raw::List(
+            items
+                .iter()
+                .map(|item| (convert(item, place), place(item.span())))
+                .collect(),
+        ),
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn lines_and_columns() {
+        let t = "a\nbc = 1\n  µd = 2\n";
+        assert_eq!(line_col(t, 0), (1, 1));
+        assert_eq!(line_col(t, 2), (2, 1));
+        assert_eq!(line_col(t, 7), (2, 6));
+        // `µ` is two bytes but one column.
+        let at = t.find('d').unwrap();
+        assert_eq!(line_col(t, at), (3, 4));
+    }
+
+    #[test]
+    fn unknown_key_names_line_and_suggests() {
+        let text = "[coil]\nresistanse = \"160 ohm\"\n";
+        let err = Inputs::parse("x.toml", text).unwrap_err();
+        assert_eq!(err.class, ErrorClass::UnknownKey);
+        assert_eq!(
+            err.place,
+            Some(Place::File {
+                path: "x.toml".into(),
+                line: 2,
+                column: 1
+            })
+        );
+        assert!(err.hint.unwrap().contains("coil.resistance"));
+    }
+
+    #[test]
+    fn numbers_without_unit_are_reported_as_such() {
+        let text = "[coil]\nresistance = 160\n";
+        let inputs = Inputs::parse("x.toml", text).unwrap();
+        let err = inputs.quantity("coil.resistance").unwrap_err();
+        assert_eq!(err.class, ErrorClass::MissingUnit);
+        let text = "[switch]\nmin_gain = 100\n";
+        let inputs = Inputs::parse("x.toml", text).unwrap();
+        assert_eq!(inputs.quantity("switch.min_gain").unwrap(), Some(100.0));
+    }
+
+    #[test]
+    fn overrides_replace_and_add() {
+        let text = "[supply]\nnominal = \"24 V\"\n";
+        let mut inputs = Inputs::parse("x.toml", text).unwrap();
+        inputs.apply_override("supply.nominal=\"12 V\"").unwrap();
+        inputs
+            .apply_override("compare.zener=[\"12 V\", \"18 V\"]")
+            .unwrap();
+        assert_eq!(inputs.quantity("supply.nominal").unwrap(), Some(12.0));
+        inputs.apply_override("supply.nominal=").unwrap();
+        assert!(!inputs.has("supply.nominal"));
+        inputs.apply_override("supply.nominal=12 V").unwrap();
+        let z = inputs.quantities("compare.zener").unwrap().unwrap();
+        assert_eq!(z.len(), 2);
+        assert!(matches!(
+            inputs.place("supply.nominal"),
+            Some(Place::CommandLine { .. })
+        ));
+        assert_eq!(
+            inputs.apply_override("supply.nominal").unwrap_err().class,
+            ErrorClass::Usage
+        );
+        assert_eq!(
+            inputs
+                .apply_override("supply.nominl=1 V")
+                .unwrap_err()
+                .class,
+            ErrorClass::UnknownKey
+        );
+    }
+}

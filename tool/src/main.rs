@@ -1,0 +1,194 @@
+//! `coilwise`: design-time command-line tool. See `docs/tool.md`.
+
+use std::path::PathBuf;
+use std::process::ExitCode;
+
+use clap::{Args, Parser, Subcommand, ValueEnum};
+use coilwise_tool::plot::Corner;
+use coilwise_tool::{analysis::Analysis, constants, json, output, plot, quantity, report, schema};
+use coilwise_tool::{ErrorClass, ToolError};
+
+/// Timing budget, clamp stress, waveforms and firmware constants for a transistor-switched coil.
+///
+/// Results are engineering estimates; check them against the datasheets, local codes and
+/// licensed practice.
+#[derive(Parser, Debug)]
+#[command(name = "coilwise", version, about, long_about = None)]
+struct Cli {
+    #[command(subcommand)]
+    command: Command,
+}
+
+#[derive(Args, Debug)]
+struct DesignArgs {
+    /// The driver-design file (TOML; see docs/design-file.md).
+    design: String,
+    /// Override one value of the design file, e.g. --set supply.min="20 V" (repeatable).
+    #[arg(long = "set", value_name = "KEY=VALUE")]
+    set: Vec<String>,
+}
+
+#[derive(Subcommand, Debug)]
+enum Command {
+    /// Print the full report: timing, energy, stress, checks, bands, clamp comparison.
+    Report {
+        #[command(flatten)]
+        design: DesignArgs,
+        /// Machine-readable output (schema: docs/json-output.md).
+        #[arg(long)]
+        json: bool,
+        /// Write to this file instead of standard output (written whole or not at all).
+        #[arg(short, long, value_name = "FILE")]
+        output: Option<PathBuf>,
+        /// Exit with status 3 when any check fails.
+        #[arg(long)]
+        strict: bool,
+    },
+    /// Print only the clamp comparison.
+    Compare {
+        #[command(flatten)]
+        design: DesignArgs,
+        /// Machine-readable output (the `clamp_comparison` array of the report schema).
+        #[arg(long)]
+        json: bool,
+        /// Write to this file instead of standard output.
+        #[arg(short, long, value_name = "FILE")]
+        output: Option<PathBuf>,
+    },
+    /// Draw coil current and switch voltage through one on/off cycle, one trace per clamp (SVG).
+    Plot {
+        #[command(flatten)]
+        design: DesignArgs,
+        /// The SVG file to write.
+        #[arg(short, long, value_name = "FILE.svg")]
+        output: PathBuf,
+        /// Operating point to draw.
+        #[arg(long, value_enum, default_value_t = CornerArg::Nominal)]
+        corner: CornerArg,
+        /// Length of the on-phase, e.g. "20 ms" (default: the larger of 5 τ and 1.5 × pull-in).
+        #[arg(long, value_name = "TIME")]
+        on_time: Option<String>,
+    },
+    /// Emit a Rust source snippet with the timing budget as integer ticks.
+    Constants {
+        #[command(flatten)]
+        design: DesignArgs,
+        /// Write to this file instead of standard output.
+        #[arg(short, long, value_name = "FILE.rs")]
+        output: Option<PathBuf>,
+        /// Wrap the constants in `pub mod NAME { ... }`.
+        #[arg(long, value_name = "NAME")]
+        module: Option<String>,
+        /// Timer tick rate, e.g. "32768 Hz" (overrides timing.tick_rate).
+        #[arg(long, value_name = "RATE")]
+        tick_rate: Option<String>,
+    },
+    /// List every key of the design file with its unit and meaning.
+    Keys,
+}
+
+#[derive(Clone, Copy, Debug, ValueEnum)]
+enum CornerArg {
+    Nominal,
+    PullIn,
+    Release,
+}
+
+fn run(cli: Cli) -> Result<ExitCode, ToolError> {
+    match cli.command {
+        Command::Report {
+            design,
+            json,
+            output,
+            strict,
+        } => {
+            let spec = coilwise_tool::load(&design.design, &design.set)?;
+            let a = Analysis::new(&spec)?;
+            let text = if json {
+                json::render(&a)
+            } else {
+                report::render_report(&a)
+            };
+            output::write(output.as_deref(), text.as_bytes())?;
+            if strict && a.any_failed() {
+                return Ok(ExitCode::from(3));
+            }
+        }
+        Command::Compare {
+            design,
+            json,
+            output,
+        } => {
+            let spec = coilwise_tool::load(&design.design, &design.set)?;
+            let a = Analysis::new(&spec)?;
+            let text = if json {
+                let doc = json::build(&a);
+                let mut s = serde_json::to_string_pretty(&doc.clamp_comparison)
+                    .map_err(|e| ToolError::new(ErrorClass::Io, e.to_string()))?;
+                s.push('\n');
+                s
+            } else {
+                format!(
+                    "coilwise clamp comparison: {}\n\n{}",
+                    spec.name,
+                    report::comparison_table(&a)
+                )
+            };
+            output::write(output.as_deref(), text.as_bytes())?;
+        }
+        Command::Plot {
+            design,
+            output,
+            corner,
+            on_time,
+        } => {
+            let spec = coilwise_tool::load(&design.design, &design.set)?;
+            let a = Analysis::new(&spec)?;
+            let on = match on_time {
+                Some(t) => Some(quantity::parse(quantity::Dim::Time, &t).map_err(|e| {
+                    ToolError::new(ErrorClass::Usage, format!("--on-time \"{t}\" {e}"))
+                        .hint("write it like \"20 ms\"")
+                })?),
+                None => None,
+            };
+            let corner = match corner {
+                CornerArg::Nominal => Corner::Nominal,
+                CornerArg::PullIn => Corner::PullIn,
+                CornerArg::Release => Corner::Release,
+            };
+            let cycle = plot::cycle(&a, corner, on)?;
+            let svg = plot::svg(&cycle, &format!("coilwise: {}", spec.name))?;
+            output::write(Some(&output), svg.as_bytes())?;
+        }
+        Command::Constants {
+            design,
+            output,
+            module,
+            tick_rate,
+        } => {
+            let mut set = design.set;
+            if let Some(r) = tick_rate {
+                set.push(format!("timing.tick_rate={r}"));
+            }
+            let spec = coilwise_tool::load(&design.design, &set)?;
+            let a = Analysis::new(&spec)?;
+            let text = constants::render(&a, module.as_deref())?;
+            output::write(output.as_deref(), text.as_bytes())?;
+        }
+        Command::Keys => {
+            output::write(None, schema::table().as_bytes())?;
+        }
+    }
+    Ok(ExitCode::SUCCESS)
+}
+
+fn main() -> ExitCode {
+    let cli = Cli::parse();
+    match run(cli) {
+        Ok(code) => code,
+        Err(e) => {
+            eprintln!("{e}");
+            ExitCode::from(1)
+        }
+    }
+}

@@ -1,0 +1,306 @@
+//! Waveforms of one on/off cycle, one trace per clamp option, as SVG (drawn with `plotters`).
+
+use coilwise::{Amps, Armature, OperatingPoint, Seconds, Switch};
+use plotters::prelude::*;
+
+use crate::analysis::{self, wide, Analysis};
+use crate::approx::freewheel_voltage;
+use crate::error::{ErrorClass, ToolError};
+
+/// Which operating point to draw.
+#[derive(Clone, Copy, Debug, PartialEq, Eq)]
+pub enum Corner {
+    /// Nominal point.
+    Nominal,
+    /// Pull-in corner.
+    PullIn,
+    /// Release corner.
+    Release,
+}
+
+/// One waveform: time (s), coil current (A), switch voltage (V).
+#[derive(Clone, Debug, PartialEq)]
+pub struct Trace {
+    /// Clamp label.
+    pub label: String,
+    /// Samples `(t, i, v)`.
+    pub samples: Vec<(f64, f64, f64)>,
+}
+
+/// The cycle: on for `on_time`, then off until the slowest clamp has reached zero current.
+#[derive(Clone, Debug, PartialEq)]
+pub struct Cycle {
+    /// Length of the on-phase, s.
+    pub on_time: f64,
+    /// End of the plotted window, s.
+    pub end: f64,
+    /// Pull-in current, A.
+    pub pull_in: f64,
+    /// Drop-out current, A.
+    pub drop_out: f64,
+    /// Switch breakdown, V.
+    pub breakdown: f64,
+    /// Supply at this point, V.
+    pub supply: f64,
+    /// Traces, fitted clamp first.
+    pub traces: Vec<Trace>,
+    /// Where it is drawn, in words.
+    pub point: String,
+}
+
+const SAMPLES: usize = 400;
+
+/// Computes the cycle at `corner`. `on_time` defaults to five switch-on time constants (the
+/// current is then within 0.7 % of its final value) or 1.5 times the pull-in time, whichever is
+/// longer.
+pub fn cycle(a: &Analysis<'_>, corner: Corner, on_time: Option<f64>) -> Result<Cycle, ToolError> {
+    let d = &a.spec.design;
+    let (op, f, name): (OperatingPoint, _, &str) = match corner {
+        Corner::Nominal => (d.nominal_point(), &a.nominal, "nominal point"),
+        Corner::PullIn => (d.pull_in_corner(), &a.pull_in, "pull-in corner"),
+        Corner::Release => (d.release_corner(), &a.release, "release corner"),
+    };
+    let err = |e: coilwise::Error| {
+        ToolError::new(
+            ErrorClass::Impossible,
+            format!("cannot draw the {name}: {e}"),
+        )
+    };
+    let tau_on = wide(f.tau_on.value());
+    let t_pull = f.pull_in_time.map_or(0.0, |t| wide(t.value()));
+    let on = match on_time {
+        Some(t) if t > 0.0 && t.is_finite() => t,
+        Some(t) => {
+            return Err(ToolError::new(
+                ErrorClass::Usage,
+                format!("--on-time must be a positive time, got {t} s"),
+            ))
+        }
+        None => (5.0 * tau_on).max(1.5 * t_pull),
+    };
+    let rise = d
+        .circuit
+        .energize(&op, Armature::Released, Amps::new(0.0))
+        .map_err(err)?;
+    let i_off = rise.value_at(Seconds::new(on as f32)).map_err(err)? as f64;
+    let supply = wide(op.supply.value());
+    let breakdown = wide(d.circuit.switch().breakdown().value());
+
+    let mut releases = Vec::new();
+    for row in &a.comparison {
+        if row.figures.is_err() {
+            continue;
+        }
+        let Ok(c) = d.circuit.with_clamp(row.clamp) else {
+            continue;
+        };
+        let rel = c.release(&op, Amps::new(i_off as f32)).map_err(err)?;
+        let t0 = wide(rel.time_to_zero().map_err(err)?.value());
+        releases.push((row.label.clone(), row.clamp, rel, t0));
+    }
+    let slowest = releases.iter().map(|r| r.3).fold(0.0, f64::max);
+    let end = on + (slowest * 1.15).max(0.25 * on);
+
+    let on_voltage = |i: f64| match *d.circuit.switch() {
+        Switch::Mosfet { on_resistance, .. } => i * on_resistance.value() as f64,
+        Switch::Bipolar { saturation, .. } => saturation.value() as f64,
+    };
+    let mut traces = Vec::new();
+    for (label, clamp, rel, t0) in releases {
+        let mut samples = Vec::with_capacity(2 * SAMPLES + 4);
+        for k in 0..=SAMPLES {
+            let t = on * k as f64 / SAMPLES as f64;
+            let i = rise.value_at(Seconds::new(t as f32)).map_err(err)? as f64;
+            samples.push((t, i, on_voltage(i)));
+        }
+        // Across the switch: supply plus the voltage opposing the freewheel current (for a
+        // zener across the switch or avalanche this is simply the clamping voltage; for the RC
+        // snubber the core's reverse voltage along its second-order release).
+        let v_clamped = |i: f64, dt: f64| -> Result<f64, ToolError> {
+            Ok(match rel.snubber() {
+                Some(sn) => {
+                    supply
+                        + wide(
+                            sn.reverse_voltage_at(Seconds::new(dt as f32))
+                                .map_err(err)?
+                                .value(),
+                        )
+                }
+                None => supply + freewheel_voltage(&clamp, i, supply, breakdown).unwrap_or(0.0),
+            })
+        };
+        // Off-phase: dense until zero current, then one point at rest.
+        for k in 0..=SAMPLES {
+            let dt = t0 * k as f64 / SAMPLES as f64;
+            let i = wide(
+                rel.current_at(Seconds::new(dt as f32))
+                    .map_err(err)?
+                    .value(),
+            );
+            let v = if k < SAMPLES {
+                v_clamped(i, dt)?
+            } else {
+                supply
+            };
+            samples.push((on + dt, i, v));
+        }
+        samples.push((end, 0.0, supply));
+        traces.push(Trace { label, samples });
+    }
+    Ok(Cycle {
+        on_time: on,
+        end,
+        pull_in: analysis::pull_in_current(a.spec),
+        drop_out: analysis::drop_out_current(a.spec),
+        breakdown,
+        supply,
+        traces,
+        point: format!(
+            "{name}: {:.2} V supply, {:.1} °C winding",
+            supply,
+            op.temperature.value()
+        ),
+    })
+}
+
+fn draw_err<E: std::fmt::Debug>(e: E) -> ToolError {
+    ToolError::new(ErrorClass::Io, format!("drawing failed: {e:?}"))
+}
+
+/// Time axis scale: (factor, unit) so that the axis reads in ms or µs.
+fn time_scale(end: f64) -> (f64, &'static str) {
+    if end >= 1e-3 {
+        (1e3, "ms")
+    } else {
+        (1e6, "µs")
+    }
+}
+
+/// Renders the cycle as an SVG document (900 × 720 px).
+pub fn svg(c: &Cycle, title: &str) -> Result<String, ToolError> {
+    let mut out = String::new();
+    {
+        let root = SVGBackend::with_string(&mut out, (900, 720)).into_drawing_area();
+        root.fill(&WHITE).map_err(draw_err)?;
+        let root = root.titled(title, ("sans-serif", 20)).map_err(draw_err)?;
+        let (upper, lower) = root.split_vertically(340);
+        let (k, unit) = time_scale(c.end);
+        let x_end = c.end * k;
+        let i_max = c
+            .traces
+            .iter()
+            .flat_map(|t| t.samples.iter().map(|s| s.1))
+            .fold(c.pull_in, f64::max)
+            * 1.15e3;
+        let v_max = c
+            .traces
+            .iter()
+            .flat_map(|t| t.samples.iter().map(|s| s.2))
+            .fold(c.breakdown, f64::max)
+            * 1.12;
+        let color = |n: usize| Palette99::pick(n).to_rgba();
+
+        let mut chart = ChartBuilder::on(&upper)
+            .caption(format!("Coil current ({})", c.point), ("sans-serif", 15))
+            .margin(12)
+            .x_label_area_size(38)
+            .y_label_area_size(64)
+            .build_cartesian_2d(0f64..x_end, 0f64..i_max)
+            .map_err(draw_err)?;
+        chart
+            .configure_mesh()
+            .x_desc(format!("time after switch-on ({unit})"))
+            .y_desc("coil current (mA)")
+            .draw()
+            .map_err(draw_err)?;
+        for (n, t) in c.traces.iter().enumerate() {
+            let col = color(n);
+            chart
+                .draw_series(LineSeries::new(
+                    t.samples.iter().map(|s| (s.0 * k, s.1 * 1e3)),
+                    col.stroke_width(2),
+                ))
+                .map_err(draw_err)?
+                .label(t.label.clone())
+                .legend(move |(x, y)| {
+                    PathElement::new(vec![(x, y), (x + 18, y)], col.stroke_width(2))
+                });
+        }
+        for (level, name, col) in [
+            (c.pull_in, "pull-in", RGBColor(200, 0, 0)),
+            (c.drop_out, "drop-out", RGBColor(0, 120, 0)),
+        ] {
+            chart
+                .draw_series(DashedLineSeries::new(
+                    [(0.0, level * 1e3), (x_end, level * 1e3)],
+                    6,
+                    4,
+                    col.stroke_width(1),
+                ))
+                .map_err(draw_err)?
+                .label(format!("{name} {}", crate::quantity::eng(level, "A")))
+                .legend(move |(x, y)| {
+                    PathElement::new(vec![(x, y), (x + 18, y)], col.stroke_width(1))
+                });
+        }
+        chart
+            .configure_series_labels()
+            .position(SeriesLabelPosition::UpperRight)
+            .background_style(WHITE.mix(0.85))
+            .border_style(BLACK)
+            .label_font(("sans-serif", 12))
+            .draw()
+            .map_err(draw_err)?;
+
+        let mut chart = ChartBuilder::on(&lower)
+            .caption("Voltage across the switch", ("sans-serif", 15))
+            .margin(12)
+            .x_label_area_size(38)
+            .y_label_area_size(64)
+            .build_cartesian_2d(0f64..x_end, 0f64..v_max)
+            .map_err(draw_err)?;
+        chart
+            .configure_mesh()
+            .x_desc(format!("time after switch-on ({unit})"))
+            .y_desc("switch voltage (V)")
+            .draw()
+            .map_err(draw_err)?;
+        for (n, t) in c.traces.iter().enumerate() {
+            let col = color(n);
+            chart
+                .draw_series(LineSeries::new(
+                    t.samples.iter().map(|s| (s.0 * k, s.2)),
+                    col.stroke_width(2),
+                ))
+                .map_err(draw_err)?
+                .label(t.label.clone())
+                .legend(move |(x, y)| {
+                    PathElement::new(vec![(x, y), (x + 18, y)], col.stroke_width(2))
+                });
+        }
+        let red = RGBColor(200, 0, 0);
+        chart
+            .draw_series(DashedLineSeries::new(
+                [(0.0, c.breakdown), (x_end, c.breakdown)],
+                6,
+                4,
+                red.stroke_width(1),
+            ))
+            .map_err(draw_err)?
+            .label(format!(
+                "switch breakdown {}",
+                crate::quantity::eng(c.breakdown, "V")
+            ))
+            .legend(move |(x, y)| PathElement::new(vec![(x, y), (x + 18, y)], red.stroke_width(1)));
+        chart
+            .configure_series_labels()
+            .position(SeriesLabelPosition::UpperRight)
+            .background_style(WHITE.mix(0.85))
+            .border_style(BLACK)
+            .label_font(("sans-serif", 12))
+            .draw()
+            .map_err(draw_err)?;
+        root.present().map_err(draw_err)?;
+    }
+    Ok(out)
+}

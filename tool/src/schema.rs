@@ -1,0 +1,227 @@
+//! The design-file schema: every key the tool reads, its type, and what it means.
+//!
+//! This table is the single source of truth: the reader rejects keys not listed here, the
+//! `keys` subcommand prints it, and a test checks that `docs/design-file.md` documents every key.
+
+use crate::quantity::Dim;
+
+/// The type of a key's value.
+#[derive(Clone, Copy, Debug, PartialEq, Eq)]
+pub enum Kind {
+    /// A string holding a number with a unit of this quantity.
+    Quantity(Dim),
+    /// An array of such strings.
+    QuantityList(Dim),
+    /// Free text.
+    Text,
+    /// One of a fixed set of words.
+    Choice(&'static [&'static str]),
+}
+
+impl Kind {
+    /// A short description of the expected value, for `keys` and messages.
+    pub fn describe(self) -> String {
+        match self {
+            Kind::Quantity(Dim::Number) => "number".to_string(),
+            Kind::Quantity(d) => format!("\"{}\"", d.example()),
+            Kind::QuantityList(d) => format!("[\"{}\", ...]", d.example()),
+            Kind::Text => "text".to_string(),
+            Kind::Choice(words) => words.join(" | "),
+        }
+    }
+}
+
+/// One key of the design file.
+#[derive(Clone, Copy, Debug)]
+pub struct KeySpec {
+    /// Dotted name, `section.key`.
+    pub key: &'static str,
+    /// Value type.
+    pub kind: Kind,
+    /// Whether the key must be present (some keys are required only for some choices; the
+    /// reader checks those and says why).
+    pub required: bool,
+    /// Default, as it would be written, when optional and defaulted.
+    pub default: Option<&'static str>,
+    /// What the value means.
+    pub help: &'static str,
+}
+
+const fn key(
+    key: &'static str,
+    kind: Kind,
+    required: bool,
+    default: Option<&'static str>,
+    help: &'static str,
+) -> KeySpec {
+    KeySpec {
+        key,
+        kind,
+        required,
+        default,
+        help,
+    }
+}
+
+use Dim::*;
+use Kind::{Choice, Quantity, QuantityList, Text};
+
+/// Switch kinds.
+pub const SWITCH_KINDS: &[&str] = &["mosfet", "bipolar"];
+/// Switch positions.
+pub const SWITCH_SIDES: &[&str] = &["low", "high"];
+/// Clamp kinds.
+pub const CLAMP_KINDS: &[&str] = &[
+    "diode",
+    "zener",
+    "resistor",
+    "switch-zener",
+    "snubber",
+    "none",
+];
+
+/// Every key, in the order the documentation lists them.
+pub const KEYS: &[KeySpec] = &[
+    key("design.name", Text, true, None, "name of the design, printed in the report"),
+    key("design.notes", Text, false, None, "free text, printed under the name"),
+    key("coil.resistance", Quantity(Resistance), true, None, "winding resistance at coil.reference_temperature"),
+    key("coil.reference_temperature", Quantity(Temperature), false, Some("20 degC"), "temperature at which resistance, must_operate and must_release are specified"),
+    key("coil.resistance_tolerance", Quantity(Percent), false, Some("0 %"), "part-to-part spread of the winding resistance, ±"),
+    key("coil.temperature_coefficient", Quantity(PerKelvin), false, Some("0.00393 1/K"), "temperature coefficient of the winding resistance (annealed copper by default)"),
+    key("coil.inductance", Quantity(Inductance), false, None, "one inductance for both armature positions (instead of the two keys below)"),
+    key("coil.inductance_released", Quantity(Inductance), false, None, "inductance with the armature released (air gap open): applies while pulling in"),
+    key("coil.inductance_operated", Quantity(Inductance), false, None, "inductance with the armature operated (air gap closed): applies at switch-off"),
+    key("coil.inductance_tolerance", Quantity(Percent), false, Some("0 %"), "part-to-part spread of the inductance, ±"),
+    key("coil.must_operate", Quantity(Voltage), true, None, "must-operate (pick-up) voltage at the reference temperature"),
+    key("coil.must_release", Quantity(Voltage), true, None, "must-release (drop-out) voltage at the reference temperature"),
+    key("coil.thermal_resistance", Quantity(ThermalResistance), false, None, "thermal resistance winding to ambient, for the self-heating check (with temperature.ambient)"),
+    key("supply.nominal", Quantity(Voltage), true, None, "nominal supply voltage"),
+    key("supply.min", Quantity(Voltage), false, None, "lowest supply voltage (or give supply.tolerance)"),
+    key("supply.max", Quantity(Voltage), false, None, "highest supply voltage (or give supply.tolerance)"),
+    key("supply.tolerance", Quantity(Percent), false, None, "symmetric supply tolerance, instead of supply.min and supply.max"),
+    key("temperature.min", Quantity(Temperature), true, None, "coldest winding temperature (cold start)"),
+    key("temperature.max", Quantity(Temperature), true, None, "hottest winding temperature (hot ambient plus self-heating)"),
+    key("temperature.ambient", Quantity(Temperature), false, None, "hottest ambient around the coil, for the self-heating check (with coil.thermal_resistance)"),
+    key("switch.kind", Choice(SWITCH_KINDS), true, None, "the transistor that switches the coil"),
+    key("switch.side", Choice(SWITCH_SIDES), false, Some("low"), "low-side (switch to ground) or high-side (switch to supply)"),
+    key("switch.breakdown", Quantity(Voltage), true, None, "breakdown voltage: V(BR)DSS of a MOSFET, VCEO of a bipolar transistor"),
+    key("switch.on_resistance", Quantity(Resistance), false, None, "MOSFET on-resistance RDS(on) at the operating junction temperature (mosfet only, required)"),
+    key("switch.saturation", Quantity(Voltage), false, None, "bipolar saturation voltage VCE(sat) at the coil current (bipolar only, required)"),
+    key("switch.avalanche_energy", Quantity(Energy), false, None, "single-pulse avalanche energy rating EAS, checked when clamp.kind = \"none\""),
+    key("switch.drive_voltage", Quantity(Voltage), false, None, "bipolar: voltage driving the base resistor (the GPIO high level)"),
+    key("switch.base_resistor", Quantity(Resistance), false, None, "bipolar: base resistor"),
+    key("switch.base_emitter", Quantity(Voltage), false, Some("0.7 V"), "bipolar: base-emitter voltage in saturation"),
+    key("switch.min_gain", Quantity(Number), false, None, "bipolar: minimum DC current gain hFE at the coil current"),
+    key("switch.gate_voltage", Quantity(Voltage), false, None, "MOSFET: gate-source voltage the driver applies"),
+    key("switch.rated_gate_voltage", Quantity(Voltage), false, None, "MOSFET: gate-source voltage at which switch.on_resistance is specified"),
+    key("wiring.sense", Quantity(Resistance), false, Some("0 ohm"), "current-sense resistor in the switch path (outside the freewheel loop)"),
+    key("wiring.sense_tolerance", Quantity(Percent), false, Some("0 %"), "tolerance of the sense resistor, ±"),
+    key("wiring.harness", Quantity(Resistance), false, Some("0 ohm"), "wiring and connector resistance to the coil (inside the freewheel loop)"),
+    key("clamp.kind", Choice(CLAMP_KINDS), true, None, "what takes the coil's energy at switch-off"),
+    key("clamp.diode_drop", Quantity(Voltage), false, None, "forward drop of the clamp diode at the coil current (diode, zener, resistor: required)"),
+    key("clamp.zener", Quantity(Voltage), false, None, "zener / TVS clamping voltage (zener: in series with the diode across the coil; switch-zener: across the switch)"),
+    key("clamp.resistance", Quantity(Resistance), false, None, "clamp resistor: in series with the diode (resistor) or with the capacitor (snubber); required for both"),
+    key("clamp.capacitance", Quantity(Capacitance), false, None, "snubber capacitor in series with clamp.resistance (snubber: required)"),
+    key("clamp.power_rating", Quantity(Power), false, None, "average power rating of the clamp element, for the repetition check"),
+    key("timing.tick_rate", Quantity(Frequency), true, None, "firmware timer tick rate"),
+    key("timing.operate_allowance", Quantity(Time), false, Some("0 s"), "mechanical operate time after the current reaches pull-in"),
+    key("timing.release_allowance", Quantity(Time), false, Some("0 s"), "mechanical release time after the current falls below drop-out"),
+    key("timing.residual_current", Quantity(Current), false, Some("0 A"), "current the coil must have decayed to before the next pulse"),
+    key("timing.on_time", Quantity(Time), false, None, "planned pulse length (with timing.repetition)"),
+    key("timing.repetition", Quantity(Frequency), false, None, "planned pulse repetition rate (with timing.on_time)"),
+    key("hold.current", Quantity(Current), false, None, "hold (economiser) current after pull-in; enables the hold section"),
+    key("hold.pwm_frequency", Quantity(Frequency), false, None, "PWM frequency of the hold phase (required with hold.current)"),
+    key("diagnosis.thresholds", QuantityList(Current), false, Some("[half the pull-in current]"), "comparator thresholds for the expected time-to-threshold bands"),
+    key("diagnosis.probe_fraction", Quantity(Percent), false, Some("50 %"), "diagnostic pulse: the longest pulse that keeps the current below this fraction of pull-in at every corner"),
+    key("compare.zener", QuantityList(Voltage), false, Some("[three from the E24 series]"), "zener / TVS voltages for the clamp comparison"),
+    key("compare.resistor", QuantityList(Resistance), false, Some("[two from the E12 series]"), "clamp resistors for the clamp comparison"),
+    key("compare.diode_drop", Quantity(Voltage), false, Some("clamp.diode_drop, else 0.8 V"), "diode drop used for the compared clamps"),
+];
+
+/// The spec of a key, if it is part of the schema.
+pub fn spec(key: &str) -> Option<&'static KeySpec> {
+    KEYS.iter().find(|k| k.key == key)
+}
+
+/// The sections (the part before the dot), in order.
+pub fn sections() -> Vec<&'static str> {
+    let mut out: Vec<&'static str> = Vec::new();
+    for k in KEYS {
+        let s = k.key.split('.').next().unwrap_or(k.key);
+        if !out.contains(&s) {
+            out.push(s);
+        }
+    }
+    out
+}
+
+/// The known key closest to `unknown` (edit distance ≤ 3), for "did you mean" hints.
+pub fn closest(unknown: &str) -> Option<&'static str> {
+    KEYS.iter()
+        .map(|k| (edit_distance(unknown, k.key), k.key))
+        .filter(|&(d, _)| d <= 3)
+        .min_by_key(|&(d, _)| d)
+        .map(|(_, k)| k)
+}
+
+/// Levenshtein distance over characters.
+fn edit_distance(a: &str, b: &str) -> usize {
+    let b: Vec<char> = b.chars().collect();
+    let mut prev: Vec<usize> = (0..=b.len()).collect();
+    for (i, ca) in a.chars().enumerate() {
+        let mut cur = vec![i + 1; b.len() + 1];
+        for (j, &cb) in b.iter().enumerate() {
+            let subst = prev[j] + usize::from(ca != cb);
+            cur[j + 1] = subst.min(prev[j + 1] + 1).min(cur[j] + 1);
+        }
+        prev = cur;
+    }
+    prev[b.len()]
+}
+
+/// The schema as an aligned text table (for `coilwise keys`).
+pub fn table() -> String {
+    let mut rows = vec![vec![
+        "key".to_string(),
+        "format".to_string(),
+        "need".to_string(),
+        "meaning".to_string(),
+    ]];
+    for k in KEYS {
+        let need = if k.required {
+            "required".to_string()
+        } else if let Some(d) = k.default {
+            format!("default {d}")
+        } else {
+            "optional".to_string()
+        };
+        rows.push(vec![
+            k.key.to_string(),
+            k.kind.describe(),
+            need,
+            k.help.to_string(),
+        ]);
+    }
+    crate::table::render(&rows, &[false, false, false, false])
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn keys_are_unique_and_dotted() {
+        for (i, k) in KEYS.iter().enumerate() {
+            assert_eq!(k.key.split('.').count(), 2, "{}", k.key);
+            assert!(KEYS[i + 1..].iter().all(|o| o.key != k.key), "{}", k.key);
+            assert!(!(k.required && k.default.is_some()), "{}", k.key);
+        }
+    }
+
+    #[test]
+    fn suggestions() {
+        assert_eq!(closest("coil.resistanse"), Some("coil.resistance"));
+        assert_eq!(closest("supply.minimum"), None);
+        assert_eq!(edit_distance("kitten", "sitting"), 3);
+    }
+}

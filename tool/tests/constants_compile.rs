@@ -1,0 +1,138 @@
+//! The emitted firmware constants compile as `no_std` Rust, use no floating point, and agree
+//! with the report's times (rounded up to whole ticks).
+
+mod common;
+
+use common::{run, stderr, stdout};
+use std::process::Command;
+
+fn snippet(args: &[&str]) -> String {
+    let o = run(args);
+    assert!(o.status.success(), "{}", stderr(&o));
+    stdout(&o)
+}
+
+fn compile(lib: &str) {
+    let dir = tempfile::tempdir().unwrap();
+    let src = dir.path().join("lib.rs");
+    std::fs::write(&src, lib).unwrap();
+    let rustc = std::env::var("RUSTC").unwrap_or_else(|_| "rustc".to_string());
+    let o = Command::new(rustc)
+        .args([
+            "--edition",
+            "2021",
+            "--crate-type",
+            "lib",
+            "--crate-name",
+            "coil_budget",
+        ])
+        .args(["-D", "warnings", "--emit", "metadata", "--out-dir"])
+        .arg(dir.path())
+        .arg(&src)
+        .output()
+        .expect("rustc runs");
+    assert!(
+        o.status.success(),
+        "emitted constants do not compile:\n{}\n--- source ---\n{lib}",
+        String::from_utf8_lossy(&o.stderr)
+    );
+}
+
+const CHECKS: &str = r#"
+const _: () = assert!(MIN_ON_TICKS >= PULL_IN_TICKS);
+const _: () = assert!(MIN_OFF_TICKS >= RELEASE_TICKS);
+const _: () = assert!(PULL_IN_CURRENT_UA > DROP_OUT_CURRENT_UA);
+const _: () = assert!(FINAL_CURRENT_MIN_UA <= FINAL_CURRENT_MAX_UA);
+// The diagnostic pulse stays below pull-in at the fastest corner, so it is shorter than the
+// slowest pull-in.
+const _: () = assert!(PROBE_TICKS < PULL_IN_TICKS);
+const _: () = {
+    let mut i = 0;
+    while i < RISE_BANDS.len() {
+        assert!(RISE_BANDS[i].earliest_ticks <= RISE_BANDS[i].latest_ticks);
+        assert!(RISE_BANDS[i].threshold_ua < PULL_IN_CURRENT_UA);
+        i += 1;
+    }
+};
+/// Integer-only use, as firmware would: ticks to wait after a pulse of `on` ticks.
+pub fn next_start(now: u32, on: u32) -> u32 {
+    now.wrapping_add(if on < MIN_ON_TICKS { MIN_ON_TICKS } else { on })
+        .wrapping_add(MIN_OFF_TICKS)
+}
+"#;
+
+#[test]
+fn constants_compile_without_std_or_float() {
+    for design in [
+        "examples/greenhouse-valve.toml",
+        "examples/greenhouse-pump-relay.toml",
+    ] {
+        let s = snippet(&["constants", design]);
+        assert!(!s.contains("f32") && !s.contains("f64"), "float in:\n{s}");
+        compile(&format!("#![no_std]\n{s}\n{CHECKS}"));
+        let m = snippet(&[
+            "constants",
+            design,
+            "--module",
+            "coil",
+            "--tick-rate",
+            "32768 Hz",
+        ]);
+        assert!(m.contains("pub const TICK_HZ: u32 = 32_768;"));
+        compile(&format!("#![no_std]\n{m}\nuse coil::*;\n{CHECKS}"));
+    }
+}
+
+#[test]
+fn tick_counts_round_the_report_times_up() {
+    let json = snippet(&["report", "examples/greenhouse-pump-relay.toml", "--json"]);
+    let v: serde_json::Value = serde_json::from_str(&json).unwrap();
+    let hz = v["ticks"]["tick_rate_hz"].as_f64().unwrap();
+    let s = snippet(&["constants", "examples/greenhouse-pump-relay.toml"]);
+    let get = |name: &str| -> f64 {
+        let line = s
+            .lines()
+            .find(|l| l.starts_with(&format!("pub const {name}:")))
+            .unwrap();
+        line.rsplit('=')
+            .next()
+            .unwrap()
+            .trim()
+            .trim_end_matches(';')
+            .replace('_', "")
+            .parse()
+            .unwrap()
+    };
+    for (name, seconds) in [
+        ("MIN_ON_TICKS", v["min_on_time_s"].as_f64().unwrap()),
+        (
+            "MIN_OFF_TICKS",
+            v["worst"]["min_off_time_s"].as_f64().unwrap(),
+        ),
+        (
+            "PULL_IN_TICKS",
+            v["worst"]["pull_in_time_s"].as_f64().unwrap(),
+        ),
+        (
+            "RELEASE_TICKS",
+            v["worst"]["release_time_s"].as_f64().unwrap(),
+        ),
+    ] {
+        let ticks = get(name);
+        // Never shorter than the time, and less than one tick (plus f32 rounding) longer.
+        assert!(ticks / hz >= seconds * (1.0 - 1e-6), "{name}");
+        assert!(ticks / hz < seconds + 1.0 / hz + 1e-6, "{name}");
+    }
+}
+
+#[test]
+fn bad_module_name_is_refused() {
+    let o = run(&[
+        "constants",
+        "examples/greenhouse-valve.toml",
+        "--module",
+        "Not-Valid",
+    ]);
+    assert_eq!(o.status.code(), Some(1));
+    assert!(stderr(&o).starts_with("error[usage]"));
+}
