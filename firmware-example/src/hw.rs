@@ -13,8 +13,8 @@
 //! | time | [`crate::ticks::TickSource`] |
 //!
 //! [`Channel`] bundles one coil's parts so the application can be generic over a board.
-//! The QEMU board (a simulated coil plant behind these same traits) is added with the
-//! application; `docs/porting.md` says what a real board implements.
+//! The QEMU board (`crate::board`: a simulated coil plant behind these same traits) is one
+//! implementation; `docs/porting.md` says what a real board implements.
 
 use coilwise::{Amps, Ticks};
 pub use embedded_hal::delay::DelayNs;
@@ -29,7 +29,8 @@ pub enum SenseErrorKind {
     Busy,
     /// The board cannot sample at the requested period (too fast, or zero).
     PeriodUnsupported,
-    /// The caller's buffer is empty or longer than the board can fill in one capture.
+    /// The caller's buffer is shorter than the capture, or a plan asks for more samples than the
+    /// board can take in one capture.
     BufferLength,
     /// Samples were lost (the converter outran the transfer into the buffer).
     Overrun,
@@ -76,56 +77,92 @@ impl SenseScale {
     }
 }
 
-/// Result of one [`CurrentSense::capture`].
+/// What to measure at the next switch-on of a channel: a sample buffer and a comparator level.
+///
+/// On a real board both are started by hardware from the edge that switches the coil on (the
+/// timer that drives the switch triggers the ADC sequence and arms the capture input), so the
+/// application only prepares them and reads them later; nothing blocks.
+#[derive(Clone, Copy, Debug, PartialEq, Eq, defmt::Format)]
+pub struct SensePlan {
+    /// Time of sample 0 after the switch-on edge, ticks.
+    pub first: Ticks,
+    /// Spacing of the samples, ticks (> 0).
+    pub period: Ticks,
+    /// Number of samples (≤ the board's [`CurrentSense::MAX_SAMPLES`]; 0 = no capture).
+    pub samples: usize,
+    /// Comparator trip level in converter counts (`None`: no comparator reading).
+    pub trip_level: Option<u16>,
+}
+
+/// Result of one completed capture.
 #[derive(Clone, Copy, Debug, PartialEq, Eq, defmt::Format)]
 pub struct Capture {
-    /// Number of samples written to the front of the buffer (`≤ buffer.len()`).
+    /// Number of samples written to the front of the caller's buffer.
     pub len: usize,
+    /// Time of sample 0 after switch-on actually used, ticks.
+    pub first: Ticks,
     /// Sample period actually used, in ticks of the board's [`TickSource`]
-    /// (may differ from the request when the converter timer rounds it).
+    /// (may differ from the plan when the converter timer rounds it).
     ///
     /// [`TickSource`]: crate::ticks::TickSource
     pub period: Ticks,
 }
 
-/// What the comparator saw after switch-on.
+/// What the comparator saw since the latest switch-on.
 #[derive(Clone, Copy, Debug, PartialEq, Eq, defmt::Format)]
 pub enum Crossing {
     /// The sensed current first reached the trip level this many ticks after the switch-on edge.
     After(Ticks),
-    /// No crossing within the timeout (open coil, high resistance, low supply — or a broken
-    /// comparator; the application decides which, not the board).
-    NoneBeforeTimeout,
+    /// No crossing so far (the application decides when "so far" means never: open coil, high
+    /// resistance, low supply — or a broken comparator).
+    NotYet,
 }
 
-/// Current sensing on one coil channel: equally spaced samples, and a comparator time-to-level.
+/// Current sensing on one coil channel: equally spaced samples, and a comparator time-to-level,
+/// both started by the channel's switch-on edge.
 ///
-/// Time zero for both is the most recent switch-on edge of the channel's drive output (on a real
-/// board the converter and capture timer are started by the same timer that drives the switch).
-/// Counts are raw converter counts; [`CurrentSense::scale`] converts them to amperes.
+/// Time zero is the most recent switch-on edge of the channel's drive output (a rising
+/// [`OutputPin::set_high`] from off). Counts are raw converter counts; [`CurrentSense::scale`]
+/// converts them to amperes.
+///
+/// The calls never block: [`CurrentSense::arm`] prepares the next switch-on,
+/// [`CurrentSense::samples`] and [`CurrentSense::crossing`] report what the hardware has
+/// captured so far.
 pub trait CurrentSense {
     /// The board's error type.
     type Error: SenseError;
 
+    /// Largest number of samples one capture can hold.
+    const MAX_SAMPLES: usize;
+
     /// Counts-to-amperes conversion of this channel.
     fn scale(&self) -> SenseScale;
 
-    /// Fills `samples` with equally spaced readings, the first taken at switch-on, sample `k` at
-    /// `k · period` ticks after it. Blocks until the buffer is full or the board stops early
-    /// (then `len < samples.len()`).
-    fn capture(&mut self, period: Ticks, samples: &mut [u16]) -> Result<Capture, Self::Error>;
+    /// One conversion now (for the zero offset, taken with the coil off).
+    fn sample_now(&mut self) -> Result<u16, Self::Error>;
 
-    /// Sets the comparator trip level, in converter counts.
-    fn set_trip_level(&mut self, counts: u16) -> Result<(), Self::Error>;
+    /// Prepares the capture and the comparator for the next switch-on edge of this channel
+    /// (replacing any previous plan). `plan.samples = 0` and `trip_level = None` disarm.
+    fn arm(&mut self, plan: &SensePlan) -> Result<(), Self::Error>;
 
-    /// Waits for the comparator to trip, at most `timeout` after switch-on, and reports the
-    /// crossing time in ticks since switch-on.
-    fn crossing(&mut self, timeout: Ticks) -> Result<Crossing, Self::Error>;
+    /// Copies the capture started by the latest switch-on into `out` once it is complete:
+    /// `Ok(Some(capture))`; `Ok(None)` while samples are still being taken (or nothing was armed).
+    /// Sample `k` was taken `first + k·period` ticks after switch-on. A buffer shorter than the
+    /// capture is [`SenseErrorKind::BufferLength`].
+    fn samples(&mut self, out: &mut [u16]) -> Result<Option<Capture>, Self::Error>;
+
+    /// The comparator's first crossing of the trip level since the latest switch-on.
+    fn crossing(&mut self) -> Result<Crossing, Self::Error>;
 }
 
 /// One coil channel: drive switch, hold PWM, and current sense.
+///
+/// `switch` and `hold` drive the same transistor: while the hold PWM has a non-zero duty it
+/// drives the switch (a timer channel in PWM mode); at duty 0 the switch follows `switch`
+/// (the same channel forced active or inactive). On a real part both are usually one timer
+/// output; a board whose switch and PWM are separate pins ORs them in hardware.
 pub struct Channel<Sw, Pwm, Sense> {
-    /// Low-side switch (`set_high` = coil energised).
+    /// Low-side switch (`set_high` = coil energised at full drive).
     pub switch: Sw,
     /// Hold PWM on the same switch path (economiser); duty 0 when unused.
     pub hold: Pwm,

@@ -7,7 +7,10 @@
 //! - [`hw`]: the hardware seam the application is written against;
 //! - [`ticks`]: a monotonic tick source on SysTick;
 //! - [`measure`]: instruction counts and stack high-water marks for `src/bin/cost.rs`;
-//! - [`scenario`]: the invented greenhouse-controller parts the demo drives.
+//! - [`scenario`]: the invented greenhouse-controller parts the demo drives;
+//! - [`app`]: the controller application, generic over the hardware seam;
+//! - [`board`]: the QEMU board — the seam implemented on a simulated coil plant;
+//! - [`demo`]: the scripted demo (faults, programme, expected outcomes, checker).
 //!
 //! Plain text, if any, goes to semihosting *stderr*: stdout carries the binary defmt stream and
 //! anything else written there corrupts it.
@@ -17,6 +20,9 @@
 use cortex_m_rt::{exception, ExceptionFrame};
 use defmt_semihosting as _;
 
+pub mod app;
+pub mod board;
+pub mod demo;
 pub mod hw;
 pub mod measure;
 pub mod scenario;

@@ -12,6 +12,14 @@
 
 use core::hint::black_box;
 
+use core::cell::RefCell;
+
+use coilwise::diagnosis::verdict::{judge_threshold, judge_trace};
+use coilwise::diagnosis::{
+    Conditions, Criteria, Expected, Finding, FitOptions, Sampling, ThresholdBand, ThresholdReading,
+};
+use coilwise::schedule::{ChannelId, ChannelLimits, HeatRatings, PinEvent, Request, Scheduler};
+use coilwise::{Amps, DriverDesign, Instant, Seconds, Ticks};
 use coilwise_firmware_example as fw;
 use cortex_m_rt::entry;
 use fw::measure::Meter;
@@ -21,14 +29,14 @@ use fw::ticks::SysTickClock;
 /// `setup { ... }` before the expression, that block runs unmeasured before each of the two runs
 /// (for calls that change state).
 macro_rules! case {
-    ($m:expr, $name:literal, $what:literal, $e:expr) => {{
-        let c = $m.cost(&mut || {
+    ($m:expr, $name:literal, $what:literal, setup $s:block, $e:expr) => {{
+        let c = $m.cost_after(&mut || $s, &mut || {
             let _ = black_box($e);
         });
         report($name, $what, c);
     }};
-    ($m:expr, $name:literal, $what:literal, setup $s:block, $e:expr) => {{
-        let c = $m.cost_after(&mut || $s, &mut || {
+    ($m:expr, $name:literal, $what:literal, $e:expr) => {{
+        let c = $m.cost(&mut || {
             let _ = black_box($e);
         });
         report($name, $what, c);
@@ -60,6 +68,78 @@ fn expf_x1000() -> f32 {
     acc
 }
 
+/// Inputs of the diagnosis and scheduler cases, prepared unmeasured.
+struct Inputs {
+    expected: Expected,
+    band: ThresholdBand,
+    criteria: Criteria,
+    sampling: Sampling,
+    trace: [u16; 64],
+    scheduler: Scheduler<4, 8>,
+}
+
+impl Inputs {
+    /// The demo valve: its bands, a comparator band at 50 % of pull-in, a 64-sample healthy rise
+    /// (closed form at 24 V, 20 °C, 100 µs apart, 0.2 mA per count, with a fixed ±1 count
+    /// dither), and a scheduler holding one valve pulse due at tick 2000.
+    fn new(valve: &DriverDesign) -> Option<Self> {
+        let cond = Conditions::default();
+        let expected = Expected::new(valve, &cond).ok()?;
+        let threshold = Amps::new(0.5 * valve.circuit.coil().pull_in_current().value());
+        let band = ThresholdBand::new(valve, &cond, threshold).ok()?;
+        let apc = 0.000_201_4f32;
+        let period = Seconds::from_micros(100.0);
+        let sampling = Sampling::new(period, apc)
+            .and_then(|s| s.with_first_sample(period))
+            .and_then(|s| s.with_full_scale(4095.0))
+            .and_then(|s| s.with_noise(0.6))
+            .ok()?;
+        let (i_inf, tau) = (24.0f32 / 72.65, 0.30f32 / 72.65);
+        let mut trace = [0u16; 64];
+        for (k, c) in trace.iter_mut().enumerate() {
+            let t = (k as f32 + 1.0) * 1e-4;
+            let dither = [0.3f32, -0.4, 0.1, -0.2, 0.45][k % 5];
+            *c = libm::roundf(i_inf * (1.0 - libm::expf(-t / tau)) / apc + dither) as u16;
+        }
+        let limits = ChannelLimits::from_design(valve, &HeatRatings::default(), None).ok()?;
+        let mut scheduler = Scheduler::new([limits; 4], 1, Instant(0)).ok()?;
+        scheduler
+            .submit(
+                Instant(0),
+                Request::at(ChannelId(0), Ticks(80_000), Instant(2_000)),
+            )
+            .ok()?;
+        // The measured calls must take their full path: a healthy verdict, not an early exit.
+        let criteria = Criteria::default();
+        let fit = judge_trace(
+            &trace,
+            &sampling,
+            &expected,
+            &criteria,
+            &FitOptions::default(),
+        );
+        let cmp = judge_threshold(
+            ThresholdReading::Crossed(Seconds::from_micros(1762.0)),
+            &band,
+            None,
+            &expected,
+            &criteria,
+        );
+        if fit.finding != Finding::Healthy || cmp.finding != Finding::Healthy {
+            defmt::error!("cost inputs: {} / {}", fit.finding, cmp.finding);
+            return None;
+        }
+        Some(Self {
+            expected,
+            band,
+            criteria,
+            sampling,
+            trace,
+            scheduler,
+        })
+    }
+}
+
 #[entry]
 fn main() -> ! {
     let cp = cortex_m::Peripherals::take().unwrap_or_else(|| fw::exit(fw::status::CHECK_FAILED));
@@ -89,6 +169,10 @@ fn main() -> ! {
             fw::exit(fw::status::CHECK_FAILED)
         }
     };
+    let Some(inputs) = Inputs::new(&valve) else {
+        defmt::error!("cost inputs could not be built");
+        fw::exit(fw::status::CHECK_FAILED)
+    };
 
     // ---- measured calls: one line each ------------------------------------------------------
     case!(
@@ -115,8 +199,54 @@ fn main() -> ! {
         "firmware tick constants of the demo valve design (DriverDesign::tick_budget)",
         black_box(&valve).tick_budget()
     );
-    // TODO(integration): add as the APIs land: one time-to-threshold verdict;
-    //   one 64-sample fit + verdict; one scheduler submit; one scheduler poll.
+    case!(
+        m,
+        "threshold_verdict",
+        "one comparator time-to-threshold verdict (judge_threshold, bands precomputed)",
+        judge_threshold(
+            black_box(ThresholdReading::Crossed(Seconds::from_micros(1762.0))),
+            black_box(&inputs.band),
+            None,
+            black_box(&inputs.expected),
+            &inputs.criteria
+        )
+    );
+    case!(
+        m,
+        "fit_verdict_64",
+        "fit + verdict of a 64-sample rise (judge_trace, one refinement)",
+        judge_trace(
+            black_box(&inputs.trace[..]),
+            black_box(&inputs.sampling),
+            black_box(&inputs.expected),
+            &inputs.criteria,
+            &FitOptions::default()
+        )
+    );
+    let sched = RefCell::new(inputs.scheduler.clone());
+    case!(
+        m,
+        "sched_submit",
+        "one scheduler submit (4 channels, 8 slots, one pulse queued on another channel)",
+        setup { *sched.borrow_mut() = inputs.scheduler.clone() },
+        sched.borrow_mut().submit(
+            black_box(Instant(1_000)),
+            black_box(Request::now(ChannelId(1), Ticks(80_000)))
+        )
+    );
+    let due = RefCell::new(inputs.scheduler.clone());
+    let edges = RefCell::new(heapless::Vec::<PinEvent, 4>::new());
+    case!(
+        m,
+        "sched_poll",
+        "one scheduler poll emitting one edge (the queued pulse's on edge)",
+        setup {
+            *due.borrow_mut() = inputs.scheduler.clone();
+            edges.borrow_mut().clear();
+        },
+        due.borrow_mut()
+            .poll(black_box(Instant(2_000)), &mut *edges.borrow_mut())
+    );
     // ------------------------------------------------------------------------------------------
 
     defmt::info!("cost done");

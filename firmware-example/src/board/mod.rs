@@ -1,0 +1,623 @@
+//! The QEMU board: the hardware seam of [`crate::hw`] and [`crate::ticks`] implemented on a
+//! simulated coil plant, in simulated time.
+//!
+//! A real board replaces this module (see `docs/porting.md`); the application in [`crate::app`]
+//! does not change.
+//!
+//! - Each channel's coil, switch, clamp and armature is a numerical plant of
+//!   `coilwise-host-tests` (one `Bench<1>` per channel, so an idle coil costs nothing while
+//!   another one is integrated), driven by the pin and PWM state the application sets.
+//! - Time is simulated: [`SimClock`] counts 1 µs ticks of plant time, and its
+//!   [`DelayNs`](embedded_hal::delay::DelayNs) advances the plant. The firmware's own computing
+//!   takes no simulated time (on a real board, drive the edges from a timer interrupt so that a
+//!   fit in the main loop cannot delay them).
+//! - The ADC ([`SimSense`]) converts the switch (shunt) current with 12 bits, an amplifier offset
+//!   and seeded Gaussian noise, at the instants the armed plan asks for, while time advances (as a
+//!   timer-triggered ADC with DMA would). The comparator latches the first crossing of its level
+//!   after each switch-on.
+//! - A fault script injects faults and supply changes at set times ([`Happening`]).
+//! - [`monitor::Monitor`] watches the edges the pins really made and what the plant did, and
+//!   reports every broken constraint: the independent check of the scheduler's output.
+
+pub mod monitor;
+pub mod parts;
+
+use core::cell::RefCell;
+use core::convert::Infallible;
+
+use coilwise::{Instant, TickRate, Ticks};
+use coilwise_host_tests::{
+    AdcConfig, ArmatureState, Bench, Comparator, Fault, Prng, SensePoint, SolverSettings, Stepping,
+    Supply,
+};
+use embedded_hal::delay::DelayNs;
+use embedded_hal::digital::{ErrorType, OutputPin};
+use embedded_hal::pwm::SetDutyCycle;
+
+use crate::hw::{Capture, Crossing, CurrentSense, SenseErrorKind, SensePlan, SenseScale};
+use crate::scenario::{Rail, CHANNELS, TICK_HZ};
+use crate::ticks::TickSource;
+use monitor::{DriveState, Monitor, PlantView};
+
+/// Samples one capture can hold.
+pub const MAX_SAMPLES: usize = 64;
+
+/// Hold PWM carrier of the simulated timers, Hz (invented; every edge is integrated, so the
+/// simulation cost grows with it).
+pub const PWM_HZ: u32 = 2_000;
+
+/// Duty resolution of the simulated PWM (`max_duty_cycle`).
+pub const PWM_MAX_DUTY: u16 = 1_000;
+
+const NS_PER_TICK: u64 = 1_000_000_000 / TICK_HZ as u64;
+const PWM_PERIOD_NS: u64 = 1_000_000_000 / PWM_HZ as u64;
+
+/// Something the fault script does to the simulated hardware.
+#[derive(Clone, Copy, Debug, PartialEq)]
+pub enum Happening {
+    /// A fault appears on a channel (stays until the end of the run).
+    Fault {
+        /// The channel.
+        channel: usize,
+        /// What breaks.
+        fault: Fault,
+    },
+    /// A rail's open-circuit voltage changes (a sag, or its recovery).
+    Supply {
+        /// The rail.
+        rail: Rail,
+        /// New voltage, V.
+        volts: f64,
+    },
+}
+
+/// One scripted event of the simulated world.
+#[derive(Clone, Copy, Debug, PartialEq)]
+pub struct Scripted {
+    /// When, ms of simulated time (0: present at power-up).
+    pub at_ms: u32,
+    /// What.
+    pub what: Happening,
+}
+
+/// Solver settings for the demo: adaptive steps of at most 1 ms, tolerances loose enough to keep
+/// the M0 run short and tight enough for the converter (1e-6 relative is 0.004 counts at full
+/// scale) and the comparator (crossings within a few ns).
+fn solver() -> SolverSettings {
+    SolverSettings {
+        stepping: Stepping::Adaptive {
+            rel_tol: 1e-6,
+            abs_tol_amps: 1e-7,
+            max_step_s: 1e-3,
+        },
+        ..SolverSettings::default()
+    }
+}
+
+/// Converter of one channel as built (invented): the scenario's shunt/gain/reference, an
+/// amplifier offset of a few counts, and 0.6 counts RMS of noise from a fixed seed.
+fn converter(spec: &crate::scenario::ChannelSpec, channel: usize) -> AdcConfig {
+    let apc = f64::from(spec.sense.amps_per_count());
+    AdcConfig {
+        bits: 12,
+        full_scale_amps: apc * 4096.0,
+        noise_lsb_rms: 0.6,
+        offset_lsb: [3.0, 2.0, 4.0, 3.0][channel % 4],
+        seed: 0x5EED_0000 + channel as u64,
+        sense: SensePoint::Switch,
+    }
+}
+
+#[derive(Clone, Copy)]
+struct CaptureState {
+    plan: SensePlan,
+    /// Switch-on time of the capture in progress, ns; `None`: not started.
+    started: Option<u64>,
+    taken: usize,
+    buf: [u16; MAX_SAMPLES],
+}
+
+/// The simulated hardware: plants, converters, drive state, fault script, monitor.
+pub struct Plant {
+    benches: [Option<Bench<1>>; CHANNELS],
+    adc: [AdcConfig; CHANNELS],
+    rng: [Prng; CHANNELS],
+    rails: [Rail; CHANNELS],
+    /// Lowest supply each channel's design allows, V.
+    design_min: [f64; CHANNELS],
+    pin: [bool; CHANNELS],
+    duty: [u16; CHANNELS],
+    faulted: [bool; CHANNELS],
+    capture: [CaptureState; CHANNELS],
+    script: &'static [Scripted],
+    next_event: usize,
+    now_ns: u64,
+    /// The independent check of what the pins did.
+    pub monitor: Monitor,
+}
+
+/// Why the plant could not be built.
+#[derive(Clone, Copy, Debug, PartialEq, Eq, defmt::Format)]
+pub struct BoardError;
+
+const IDLE_CAPTURE: CaptureState = CaptureState {
+    plan: SensePlan {
+        first: Ticks(0),
+        period: Ticks(1),
+        samples: 0,
+        trip_level: None,
+    },
+    started: None,
+    taken: 0,
+    buf: [0; MAX_SAMPLES],
+};
+
+const NO_ADC: AdcConfig = AdcConfig {
+    bits: 12,
+    full_scale_amps: 1.0,
+    noise_lsb_rms: 0.0,
+    offset_lsb: 0.0,
+    seed: 0,
+    sense: SensePoint::Switch,
+};
+
+impl Plant {
+    /// A plant with no coils yet (usable in a `static`; see [`Plant::install`]).
+    pub const fn empty() -> Self {
+        Self {
+            benches: [const { None }; CHANNELS],
+            adc: [NO_ADC; CHANNELS],
+            rng: [Prng::new(0); CHANNELS],
+            rails: [Rail::Valves24V; CHANNELS],
+            design_min: [0.0; CHANNELS],
+            pin: [false; CHANNELS],
+            duty: [0; CHANNELS],
+            faulted: [false; CHANNELS],
+            capture: [IDLE_CAPTURE; CHANNELS],
+            script: &[],
+            next_event: 0,
+            now_ns: 0,
+            monitor: Monitor::new(),
+        }
+    }
+
+    /// Fits the greenhouse coils (see [`parts`]) at the scenario's nominal rail voltages, one at a
+    /// time (so that no copy of the whole plant passes through the stack), and loads `script`
+    /// (events at 0 ms are applied now).
+    #[inline(never)]
+    pub fn install(
+        &mut self,
+        specs: &[crate::scenario::ChannelSpec; CHANNELS],
+        script: &'static [Scripted],
+    ) -> Result<(), BoardError> {
+        for (ch, spec) in specs.iter().enumerate() {
+            let params = parts::channel(ch).ok_or(BoardError)?;
+            let v = f64::from(spec.design.supply.nominal().value());
+            self.benches[ch] =
+                Some(Bench::single(Supply::ideal(v), params, solver()).map_err(|_| BoardError)?);
+            self.adc[ch] = converter(spec, ch);
+            self.rng[ch] = Prng::new(self.adc[ch].seed);
+            self.rails[ch] = spec.rail;
+            self.design_min[ch] = f64::from(spec.design.supply.min().value());
+        }
+        self.script = script;
+        self.apply_due_events(0);
+        Ok(())
+    }
+
+    /// Simulated time, ns.
+    pub fn now_ns(&self) -> u64 {
+        self.now_ns
+    }
+
+    /// Whether the channel's coil has a scripted fault or its rail is below the design's range
+    /// right now (the monitor does not expect such a coil to operate).
+    fn degraded(&self, ch: usize) -> bool {
+        self.faulted[ch]
+            || self.benches[ch]
+                .as_ref()
+                .is_none_or(|b| b.supply().volts < self.design_min[ch])
+    }
+
+    fn view(&self, ch: usize) -> PlantView {
+        let Some(b) = self.benches[ch].as_ref() else {
+            return PlantView {
+                coil_amps: 0.0,
+                at_rest: true,
+                moved: false,
+                operated: false,
+                degraded: true,
+            };
+        };
+        let stats = b.stats(0).ok();
+        PlantView {
+            coil_amps: b.probe(0).map(|p| p.coil_amps).unwrap_or(0.0),
+            at_rest: matches!(b.armature(0), Ok(ArmatureState::Released)),
+            moved: stats.is_some_and(|s| s.moved_ns.is_some()),
+            operated: stats.is_some_and(|s| s.operated_ns.is_some()),
+            degraded: self.degraded(ch),
+        }
+    }
+
+    fn apply_due_events(&mut self, upto_ns: u64) {
+        while let Some(e) = self.script.get(self.next_event) {
+            let at = u64::from(e.at_ms) * 1_000_000;
+            if at > upto_ns {
+                break;
+            }
+            match e.what {
+                Happening::Fault { channel, fault } => {
+                    if let Some(Some(b)) = self.benches.get_mut(channel) {
+                        if b.inject(0, fault).is_ok() {
+                            self.faulted[channel] = true;
+                        }
+                    }
+                    defmt::warn!(
+                        "[plant] t={=u32} ms: fault appears on channel {=usize}: {=str}",
+                        e.at_ms,
+                        channel,
+                        fault_name(&fault)
+                    );
+                }
+                Happening::Supply { rail, volts } => {
+                    for ch in 0..CHANNELS {
+                        if let (true, Some(b)) = (self.rails[ch] == rail, self.benches[ch].as_mut())
+                        {
+                            let _ = b.set_supply_volts(volts);
+                        }
+                    }
+                    defmt::warn!(
+                        "[plant] t={=u32} ms: {} rail now {=f32} V",
+                        e.at_ms,
+                        rail,
+                        volts as f32
+                    );
+                }
+            }
+            self.next_event += 1;
+        }
+    }
+
+    /// Advances every plant to `t_ns`, taking due samples and applying due script events.
+    pub fn advance_to(&mut self, t_ns: u64) {
+        if t_ns <= self.now_ns {
+            return;
+        }
+        loop {
+            let next = self
+                .script
+                .get(self.next_event)
+                .map(|e| u64::from(e.at_ms) * 1_000_000)
+                .filter(|&at| at <= t_ns);
+            let until = next.unwrap_or(t_ns);
+            for ch in 0..CHANNELS {
+                self.advance_channel(ch, until);
+            }
+            self.now_ns = until;
+            match next {
+                Some(at) => self.apply_due_events(at),
+                None => break,
+            }
+        }
+    }
+
+    fn advance_channel(&mut self, ch: usize, until: u64) {
+        loop {
+            let c = &self.capture[ch];
+            let Some(on) = c.started else { break };
+            if c.taken >= c.plan.samples {
+                break;
+            }
+            let t = on
+                + (u64::from(c.plan.first.get()) + c.taken as u64 * u64::from(c.plan.period.get()))
+                    * NS_PER_TICK;
+            if t > until {
+                break;
+            }
+            let Some(b) = self.benches[ch].as_mut() else {
+                return;
+            };
+            b.advance_to(t);
+            let amps = b.probe(0).map(|p| p.switch_amps).unwrap_or(0.0);
+            let code = self.adc[ch].convert(amps, &mut self.rng[ch]);
+            let c = &mut self.capture[ch];
+            c.buf[c.taken] = code;
+            c.taken += 1;
+        }
+        if let Some(b) = self.benches[ch].as_mut() {
+            b.advance_to(until);
+        }
+    }
+
+    fn drive_state(&self, ch: usize) -> DriveState {
+        if self.duty[ch] > 0 {
+            DriveState::Pwm(self.duty[ch])
+        } else if self.pin[ch] {
+            DriveState::Full
+        } else {
+            DriveState::Off
+        }
+    }
+
+    /// Applies a pin or duty change to the plant: a switch-on edge starts the armed capture
+    /// (the comparator of the plant arms itself at every switch-on).
+    fn set_drive(&mut self, ch: usize, pin: bool, duty: u16) {
+        let before = self.drive_state(ch);
+        self.pin[ch] = pin;
+        self.duty[ch] = duty.min(PWM_MAX_DUTY);
+        let after = self.drive_state(ch);
+        if before == after {
+            return;
+        }
+        let view = self.view(ch);
+        self.monitor.drive(self.now_ns, ch, after, &view);
+        let Some(b) = self.benches[ch].as_mut() else {
+            return;
+        };
+        let _ = match after {
+            DriveState::Off => b.set_gate(0, false),
+            DriveState::Full => b.set_gate(0, true),
+            DriveState::Pwm(d) if d >= PWM_MAX_DUTY => b.set_gate(0, true),
+            DriveState::Pwm(d) => b.set_pwm(
+                0,
+                PWM_PERIOD_NS,
+                PWM_PERIOD_NS * u64::from(d) / u64::from(PWM_MAX_DUTY),
+            ),
+        };
+        if before == DriveState::Off {
+            let c = &mut self.capture[ch];
+            c.started = (c.plan.samples > 0).then_some(self.now_ns);
+            c.taken = 0;
+        }
+    }
+
+    /// Ends the run: hands the final state to the monitor, which logs its findings and returns
+    /// whether every constraint held.
+    #[inline(never)]
+    pub fn finish(&mut self) -> bool {
+        self.monitor.finish()
+    }
+}
+
+/// The plant behind a `RefCell`, shared by the handles (as peripherals share one chip).
+pub struct SimBoard {
+    plant: RefCell<Plant>,
+}
+
+/// The one board: a plant in static memory, set up in place by [`take`].
+struct BoardCell(SimBoard);
+
+// SAFETY: the firmware is single-threaded and no interrupt handler touches the board; `take`
+// hands out the only reference, once.
+unsafe impl Sync for BoardCell {}
+
+static BOARD: BoardCell = BoardCell(SimBoard {
+    plant: RefCell::new(Plant::empty()),
+});
+static TAKEN: core::sync::atomic::AtomicBool = core::sync::atomic::AtomicBool::new(false);
+
+/// The board, with the scenario's coils fitted and `script` loaded; `None` when already taken or
+/// when a coil's parameters are invalid.
+#[inline(never)]
+pub fn take(
+    specs: &[crate::scenario::ChannelSpec; CHANNELS],
+    script: &'static [Scripted],
+) -> Option<&'static SimBoard> {
+    use core::sync::atomic::Ordering;
+    if TAKEN.load(Ordering::Relaxed) {
+        return None;
+    }
+    TAKEN.store(true, Ordering::Relaxed);
+    let board = &BOARD.0;
+    board.plant.borrow_mut().install(specs, script).ok()?;
+    Some(board)
+}
+
+impl SimBoard {
+    /// Direct access to the plant (monitor set-up, end of run). Do not hold it across a call of
+    /// a handle.
+    pub fn plant(&self) -> core::cell::RefMut<'_, Plant> {
+        self.plant.borrow_mut()
+    }
+
+    /// The handles of channel `ch`: switch, hold PWM, current sense.
+    pub fn channel(&self, ch: usize) -> (SimSwitch<'_>, SimHold<'_>, SimSense<'_>) {
+        (
+            SimSwitch { board: self, ch },
+            SimHold {
+                board: self,
+                ch,
+                duty: 0,
+            },
+            SimSense { board: self, ch },
+        )
+    }
+
+    /// The board's clock: tick source and delay.
+    pub fn clock(&self) -> SimClock<'_> {
+        SimClock { board: self }
+    }
+}
+
+/// The low-side switch of one simulated channel.
+pub struct SimSwitch<'a> {
+    board: &'a SimBoard,
+    ch: usize,
+}
+
+impl ErrorType for SimSwitch<'_> {
+    type Error = Infallible;
+}
+
+impl OutputPin for SimSwitch<'_> {
+    fn set_low(&mut self) -> Result<(), Infallible> {
+        let mut p = self.board.plant.borrow_mut();
+        let duty = p.duty[self.ch];
+        p.set_drive(self.ch, false, duty);
+        Ok(())
+    }
+
+    fn set_high(&mut self) -> Result<(), Infallible> {
+        let mut p = self.board.plant.borrow_mut();
+        let duty = p.duty[self.ch];
+        p.set_drive(self.ch, true, duty);
+        Ok(())
+    }
+}
+
+/// The hold PWM of one simulated channel ([`PWM_HZ`], [`PWM_MAX_DUTY`] steps).
+pub struct SimHold<'a> {
+    board: &'a SimBoard,
+    ch: usize,
+    duty: u16,
+}
+
+impl embedded_hal::pwm::ErrorType for SimHold<'_> {
+    type Error = Infallible;
+}
+
+impl SetDutyCycle for SimHold<'_> {
+    fn max_duty_cycle(&self) -> u16 {
+        PWM_MAX_DUTY
+    }
+
+    fn set_duty_cycle(&mut self, duty: u16) -> Result<(), Infallible> {
+        self.duty = duty.min(PWM_MAX_DUTY);
+        let mut p = self.board.plant.borrow_mut();
+        let pin = p.pin[self.ch];
+        p.set_drive(self.ch, pin, self.duty);
+        Ok(())
+    }
+}
+
+/// The current sense (ADC + comparator) of one simulated channel.
+pub struct SimSense<'a> {
+    board: &'a SimBoard,
+    ch: usize,
+}
+
+impl CurrentSense for SimSense<'_> {
+    type Error = SenseErrorKind;
+    const MAX_SAMPLES: usize = MAX_SAMPLES;
+
+    fn scale(&self) -> SenseScale {
+        let p = self.board.plant.borrow();
+        SenseScale {
+            amps_per_count: p.adc[self.ch].amps_per_count() as f32,
+            offset_counts: 0,
+            full_scale_counts: 4095,
+        }
+    }
+
+    fn sample_now(&mut self) -> Result<u16, SenseErrorKind> {
+        let mut p = self.board.plant.borrow_mut();
+        let amps = p.benches[self.ch]
+            .as_ref()
+            .and_then(|b| b.probe(0).ok())
+            .map_or(0.0, |x| x.switch_amps);
+        let ch = self.ch;
+        let Plant { adc, rng, .. } = &mut *p;
+        Ok(adc[ch].convert(amps, &mut rng[ch]))
+    }
+
+    fn arm(&mut self, plan: &SensePlan) -> Result<(), SenseErrorKind> {
+        if plan.samples > MAX_SAMPLES {
+            return Err(SenseErrorKind::BufferLength);
+        }
+        if plan.samples > 0 && plan.period.get() == 0 {
+            return Err(SenseErrorKind::PeriodUnsupported);
+        }
+        let mut p = self.board.plant.borrow_mut();
+        let ch = self.ch;
+        let cmp = match plan.trip_level {
+            Some(level) => {
+                if level > 4095 {
+                    return Err(SenseErrorKind::LevelOutOfRange);
+                }
+                // The comparator sees the amplified shunt voltage, offset included.
+                let a = &p.adc[ch];
+                let amps = (f64::from(level) - a.offset_lsb) * a.amps_per_count();
+                Some(Comparator {
+                    threshold_amps: amps,
+                    sense: SensePoint::Switch,
+                })
+            }
+            None => None,
+        };
+        p.benches[ch]
+            .as_mut()
+            .ok_or(SenseErrorKind::Other)?
+            .set_comparator(0, cmp)
+            .map_err(|_| SenseErrorKind::Other)?;
+        let c = &mut p.capture[ch];
+        c.plan = *plan;
+        c.started = None;
+        c.taken = 0;
+        Ok(())
+    }
+
+    fn samples(&mut self, out: &mut [u16]) -> Result<Option<Capture>, SenseErrorKind> {
+        let p = self.board.plant.borrow();
+        let c = &p.capture[self.ch];
+        if c.started.is_none() || c.taken < c.plan.samples {
+            return Ok(None);
+        }
+        let n = c.plan.samples;
+        let dst = out.get_mut(..n).ok_or(SenseErrorKind::BufferLength)?;
+        dst.copy_from_slice(&c.buf[..n]);
+        Ok(Some(Capture {
+            len: n,
+            first: c.plan.first,
+            period: c.plan.period,
+        }))
+    }
+
+    fn crossing(&mut self) -> Result<Crossing, SenseErrorKind> {
+        let p = self.board.plant.borrow();
+        let s = p.benches[self.ch]
+            .as_ref()
+            .and_then(|b| b.stats(0).ok())
+            .ok_or(SenseErrorKind::Other)?;
+        // A capture timer counts whole ticks: the crossing time rounds down.
+        Ok(match s.comparator_ticks_since_on(TICK_HZ) {
+            Some(t) => Crossing::After(Ticks(u32::try_from(t).unwrap_or(u32::MAX))),
+            None => Crossing::NotYet,
+        })
+    }
+}
+
+/// Simulated time as a [`TickSource`] (1 µs ticks) and a [`DelayNs`] that advances the plant.
+pub struct SimClock<'a> {
+    board: &'a SimBoard,
+}
+
+impl TickSource for SimClock<'_> {
+    fn rate(&self) -> TickRate {
+        TickRate::new(TICK_HZ).unwrap_or_else(|_| crate::exit(crate::status::CHECK_FAILED))
+    }
+
+    fn now(&self) -> Instant {
+        // Truncation to the wrapping 32-bit counter is the intent.
+        Instant((self.board.plant.borrow().now_ns / NS_PER_TICK) as u32)
+    }
+}
+
+impl DelayNs for SimClock<'_> {
+    fn delay_ns(&mut self, ns: u32) {
+        let mut p = self.board.plant.borrow_mut();
+        let t = p.now_ns + u64::from(ns);
+        p.advance_to(t);
+    }
+}
+
+/// A short name of a plant fault for the log.
+pub fn fault_name(f: &Fault) -> &'static str {
+    match f {
+        Fault::Open => "open wire",
+        Fault::Short { .. } => "short across the coil",
+        Fault::ShortedTurns { .. } => "shorted turns",
+        Fault::SeriesResistance { .. } => "corroded connector (series resistance)",
+        Fault::StuckArmature => "stuck armature",
+        _ => "other fault",
+    }
+}

@@ -1,0 +1,359 @@
+//! The scripted greenhouse demo (**invented** scenario): what the simulated world does, what the
+//! programme asks, and what the firmware must conclude — checked at the end of the run.
+//!
+//! The script knows its faults, so the checker can tell whether each was detected on the right
+//! channel and that no healthy pulse was flagged. It lives here, beside the QEMU board, and not in
+//! the application: the application knows nothing of the script.
+//!
+//! Times are ms after power-up. The self-check runs first (a few ms); the programme starts at
+//! 100 ms.
+//!
+//! | ms | world (plant) | programme | the firmware must |
+//! |---:|---|---|---|
+//! | 0 | valve C's wire is open | — | find it at the self-check, isolate C |
+//! | 100 | | valves A and B together | stagger B behind A's inrush window |
+//! | 100 | | valve C | refuse: isolated |
+//! | 120 | | valve A for 5 ms | refuse: below minimum on-time |
+//! | 190 | | valve A again | delay: A's minimum off-time |
+//! | 200 | | valve B, within 2 ms | refuse: B's off-time has not run out |
+//! | 300 | | pump, twice | second waits for the first (channel busy) |
+//! | 400 | | pump within 50 ms | refuse: thermal budget (the queued runs fill it) |
+//! | 420 | | pump | delay: thermal budget |
+//! | 450 | valve A: 30 % of turns shorted | | |
+//! | 500 | | valve A | rise says shorted turns: isolate A |
+//! | 700 | | valve A | refuse: isolated |
+//! | 800 | 24 V rail sags to 17 V | | |
+//! | 850 | | valve B | rise says supply low: hold the 24 V rail back |
+//! | 1000 | | valve B | diagnostic pulse: still low, refuse |
+//! | 1100 | 24 V rail back to 24 V | | |
+//! | 1200 | | valve B | diagnostic pulse healthy: go ahead |
+//! | 1250 | | valve B at 1400 ms | accept the set time |
+//! | 1600 | pump wire breaks | | |
+//! | ≈2231 | | (the thermally delayed pump run) | rise says open circuit: isolate the pump |
+//! | 2600 | | pump | refuse: isolated |
+
+use coilwise::diagnosis::Finding;
+use coilwise::schedule::{DelayReason, Refusal};
+use coilwise_host_tests::Fault;
+
+use crate::app::{Observer, Outcome, Report, StartAt, Step};
+use crate::board::{Happening, Scripted};
+use crate::scenario::Rail;
+
+/// Valve A, B, C and the pump relay.
+const A: usize = 0;
+const B: usize = 1;
+const C: usize = 2;
+const PUMP: usize = 3;
+
+/// The simulated world's script.
+pub static SCRIPT: [Scripted; 6] = [
+    Scripted {
+        at_ms: 0,
+        what: Happening::Fault {
+            channel: C,
+            fault: Fault::Open,
+        },
+    },
+    Scripted {
+        at_ms: 450,
+        what: Happening::Fault {
+            channel: A,
+            fault: Fault::ShortedTurns { fraction: 0.3 },
+        },
+    },
+    Scripted {
+        at_ms: 800,
+        what: Happening::Supply {
+            rail: Rail::Valves24V,
+            volts: 17.0,
+        },
+    },
+    Scripted {
+        at_ms: 1100,
+        what: Happening::Supply {
+            rail: Rail::Valves24V,
+            volts: 24.0,
+        },
+    },
+    Scripted {
+        at_ms: 1600,
+        what: Happening::Fault {
+            channel: PUMP,
+            fault: Fault::Open,
+        },
+    },
+    // Nothing happens after this; it marks the end of the script for the checker's windows.
+    Scripted {
+        at_ms: 3000,
+        what: Happening::Supply {
+            rail: Rail::Pump12V,
+            volts: 12.0,
+        },
+    },
+];
+
+/// What a programme step must come to.
+#[derive(Clone, Copy, Debug, PartialEq, Eq, defmt::Format)]
+pub enum Expect {
+    /// Accepted at the asked time.
+    Accepted,
+    /// Delayed for this reason.
+    Delayed(DelayReason),
+    /// Refused as too late, for this reason.
+    TooLate(DelayReason),
+    /// Refused as shorter than the minimum on-time.
+    BelowMinOn,
+    /// Refused by the application: channel isolated.
+    Isolated,
+    /// Refused by the application: supply rail low.
+    SupplyLow,
+}
+
+const fn step(at_ms: u32, channel: usize, duration_ms: u32) -> Step {
+    Step {
+        at_ms,
+        channel,
+        duration_ms,
+        start: StartAt::Now,
+        within_ms: None,
+    }
+}
+
+const fn within(mut s: Step, ms: u32) -> Step {
+    s.within_ms = Some(ms);
+    s
+}
+
+const fn at(mut s: Step, ms: u32) -> Step {
+    s.start = StartAt::At(ms);
+    s
+}
+
+/// Number of programme steps.
+pub const STEPS: usize = 18;
+
+/// The programme table.
+const TABLE: [(Step, Expect); STEPS] = [
+    (step(100, A, 80), Expect::Accepted),
+    (step(100, B, 80), Expect::Delayed(DelayReason::Inrush)),
+    (step(100, C, 60), Expect::Isolated),
+    (step(120, A, 5), Expect::BelowMinOn),
+    (step(190, A, 60), Expect::Delayed(DelayReason::OffTime)),
+    (
+        within(step(200, B, 60), 2),
+        Expect::TooLate(DelayReason::OffTime),
+    ),
+    (step(300, PUMP, 500), Expect::Accepted),
+    (
+        step(300, PUMP, 500),
+        Expect::Delayed(DelayReason::ChannelBusy),
+    ),
+    (
+        within(step(400, PUMP, 500), 50),
+        Expect::TooLate(DelayReason::Thermal),
+    ),
+    (step(420, PUMP, 500), Expect::Delayed(DelayReason::Thermal)),
+    (step(500, A, 60), Expect::Accepted),
+    (step(700, A, 60), Expect::Isolated),
+    (step(850, B, 60), Expect::Accepted),
+    (step(1000, B, 60), Expect::SupplyLow),
+    (step(1200, B, 60), Expect::Accepted),
+    (at(step(1250, B, 60), 1400), Expect::Accepted),
+    (step(2600, PUMP, 100), Expect::Isolated),
+    (step(2700, B, 60), Expect::Accepted),
+];
+
+/// The programme and what each step must come to (see the module table).
+pub static PROGRAMME: [(Step, Expect); STEPS] = TABLE;
+
+/// The steps alone, for the controller.
+pub static STEPS_ONLY: [Step; STEPS] = {
+    let mut s = [TABLE[0].0; STEPS];
+    let mut i = 0;
+    while i < STEPS {
+        s[i] = TABLE[i].0;
+        i += 1;
+    }
+    s
+};
+
+/// What the script makes of channel `ch` at `t_ms`: the finding a correct diagnosis gives.
+fn truth(ch: usize, t_ms: u32) -> Finding {
+    let mut finding = Finding::Healthy;
+    let mut rail_low = false;
+    for e in SCRIPT.iter().filter(|e| e.at_ms <= t_ms) {
+        match e.what {
+            Happening::Fault { channel, fault } if channel == ch => {
+                finding = match fault {
+                    Fault::Open => Finding::OpenCircuit,
+                    Fault::ShortedTurns { .. } => Finding::ShortedTurns,
+                    _ => Finding::CannotTell(coilwise::diagnosis::Undetermined::NotYet),
+                };
+            }
+            Happening::Supply { rail, volts } if rail == rail_of(ch) => {
+                rail_low = volts < 0.9 * nominal(rail);
+            }
+            _ => {}
+        }
+    }
+    if finding == Finding::Healthy && rail_low {
+        Finding::SupplyLow
+    } else {
+        finding
+    }
+}
+
+fn rail_of(ch: usize) -> Rail {
+    if ch == PUMP {
+        Rail::Pump12V
+    } else {
+        Rail::Valves24V
+    }
+}
+
+fn nominal(r: Rail) -> f64 {
+    match r {
+        Rail::Valves24V => 24.0,
+        Rail::Pump12V => 12.0,
+    }
+}
+
+fn matches(outcome: &Outcome, expect: &Expect) -> bool {
+    match (outcome, expect) {
+        (Outcome::Accepted { .. }, Expect::Accepted) => true,
+        (Outcome::Delayed { reason, .. }, Expect::Delayed(r)) => reason == r,
+        (Outcome::Refused(Refusal::TooLate { reason, .. }), Expect::TooLate(r)) => reason == r,
+        (Outcome::Refused(Refusal::BelowMinOn { .. }), Expect::BelowMinOn) => true,
+        (Outcome::Isolated, Expect::Isolated) => true,
+        (Outcome::SupplyLow, Expect::SupplyLow) => true,
+        _ => false,
+    }
+}
+
+/// The checker: an [`Observer`] that compares every outcome and verdict with the script.
+pub struct Checker {
+    handled: [bool; STEPS],
+    /// Per scripted event: whether a verdict on its channel named it.
+    detected: [bool; SCRIPT.len()],
+    failures: u32,
+    verdicts: u32,
+    /// Time origin of the controller's instants (power-up), ticks.
+    origin: coilwise::Instant,
+}
+
+impl Checker {
+    /// A checker for a controller whose time origin is `origin`.
+    pub const fn new(origin: coilwise::Instant) -> Self {
+        Self {
+            handled: [false; STEPS],
+            detected: [false; SCRIPT.len()],
+            failures: 0,
+            verdicts: 0,
+            origin,
+        }
+    }
+
+    /// Logs the outcome of the check and returns whether everything the script demands held.
+    #[inline(never)]
+    pub fn finish(&mut self) -> bool {
+        for (i, h) in self.handled.iter().enumerate() {
+            if !h {
+                defmt::error!("[check] programme step {=usize} was never handled", i);
+                self.failures += 1;
+            }
+        }
+        let mut expected_faults = 0u32;
+        for (k, e) in SCRIPT.iter().enumerate() {
+            let needed = match e.what {
+                Happening::Fault { .. } => true,
+                Happening::Supply { rail, volts } => volts < 0.9 * nominal(rail),
+            };
+            if !needed {
+                continue;
+            }
+            expected_faults += 1;
+            if self.detected[k] {
+                defmt::info!(
+                    "[check] scripted event {=usize} (t={=u32} ms) detected on the right channel",
+                    k,
+                    e.at_ms
+                );
+            } else {
+                defmt::error!(
+                    "[check] scripted event {=usize} (t={=u32} ms) was NOT detected",
+                    k,
+                    e.at_ms
+                );
+                self.failures += 1;
+            }
+        }
+        defmt::info!(
+            "[check] {=u32} verdicts, {=usize} requests, {=u32} scripted faults; failures: {=u32}",
+            self.verdicts,
+            STEPS,
+            expected_faults,
+            self.failures
+        );
+        self.failures == 0
+    }
+}
+
+impl Observer for Checker {
+    fn request(&mut self, index: usize, outcome: &Outcome) {
+        let Some((_, expect)) = PROGRAMME.get(index) else {
+            self.failures += 1;
+            return;
+        };
+        if let Some(h) = self.handled.get_mut(index) {
+            *h = true;
+        }
+        if !matches(outcome, expect) {
+            defmt::error!(
+                "[check] step {=usize}: got {}, the script expects {}",
+                index,
+                outcome,
+                expect
+            );
+            self.failures += 1;
+        }
+    }
+
+    fn verdict(&mut self, r: &Report) {
+        self.verdicts += 1;
+        let t_ms = (r.at.since(self.origin).max(0) as u32) / 1000;
+        let want = truth(r.channel, t_ms);
+        if r.finding != want {
+            defmt::error!(
+                "[check] ch{=usize} at t={=u32} ms ({}): verdict {}, the script says {}",
+                r.channel,
+                t_ms,
+                r.kind,
+                r.finding,
+                want
+            );
+            self.failures += 1;
+            return;
+        }
+        // Credit the scripted event this verdict reveals (the latest one in force on the channel).
+        let mut credit = None;
+        for (k, e) in SCRIPT.iter().enumerate().filter(|(_, e)| e.at_ms <= t_ms) {
+            match e.what {
+                Happening::Fault { channel, .. } if channel == r.channel => credit = Some(k),
+                Happening::Supply { rail, volts }
+                    if rail == rail_of(r.channel)
+                        && volts < 0.9 * nominal(rail)
+                        && want == Finding::SupplyLow =>
+                {
+                    credit = Some(k);
+                }
+                _ => {}
+            }
+        }
+        if want != Finding::Healthy {
+            if let Some(k) = credit {
+                self.detected[k] = true;
+            }
+        }
+    }
+}
