@@ -222,7 +222,9 @@ fn switch_current(sw: &Switch, rs: f64, gate: bool, w: f64) -> (f64, f64) {
 /// Safeguarded Newton for an increasing function on a bracket
 /// `[lo, hi]` with `f(lo) ≤ 0 ≤ f(hi)`. Converges to ~1e-13 relative.
 fn solve_increasing(f: impl Fn(f64) -> (f64, f64), mut lo: f64, mut hi: f64, x0: f64) -> f64 {
-    let mut x = x0.clamp(lo, hi);
+    // Not `f64::clamp`: its lo ≤ hi assertion formats two f64s, which drags ~10 KiB of float
+    // formatting into no_std firmware that links the plant.
+    let mut x = x0.max(lo).min(hi);
     for _ in 0..100 {
         let (fx, dfx) = f(x);
         if fx == 0.0 {
