@@ -469,3 +469,20 @@ fn io_and_usage_errors() {
     assert!(stderr(&o).contains("no/such/dir/out.txt"));
     assert!(!Path::new("no/such/dir").exists());
 }
+
+#[test]
+fn non_finite_toml_numbers_are_rejected_at_their_key() {
+    // TOML has `nan` and `inf` literals; a plain-number key must not let them through (they would
+    // surface later as an error blamed on another key, or as NaN in the output).
+    let r = example("greenhouse-pump-relay.toml");
+    for literal in ["nan", "inf", "-inf", "+nan"] {
+        let bad = edit(&r, "min_gain = 100", &format!("min_gain = {literal}"));
+        expect_error(
+            &bad,
+            "bad-value",
+            Some(line_of(&r, "min_gain")),
+            "switch.min_gain",
+            "finite",
+        );
+    }
+}
