@@ -348,12 +348,8 @@ impl Inputs {
                 quantity::parse(dim, s).map_err(|e| self.quantity_error(key, place, s, e))
             }
             Raw::Number(v, written) if dim == Dim::Number => {
-                if v.is_finite() {
-                    Ok(*v)
-                } else {
-                    // TOML's `nan` and `inf` literals.
-                    Err(self.quantity_error(key, place, written, QuantityError::NotFinite))
-                }
+                // TOML's `nan` and `inf` literals are refused here too.
+                quantity::in_range(*v).map_err(|e| self.quantity_error(key, place, written, e))
             }
             Raw::Number(_, written) => {
                 Err(self.quantity_error(key, place, written, QuantityError::MissingUnit))

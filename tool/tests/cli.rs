@@ -486,3 +486,29 @@ fn non_finite_toml_numbers_are_rejected_at_their_key() {
         );
     }
 }
+
+#[test]
+fn values_outside_the_computable_range_are_rejected_at_their_key() {
+    // The core computes in f32: a value whose quotients or products leave its range must be
+    // refused where it is written, not surface later as an error blamed on another key
+    // (1e-40 ohm was reported as `timing.residual_current`, a key the file does not have).
+    let v = example("greenhouse-valve.toml");
+    let at = line_of(&v, "resistance = \"160 ohm\"");
+    for value in ["1e-40 ohm", "1e-20 ohm", "1e20 ohm", "-1e30 ohm"] {
+        let bad = edit(
+            &v,
+            "resistance = \"160 ohm\"",
+            &format!("resistance = \"{value}\""),
+        );
+        expect_error(&bad, "bad-value", Some(at), "coil.resistance", "range");
+    }
+    let r = example("greenhouse-pump-relay.toml");
+    let bad = edit(&r, "min_gain = 100", "min_gain = 1e30");
+    expect_error(
+        &bad,
+        "bad-value",
+        Some(line_of(&r, "min_gain")),
+        "switch.min_gain",
+        "range",
+    );
+}
