@@ -368,6 +368,13 @@ impl Spec {
                         "must be greater than zero",
                     ));
                 }
+                if d.base_emitter < 0.0 {
+                    return Err(i.error(
+                        "switch.base_emitter",
+                        ErrorClass::Impossible,
+                        "must not be negative",
+                    ));
+                }
                 if d.min_gain <= 0.0 {
                     return Err(i.error(
                         "switch.min_gain",
@@ -406,6 +413,13 @@ impl Spec {
             i.quantity("switch.gate_voltage")?,
             i.quantity("switch.rated_gate_voltage")?,
         ) {
+            (Some(_), Some(rated)) if rated <= 0.0 => {
+                return Err(i.error(
+                    "switch.rated_gate_voltage",
+                    ErrorClass::Impossible,
+                    "must be greater than zero",
+                ))
+            }
             (Some(applied), Some(rated)) => Some(GateDrive { applied, rated }),
             (None, None) => None,
             (Some(_), None) => {

@@ -512,3 +512,31 @@ fn values_outside_the_computable_range_are_rejected_at_their_key() {
         "range",
     );
 }
+
+#[test]
+fn drive_values_the_core_refuses_are_blamed_on_their_own_key() {
+    // A negative base-emitter voltage was reported at switch.base_resistor, a zero rated gate
+    // voltage at switch.gate_voltage.
+    let r = example("greenhouse-pump-relay.toml");
+    let bad = edit(&r, "base_emitter = \"0.7 V\"", "base_emitter = \"-1 V\"");
+    expect_error(
+        &bad,
+        "impossible",
+        Some(line_of(&r, "base_emitter")),
+        "switch.base_emitter",
+        "negative",
+    );
+    let v = example("greenhouse-valve.toml");
+    let bad = edit(
+        &v,
+        "rated_gate_voltage = \"4.5 V\"",
+        "rated_gate_voltage = \"0 V\"",
+    );
+    expect_error(
+        &bad,
+        "impossible",
+        Some(line_of(&v, "rated_gate_voltage")),
+        "switch.rated_gate_voltage",
+        "greater than zero",
+    );
+}
