@@ -540,3 +540,25 @@ fn drive_values_the_core_refuses_are_blamed_on_their_own_key() {
         "greater than zero",
     );
 }
+
+#[test]
+fn messages_print_values_in_engineering_notation() {
+    // A 1 nV nominal supply was echoed as "(0.000000001 V)", a 1 GV one as "(1000000000 V)".
+    let v = example("greenhouse-valve.toml");
+    let bad = edit(&v, "nominal = \"24 V\"", "nominal = \"1 nV\"");
+    expect_error(
+        &bad,
+        "impossible",
+        Some(line_of(&v, "min = \"21.6 V\"")),
+        "supply.min",
+        "lowest supply (21.60 V) is above the nominal (1.000 nV)",
+    );
+    let bad = edit(&v, "max = \"26.4 V\"", "max = \"1 GV\"");
+    expect_error(
+        &bad,
+        "impossible",
+        Some(line_of(&v, "breakdown")),
+        "switch.breakdown",
+        "a breakdown voltage of 60.00 V is not above the highest supply (1.000 GV)",
+    );
+}
