@@ -321,15 +321,12 @@ impl Inputs {
             }
             _ => ErrorClass::BadValue,
         };
-        let mut err = ToolError::new(
-            class,
-            format!(
-                "value \"{text}\" {e}; expected {} in {}",
-                dim.name(),
-                dim.unit_hint()
-            ),
-        )
-        .at(place, Some(key));
+        let expected = match dim {
+            Dim::Number => dim.name().to_string(),
+            _ => format!("{} in {}", dim.name(), dim.unit_hint()),
+        };
+        let mut err = ToolError::new(class, format!("value \"{text}\" {e}; expected {expected}"))
+            .at(place, Some(key));
         let hint = match (&e, dim) {
             (QuantityError::UnknownUnit(u), Dim::Temperature) if u == "C" => {
                 "write degrees Celsius as degC or °C, e.g. \"85 degC\"".to_string()
@@ -350,7 +347,10 @@ impl Inputs {
             Raw::Str(s) => {
                 quantity::parse(dim, s).map_err(|e| self.quantity_error(key, place, s, e))
             }
-            Raw::Number(v, _) if dim == Dim::Number => Ok(*v),
+            Raw::Number(v, written) if dim == Dim::Number => {
+                // TOML's `nan` and `inf` literals are refused here too.
+                quantity::in_range(*v).map_err(|e| self.quantity_error(key, place, written, e))
+            }
             Raw::Number(_, written) => {
                 Err(self.quantity_error(key, place, written, QuantityError::MissingUnit))
             }

@@ -198,109 +198,116 @@ pub fn svg(c: &Cycle, title: &str) -> Result<String, ToolError> {
             .flat_map(|t| t.samples.iter().map(|s| s.2))
             .fold(c.breakdown, f64::max)
             * 1.12;
-        let color = |n: usize| Palette99::pick(n).to_rgba();
-
-        let mut chart = ChartBuilder::on(&upper)
-            .caption(format!("Coil current ({})", c.point), ("sans-serif", 15))
-            .margin(12)
-            .x_label_area_size(38)
-            .y_label_area_size(64)
-            .build_cartesian_2d(0f64..x_end, 0f64..i_max)
-            .map_err(draw_err)?;
-        chart
-            .configure_mesh()
-            .x_desc(format!("time after switch-on ({unit})"))
-            .y_desc("coil current (mA)")
-            .draw()
-            .map_err(draw_err)?;
-        for (n, t) in c.traces.iter().enumerate() {
-            let col = color(n);
-            chart
-                .draw_series(LineSeries::new(
-                    t.samples.iter().map(|s| (s.0 * k, s.1 * 1e3)),
-                    col.stroke_width(2),
-                ))
-                .map_err(draw_err)?
-                .label(t.label.clone())
-                .legend(move |(x, y)| {
-                    PathElement::new(vec![(x, y), (x + 18, y)], col.stroke_width(2))
-                });
-        }
-        for (level, name, col) in [
-            (c.pull_in, "pull-in", RGBColor(200, 0, 0)),
-            (c.drop_out, "drop-out", RGBColor(0, 120, 0)),
-        ] {
-            chart
-                .draw_series(DashedLineSeries::new(
-                    [(0.0, level * 1e3), (x_end, level * 1e3)],
-                    6,
-                    4,
-                    col.stroke_width(1),
-                ))
-                .map_err(draw_err)?
-                .label(format!("{name} {}", crate::quantity::eng(level, "A")))
-                .legend(move |(x, y)| {
-                    PathElement::new(vec![(x, y), (x + 18, y)], col.stroke_width(1))
-                });
-        }
-        chart
-            .configure_series_labels()
-            .position(SeriesLabelPosition::UpperRight)
-            .background_style(WHITE.mix(0.85))
-            .border_style(BLACK)
-            .label_font(("sans-serif", 12))
-            .draw()
-            .map_err(draw_err)?;
-
-        let mut chart = ChartBuilder::on(&lower)
-            .caption("Voltage across the switch", ("sans-serif", 15))
-            .margin(12)
-            .x_label_area_size(38)
-            .y_label_area_size(64)
-            .build_cartesian_2d(0f64..x_end, 0f64..v_max)
-            .map_err(draw_err)?;
-        chart
-            .configure_mesh()
-            .x_desc(format!("time after switch-on ({unit})"))
-            .y_desc("switch voltage (V)")
-            .draw()
-            .map_err(draw_err)?;
-        for (n, t) in c.traces.iter().enumerate() {
-            let col = color(n);
-            chart
-                .draw_series(LineSeries::new(
-                    t.samples.iter().map(|s| (s.0 * k, s.2)),
-                    col.stroke_width(2),
-                ))
-                .map_err(draw_err)?
-                .label(t.label.clone())
-                .legend(move |(x, y)| {
-                    PathElement::new(vec![(x, y), (x + 18, y)], col.stroke_width(2))
-                });
-        }
-        let red = RGBColor(200, 0, 0);
-        chart
-            .draw_series(DashedLineSeries::new(
-                [(0.0, c.breakdown), (x_end, c.breakdown)],
-                6,
-                4,
-                red.stroke_width(1),
-            ))
-            .map_err(draw_err)?
-            .label(format!(
-                "switch breakdown {}",
-                crate::quantity::eng(c.breakdown, "V")
-            ))
-            .legend(move |(x, y)| PathElement::new(vec![(x, y), (x + 18, y)], red.stroke_width(1)));
-        chart
-            .configure_series_labels()
-            .position(SeriesLabelPosition::UpperRight)
-            .background_style(WHITE.mix(0.85))
-            .border_style(BLACK)
-            .label_font(("sans-serif", 12))
-            .draw()
-            .map_err(draw_err)?;
+        let x_desc = format!("time after switch-on ({unit})");
+        let eng = crate::quantity::eng;
+        panel(
+            &upper,
+            &Panel {
+                caption: format!("Coil current ({})", c.point),
+                x_desc: &x_desc,
+                y_desc: "coil current (mA)",
+                x_end,
+                y_max: i_max,
+            },
+            &c.traces,
+            |s| (s.0 * k, s.1 * 1e3),
+            &[
+                (
+                    c.pull_in * 1e3,
+                    format!("pull-in {}", eng(c.pull_in, "A")),
+                    RGBColor(200, 0, 0),
+                ),
+                (
+                    c.drop_out * 1e3,
+                    format!("drop-out {}", eng(c.drop_out, "A")),
+                    RGBColor(0, 120, 0),
+                ),
+            ],
+        )?;
+        panel(
+            &lower,
+            &Panel {
+                caption: "Voltage across the switch".to_string(),
+                x_desc: &x_desc,
+                y_desc: "switch voltage (V)",
+                x_end,
+                y_max: v_max,
+            },
+            &c.traces,
+            |s| (s.0 * k, s.2),
+            &[(
+                c.breakdown,
+                format!("switch breakdown {}", eng(c.breakdown, "V")),
+                RGBColor(200, 0, 0),
+            )],
+        )?;
         root.present().map_err(draw_err)?;
     }
     Ok(out)
+}
+
+/// Axis texts and ranges of one panel.
+struct Panel<'a> {
+    caption: String,
+    x_desc: &'a str,
+    y_desc: &'a str,
+    x_end: f64,
+    y_max: f64,
+}
+
+/// Draws one panel: a line per trace (`pick` maps a sample to plot coordinates), a dashed
+/// horizontal line per `(level, label, colour)`, and the legend.
+fn panel<DB: DrawingBackend>(
+    area: &DrawingArea<DB, plotters::coord::Shift>,
+    p: &Panel<'_>,
+    traces: &[Trace],
+    pick: impl Fn(&(f64, f64, f64)) -> (f64, f64),
+    levels: &[(f64, String, RGBColor)],
+) -> Result<(), ToolError> {
+    let mut chart = ChartBuilder::on(area)
+        .caption(&p.caption, ("sans-serif", 15))
+        .margin(12)
+        .x_label_area_size(38)
+        .y_label_area_size(64)
+        .build_cartesian_2d(0f64..p.x_end, 0f64..p.y_max)
+        .map_err(draw_err)?;
+    chart
+        .configure_mesh()
+        .x_desc(p.x_desc)
+        .y_desc(p.y_desc)
+        .draw()
+        .map_err(draw_err)?;
+    for (n, t) in traces.iter().enumerate() {
+        let col = Palette99::pick(n).to_rgba();
+        chart
+            .draw_series(LineSeries::new(
+                t.samples.iter().map(&pick),
+                col.stroke_width(2),
+            ))
+            .map_err(draw_err)?
+            .label(t.label.clone())
+            .legend(move |(x, y)| PathElement::new(vec![(x, y), (x + 18, y)], col.stroke_width(2)));
+    }
+    for (level, label, col) in levels {
+        let col = *col;
+        chart
+            .draw_series(DashedLineSeries::new(
+                [(0.0, *level), (p.x_end, *level)],
+                6,
+                4,
+                col.stroke_width(1),
+            ))
+            .map_err(draw_err)?
+            .label(label.clone())
+            .legend(move |(x, y)| PathElement::new(vec![(x, y), (x + 18, y)], col.stroke_width(1)));
+    }
+    chart
+        .configure_series_labels()
+        .position(SeriesLabelPosition::UpperRight)
+        .background_style(WHITE.mix(0.85))
+        .border_style(BLACK)
+        .label_font(("sans-serif", 12))
+        .draw()
+        .map_err(draw_err)?;
+    Ok(())
 }

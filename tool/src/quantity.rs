@@ -173,6 +173,31 @@ pub enum QuantityError {
     UnexpectedUnit(String),
     /// NaN or infinite.
     NotFinite,
+    /// Non-zero, but outside [`MIN_MAGNITUDE`] ..= [`MAX_MAGNITUDE`] in SI units.
+    OutOfRange,
+}
+
+/// The smallest non-zero magnitude accepted, in SI units. The core computes in `f32`; inside
+/// `1e-15 ..= 1e15` the quotients and products of two inputs stay far inside its range, and no
+/// real coil, switch or clamp value comes near either end.
+pub const MIN_MAGNITUDE: f64 = 1e-15;
+/// The largest magnitude accepted, in SI units (see [`MIN_MAGNITUDE`]).
+pub const MAX_MAGNITUDE: f64 = 1e15;
+
+/// `value` if it is zero or its magnitude lies in [`MIN_MAGNITUDE`] ..= [`MAX_MAGNITUDE`].
+///
+/// # Errors
+/// [`QuantityError::NotFinite`] for NaN or infinity, [`QuantityError::OutOfRange`] otherwise.
+pub fn in_range(value: f64) -> Result<f64, QuantityError> {
+    if !value.is_finite() {
+        return Err(QuantityError::NotFinite);
+    }
+    let a = value.abs();
+    if value == 0.0 || (MIN_MAGNITUDE..=MAX_MAGNITUDE).contains(&a) {
+        Ok(value)
+    } else {
+        Err(QuantityError::OutOfRange)
+    }
 }
 
 impl fmt::Display for QuantityError {
@@ -186,6 +211,10 @@ impl fmt::Display for QuantityError {
             QuantityError::UnknownUnit(u) => write!(f, "has unknown unit `{u}`"),
             QuantityError::UnexpectedUnit(u) => write!(f, "takes no unit, but has `{u}`"),
             QuantityError::NotFinite => f.write_str("is not a finite number"),
+            QuantityError::OutOfRange => write!(
+                f,
+                "is outside the range the tool computes with (zero, or a magnitude from {MIN_MAGNITUDE:e} to {MAX_MAGNITUDE:e} in SI units)"
+            ),
         }
     }
 }
@@ -253,7 +282,7 @@ pub fn parse(dim: Dim, text: &str) -> Result<f64, QuantityError> {
     let (value, unit) = split_number(text)?;
     if dim == Dim::Number {
         return if unit.is_empty() {
-            Ok(value)
+            in_range(value)
         } else {
             Err(QuantityError::UnexpectedUnit(unit.to_string()))
         };
@@ -262,7 +291,7 @@ pub fn parse(dim: Dim, text: &str) -> Result<f64, QuantityError> {
         return Err(QuantityError::MissingUnit);
     }
     if let Some(k) = unit_factor(dim, unit) {
-        return Ok(value * k);
+        return in_range(value * k);
     }
     for other in Dim::ALL {
         if other != dim && unit_factor(other, unit).is_some() {
@@ -284,6 +313,11 @@ pub fn eng(value: f64, unit: &str) -> String {
     if value == 0.0 {
         return format!("0 {unit}");
     }
+    let a = value.abs();
+    // Beyond the prefixes below, scientific notation (four significant digits as well).
+    if !(0.999_95e-12..999.95e9).contains(&a) {
+        return format!("{value:.3e} {unit}");
+    }
     let steps: [(f64, &str); 8] = [
         (1e9, "G"),
         (1e6, "M"),
@@ -294,7 +328,6 @@ pub fn eng(value: f64, unit: &str) -> String {
         (1e-9, "n"),
         (1e-12, "p"),
     ];
-    let a = value.abs();
     let (scale, prefix) = steps
         .iter()
         .copied()
@@ -385,6 +418,12 @@ mod tests {
         assert_eq!(eng(0.0, "J"), "0 J");
         assert_eq!(eng(-30.0, "V"), "-30.00 V");
         assert_eq!(eng(999.99, "Hz"), "1.000 kHz");
+        // Beyond the prefixes: scientific notation, never "0.000 p" or a 20-digit mantissa.
+        assert_eq!(eng(1.0e-15, "ohm"), "1.000e-15 ohm");
+        assert_eq!(eng(1.44e16, "A"), "1.440e16 A");
+        assert_eq!(eng(-2.5e13, "W"), "-2.500e13 W");
+        assert_eq!(eng(999.0e9, "Hz"), "999.0 GHz");
+        assert_eq!(eng(1.0e-12, "F"), "1.000 pF");
         assert_eq!(percent(0.189), "+18.9 %");
         assert_eq!(percent(-0.05), "-5.0 %");
         assert_eq!(percent(250.0), "> +999 %");

@@ -8,6 +8,7 @@ use coilwise::{
 
 use crate::error::{ErrorClass, ToolError};
 use crate::input::Inputs;
+use crate::quantity::eng;
 
 /// Bipolar base drive, for the saturation check.
 #[derive(Clone, Copy, Debug, PartialEq)]
@@ -172,7 +173,9 @@ impl Spec {
                 "coil.must_release",
                 ErrorClass::Impossible,
                 format!(
-                    "must-release voltage ({must_release} V) must be below the must-operate voltage ({must_operate} V): a coil releases at a lower voltage than it operates at"
+                    "must-release voltage ({}) must be below the must-operate voltage ({}): a coil releases at a lower voltage than it operates at",
+                    eng(must_release, "V"),
+                    eng(must_operate, "V")
                 ),
             ));
         }
@@ -229,14 +232,22 @@ impl Spec {
                     return Err(i.error(
                         "supply.min",
                         ErrorClass::Impossible,
-                        format!("lowest supply ({lo} V) is above the nominal ({nominal} V)"),
+                        format!(
+                            "lowest supply ({}) is above the nominal ({})",
+                            eng(lo, "V"),
+                            eng(nominal, "V")
+                        ),
                     ));
                 }
                 if hi < nominal {
                     return Err(i.error(
                         "supply.max",
                         ErrorClass::Impossible,
-                        format!("highest supply ({hi} V) is below the nominal ({nominal} V)"),
+                        format!(
+                            "highest supply ({}) is below the nominal ({})",
+                            eng(hi, "V"),
+                            eng(nominal, "V")
+                        ),
                     ));
                 }
                 SupplyRange::new(Volts::new(f(lo)), Volts::new(f(nominal)), Volts::new(f(hi)))
@@ -326,8 +337,9 @@ impl Spec {
                     "switch.saturation",
                     ErrorClass::Impossible,
                     format!(
-                        "a saturation voltage of {sat} V leaves no voltage across the coil at the lowest supply ({} V)",
-                        supply.min().value()
+                        "a saturation voltage of {} leaves no voltage across the coil at the lowest supply ({})",
+                        eng(sat, "V"),
+                        eng(supply.min().value() as f64, "V")
                     ),
                 ));
             }
@@ -341,8 +353,9 @@ impl Spec {
                 "switch.breakdown",
                 ErrorClass::Impossible,
                 format!(
-                    "a breakdown voltage of {breakdown} V is not above the highest supply ({} V): the switch would conduct while off",
-                    supply.max().value()
+                    "a breakdown voltage of {} is not above the highest supply ({}): the switch would conduct while off",
+                    eng(breakdown, "V"),
+                    eng(supply.max().value() as f64, "V")
                 ),
             ));
         }
@@ -368,6 +381,13 @@ impl Spec {
                         "must be greater than zero",
                     ));
                 }
+                if d.base_emitter < 0.0 {
+                    return Err(i.error(
+                        "switch.base_emitter",
+                        ErrorClass::Impossible,
+                        "must not be negative",
+                    ));
+                }
                 if d.min_gain <= 0.0 {
                     return Err(i.error(
                         "switch.min_gain",
@@ -380,8 +400,9 @@ impl Spec {
                         "switch.drive_voltage",
                         ErrorClass::Impossible,
                         format!(
-                            "a drive of {} V does not exceed the base-emitter voltage ({} V): no base current flows",
-                            d.drive_voltage, d.base_emitter
+                            "a drive of {} does not exceed the base-emitter voltage ({}): no base current flows",
+                            eng(d.drive_voltage, "V"),
+                            eng(d.base_emitter, "V")
                         ),
                     ));
                 }
@@ -406,6 +427,13 @@ impl Spec {
             i.quantity("switch.gate_voltage")?,
             i.quantity("switch.rated_gate_voltage")?,
         ) {
+            (Some(_), Some(rated)) if rated <= 0.0 => {
+                return Err(i.error(
+                    "switch.rated_gate_voltage",
+                    ErrorClass::Impossible,
+                    "must be greater than zero",
+                ))
+            }
             (Some(applied), Some(rated)) => Some(GateDrive { applied, rated }),
             (None, None) => None,
             (Some(_), None) => {
@@ -527,8 +555,9 @@ impl Spec {
                         "clamp.zener",
                         ErrorClass::Impossible,
                         format!(
-                            "a zener of {vz} V across the switch is not above the highest supply ({} V): it would conduct while the coil is off",
-                            supply.max().value()
+                            "a zener of {} across the switch is not above the highest supply ({}): it would conduct while the coil is off",
+                            eng(vz, "V"),
+                            eng(supply.max().value() as f64, "V")
                         ),
                     ));
                 }
@@ -675,8 +704,10 @@ impl Spec {
                         "timing.on_time",
                         ErrorClass::Impossible,
                         format!(
-                            "a {on} s pulse does not fit its period of {} s (timing.repetition = {rate} Hz): no off-time is left",
-                            1.0 / rate
+                            "a {} pulse does not fit its period of {} (timing.repetition = {}): no off-time is left",
+                            eng(on, "s"),
+                            eng(1.0 / rate, "s"),
+                            eng(rate, "Hz")
                         ),
                     ));
                 }
@@ -743,7 +774,7 @@ impl Spec {
                     if v <= 0.0 {
                         return Err(ToolError::new(
                             ErrorClass::Impossible,
-                            format!("threshold {v} A must be greater than zero"),
+                            format!("threshold {} must be greater than zero", eng(v, "A")),
                         )
                         .at(place, Some("diagnosis.thresholds")));
                     }

@@ -469,3 +469,96 @@ fn io_and_usage_errors() {
     assert!(stderr(&o).contains("no/such/dir/out.txt"));
     assert!(!Path::new("no/such/dir").exists());
 }
+
+#[test]
+fn non_finite_toml_numbers_are_rejected_at_their_key() {
+    // TOML has `nan` and `inf` literals; a plain-number key must not let them through (they would
+    // surface later as an error blamed on another key, or as NaN in the output).
+    let r = example("greenhouse-pump-relay.toml");
+    for literal in ["nan", "inf", "-inf", "+nan"] {
+        let bad = edit(&r, "min_gain = 100", &format!("min_gain = {literal}"));
+        expect_error(
+            &bad,
+            "bad-value",
+            Some(line_of(&r, "min_gain")),
+            "switch.min_gain",
+            "finite",
+        );
+    }
+}
+
+#[test]
+fn values_outside_the_computable_range_are_rejected_at_their_key() {
+    // The core computes in f32: a value whose quotients or products leave its range must be
+    // refused where it is written, not surface later as an error blamed on another key
+    // (1e-40 ohm was reported as `timing.residual_current`, a key the file does not have).
+    let v = example("greenhouse-valve.toml");
+    let at = line_of(&v, "resistance = \"160 ohm\"");
+    for value in ["1e-40 ohm", "1e-20 ohm", "1e20 ohm", "-1e30 ohm"] {
+        let bad = edit(
+            &v,
+            "resistance = \"160 ohm\"",
+            &format!("resistance = \"{value}\""),
+        );
+        expect_error(&bad, "bad-value", Some(at), "coil.resistance", "range");
+    }
+    let r = example("greenhouse-pump-relay.toml");
+    let bad = edit(&r, "min_gain = 100", "min_gain = 1e30");
+    expect_error(
+        &bad,
+        "bad-value",
+        Some(line_of(&r, "min_gain")),
+        "switch.min_gain",
+        "range",
+    );
+}
+
+#[test]
+fn drive_values_the_core_refuses_are_blamed_on_their_own_key() {
+    // A negative base-emitter voltage was reported at switch.base_resistor, a zero rated gate
+    // voltage at switch.gate_voltage.
+    let r = example("greenhouse-pump-relay.toml");
+    let bad = edit(&r, "base_emitter = \"0.7 V\"", "base_emitter = \"-1 V\"");
+    expect_error(
+        &bad,
+        "impossible",
+        Some(line_of(&r, "base_emitter")),
+        "switch.base_emitter",
+        "negative",
+    );
+    let v = example("greenhouse-valve.toml");
+    let bad = edit(
+        &v,
+        "rated_gate_voltage = \"4.5 V\"",
+        "rated_gate_voltage = \"0 V\"",
+    );
+    expect_error(
+        &bad,
+        "impossible",
+        Some(line_of(&v, "rated_gate_voltage")),
+        "switch.rated_gate_voltage",
+        "greater than zero",
+    );
+}
+
+#[test]
+fn messages_print_values_in_engineering_notation() {
+    // A 1 nV nominal supply was echoed as "(0.000000001 V)", a 1 GV one as "(1000000000 V)".
+    let v = example("greenhouse-valve.toml");
+    let bad = edit(&v, "nominal = \"24 V\"", "nominal = \"1 nV\"");
+    expect_error(
+        &bad,
+        "impossible",
+        Some(line_of(&v, "min = \"21.6 V\"")),
+        "supply.min",
+        "lowest supply (21.60 V) is above the nominal (1.000 nV)",
+    );
+    let bad = edit(&v, "max = \"26.4 V\"", "max = \"1 GV\"");
+    expect_error(
+        &bad,
+        "impossible",
+        Some(line_of(&v, "breakdown")),
+        "switch.breakdown",
+        "a breakdown voltage of 60.00 V is not above the highest supply (1.000 GV)",
+    );
+}
