@@ -25,7 +25,7 @@ const ODD: [f32; 9] = [
 fn finite_or_err<T>(r: Result<T, Error>, get: impl Fn(&T) -> Vec<f32>) {
     if let Ok(v) = r {
         for x in get(&v) {
-            assert!(!x.is_nan(), "NaN returned");
+            assert!(x.is_finite(), "{x} returned");
         }
     }
 }
@@ -225,6 +225,40 @@ fn a_whole_budget_with_odd_inputs_is_finite_or_an_error() {
                     b.release_corner.peak_switch_voltage.value(),
                 ]
             });
+        }
+    }
+}
+
+#[test]
+fn extreme_but_finite_levels_give_finite_answers_or_errors() {
+    // Levels and time constants at the ends of f32: every answer finite or an error (the core's
+    // own contract; the step-response form is textbook).
+    let big = f32::MAX / 2.0;
+    for (a, b) in [
+        (-big, big),
+        (big, -big),
+        (f32::MAX, -f32::MAX),
+        (0.0, f32::MAX),
+    ] {
+        for tau in [f32::MIN_POSITIVE, 1e-30, 1.0, 1e30, f32::MAX] {
+            let Ok(f) = FirstOrder::new(a, b, Seconds::new(tau)) else {
+                continue;
+            };
+            for t in [
+                0.0,
+                f32::MIN_POSITIVE,
+                1e-20,
+                1.0,
+                1e20,
+                f32::MAX,
+                f32::INFINITY,
+            ] {
+                finite_or_err(f.value_at(Seconds::new(t)), |v| vec![*v]);
+                finite_or_err(f.integral_to(Seconds::new(t)), |v| vec![*v]);
+            }
+            for target in [0.0, a * 0.5, b * 0.5, -1.0, 1.0] {
+                finite_or_err(f.time_to(target), |t| vec![t.value()]);
+            }
         }
     }
 }
