@@ -262,3 +262,31 @@ fn extreme_but_finite_levels_give_finite_answers_or_errors() {
         }
     }
 }
+
+#[test]
+fn extreme_rc_nodes_give_finite_times_or_errors() {
+    // The 5τ rule (common practice, no source) must not overflow where τ itself does not.
+    for (r, c) in [
+        (f32::MAX, 1.0),
+        (1e20, 1e18),
+        (1.0, f32::MAX),
+        (1e-30, 1e-30),
+    ] {
+        let Ok(node) = RcNode::new(Ohms::new(r), Farads::new(c)) else {
+            continue;
+        };
+        assert!(node.tau().value().is_finite() && node.tau().value() > 0.0);
+        assert!(
+            node.settling_time().value().is_finite(),
+            "5τ of R = {r}, C = {c}"
+        );
+        for v in [-f32::MAX, 0.0, f32::MAX] {
+            finite_or_err(node.step_loss(Volts::new(-v), Volts::new(v)), |e| {
+                vec![e.value()]
+            });
+            finite_or_err(node.inrush_peak(Volts::new(-v), Volts::new(v)), |i| {
+                vec![i.value()]
+            });
+        }
+    }
+}
