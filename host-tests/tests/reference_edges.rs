@@ -290,3 +290,33 @@ fn extreme_rc_nodes_give_finite_times_or_errors() {
         }
     }
 }
+
+#[test]
+fn huge_switch_off_currents_give_finite_stress_or_errors() {
+    // ½·L·I² and V + I·R_clamp must not overflow silently (the core's own contract; formulas
+    // textbook).
+    let op = OperatingPoint::new(Volts::new(12.0), Celsius::new(20.0));
+    for clamp in all_clamps() {
+        let c = circuit(100.0, 0.1, clamp).unwrap();
+        for i0 in [1e19f32, 1e30, f32::MAX] {
+            let Ok(rel) = c.release(&op, Amps::new(i0)) else {
+                continue;
+            };
+            assert!(
+                rel.peak_switch_voltage().value().is_finite(),
+                "{clamp:?} at {i0} A"
+            );
+            assert!(rel.peak_node_voltage().value().is_finite());
+            finite_or_err(rel.energy(), |e| {
+                vec![
+                    e.stored.value(),
+                    e.clamp.value(),
+                    e.winding.value(),
+                    e.supply.value(),
+                    e.capacitor.value(),
+                ]
+            });
+            finite_or_err(rel.time_to_zero(), |t| vec![t.value()]);
+        }
+    }
+}
