@@ -320,3 +320,29 @@ fn huge_switch_off_currents_give_finite_stress_or_errors() {
         }
     }
 }
+
+#[test]
+fn extreme_coils_have_finite_pull_in_and_drop_out_currents_or_are_refused() {
+    // I = V/R (Ohm's law, textbook) must not overflow silently for any accepted coil.
+    for (r, v_op) in [
+        (1e-30f32, 1e30f32),
+        (f32::MIN_POSITIVE, 1.0),
+        (1e-20, f32::MAX),
+    ] {
+        let Ok(coil) = Coil::new(
+            Ohms::new(r),
+            Celsius::new(20.0),
+            Henries::new(1.0),
+            Henries::new(1.0),
+            Volts::new(v_op),
+            Volts::new(v_op * 0.1),
+        ) else {
+            continue;
+        };
+        assert!(
+            coil.pull_in_current().value().is_finite(),
+            "R = {r}, V = {v_op}"
+        );
+        assert!(coil.drop_out_current().value().is_finite());
+    }
+}

@@ -47,7 +47,8 @@ impl Coil {
     /// # Errors
     /// [`Error::Invalid`] naming the parameter: any value non-finite; R, L or must-operate not
     /// positive; must-release not positive or not below must-operate; reference temperature outside
-    /// [`MIN_WINDING_TEMPERATURE`]..[`MAX_WINDING_TEMPERATURE`].
+    /// [`MIN_WINDING_TEMPERATURE`]..[`MAX_WINDING_TEMPERATURE`]; a must-operate voltage so large
+    /// against R that `V_op/R` overflows f32 ([`Why::OutOfRange`]).
     pub fn new(
         resistance: Ohms,
         reference_temperature: Celsius,
@@ -67,6 +68,10 @@ impl Coil {
                 Param::MustReleaseVoltage,
                 Why::ReleaseAboveOperate,
             ));
+        }
+        // The pull-in current V_op/R (the larger of the two ratios) must be finite.
+        if !(v_op / resistance).is_finite() {
+            return Err(Error::invalid(Param::MustOperateVoltage, Why::OutOfRange));
         }
         Ok(Self {
             resistance,
