@@ -168,10 +168,17 @@ impl Coil {
     }
 }
 
-fn temperature_in_range(t: Celsius) -> Result<f32, Error> {
-    let t = finite(t.value(), Param::Temperature)?;
+/// `Ok(t)` when the winding temperature `t` is finite and within the copper model's range
+/// ([`MIN_WINDING_TEMPERATURE`]..=[`MAX_WINDING_TEMPERATURE`]), else [`Param::Temperature`].
+pub(super) fn temperature_in_range(t: Celsius) -> Result<f32, Error> {
+    temperature_in_range_as(t.value(), Param::Temperature)
+}
+
+/// [`temperature_in_range`] reporting `param`.
+pub(super) fn temperature_in_range_as(t: f32, param: Param) -> Result<f32, Error> {
+    let t = finite(t, param)?;
     if t < MIN_WINDING_TEMPERATURE.value() || t > MAX_WINDING_TEMPERATURE.value() {
-        return Err(Error::invalid(Param::Temperature, Why::OutOfRange));
+        return Err(Error::invalid(param, Why::OutOfRange));
     }
     Ok(t)
 }
