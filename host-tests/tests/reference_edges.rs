@@ -25,7 +25,7 @@ const ODD: [f32; 9] = [
 fn finite_or_err<T>(r: Result<T, Error>, get: impl Fn(&T) -> Vec<f32>) {
     if let Ok(v) = r {
         for x in get(&v) {
-            assert!(!x.is_nan(), "NaN returned");
+            assert!(x.is_finite(), "{x} returned");
         }
     }
 }
@@ -226,5 +226,123 @@ fn a_whole_budget_with_odd_inputs_is_finite_or_an_error() {
                 ]
             });
         }
+    }
+}
+
+#[test]
+fn extreme_but_finite_levels_give_finite_answers_or_errors() {
+    // Levels and time constants at the ends of f32: every answer finite or an error (the core's
+    // own contract; the step-response form is textbook).
+    let big = f32::MAX / 2.0;
+    for (a, b) in [
+        (-big, big),
+        (big, -big),
+        (f32::MAX, -f32::MAX),
+        (0.0, f32::MAX),
+    ] {
+        for tau in [f32::MIN_POSITIVE, 1e-30, 1.0, 1e30, f32::MAX] {
+            let Ok(f) = FirstOrder::new(a, b, Seconds::new(tau)) else {
+                continue;
+            };
+            for t in [
+                0.0,
+                f32::MIN_POSITIVE,
+                1e-20,
+                1.0,
+                1e20,
+                f32::MAX,
+                f32::INFINITY,
+            ] {
+                finite_or_err(f.value_at(Seconds::new(t)), |v| vec![*v]);
+                finite_or_err(f.integral_to(Seconds::new(t)), |v| vec![*v]);
+            }
+            for target in [0.0, a * 0.5, b * 0.5, -1.0, 1.0] {
+                finite_or_err(f.time_to(target), |t| vec![t.value()]);
+            }
+        }
+    }
+}
+
+#[test]
+fn extreme_rc_nodes_give_finite_times_or_errors() {
+    // The 5τ rule (common practice, no source) must not overflow where τ itself does not.
+    for (r, c) in [
+        (f32::MAX, 1.0),
+        (1e20, 1e18),
+        (1.0, f32::MAX),
+        (1e-30, 1e-30),
+    ] {
+        let Ok(node) = RcNode::new(Ohms::new(r), Farads::new(c)) else {
+            continue;
+        };
+        assert!(node.tau().value().is_finite() && node.tau().value() > 0.0);
+        assert!(
+            node.settling_time().value().is_finite(),
+            "5τ of R = {r}, C = {c}"
+        );
+        for v in [-f32::MAX, 0.0, f32::MAX] {
+            finite_or_err(node.step_loss(Volts::new(-v), Volts::new(v)), |e| {
+                vec![e.value()]
+            });
+            finite_or_err(node.inrush_peak(Volts::new(-v), Volts::new(v)), |i| {
+                vec![i.value()]
+            });
+        }
+    }
+}
+
+#[test]
+fn huge_switch_off_currents_give_finite_stress_or_errors() {
+    // ½·L·I² and V + I·R_clamp must not overflow silently (the core's own contract; formulas
+    // textbook).
+    let op = OperatingPoint::new(Volts::new(12.0), Celsius::new(20.0));
+    for clamp in all_clamps() {
+        let c = circuit(100.0, 0.1, clamp).unwrap();
+        for i0 in [1e19f32, 1e30, f32::MAX] {
+            let Ok(rel) = c.release(&op, Amps::new(i0)) else {
+                continue;
+            };
+            assert!(
+                rel.peak_switch_voltage().value().is_finite(),
+                "{clamp:?} at {i0} A"
+            );
+            assert!(rel.peak_node_voltage().value().is_finite());
+            finite_or_err(rel.energy(), |e| {
+                vec![
+                    e.stored.value(),
+                    e.clamp.value(),
+                    e.winding.value(),
+                    e.supply.value(),
+                    e.capacitor.value(),
+                ]
+            });
+            finite_or_err(rel.time_to_zero(), |t| vec![t.value()]);
+        }
+    }
+}
+
+#[test]
+fn extreme_coils_have_finite_pull_in_and_drop_out_currents_or_are_refused() {
+    // I = V/R (Ohm's law, textbook) must not overflow silently for any accepted coil.
+    for (r, v_op) in [
+        (1e-30f32, 1e30f32),
+        (f32::MIN_POSITIVE, 1.0),
+        (1e-20, f32::MAX),
+    ] {
+        let Ok(coil) = Coil::new(
+            Ohms::new(r),
+            Celsius::new(20.0),
+            Henries::new(1.0),
+            Henries::new(1.0),
+            Volts::new(v_op),
+            Volts::new(v_op * 0.1),
+        ) else {
+            continue;
+        };
+        assert!(
+            coil.pull_in_current().value().is_finite(),
+            "R = {r}, V = {v_op}"
+        );
+        assert!(coil.drop_out_current().value().is_finite());
     }
 }

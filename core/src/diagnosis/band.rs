@@ -269,10 +269,7 @@ impl Expected {
         }
         let drive = drive.finite()?;
         let nominal_sense = c.sense().value();
-        let switch_r = match c.switch() {
-            crate::physics::circuit::Switch::Mosfet { on_resistance, .. } => on_resistance.value(),
-            crate::physics::circuit::Switch::Bipolar { .. } => 0.0,
-        };
+        let (_, switch_r) = c.switch().on_state();
         let movement_by = if always_pulls_in {
             let t = latest_pull_in.finite()?.max + operate;
             Some(Seconds::new(crate::error::result(t)?))

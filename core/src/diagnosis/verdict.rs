@@ -625,10 +625,12 @@ pub fn judge_threshold(
 }
 
 /// Judges a steady (final) current reading alone against the final-current band
-/// ([`Expected::final_current`], the hull of `k_s·V_d/R_on`), widened by `model_margin`. Below the band → [`Finding::ShortedTurns`] (beyond
-/// `short_current` × the band's top → [`Finding::ShortCircuit`]); above →
-/// [`Finding::HighResistance`] (assuming the supply within its band: without a supply reading a
-/// low supply reads the same); below `open_fraction` of the band → [`Finding::OpenCircuit`].
+/// ([`Expected::final_current`], the hull of `k_s·V_d/R_on`), widened by `model_margin`. Above
+/// the band (too little resistance) → [`Finding::ShortedTurns`] (beyond `short_current` × the
+/// band's top → [`Finding::ShortCircuit`]); below it → [`Finding::HighResistance`] (assuming the
+/// supply within its band: without a supply reading a low supply reads the same, and a supply
+/// known to be below the design's range gives [`Finding::SupplyLow`]); at or below
+/// `open_fraction` of the band's bottom → [`Finding::OpenCircuit`].
 ///
 /// Never panics.
 pub fn judge_steady(current: Amps, expected: &Expected, criteria: &Criteria) -> Verdict {

@@ -2,7 +2,7 @@
 //! operating point (supply, winding temperature, part tolerances) it is evaluated at.
 
 use super::clamp::Clamp;
-use super::coil::{Armature, Coil};
+use super::coil::{temperature_in_range_as, Armature, Coil};
 use super::first_order::FirstOrder;
 use crate::error::{finite, non_negative, positive, Error, Limit, Param, Why};
 use crate::units::{Amps, Celsius, Ohms, Seconds, Volts};
@@ -32,6 +32,15 @@ impl Switch {
     pub const fn breakdown(&self) -> Volts {
         match *self {
             Switch::Bipolar { breakdown, .. } | Switch::Mosfet { breakdown, .. } => breakdown,
+        }
+    }
+
+    /// The on-state as `(constant drop, V; series resistance, Ω)`: bipolar `(V_CE(sat), 0)`,
+    /// MOSFET `(0, R_DS(on))`.
+    pub(crate) const fn on_state(&self) -> (f32, f32) {
+        match *self {
+            Switch::Bipolar { saturation, .. } => (saturation.value(), 0.0),
+            Switch::Mosfet { on_resistance, .. } => (0.0, on_resistance.value()),
         }
     }
 
@@ -132,11 +141,8 @@ impl TemperatureRange {
         if lo > hi {
             return Err(Error::invalid(Param::TemperatureRange, Why::Inverted));
         }
-        let range = super::coil::MIN_WINDING_TEMPERATURE.value()
-            ..=super::coil::MAX_WINDING_TEMPERATURE.value();
-        if !range.contains(&lo) || !range.contains(&hi) {
-            return Err(Error::invalid(Param::TemperatureRange, Why::OutOfRange));
-        }
+        temperature_in_range_as(lo, Param::TemperatureRange)?;
+        temperature_in_range_as(hi, Param::TemperatureRange)?;
         Ok(Self { min: lo, max: hi })
     }
     /// Coldest winding, °C.
@@ -313,10 +319,7 @@ impl Circuit {
         let k_l = positive(op.inductance_factor, Param::Tolerance)?;
         let k_s = positive(op.sense_factor, Param::Tolerance)?;
         let winding = self.coil.resistance_at(op.temperature)?.value() * k_r;
-        let (drop, r_switch) = match self.switch {
-            Switch::Bipolar { saturation, .. } => (saturation.value(), 0.0),
-            Switch::Mosfet { on_resistance, .. } => (0.0, on_resistance.value()),
-        };
+        let (drop, r_switch) = self.switch.on_state();
         let drive = supply - drop;
         if drive <= 0.0 {
             return Err(Error::OutsideModel(Limit::NoHeadroom));

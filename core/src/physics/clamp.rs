@@ -240,7 +240,8 @@ impl Circuit {
     /// # Errors
     /// Invalid operating point or current; [`Why::BelowSupply`] when the switch breakdown or a
     /// clamp across the switch does not exceed the supply; [`crate::Limit::SnubberUnderdamped`] for
-    /// a snubber that would ring.
+    /// a snubber that would ring; [`crate::Limit::Overflow`] when the peak switch voltage
+    /// `V_supply + V + I₀·R_clamp` overflows f32.
     pub fn release(&self, op: &OperatingPoint, initial: Amps) -> Result<Release, Error> {
         self.release_resolved(&self.resolve(op)?, initial)
     }
@@ -305,6 +306,8 @@ impl Circuit {
         let r_total = r_loop + r_clamp;
         let tau = r.inductance_operated / r_total;
         let a = opposing / r_total;
+        // The peak coil voltage V + I₀·R_clamp must be finite for the stress figures.
+        result(supply + opposing + i0 * r_clamp)?;
         Ok(Release {
             curve: FirstOrder::new(i0, -a, Seconds::new(tau))?,
             loop_resistance: r_loop,
@@ -467,10 +470,12 @@ impl Release {
         Ok((
             Seconds::new(t0),
             EnergySplit {
-                stored: Joules::new(0.5 * self.inductance * i0 * i0),
-                clamp: Joules::new(self.clamp_element_voltage * q + self.clamp_resistance * s),
-                winding: Joules::new(self.loop_resistance * s),
-                supply: Joules::new(self.supply_in_loop * q),
+                stored: Joules::new(result(0.5 * self.inductance * i0 * i0)?),
+                clamp: Joules::new(result(
+                    self.clamp_element_voltage * q + self.clamp_resistance * s,
+                )?),
+                winding: Joules::new(result(self.loop_resistance * s)?),
+                supply: Joules::new(result(self.supply_in_loop * q)?),
                 capacitor: Joules::new(0.0),
             },
         ))

@@ -47,7 +47,8 @@ impl Coil {
     /// # Errors
     /// [`Error::Invalid`] naming the parameter: any value non-finite; R, L or must-operate not
     /// positive; must-release not positive or not below must-operate; reference temperature outside
-    /// [`MIN_WINDING_TEMPERATURE`]..[`MAX_WINDING_TEMPERATURE`].
+    /// [`MIN_WINDING_TEMPERATURE`]..[`MAX_WINDING_TEMPERATURE`]; a must-operate voltage so large
+    /// against R that `V_op/R` overflows f32 ([`Why::OutOfRange`]).
     pub fn new(
         resistance: Ohms,
         reference_temperature: Celsius,
@@ -67,6 +68,10 @@ impl Coil {
                 Param::MustReleaseVoltage,
                 Why::ReleaseAboveOperate,
             ));
+        }
+        // The pull-in current V_op/R (the larger of the two ratios) must be finite.
+        if !(v_op / resistance).is_finite() {
+            return Err(Error::invalid(Param::MustOperateVoltage, Why::OutOfRange));
         }
         Ok(Self {
             resistance,
@@ -163,10 +168,17 @@ impl Coil {
     }
 }
 
-fn temperature_in_range(t: Celsius) -> Result<f32, Error> {
-    let t = finite(t.value(), Param::Temperature)?;
+/// `Ok(t)` when the winding temperature `t` is finite and within the copper model's range
+/// ([`MIN_WINDING_TEMPERATURE`]..=[`MAX_WINDING_TEMPERATURE`]), else [`Param::Temperature`].
+pub(super) fn temperature_in_range(t: Celsius) -> Result<f32, Error> {
+    temperature_in_range_as(t.value(), Param::Temperature)
+}
+
+/// [`temperature_in_range`] reporting `param`.
+pub(super) fn temperature_in_range_as(t: f32, param: Param) -> Result<f32, Error> {
+    let t = finite(t, param)?;
     if t < MIN_WINDING_TEMPERATURE.value() || t > MAX_WINDING_TEMPERATURE.value() {
-        return Err(Error::invalid(Param::Temperature, Why::OutOfRange));
+        return Err(Error::invalid(param, Why::OutOfRange));
     }
     Ok(t)
 }

@@ -58,7 +58,9 @@ impl FirstOrder {
     /// `f(t) = f(0) + (f∞ − f(0))·(1 − e^(−t/τ))`, evaluated with `expm1` so that small `t` keeps
     /// full precision (relative error a few ulp of f32).
     ///
-    /// Domain: `t ≥ 0`, finite; a negative or NaN `t` is an error, `t = +∞` gives f∞.
+    /// Domain: `t ≥ 0`, finite; a negative or NaN `t` is an error, `t = +∞` gives f∞. Levels so
+    /// far apart that `f∞ − f(0)` overflows f32 are evaluated as the weighted mean
+    /// `f(0)·e^(−t/τ) + f∞·(1 − e^(−t/τ))` instead (never NaN).
     pub fn value_at(&self, t: Seconds) -> Result<f32, Error> {
         let t = t.value();
         if t.is_nan() || t < 0.0 {
@@ -72,7 +74,13 @@ impl FirstOrder {
             ));
         }
         let done = -libm::expm1f(-t / self.tau); // 1 − e^(−t/τ), in [0, 1]
-        Ok(self.initial + (self.asymptote - self.initial) * done)
+        let step = self.asymptote - self.initial;
+        if step.is_finite() {
+            return result(self.initial + step * done);
+        }
+        // Levels of opposite sign near ±f32::MAX: the step itself overflows (∞·0 would be NaN),
+        // but the weighted mean of two finite levels does not.
+        result(self.initial * (1.0 - done) + self.asymptote * done)
     }
 
     /// Time at which the response first reaches `target`:

@@ -20,9 +20,9 @@
 //! replace a temperature-rise test.
 
 use super::circuit::{Circuit, OperatingPoint};
-use super::coil::MAX_WINDING_TEMPERATURE;
+use super::coil::{temperature_in_range, MAX_WINDING_TEMPERATURE};
 use super::drive::duty_fraction;
-use crate::error::{finite, non_negative, positive, result, Error, Limit, Param, Why};
+use crate::error::{finite, non_negative, positive, result, Error, Limit, Param};
 use crate::units::{Amps, Celsius, KelvinPerWatt, Ohms, Watts};
 
 /// Temperature at which copper's resistance extrapolates to zero on the linear law, °C
@@ -55,10 +55,10 @@ pub fn temperature_by_resistance(
 ) -> Result<Celsius, Error> {
     let r1 = positive(cold.value(), Param::WindingResistance)?;
     let r2 = positive(hot.value(), Param::WindingResistance)?;
-    let t1 = in_model_range(finite(cold_temperature.value(), Param::Temperature)?)?;
+    let t1 = temperature_in_range(cold_temperature)?;
     let k = -COPPER_ZERO_RESISTANCE.value();
     let t2 = result((r2 / r1) * (k + t1) - k)?;
-    in_model_range(t2).map(Celsius::new)
+    temperature_in_range(Celsius::new(t2)).map(Celsius::new)
 }
 
 /// The self-heated steady state of a coil.
@@ -98,7 +98,7 @@ impl Circuit {
         thermal_resistance: KelvinPerWatt,
         duty: f32,
     ) -> Result<SelfHeating, Error> {
-        let t_amb = in_model_range(finite(ambient.value(), Param::Temperature)?)?;
+        let t_amb = temperature_in_range(ambient)?;
         let r_th = positive(thermal_resistance.value(), Param::ThermalResistance)?;
         let d = duty_fraction(duty)?;
         let at_ambient = OperatingPoint {
@@ -146,14 +146,6 @@ impl Circuit {
             power: Watts::new(power_at(t)),
         })
     }
-}
-
-fn in_model_range(t: f32) -> Result<f32, Error> {
-    let lo = super::coil::MIN_WINDING_TEMPERATURE.value();
-    if t < lo || t > MAX_WINDING_TEMPERATURE.value() {
-        return Err(Error::invalid(Param::Temperature, Why::OutOfRange));
-    }
-    Ok(t)
 }
 
 #[cfg(test)]

@@ -24,10 +24,18 @@ pub struct RcNode {
 
 impl RcNode {
     /// A node of `capacitance` (F, > 0) behind `resistance` (Ω, > 0).
+    ///
+    /// # Errors
+    /// [`Error::Invalid`] for a bad R or C; [`crate::Limit::Overflow`] when 5·R·C overflows f32 or
+    /// R·C underflows to 0 s (so that [`RcNode::tau`] and [`RcNode::settling_time`] are always
+    /// finite and positive).
     pub fn new(resistance: Ohms, capacitance: Farads) -> Result<Self, Error> {
         let r = positive(resistance.value(), Param::NodeResistance)?;
         let c = positive(capacitance.value(), Param::Capacitance)?;
-        result(r * c)?;
+        let five_tau = result(5.0 * r * c)?;
+        if five_tau <= 0.0 {
+            return Err(Error::OutsideModel(crate::error::Limit::Overflow));
+        }
         Ok(Self {
             resistance: r,
             capacitance: c,

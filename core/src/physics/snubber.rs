@@ -82,8 +82,8 @@ impl SnubberRelease {
     ///
     /// # Errors
     /// [`Error::Invalid`] for a bad input; [`Limit::SnubberUnderdamped`] when
-    /// `4L/(C·(R + R_s)²) > 1` (the current would ring); [`Limit::Overflow`] when the roots do not
-    /// fit an f32.
+    /// `4L/(C·(R + R_s)²) > 1` (the current would ring); [`Limit::Overflow`] when the roots or the
+    /// stored energy do not fit an f32.
     pub fn new(
         inductance: Henries,
         loop_resistance: Ohms,
@@ -122,6 +122,8 @@ impl SnubberRelease {
         if slow >= 0.0 {
             return Err(Error::OutsideModel(Limit::Overflow));
         }
+        // The energy split (½·L·I₀² + ½·C·V₀², see `energy`) must be finite too.
+        result(0.5 * l * i0 * i0 + 0.5 * c * v0 * v0)?;
         Ok(Self {
             initial: i0,
             precharge: v0,
@@ -382,8 +384,9 @@ impl SnubberRelease {
         SnubberEnergy {
             stored: Joules::new(stored),
             capacitor: Joules::new(cap),
-            snubber_resistor: Joules::new(total * self.snubber_resistance / r_tot),
-            winding: Joules::new(total * self.loop_resistance / r_tot),
+            // Shares formed as fractions first, so that neither product overflows.
+            snubber_resistor: Joules::new(total * (self.snubber_resistance / r_tot)),
+            winding: Joules::new(total * (self.loop_resistance / r_tot)),
         }
     }
 

@@ -571,33 +571,13 @@ fn coil_heat_lets_an_economised_hold_run_long() {
 
 #[test]
 fn limits_from_a_design_round_toward_safety() {
-    use crate::physics::circuit::{Circuit, SupplyRange, Switch, TemperatureRange, Topology};
+    use crate::physics::circuit::tests::valve;
+    use crate::physics::circuit::{SupplyRange, TemperatureRange};
     use crate::physics::clamp::Clamp;
-    use crate::physics::coil::Coil;
-    use crate::units::{Celsius, Henries, Ohms, Seconds, Volts, Watts};
-    // Invented greenhouse valve: 180 Ω at 20 °C, 0.30 H / 0.45 H, must-operate 16.8 V, 24 V ±10 %,
-    // winding −25…70 °C, a zener clamp, ticks of 10 µs.
-    let coil = Coil::new(
-        Ohms::new(180.0),
-        Celsius::new(20.0),
-        Henries::new(0.30),
-        Henries::new(0.45),
-        Volts::new(16.8),
-        Volts::new(2.4),
-    )
-    .unwrap();
-    let circuit = Circuit::new(
-        coil,
-        Switch::Mosfet {
-            on_resistance: Ohms::new(0.1),
-            breakdown: Volts::new(60.0),
-        },
-        Topology::LowSide,
-        Ohms::new(0.5),
-        Ohms::new(0.4),
-        Clamp::diode_zener(Volts::new(0.8), Volts::new(30.0)).unwrap(),
-    )
-    .unwrap();
+    use crate::units::{Celsius, Seconds, Volts, Watts};
+    // The invented greenhouse valve of the circuit tests (180 Ω at 20 °C, 0.30 H / 0.45 H,
+    // must-operate 16.8 V) with a zener clamp, 24 V ±10 %, winding −25…70 °C, ticks of 10 µs.
+    let circuit = valve(Clamp::diode_zener(Volts::new(0.8), Volts::new(30.0)).unwrap());
     let rate = crate::time::TickRate::new(100_000).unwrap();
     let mut design = DriverDesignAlias::new(
         circuit,
