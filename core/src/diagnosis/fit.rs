@@ -332,7 +332,7 @@ fn gn_pass<S: Sample>(samples: &[S], zero: f32, k0: f32, amp: f32, lambda: f32) 
         b2: 0.0,
         rr: 0.0,
     };
-    for s in samples {
+    let mut step = |s: S| {
         let c = s.to_f32() - zero;
         let w = kap - kap * e;
         let r = c - amp * e;
@@ -344,6 +344,15 @@ fn gn_pass<S: Sample>(samples: &[S], zero: f32, k0: f32, amp: f32, lambda: f32) 
         p.rr += r * r;
         e = e * q + d;
         kap += 1.0;
+    };
+    // Two samples per loop turn halve the loop overhead; the arithmetic is the same.
+    let mut pairs = samples.chunks_exact(2);
+    for pair in &mut pairs {
+        step(pair[0]);
+        step(pair[1]);
+    }
+    for &s in pairs.remainder() {
+        step(s);
     }
     p
 }
@@ -489,7 +498,9 @@ pub fn fit_rise<S: Sample>(
         rise_covered,
         sv.max * apc,
     ];
-    if figures.iter().any(|x| !x.is_finite()) {
+    // x·0 is 0 for finite x and NaN for ±∞ and NaN: one compare for all the figures.
+    let probe: f32 = figures.iter().map(|x| x * 0.0).sum();
+    if probe != 0.0 {
         return Err(TraceFault::NoConvergence);
     }
     Ok(RiseFit {
