@@ -12,14 +12,16 @@
 //!
 //! 1. **One pass, closed form** (integral equation). Integrating `τ·di/dt + i = I∞` from 0 gives
 //!    `i(t) = s·t − (1/τ)·∫₀ᵗ i dt`, which is *linear* in (s, 1/τ). The running integral `J_k` is
-//!    accumulated from the samples by the trapezoid rule (with i(0) = 0), and the five sums of the
-//!    2 × 2 least-squares problem `c_k ≈ σ·κ_k − λ·J_k` are kept on the way: O(1) memory, no libm
+//!    accumulated from the samples by the trapezoid rule (with i(0) = 0); the sums of the 2 × 2
+//!    least-squares problem `c_k ≈ σ·κ_k − λ·J_k` follow by summation by parts from five running
+//!    sums kept on the way (Σc, its prefix sums twice, Σ(prefix)², Σc²): O(1) memory, no libm
 //!    call per sample. The same pass checks the trace (finite, unsaturated, not below zero,
 //!    monotone within noise, not flat).
-//! 2. **Refinement**: a bounded number of Gauss–Newton passes over the buffer on the exact model
+//! 2. **Refinement**: a bounded number of Gauss–Newton passes over the buffer on the exact model,
+//!    in the parameters (A = σ/λ, λ), in which the model `c_k = A·(1 − e^(−λκ_k))` is linear in A
 //!    (the trapezoid rule and the noise in `J_k` bias step 1 slightly). Each pass computes
 //!    `e_k = 1 − e^(−λκ_k)` by the recurrence `e_{k+1} = q·e_k + (1 − q)`, `q = e^(−λ)`, so a pass
-//!    costs one or two `expm1f` calls in all, and ~15 flops per sample. The last pass gives the
+//!    costs one or two `expm1f` calls in all, and 14 flops per sample. The last pass gives the
 //!    residual and the curvature matrix, hence the goodness of fit and the standard errors
 //!    (`cov = σ̂²·(JᵀJ)⁻¹`).
 //!
@@ -30,10 +32,11 @@
 //! estimate alone is within 17 %. A noise-free trace is recovered to f32 precision (property
 //! test).
 //!
-//! Cost (Cortex-M4F, QEMU instruction count, 64 `u16` samples): 3 862 instructions for the fit,
-//! 4 316 with the verdict ([`super::verdict::judge_trace`]); per sample 30 instructions in the
-//! survey pass and 22 per refinement pass, the rest fixed. Stack 248 bytes (fit), 552 (verdict).
-//! On a Cortex-M0 without FPU the same fit takes about 296 000 instructions (soft float).
+//! Cost (QEMU instruction count, 64 `u16` samples, fit with the verdict,
+//! [`super::verdict::judge_trace`], `cargo xtask cost` case `fit_verdict_64`): 3 450 instructions
+//! on a Cortex-M4F (23 per sample in the survey pass, about 16 per refinement pass, the rest
+//! fixed), stack 312 bytes; about 242 000 instructions on a Cortex-M0 without FPU (soft float),
+//! stack 532 bytes.
 
 use super::sample::{Sample, Sampling};
 use crate::units::{Amps, Seconds};
