@@ -12,14 +12,16 @@
 //!
 //! 1. **One pass, closed form** (integral equation). Integrating `τ·di/dt + i = I∞` from 0 gives
 //!    `i(t) = s·t − (1/τ)·∫₀ᵗ i dt`, which is *linear* in (s, 1/τ). The running integral `J_k` is
-//!    accumulated from the samples by the trapezoid rule (with i(0) = 0), and the five sums of the
-//!    2 × 2 least-squares problem `c_k ≈ σ·κ_k − λ·J_k` are kept on the way: O(1) memory, no libm
+//!    accumulated from the samples by the trapezoid rule (with i(0) = 0); the sums of the 2 × 2
+//!    least-squares problem `c_k ≈ σ·κ_k − λ·J_k` follow by summation by parts from five running
+//!    sums kept on the way (Σc, its prefix sums twice, Σ(prefix)², Σc²): O(1) memory, no libm
 //!    call per sample. The same pass checks the trace (finite, unsaturated, not below zero,
 //!    monotone within noise, not flat).
-//! 2. **Refinement**: a bounded number of Gauss–Newton passes over the buffer on the exact model
+//! 2. **Refinement**: a bounded number of Gauss–Newton passes over the buffer on the exact model,
+//!    in the parameters (A = σ/λ, λ), in which the model `c_k = A·(1 − e^(−λκ_k))` is linear in A
 //!    (the trapezoid rule and the noise in `J_k` bias step 1 slightly). Each pass computes
 //!    `e_k = 1 − e^(−λκ_k)` by the recurrence `e_{k+1} = q·e_k + (1 − q)`, `q = e^(−λ)`, so a pass
-//!    costs one or two `expm1f` calls in all, and ~15 flops per sample. The last pass gives the
+//!    costs one or two `expm1f` calls in all, and 14 flops per sample. The last pass gives the
 //!    residual and the curvature matrix, hence the goodness of fit and the standard errors
 //!    (`cov = σ̂²·(JᵀJ)⁻¹`).
 //!
@@ -30,10 +32,11 @@
 //! estimate alone is within 17 %. A noise-free trace is recovered to f32 precision (property
 //! test).
 //!
-//! Cost (Cortex-M4F, QEMU instruction count, 64 `u16` samples): 3 862 instructions for the fit,
-//! 4 316 with the verdict ([`super::verdict::judge_trace`]); per sample 30 instructions in the
-//! survey pass and 22 per refinement pass, the rest fixed. Stack 248 bytes (fit), 552 (verdict).
-//! On a Cortex-M0 without FPU the same fit takes about 296 000 instructions (soft float).
+//! Cost (QEMU instruction count, 64 `u16` samples, fit with the verdict,
+//! [`super::verdict::judge_trace`], `cargo xtask cost` case `fit_verdict_64`): 3 450 instructions
+//! on a Cortex-M4F (23 per sample in the survey pass, about 16 per refinement pass, the rest
+//! fixed), stack 312 bytes; about 242 000 instructions on a Cortex-M0 without FPU (soft float),
+//! stack 532 bytes.
 
 use super::sample::{Sample, Sampling};
 use crate::units::{Amps, Seconds};
@@ -179,12 +182,13 @@ struct Survey {
     first: f32,
     max: f32,
     drop: f32,
+    /// Σc over the window (raw units above zero).
+    sum: f32,
 }
 
-/// Σ u² for u = (k0 + k)/n, k = 0…m−1, in closed form: (m·k0² + k0·m(m−1) + (m−1)m(2m−1)/6)/n².
-fn sum_u2(k0: f32, m: usize, n: usize) -> f32 {
-    let (m, n) = (m as f32, n as f32);
-    (m * k0 * k0 + k0 * m * (m - 1.0) + (m - 1.0) * m * (2.0 * m - 1.0) / 6.0) / (n * n)
+/// Σκ² for κ = k0 + k, k = 0…m−1, in closed form: m·k0² + k0·m(m−1) + (m−1)m(2m−1)/6.
+fn sum_kappa2(k0: f32, m: f32) -> f32 {
+    m * k0 * k0 + k0 * m * (m - 1.0) + (m - 1.0) * m * (2.0 * m - 1.0) / 6.0
 }
 
 fn survey<S: Sample>(samples: &[S], sampling: &Sampling) -> Result<Survey, TraceFault> {
@@ -192,8 +196,6 @@ fn survey<S: Sample>(samples: &[S], sampling: &Sampling) -> Result<Survey, Trace
     let zero = sampling.zero();
     let full = sampling.full_scale();
     let k0 = sampling.first().value() / sampling.period().value();
-    let h = 1.0 / (n.max(1) as f32);
-    let half_h = 0.5 * h;
     let Some((head, tail)) = samples.split_first() else {
         return Err(TraceFault::TooFewSamples { usable: 0 });
     };
@@ -204,33 +206,33 @@ fn survey<S: Sample>(samples: &[S], sampling: &Sampling) -> Result<Survey, Trace
     if x >= full {
         return Err(TraceFault::SaturatedEarly { index: 0 });
     }
-    // Scaled time u = κ/n and integral J/n keep the sums near unity in size. The integral from
-    // switch-on (i = 0) to the first sample is one trapezoid of width k0.
+    // The trapezoid integral is J_k = S_k − c_k/2 + γ with the prefix sum S_k = Σ_{j≤k} c_j and
+    // γ = c₀(k0 − 1)/2 (the first trapezoid runs from switch-on, i = 0, to the first sample). Every
+    // sum of the least-squares problem then follows from five running sums, S (Σc), R (ΣS),
+    // Q (ΣR), P (ΣS²) and C (Σc²), by summation by parts (see below): five flops per sample.
     let c0 = x - zero;
-    let mut u = k0 * h;
-    let mut jj = 0.5 * c0 * k0 * h;
-    let (mut suj, mut sjj, mut scu, mut scj) = (u * jj, jj * jj, c0 * u, c0 * jj);
+    let (mut s_sum, mut r_sum, mut q_sum) = (c0, c0, c0);
+    let (mut p_sum, mut c_sum) = (c0 * c0, c0 * c0);
     let (mut hi, mut drop) = (c0, 0.0f32);
-    let mut c_prev = c0;
-    let mut used = 1usize;
     let mut truncated = false;
-    for s in tail {
-        let x = s.to_f32();
+    let mut rest = tail.iter();
+    while let Some(v) = rest.next() {
+        let x = v.to_f32();
         if !S::IS_INTEGER && !x.is_finite() {
-            return Err(TraceFault::NotFinite { index: used as u32 });
+            return Err(TraceFault::NotFinite {
+                index: (n - rest.len() - 1) as u32,
+            });
         }
         if x >= full {
             truncated = true;
             break;
         }
         let c = x - zero;
-        u += h;
-        jj += (c_prev + c) * half_h;
-        c_prev = c;
-        suj += u * jj;
-        sjj += jj * jj;
-        scu += c * u;
-        scj += c * jj;
+        s_sum += c;
+        r_sum += s_sum;
+        q_sum += r_sum;
+        p_sum += s_sum * s_sum;
+        c_sum += c * c;
         // Plain compares: `f32::max` may become a library call on the target.
         if c > hi {
             hi = c;
@@ -239,8 +241,8 @@ fn survey<S: Sample>(samples: &[S], sampling: &Sampling) -> Result<Survey, Trace
         if fall > drop {
             drop = fall;
         }
-        used += 1;
     }
+    let used = if truncated { n - rest.len() - 1 } else { n };
     if used < MIN_SAMPLES {
         return Err(if truncated {
             TraceFault::SaturatedEarly { index: used as u32 }
@@ -250,16 +252,24 @@ fn survey<S: Sample>(samples: &[S], sampling: &Sampling) -> Result<Survey, Trace
             }
         });
     }
-    let suu = sum_u2(k0, used, n);
+    let m = used as f32;
+    let gamma = 0.5 * c0 * (k0 - 1.0);
+    let km = k0 + m;
+    // Σκ² and Σκ in closed form; Σk·c_k = m·S − R and Σk·S_k = m·R − Q (summation by parts);
+    // Σc_k·S_k = (S² + C)/2.
+    let suu = sum_kappa2(k0, m);
+    let su = m * k0 + 0.5 * m * (m - 1.0);
+    let scu = km * s_sum - r_sum;
+    let scj = 0.5 * s_sum * s_sum + gamma * s_sum;
+    let suj = km * r_sum - q_sum - 0.5 * scu + gamma * su;
+    let sjj = p_sum - 0.5 * s_sum * s_sum - 0.25 * c_sum + 2.0 * gamma * r_sum - gamma * s_sum
+        + m * gamma * gamma;
     let d = suu * sjj - suj * suj;
-    let (mut sigma, mut lambda) = if d > 1.0e-6 * suu * sjj && d.is_finite() {
+    let (sigma, lambda) = if d > 1.0e-6 * suu * sjj && d.is_finite() {
         ((scu * sjj - suj * scj) / d, (suj * scu - suu * scj) / d)
     } else {
         (scu / suu, 0.0)
     };
-    // Back to per-sample units: σ = σ'/n, λ = λ'/n.
-    sigma *= h;
-    lambda *= h;
     Ok(Survey {
         used,
         truncated,
@@ -268,6 +278,7 @@ fn survey<S: Sample>(samples: &[S], sampling: &Sampling) -> Result<Survey, Trace
         first: c0,
         max: hi,
         drop,
+        sum: s_sum,
     })
 }
 
@@ -286,19 +297,26 @@ fn drop_index<S: Sample>(samples: &[S], zero: f32) -> u32 {
     at as u32
 }
 
-/// Sums of one Gauss–Newton pass at (σ, λ).
+/// Sums of one Gauss–Newton pass at (A, λ): the model `c_k = A·e_k`, `e_k = 1 − e^(−λκ_k)`,
+/// has the Jacobian columns `e_k` (∂/∂A) and `A·w_k`, `w_k = κ_k·(1 − e_k)` (∂/∂λ).
 struct Pass {
+    /// Σe².
     a11: f32,
+    /// Σe·w.
     a12: f32,
+    /// Σw².
     a22: f32,
+    /// Σe·r.
     b1: f32,
+    /// Σw·r.
     b2: f32,
+    /// Σr².
     rr: f32,
 }
 
-fn gn_pass<S: Sample>(samples: &[S], zero: f32, k0: f32, sigma: f32, lambda: f32) -> Pass {
-    let inv = 1.0 / lambda;
+fn gn_pass<S: Sample>(samples: &[S], zero: f32, k0: f32, amp: f32, lambda: f32) -> Pass {
     // d = 1 − e^(−λ) to full precision, q = 1 − d (q is near 1: its absolute error is the ulp).
+    // The recurrence e ← q·e + d keeps e's error relative to e, also where e is small.
     let d = -libm::expm1f(-lambda);
     let q = 1.0 - d;
     let mut e = if k0 == 0.0 {
@@ -317,19 +335,27 @@ fn gn_pass<S: Sample>(samples: &[S], zero: f32, k0: f32, sigma: f32, lambda: f32
         b2: 0.0,
         rr: 0.0,
     };
-    for s in samples {
+    let mut step = |s: S| {
         let c = s.to_f32() - zero;
-        let phi = e * inv;
-        let psi = (kap * (1.0 - e) - phi) * inv;
-        let r = c - sigma * phi;
-        p.a11 += phi * phi;
-        p.a12 += phi * psi;
-        p.a22 += psi * psi;
-        p.b1 += phi * r;
-        p.b2 += psi * r;
+        let w = kap - kap * e;
+        let r = c - amp * e;
+        p.a11 += e * e;
+        p.a12 += e * w;
+        p.a22 += w * w;
+        p.b1 += e * r;
+        p.b2 += w * r;
         p.rr += r * r;
         e = e * q + d;
         kap += 1.0;
+    };
+    // Two samples per loop turn halve the loop overhead; the arithmetic is the same.
+    let mut pairs = samples.chunks_exact(2);
+    for pair in &mut pairs {
+        step(pair[0]);
+        step(pair[1]);
+    }
+    for &s in pairs.remainder() {
+        step(s);
     }
     p
 }
@@ -371,9 +397,8 @@ pub fn fit_rise<S: Sample>(
         return Err(TraceFault::BelowZero { index: 0 });
     }
     if sv.max - sv.first < FLAT_SIGMAS * noise {
-        let sum: f32 = window.iter().map(|s| s.to_f32() - sampling.zero()).sum();
         return Err(TraceFault::Flat {
-            level: Amps::new(finite_or_zero(sum / n * apc)),
+            level: Amps::new(finite_or_zero(sv.sum / n * apc)),
         });
     }
     if sv.drop > MONOTONE_SIGMAS * noise {
@@ -381,7 +406,7 @@ pub fn fit_rise<S: Sample>(
             index: drop_index(window, sampling.zero()),
         });
     }
-    let mut sigma = if sv.sigma.is_finite() && sv.sigma > 0.0 {
+    let sigma = if sv.sigma.is_finite() && sv.sigma > 0.0 {
         sv.sigma
     } else {
         // Fall back to the mean slope through the origin.
@@ -391,18 +416,20 @@ pub fn fit_rise<S: Sample>(
         return Err(TraceFault::NoConvergence);
     }
     let mut lambda = clamp(sv.lambda, LAMBDA_MIN, LAMBDA_MAX);
+    // The refinement works on A = σ/λ (I∞ in counts), in which the model is linear.
+    let mut amp = sigma / lambda;
     let apply = options.refinements > 0;
     let passes = options.refinements.clamp(1, MAX_REFINEMENTS);
     let mut last = None;
     for _ in 0..passes {
-        let p = gn_pass(window, sampling.zero(), k0, sigma, lambda);
+        let p = gn_pass(window, sampling.zero(), k0, amp, lambda);
         let det = p.a11 * p.a22 - p.a12 * p.a12;
         if !(det.is_finite() && det > 0.0) {
             return Err(TraceFault::NoConvergence);
         }
-        let d_sigma = (p.a22 * p.b1 - p.a12 * p.b2) / det;
-        let d_lambda = (p.a11 * p.b2 - p.a12 * p.b1) / (sigma * det);
-        let new_sigma = clamp(sigma + d_sigma, 0.25 * sigma, 4.0 * sigma);
+        let d_amp = (p.a22 * p.b1 - p.a12 * p.b2) / det;
+        let d_lambda = (p.a11 * p.b2 - p.a12 * p.b1) / (amp * det);
+        let new_amp = clamp(amp + d_amp, 0.25 * amp, 4.0 * amp);
         let new_lambda = clamp(
             clamp(lambda + d_lambda, 0.25 * lambda, 4.0 * lambda),
             LAMBDA_MIN,
@@ -413,15 +440,15 @@ pub fn fit_rise<S: Sample>(
             last = Some((p, det, true, rr));
             break;
         }
-        let full_step = new_sigma == sigma + d_sigma && new_lambda == lambda + d_lambda;
-        let settled = (d_sigma / sigma).abs() < 1.0e-5 && (d_lambda / lambda).abs() < 1.0e-5;
+        let full_step = new_amp == amp + d_amp && new_lambda == lambda + d_lambda;
+        let settled = (d_amp / amp).abs() < 1.0e-5 && (d_lambda / lambda).abs() < 1.0e-5;
         // Residual after the step, predicted to second order: Σr² − gᵀΔ.
         let rr_after = if full_step {
-            larger(p.rr - (d_sigma * p.b1 + d_lambda * sigma * p.b2), 0.0)
+            larger(p.rr - (d_amp * p.b1 + d_lambda * amp * p.b2), 0.0)
         } else {
             p.rr
         };
-        sigma = new_sigma;
+        amp = new_amp;
         lambda = new_lambda;
         last = Some((p, det, full_step, rr_after));
         if settled {
@@ -431,6 +458,7 @@ pub fn fit_rise<S: Sample>(
     let Some((p, det, full_step, rr)) = last else {
         return Err(TraceFault::NoConvergence);
     };
+    let sigma = amp * lambda;
     if !(full_step && sigma.is_finite() && lambda.is_finite()) {
         return Err(TraceFault::NoConvergence);
     }
@@ -440,13 +468,17 @@ pub fn fit_rise<S: Sample>(
         let s = larger(rms, noise);
         s * s
     };
-    // cov(σ, λ) = σ̂²·N⁻¹ with N = [[a11, σ·a12], [σ·a12, σ²·a22]].
-    let v_s = s_hat2 * p.a22 / det / (sigma * sigma);
-    let v_l = s_hat2 * p.a11 / det / (sigma * sigma * lambda * lambda);
-    let c_sl = -s_hat2 * p.a12 / det / (sigma * sigma * lambda);
+    // cov(A, λ) = σ̂²·N⁻¹ with N = [[a11, A·a12], [A·a12, A²·a22]]; relative (logarithmic)
+    // variances of A and λ and their covariance, then ln σ = ln A + ln λ.
+    let scale = s_hat2 / (det * amp * amp);
+    let v_a = scale * p.a22;
+    let v_l = scale * p.a11 / (lambda * lambda);
+    let c_al = -scale * p.a12 / lambda;
+    let v_s = v_a + v_l + 2.0 * c_al;
+    let c_sl = c_al + v_l;
     let rel_sd_slope = sqrt(v_s);
     let rel_sd_tau = sqrt(v_l);
-    let rel_sd_final = sqrt(v_s + v_l - 2.0 * c_sl);
+    let rel_sd_final = sqrt(v_a);
     let correlation = if rel_sd_slope > 0.0 && rel_sd_tau > 0.0 {
         clamp(c_sl / (rel_sd_slope * rel_sd_tau), -1.0, 1.0)
     } else {
@@ -454,7 +486,7 @@ pub fn fit_rise<S: Sample>(
     };
     let slope = sigma * apc / period;
     let tau = period / lambda;
-    let final_current = sigma / lambda * apc;
+    let final_current = amp * apc;
     let rise_covered = -libm::expm1f(-lambda * (k0 + n - 1.0));
     let figures = [
         slope,
@@ -469,7 +501,9 @@ pub fn fit_rise<S: Sample>(
         rise_covered,
         sv.max * apc,
     ];
-    if figures.iter().any(|x| !x.is_finite()) {
+    // x·0 is 0 for finite x and NaN for ±∞ and NaN: one compare for all the figures.
+    let probe: f32 = figures.iter().map(|x| x * 0.0).sum();
+    if probe != 0.0 {
         return Err(TraceFault::NoConvergence);
     }
     Ok(RiseFit {
