@@ -223,3 +223,68 @@ fn estimator_is_close_to_the_cramer_rao_bound() {
         assert!(l_i / b_i < 1.1 && l_t / b_t < 1.1);
     }
 }
+
+/// The fit's own error figures against the spread it actually shows: the reported relative
+/// standard errors of the slope and τ and their correlation, averaged over seeded traces, match
+/// the empirical ones (standard estimation theory, from memory: the Gauss–Newton covariance
+/// σ²·(JᵀJ)⁻¹ is the estimator's covariance to first order).
+#[test]
+fn reported_error_figures_match_the_observed_spread() {
+    for c in [&CASES[0], &CASES[2]] {
+        let t = times(c);
+        let dt = t[1] - t[0];
+        let sampling = Sampling::new(Seconds::new(dt as f32), 1.0)
+            .unwrap()
+            .with_first_sample(Seconds::new(dt as f32))
+            .unwrap()
+            .with_noise(c.sigma as f32)
+            .unwrap();
+        let mut rng = Rng::new(0xc0_44e1 ^ c.n as u64);
+        let m = 2000;
+        let (slope_true, tau_true) = (c.i_inf / TAU, TAU);
+        let (mut es, mut et, mut ess, mut ett, mut est) = (0.0, 0.0, 0.0, 0.0, 0.0);
+        let (mut rs, mut rt, mut rc) = (0.0, 0.0, 0.0);
+        for _ in 0..m {
+            let y: Vec<f32> = t
+                .iter()
+                .map(|t| (c.i_inf * -(-t / TAU).exp_m1() + c.sigma * rng.normal()) as f32)
+                .collect();
+            let f = fit_rise(&y, &sampling, &FitOptions::default()).unwrap();
+            let ds = (f.slope as f64 / slope_true).ln();
+            let dtau = (f.tau.value() as f64 / tau_true).ln();
+            es += ds;
+            et += dtau;
+            ess += ds * ds;
+            ett += dtau * dtau;
+            est += ds * dtau;
+            rs += f.quality.rel_sd_slope as f64;
+            rt += f.quality.rel_sd_tau as f64;
+            rc += f.quality.correlation as f64;
+        }
+        let m = m as f64;
+        let var_s = ess / m - (es / m).powi(2);
+        let var_t = ett / m - (et / m).powi(2);
+        let corr = (est / m - es * et / (m * m)) / (var_s * var_t).sqrt();
+        let (rs, rt, rc) = (rs / m, rt / m, rc / m);
+        eprintln!(
+            "{}: sd(ln s) observed {:.3e} reported {:.3e}; sd(ln tau) observed {:.3e} reported {:.3e}; \
+             corr observed {corr:.3} reported {rc:.3}",
+            c.name,
+            var_s.sqrt(),
+            rs,
+            var_t.sqrt(),
+            rt
+        );
+        assert!(
+            (rs / var_s.sqrt() - 1.0).abs() < 0.15,
+            "{}: slope sd",
+            c.name
+        );
+        assert!((rt / var_t.sqrt() - 1.0).abs() < 0.15, "{}: tau sd", c.name);
+        assert!(
+            (rc - corr).abs() < 0.1,
+            "{}: correlation {rc} vs {corr}",
+            c.name
+        );
+    }
+}

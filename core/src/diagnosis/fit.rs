@@ -475,12 +475,13 @@ pub fn fit_rise<S: Sample>(
     let v_l = scale * p.a11 / (lambda * lambda);
     let c_al = -scale * p.a12 / lambda;
     let v_s = v_a + v_l + 2.0 * c_al;
-    let c_sl = c_al + v_l;
+    // cov(ln s, ln τ) = −cov(ln σ, ln λ), since ln τ = ln Δt − ln λ.
+    let c_st = -(c_al + v_l);
     let rel_sd_slope = sqrt(v_s);
     let rel_sd_tau = sqrt(v_l);
     let rel_sd_final = sqrt(v_a);
     let correlation = if rel_sd_slope > 0.0 && rel_sd_tau > 0.0 {
-        clamp(c_sl / (rel_sd_slope * rel_sd_tau), -1.0, 1.0)
+        clamp(c_st / (rel_sd_slope * rel_sd_tau), -1.0, 1.0)
     } else {
         0.0
     };
