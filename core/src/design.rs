@@ -512,6 +512,8 @@ mod tests {
 
     #[test]
     fn the_two_chosen_corners_are_the_worst_of_all_32() {
+        // Common practice, no source: pull-in is slowest for a hot coil on a low supply, and
+        // release, clamp energy and switch voltage are worst for a cold coil on a high supply.
         // Brute force over every combination of supply, temperature, R, L and sense extremes
         // (16 supply/temperature/R/L corners, each with both sense extremes).
         for clamp in every_clamp() {
@@ -570,6 +572,8 @@ mod tests {
             let d = design(clamp);
             let b = d.budget().unwrap();
             let t_pull = b.pull_in_corner.pull_in_time.unwrap().value();
+            // Common practice, no source: minimum on-time = worst electrical pull-in + mechanical
+            // operate allowance, and timing limits round up to whole ticks.
             assert!((b.min_on_time.value() - (t_pull + 0.008)).abs() < 1e-7);
             let rate = 1.0e6f64;
             for (ticks, s) in [
@@ -626,12 +630,14 @@ mod tests {
         let r = d.circuit.resolve(&f.point).unwrap().winding.value();
         let i = f.final_current.value();
         let p = d.coil_power(&f.point).unwrap().unwrap().value();
+        // Textbook, from memory: Joule heating, P = I²·R·D.
         assert!((p - i * i * r * 0.5).abs() < 1e-6);
         let [h, hot, cold] = d
             .hold_at_corners(Amps::new(0.05), Hertz::new(20_000.0))
             .unwrap();
         assert!(h.duty > 0.0 && h.duty < 1.0);
-        // Hold duty is highest at the hot, low-supply corner, lowest at the cold, high one.
+        // Common practice, no source: hold duty is highest at the hot, low-supply corner, lowest
+        // at the cold, high one.
         assert!(hot.duty > h.duty && cold.duty < h.duty);
         d.duty = Some((Seconds::new(1.0), Hertz::new(5.0)));
         assert!(d.coil_power(&f.point).is_err());

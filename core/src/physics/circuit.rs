@@ -426,6 +426,7 @@ pub(crate) mod tests {
         let c = valve(Clamp::diode(Volts::new(0.8)).unwrap());
         let op = OperatingPoint::new(Volts::new(24.0), Celsius::new(20.0));
         let i = c.final_current(&op).unwrap().value();
+        // Textbook, from memory: Ohm's law, I = V/R over the whole on-loop (180 + 1 Ω).
         assert!((i - 24.0 / 181.0).abs() < 1e-6);
     }
 
@@ -436,6 +437,7 @@ pub(crate) mod tests {
         let hot = OperatingPoint::new(Volts::new(21.6), Celsius::new(70.0));
         let t_cold = c.pull_in_time(&cold).unwrap().value();
         let t_hot = c.pull_in_time(&hot).unwrap().value();
+        // Common practice, no source: a hot coil on a low supply is the slow pull-in corner.
         assert!(t_hot > t_cold);
         assert!(c.pull_in_margin(&hot).unwrap() < c.pull_in_margin(&cold).unwrap());
     }

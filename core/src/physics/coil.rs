@@ -225,6 +225,8 @@ mod tests {
     #[test]
     fn pull_in_and_drop_out_currents() {
         let c = valve();
+        // Common practice, no source: pull-in and drop-out currents are the must-operate and
+        // must-release voltages over the reference resistance (Ohm's law).
         assert!((c.pull_in_current().value() - 16.8 / 180.0).abs() < 1e-7);
         assert!((c.drop_out_current().value() - 2.4 / 180.0).abs() < 1e-7);
     }

@@ -260,7 +260,8 @@ mod tests {
 
     #[test]
     fn mosfet_loss_and_gate() {
-        // P = I²·R·D: 2 A, 50 mΩ, 25 % → 50 mW.
+        // Textbook, from memory: Joule heating, P = I²·R·D: 2 A, 50 mΩ, 25 % → 50 mW; a
+        // saturated bipolar switch loses I·V_CE(sat)·D.
         let g = GateDrive {
             gate_voltage: Volts::new(3.3),
             rated_gate_voltage: Volts::new(4.5),
@@ -282,6 +283,7 @@ mod tests {
         let op = OperatingPoint::new(Volts::new(24.0), crate::units::Celsius::new(20.0));
         let i = c.final_current(&op).unwrap().value();
         let p = c.switch_loss(&op, 0.5).unwrap().value();
+        // Textbook, from memory: Joule heating in R_DS(on), P = I²·R·D.
         assert!((p - i * i * 0.1 * 0.5).abs() < 1e-9);
     }
 }

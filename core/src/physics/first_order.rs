@@ -164,6 +164,7 @@ mod tests {
     #[test]
     fn falling_and_passed_and_unreachable() {
         let fall = FirstOrder::new(2.0, -0.5, Seconds::new(1.0)).unwrap();
+        // Textbook, from memory: inverting the first-order step, t = τ·ln((f0 − f∞)/(f − f∞)).
         // Time to zero: τ·ln(2.5/0.5) = ln 5.
         let t0 = fall.time_to(0.0).unwrap().value();
         assert!((t0 - libm::logf(5.0)).abs() < 1e-6);
@@ -188,7 +189,7 @@ mod tests {
 
     #[test]
     fn integral_of_a_rise() {
-        // ∫0^∞-ish: ∫0^t (1 − e^(−t/τ)) = t − τ(1 − e^(−t/τ)).
+        // Textbook calculus, from memory: ∫0^t (1 − e^(−t/τ)) = t − τ(1 − e^(−t/τ)).
         let r = rise();
         let a = r.integral_to(Seconds::new(0.02)).unwrap();
         let expect = 0.02 - 0.01 * (1.0 - libm::expf(-2.0));

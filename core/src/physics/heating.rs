@@ -162,6 +162,7 @@ mod tests {
     #[test]
     fn dissipation_is_i_squared_r_times_duty() {
         let p = coil_dissipation(Amps::new(0.1), Ohms::new(180.0), 0.5).unwrap();
+        // Textbook, from memory: Joule heating, P = I²·R·D (0.1² · 180 · 0.5 = 0.9 W).
         assert!((p.value() - 0.9).abs() < 1e-6);
         assert!(coil_dissipation(Amps::new(0.1), Ohms::new(180.0), -0.1).is_err());
         let c = valve(Clamp::diode(Volts::new(0.8)).unwrap());
@@ -172,6 +173,8 @@ mod tests {
 
     #[test]
     fn resistance_method_matches_the_copper_law() {
+        // Common practice, no source: the resistance method of winding temperature with copper's
+        // inferred zero-resistance point at −234.5 °C.
         // 180 Ω at 20 °C reading 225.9 Ω hot: (225.9/180)·254.5 − 234.5 = 84.9 °C; the coil's own
         // α-law inverse gives the same within rounding (α20 = 1/254.5).
         let t = temperature_by_resistance(Ohms::new(180.0), Celsius::new(20.0), Ohms::new(225.9))

@@ -171,6 +171,7 @@ mod tests {
 
     #[test]
     fn duty_balances_the_average_voltage() {
+        // Textbook, from memory: volt-second balance of a PWM-driven inductor in steady state.
         // Plain diode: D·V_drive − (1 − D)·V_F = I_h·R when R_on = R_off (here they differ by the
         // sense resistor and MOSFET, 0.6 Ω of 181 Ω).
         let c = valve(Clamp::diode(Volts::new(0.8)).unwrap());
@@ -180,6 +181,7 @@ mod tests {
         let expect = (0.8 + ih * 180.4) / (24.0 + 0.8 - ih * 0.6);
         assert!((d - expect).abs() < 1e-6, "{d} vs {expect}");
         assert!((h.average.value() - ih).abs() < 1e-3 * ih);
+        // Textbook, from memory: small-ripple approximation ΔI ≈ V_L·t_on/L.
         // Small ripple at 20 kHz: ΔI ≈ (V − R_on·I_h)·D·T/L.
         let approx = (24.0 - 181.0 * ih) * d / 20_000.0 / 0.45;
         assert!((h.ripple.value() - approx).abs() < 0.01 * approx);

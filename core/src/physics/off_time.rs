@@ -130,6 +130,7 @@ mod tests {
             clamp_thermal: None,
         };
         let o = min_off_time(&r, drop, &base).unwrap();
+        // Common practice, no source: the safe off-time is the largest of its requirements.
         // With a plain diode, decaying to zero takes longer than to drop-out.
         assert_eq!(o.limit, OffTimeLimit::Residual);
         assert_eq!(o.required, r.time_to_zero().unwrap());

@@ -204,6 +204,8 @@ mod tests {
 
     #[test]
     fn inrush_and_slew() {
+        // Textbook, from memory: at t = 0⁺ the empty capacitor is a short (Ohm's law, I = V/R),
+        // and charging it from a fixed source loses ½·C·V² in the resistance.
         // 24 V onto 470 µF through 0.5 Ω: 48 A peak; loss ½·C·V² = 0.135 J.
         let i = inrush_peak(Volts::new(24.0), Ohms::new(0.5)).unwrap();
         assert!((i.value() - 48.0).abs() < 1e-4);
@@ -224,6 +226,7 @@ mod tests {
                 .abs()
                 < 1e-5
         );
+        // Textbook, from memory: i = C·dv/dt.
         // 0.13 A into 200 pF: 0.65 V/ns; 48 V in 73.8 ns.
         let s = slew_rate(Amps::new(0.13), Farads::new(200e-12)).unwrap();
         assert!((s.value() - 6.5e8).abs() < 1e3);
@@ -243,6 +246,8 @@ mod tests {
         let op = crate::OperatingPoint::new(Volts::new(24.0), crate::Celsius::new(20.0));
         let r = c.release(&op, Amps::new(0.13)).unwrap();
         let e = r.switch_off_edge(Farads::new(100e-12)).unwrap();
+        // Textbook, from memory: i = C·dv/dt, the coil current charging the node capacitance
+        // up to supply + diode drop (24.8 V).
         assert!((e.slew_rate.value() - 1.3e9).abs() < 1e3);
         assert!((e.rise_time.value() - 100e-12 * 24.8 / 0.13).abs() < 1e-12);
     }

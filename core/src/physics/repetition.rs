@@ -42,6 +42,7 @@ mod tests {
     fn power_rate_and_period_are_consistent() {
         let e = Joules::new(0.004);
         let p = clamp_average_power(e, Hertz::new(10.0)).unwrap();
+        // Textbook, from memory: average power = energy per pulse × repetition rate.
         assert!((p.value() - 0.04).abs() < 1e-7);
         let f = max_repetition_rate(e, Watts::new(0.5)).unwrap().unwrap();
         assert!((f.value() - 125.0).abs() < 1e-3);

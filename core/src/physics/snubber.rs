@@ -632,6 +632,8 @@ mod tests {
         let e = s.energy();
         let lhs = e.snubber_resistor.value() + e.winding.value();
         let rhs = e.stored.value() + e.capacitor.value();
+        // Textbook, from memory: conservation of energy; one series current through both
+        // resistances splits the loss in proportion to resistance.
         assert!((lhs - rhs).abs() < 1e-6 * rhs);
         assert!((e.snubber_resistor.value() / e.winding.value() - 1000.0 / 181.0).abs() < 1e-4);
         // The snubber-resistor share, integrated from the closed-form current (trapezoid, f64).
