@@ -8,7 +8,7 @@
 //!
 //! Section 1: the start-up diagnostic pulse (`Probe`, 50 % of pull-in at the fastest corner),
 //! 64 samples, judged twice — knowing only the design's ranges, and knowing the supply (±1 %) and
-//! the winding temperature (board sensor, ±5 K). Section 2: full actuations with a moving or a
+//! the winding temperature (a board reading up to ±4 K off, used as a ±5 K window). Section 2: full actuations with a moving or a
 //! stuck armature, 160 samples.
 //!
 //! Fault models (textbook, from memory): shorted turns remove a fraction f of the turns, so
@@ -361,7 +361,7 @@ fn diagnostic_pulse_campaign() {
         &ranges_only,
     );
     print_matrix(
-        "B. supply measured (+-1 %) and winding temperature known (+-5 K)",
+        "B. supply measured (+-1 %), winding temperature from a board reading (+-4 K off, +-5 K window)",
         &known,
     );
     println!(
