@@ -124,7 +124,8 @@ impl LeastSquaresProblem<f64, Dyn, U2> for RiseProblem<'_> {
 }
 
 /// RMS relative error of (I∞, τ) over `m` seeded traces, for each estimator.
-fn campaign(c: &Case, m: usize) -> Vec<(&'static str, f64, f64)> {
+/// The sample times of a case and the scale the estimator is told (1 count = 1 A, noise known).
+fn sampled(c: &Case) -> (Vec<f64>, Sampling) {
     let t = times(c);
     let dt = t[1] - t[0];
     let sampling = Sampling::new(Seconds::new(dt as f32), 1.0)
@@ -133,6 +134,11 @@ fn campaign(c: &Case, m: usize) -> Vec<(&'static str, f64, f64)> {
         .unwrap()
         .with_noise(c.sigma as f32)
         .unwrap();
+    (t, sampling)
+}
+
+fn campaign(c: &Case, m: usize) -> Vec<(&'static str, f64, f64)> {
+    let (t, sampling) = sampled(c);
     let mut rng = Rng::new(0x5eed_0001 ^ c.n as u64);
     let labels: [(&'static str, Option<u8>); 5] = [
         ("one pass (0 refinements)", Some(0)),
@@ -231,14 +237,7 @@ fn estimator_is_close_to_the_cramer_rao_bound() {
 #[test]
 fn reported_error_figures_match_the_observed_spread() {
     for c in [&CASES[0], &CASES[2]] {
-        let t = times(c);
-        let dt = t[1] - t[0];
-        let sampling = Sampling::new(Seconds::new(dt as f32), 1.0)
-            .unwrap()
-            .with_first_sample(Seconds::new(dt as f32))
-            .unwrap()
-            .with_noise(c.sigma as f32)
-            .unwrap();
+        let (t, sampling) = sampled(c);
         let mut rng = Rng::new(0xc0_44e1 ^ c.n as u64);
         let m = 2000;
         let (slope_true, tau_true) = (c.i_inf / TAU, TAU);
