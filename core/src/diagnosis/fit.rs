@@ -191,6 +191,89 @@ fn sum_kappa2(k0: f32, m: f32) -> f32 {
     m * k0 * k0 + k0 * m * (m - 1.0) + (m - 1.0) * m * (2.0 * m - 1.0) / 6.0
 }
 
+/// The five running sums of the survey: S (Σc), R (ΣS), Q (ΣR), P (ΣS²) and C (Σc²).
+struct Sums {
+    s: f32,
+    r: f32,
+    q: f32,
+    p: f32,
+    c: f32,
+}
+
+impl Sums {
+    /// The sums after the first sample `c0`.
+    fn new(c0: f32) -> Self {
+        Self {
+            s: c0,
+            r: c0,
+            q: c0,
+            p: c0 * c0,
+            c: c0 * c0,
+        }
+    }
+
+    /// Adds the next sample `c`: five flops.
+    #[inline(always)]
+    fn add(&mut self, c: f32) {
+        self.s += c;
+        self.r += self.s;
+        self.q += self.r;
+        self.p += self.s * self.s;
+        self.c += c * c;
+    }
+}
+
+/// Smallest count that reads as saturated, `⌈full⌉` limited to the `i32` range: for counts of at
+/// most 2¹⁶ in magnitude, `x ≥ count_limit(full)` exactly when `x as f32 ≥ full`.
+fn count_limit(full: f32) -> i32 {
+    // `as` saturates (and +∞ goes to i32::MAX, above every exact count).
+    let t = full as i32;
+    if (t as f32) < full {
+        t.saturating_add(1)
+    } else {
+        t
+    }
+}
+
+/// The survey loop for exact integer counts ([`Sample::EXACT_COUNT`]): the sums of
+/// `head, tail…` above `zero`, the last count, and a word that is negative exactly when some
+/// count is below its predecessor (the OR of the differences; no compare per sample).
+fn count_pass<S: Sample>(head: S, tail: &[S], zero: f32) -> (Sums, i32, i32) {
+    let mut sums = Sums::new(head.to_f32() - zero);
+    let (mut last, mut dips) = (head.to_count(), 0i32);
+    let mut step = |v: S| {
+        let x = v.to_count();
+        dips |= x.wrapping_sub(last);
+        last = x;
+        sums.add(v.to_f32() - zero);
+    };
+    // Two samples per loop turn halve the loop overhead; the arithmetic is the same.
+    let mut pairs = tail.chunks_exact(2);
+    for pair in &mut pairs {
+        step(pair[0]);
+        step(pair[1]);
+    }
+    for &v in pairs.remainder() {
+        step(v);
+    }
+    (sums, last, dips)
+}
+
+/// The largest count of `head, tail…` and the largest drop below the running maximum (counts);
+/// run only for a trace that falls somewhere.
+fn count_extent<S: Sample>(head: S, tail: &[S]) -> (i32, i32) {
+    let (mut hi, mut drop) = (head.to_count(), 0i32);
+    for v in tail {
+        let x = v.to_count();
+        if x >= hi {
+            hi = x;
+        } else if hi.wrapping_sub(x) > drop {
+            drop = hi.wrapping_sub(x);
+        }
+    }
+    (hi, drop)
+}
+
 fn survey<S: Sample>(samples: &[S], sampling: &Sampling) -> Result<Survey, TraceFault> {
     let n = samples.len();
     let zero = sampling.zero();
@@ -211,38 +294,70 @@ fn survey<S: Sample>(samples: &[S], sampling: &Sampling) -> Result<Survey, Trace
     // sum of the least-squares problem then follows from five running sums, S (Σc), R (ΣS),
     // Q (ΣR), P (ΣS²) and C (Σc²), by summation by parts (see below): five flops per sample.
     let c0 = x - zero;
-    let (mut s_sum, mut r_sum, mut q_sum) = (c0, c0, c0);
-    let (mut p_sum, mut c_sum) = (c0 * c0, c0 * c0);
-    let (mut hi, mut drop) = (c0, 0.0f32);
-    let mut truncated = false;
-    let mut rest = tail.iter();
-    while let Some(v) = rest.next() {
-        let x = v.to_f32();
-        if !S::IS_INTEGER && !x.is_finite() {
-            return Err(TraceFault::NotFinite {
-                index: (n - rest.len() - 1) as u32,
-            });
-        }
-        if x >= full {
+    let (sums, hi, drop, used, truncated) = if S::EXACT_COUNT {
+        // Integer counts: saturation, running maximum and largest drop on the counts themselves
+        // (exact). Saturation needs no test per sample: a saturated sample raises the maximum to
+        // the limit, and then the pass is redone on the window before the first one.
+        let limit = count_limit(full);
+        let mut window = tail;
+        let mut truncated = false;
+        let (sums, hi, drop) = loop {
+            let (sums, last, dips) = count_pass(*head, window, zero);
+            // A trace that never falls has its maximum at the end and no drop.
+            let (hi, drop) = if dips < 0 {
+                count_extent(*head, window)
+            } else {
+                (last, 0)
+            };
+            if hi < limit || truncated {
+                break (sums, hi, drop);
+            }
+            let k = window
+                .iter()
+                .position(|v| v.to_count() >= limit)
+                .unwrap_or(window.len());
+            window = window.get(..k).unwrap_or(&[]);
             truncated = true;
-            break;
+        };
+        let used = window.len() + 1;
+        (sums, hi as f32 - zero, drop as f32, used, truncated)
+    } else {
+        let mut sums = Sums::new(c0);
+        let (mut hi, mut drop) = (c0, 0.0f32);
+        let mut truncated = false;
+        let mut rest = tail.iter();
+        while let Some(v) = rest.next() {
+            let x = v.to_f32();
+            if !S::IS_INTEGER && !x.is_finite() {
+                return Err(TraceFault::NotFinite {
+                    index: (n - rest.len() - 1) as u32,
+                });
+            }
+            if x >= full {
+                truncated = true;
+                break;
+            }
+            let c = x - zero;
+            sums.add(c);
+            // Plain compares: `f32::max` may become a library call on the target.
+            if c > hi {
+                hi = c;
+            }
+            let fall = hi - c;
+            if fall > drop {
+                drop = fall;
+            }
         }
-        let c = x - zero;
-        s_sum += c;
-        r_sum += s_sum;
-        q_sum += r_sum;
-        p_sum += s_sum * s_sum;
-        c_sum += c * c;
-        // Plain compares: `f32::max` may become a library call on the target.
-        if c > hi {
-            hi = c;
-        }
-        let fall = hi - c;
-        if fall > drop {
-            drop = fall;
-        }
-    }
-    let used = if truncated { n - rest.len() - 1 } else { n };
+        let used = if truncated { n - rest.len() - 1 } else { n };
+        (sums, hi, drop, used, truncated)
+    };
+    let Sums {
+        s: s_sum,
+        r: r_sum,
+        q: q_sum,
+        p: p_sum,
+        c: c_sum,
+    } = sums;
     if used < MIN_SAMPLES {
         return Err(if truncated {
             TraceFault::SaturatedEarly { index: used as u32 }
@@ -690,6 +805,63 @@ pub(crate) mod tests {
         assert_eq!(sqrt(-1.0), 0.0);
         assert_eq!(sqrt(f32::NAN), 0.0);
         assert_eq!(sqrt(f32::INFINITY), f32::INFINITY);
+    }
+
+    #[test]
+    fn integer_check_matches_the_float_check() {
+        // u16 takes the integer survey (EXACT_COUNT), u32 the f32 one: same counts, same result,
+        // for rising, dithered, falling, saturating and too-short traces.
+        let sm = Sampling::adc(Seconds::new(1.0e-4), 12, Amps::new(0.4095))
+            .unwrap()
+            .with_zero(37.0)
+            .unwrap()
+            .with_noise(0.6)
+            .unwrap();
+        let o = FitOptions::default();
+        let rise = model(3000.0, 2.0e-3, 1.0e-4, 0.0, 64);
+        let mut traces: Vec<Vec<u16>> = Vec::new();
+        for (i_inf, dither) in [
+            (3000.0f32, 0.0f32),
+            (3000.0, 1.6),
+            (8000.0, 0.7),
+            (30.0, 0.9),
+        ] {
+            traces.push(
+                rise.iter()
+                    .enumerate()
+                    .map(|(k, &c)| {
+                        let d = dither * [0.3f32, -0.9, 0.1, -0.6, 0.8][k % 5];
+                        (c * i_inf / 3000.0 + 37.0 + d).round().clamp(0.0, 4095.0) as u16
+                    })
+                    .collect(),
+            );
+        }
+        let mut dip = traces[0].clone();
+        dip[40] -= 300;
+        traces.push(dip);
+        let mut early = traces[0].clone();
+        early[3] = 4095;
+        traces.push(early);
+        let mut late = traces[1].clone();
+        late[50] = 4095;
+        late[60] = 10;
+        traces.push(late);
+        traces.push(traces[1][..5].to_vec());
+        for t in &traces {
+            let wide: Vec<u32> = t.iter().map(|&c| u32::from(c)).collect();
+            assert_eq!(fit_rise(t, &sm, &o), fit_rise(&wide, &sm, &o), "{t:?}");
+        }
+        assert!(fit_rise(&traces[1], &sm, &o).is_ok());
+        assert!(fit_rise(&traces[2], &sm, &o).unwrap().quality.truncated);
+        assert!(matches!(
+            fit_rise(&traces[4], &sm, &o),
+            Err(TraceFault::NotMonotone { index: 40 })
+        ));
+        assert_eq!(
+            fit_rise(&traces[5], &sm, &o),
+            Err(TraceFault::SaturatedEarly { index: 3 })
+        );
+        assert_eq!(fit_rise(&traces[6], &sm, &o).unwrap().quality.samples, 50);
     }
 
     #[test]

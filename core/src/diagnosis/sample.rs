@@ -11,20 +11,37 @@ pub trait Sample: Copy {
     const IS_INTEGER: bool;
     /// The sample as an `f32` (count or amperes; may be NaN/∞ for float samples).
     fn to_f32(self) -> f32;
+    /// Whether every value of the type is an integer of magnitude at most 2¹⁶, so that
+    /// [`Sample::to_count`] and [`Sample::to_f32`] both give it exactly (`u8`, `u16`, `i16`).
+    /// The fit then checks the trace in integer arithmetic. Default `false`.
+    const EXACT_COUNT: bool = false;
+    /// The sample as an integer count; exact when [`Sample::EXACT_COUNT`] holds, otherwise
+    /// unused by the crate (the default returns 0).
+    #[inline]
+    fn to_count(self) -> i32 {
+        0
+    }
 }
 
 macro_rules! sample_int {
-    ($($t:ty),*) => {$(
+    ($exact:literal: $($t:ty),*) => {$(
         impl Sample for $t {
             const IS_INTEGER: bool = true;
             #[inline]
             fn to_f32(self) -> f32 {
                 self as f32
             }
+            const EXACT_COUNT: bool = $exact;
+            #[inline]
+            fn to_count(self) -> i32 {
+                // Lossless for the exact types; wraps for large u32, whose EXACT_COUNT is false.
+                self as i32
+            }
         }
     )*};
 }
-sample_int!(u8, u16, u32, i16, i32);
+sample_int!(true: u8, u16, i16);
+sample_int!(false: u32, i32);
 
 impl Sample for f32 {
     const IS_INTEGER: bool = false;
