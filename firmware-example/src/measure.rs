@@ -23,6 +23,7 @@
 
 use core::arch::asm;
 use core::hint::black_box;
+use core::sync::atomic::{AtomicU32, Ordering};
 
 use crate::ticks::SysTickClock;
 
@@ -226,6 +227,39 @@ fn stack_depth(f: &mut dyn FnMut()) -> u32 {
 /// scans RAM painted by the last [`Meter`] measurement (or by [`paint_free_stack`]).
 pub fn stack_peak_bytes() -> u32 {
     stack_top().saturating_sub(lowest_dirty_word())
+}
+
+/// Lowest stack pointer seen on entry to a method of the hardware seam ([`note_seam_sp`]);
+/// `u32::MAX` until the first call.
+static SEAM_SP: AtomicU32 = AtomicU32::new(u32::MAX);
+
+/// Records the current stack pointer if it is the lowest seen so far at the hardware seam.
+///
+/// Called first in every method of a board's seam implementation (`src/board/`), inlined there,
+/// so that the stack pointer read is the caller's: the frames of the application (and of the
+/// embedded-hal default methods it uses) are all below it, the board's own work is not. Plain
+/// load and store (thumbv6m has no atomic read-modify-write): the firmware calls the seam from
+/// its main loop only.
+#[inline(always)]
+pub fn note_seam_sp() {
+    let sp: u32;
+    // SAFETY: copies the stack pointer into a register; touches neither memory nor flags.
+    unsafe { asm!("mov {}, sp", out(reg) sp, options(nomem, nostack, preserves_flags)) };
+    if sp < SEAM_SP.load(Ordering::Relaxed) {
+        SEAM_SP.store(sp, Ordering::Relaxed);
+    }
+}
+
+/// Stack the application used above the hardware seam, in bytes below the initial stack
+/// pointer: the deepest point at which it called into the board ([`note_seam_sp`]). `None` when
+/// no seam method has been called.
+///
+/// A lower bound of what the application needs on a real board: the seam method's own frame on
+/// that board comes on top, and stack that the application uses only between seam calls (a
+/// calculation that calls no seam method, logging) is not seen here.
+pub fn stack_app_bytes() -> Option<u32> {
+    let sp = SEAM_SP.load(Ordering::Relaxed);
+    (sp != u32::MAX).then(|| stack_top().saturating_sub(sp))
 }
 
 /// Initial stack pointer (top of RAM), from the vector table.

@@ -16,6 +16,9 @@
 //!   timer-triggered ADC with DMA would). The comparator latches the first crossing of its level
 //!   after each switch-on.
 //! - A fault script injects faults and supply changes at set times ([`Happening`]).
+//! - Every seam method records the stack pointer it is called with
+//!   ([`crate::measure::note_seam_sp`]) before handing over to the plant, so the firmware can
+//!   report the application's stack without the plant's.
 //! - [`monitor::Monitor`] watches the edges the pins really made and what the plant did, and
 //!   reports every broken constraint: the independent check of the scheduler's output.
 
@@ -35,6 +38,7 @@ use embedded_hal::digital::{ErrorType, OutputPin};
 use embedded_hal::pwm::SetDutyCycle;
 
 use crate::hw::{Capture, Crossing, CurrentSense, SenseErrorKind, SensePlan, SenseScale};
+use crate::measure::note_seam_sp;
 use crate::scenario::{Rail, CHANNELS, TICK_HZ};
 use crate::ticks::TickSource;
 use monitor::{DriveState, Monitor, PlantView};
@@ -449,18 +453,31 @@ impl ErrorType for SimSwitch<'_> {
     type Error = Infallible;
 }
 
-impl OutputPin for SimSwitch<'_> {
-    fn set_low(&mut self) -> Result<(), Infallible> {
+impl SimSwitch<'_> {
+    #[inline(never)]
+    fn set(&mut self, high: bool) {
         let mut p = self.board.plant.borrow_mut();
         let duty = p.duty[self.ch];
-        p.set_drive(self.ch, false, duty);
+        p.set_drive(self.ch, high, duty);
+    }
+}
+
+// Every seam method below starts with `note_seam_sp` and is inlined into its caller, so the
+// stack pointer recorded is the application's; the plant's work stays out of line (see
+// `crate::measure::stack_app_bytes`).
+
+impl OutputPin for SimSwitch<'_> {
+    #[inline(always)]
+    fn set_low(&mut self) -> Result<(), Infallible> {
+        note_seam_sp();
+        self.set(false);
         Ok(())
     }
 
+    #[inline(always)]
     fn set_high(&mut self) -> Result<(), Infallible> {
-        let mut p = self.board.plant.borrow_mut();
-        let duty = p.duty[self.ch];
-        p.set_drive(self.ch, true, duty);
+        note_seam_sp();
+        self.set(true);
         Ok(())
     }
 }
@@ -476,16 +493,27 @@ impl embedded_hal::pwm::ErrorType for SimHold<'_> {
     type Error = Infallible;
 }
 
-impl SetDutyCycle for SimHold<'_> {
-    fn max_duty_cycle(&self) -> u16 {
-        PWM_MAX_DUTY
-    }
-
-    fn set_duty_cycle(&mut self, duty: u16) -> Result<(), Infallible> {
+impl SimHold<'_> {
+    #[inline(never)]
+    fn set(&mut self, duty: u16) {
         self.duty = duty.min(PWM_MAX_DUTY);
         let mut p = self.board.plant.borrow_mut();
         let pin = p.pin[self.ch];
         p.set_drive(self.ch, pin, self.duty);
+    }
+}
+
+impl SetDutyCycle for SimHold<'_> {
+    #[inline(always)]
+    fn max_duty_cycle(&self) -> u16 {
+        note_seam_sp();
+        PWM_MAX_DUTY
+    }
+
+    #[inline(always)]
+    fn set_duty_cycle(&mut self, duty: u16) -> Result<(), Infallible> {
+        note_seam_sp();
+        self.set(duty);
         Ok(())
     }
 }
@@ -496,11 +524,9 @@ pub struct SimSense<'a> {
     ch: usize,
 }
 
-impl CurrentSense for SimSense<'_> {
-    type Error = SenseErrorKind;
-    const MAX_SAMPLES: usize = MAX_SAMPLES;
-
-    fn scale(&self) -> SenseScale {
+impl SimSense<'_> {
+    #[inline(never)]
+    fn scale_sim(&self) -> SenseScale {
         let p = self.board.plant.borrow();
         SenseScale {
             amps_per_count: p.adc[self.ch].amps_per_count() as f32,
@@ -509,7 +535,8 @@ impl CurrentSense for SimSense<'_> {
         }
     }
 
-    fn sample_now(&mut self) -> Result<u16, SenseErrorKind> {
+    #[inline(never)]
+    fn sample_now_sim(&mut self) -> Result<u16, SenseErrorKind> {
         let mut p = self.board.plant.borrow_mut();
         let amps = p.benches[self.ch]
             .as_ref()
@@ -520,7 +547,8 @@ impl CurrentSense for SimSense<'_> {
         Ok(adc[ch].convert(amps, &mut rng[ch]))
     }
 
-    fn arm(&mut self, plan: &SensePlan) -> Result<(), SenseErrorKind> {
+    #[inline(never)]
+    fn arm_sim(&mut self, plan: &SensePlan) -> Result<(), SenseErrorKind> {
         if plan.samples > MAX_SAMPLES {
             return Err(SenseErrorKind::BufferLength);
         }
@@ -556,7 +584,8 @@ impl CurrentSense for SimSense<'_> {
         Ok(())
     }
 
-    fn samples(&mut self, out: &mut [u16]) -> Result<Option<Capture>, SenseErrorKind> {
+    #[inline(never)]
+    fn samples_sim(&mut self, out: &mut [u16]) -> Result<Option<Capture>, SenseErrorKind> {
         let p = self.board.plant.borrow();
         let c = &p.capture[self.ch];
         if c.started.is_none() || c.taken < c.plan.samples {
@@ -572,7 +601,8 @@ impl CurrentSense for SimSense<'_> {
         }))
     }
 
-    fn crossing(&mut self) -> Result<Crossing, SenseErrorKind> {
+    #[inline(never)]
+    fn crossing_sim(&mut self) -> Result<Crossing, SenseErrorKind> {
         let p = self.board.plant.borrow();
         let s = p.benches[self.ch]
             .as_ref()
@@ -586,27 +616,80 @@ impl CurrentSense for SimSense<'_> {
     }
 }
 
+impl CurrentSense for SimSense<'_> {
+    type Error = SenseErrorKind;
+    const MAX_SAMPLES: usize = MAX_SAMPLES;
+
+    #[inline(always)]
+    fn scale(&self) -> SenseScale {
+        note_seam_sp();
+        self.scale_sim()
+    }
+
+    #[inline(always)]
+    fn sample_now(&mut self) -> Result<u16, SenseErrorKind> {
+        note_seam_sp();
+        self.sample_now_sim()
+    }
+
+    #[inline(always)]
+    fn arm(&mut self, plan: &SensePlan) -> Result<(), SenseErrorKind> {
+        note_seam_sp();
+        self.arm_sim(plan)
+    }
+
+    #[inline(always)]
+    fn samples(&mut self, out: &mut [u16]) -> Result<Option<Capture>, SenseErrorKind> {
+        note_seam_sp();
+        self.samples_sim(out)
+    }
+
+    #[inline(always)]
+    fn crossing(&mut self) -> Result<Crossing, SenseErrorKind> {
+        note_seam_sp();
+        self.crossing_sim()
+    }
+}
+
 /// Simulated time as a [`TickSource`] (1 µs ticks) and a [`DelayNs`] that advances the plant.
 pub struct SimClock<'a> {
     board: &'a SimBoard,
 }
 
+impl SimClock<'_> {
+    #[inline(never)]
+    fn now_sim(&self) -> Instant {
+        // Truncation to the wrapping 32-bit counter is the intent.
+        Instant((self.board.plant.borrow().now_ns / NS_PER_TICK) as u32)
+    }
+
+    #[inline(never)]
+    fn delay_sim(&mut self, ns: u32) {
+        let mut p = self.board.plant.borrow_mut();
+        let t = p.now_ns + u64::from(ns);
+        p.advance_to(t);
+    }
+}
+
 impl TickSource for SimClock<'_> {
+    #[inline(always)]
     fn rate(&self) -> TickRate {
+        note_seam_sp();
         TickRate::new(TICK_HZ).unwrap_or_else(|_| crate::exit(crate::status::CHECK_FAILED))
     }
 
+    #[inline(always)]
     fn now(&self) -> Instant {
-        // Truncation to the wrapping 32-bit counter is the intent.
-        Instant((self.board.plant.borrow().now_ns / NS_PER_TICK) as u32)
+        note_seam_sp();
+        self.now_sim()
     }
 }
 
 impl DelayNs for SimClock<'_> {
+    #[inline(always)]
     fn delay_ns(&mut self, ns: u32) {
-        let mut p = self.board.plant.borrow_mut();
-        let t = p.now_ns + u64::from(ns);
-        p.advance_to(t);
+        note_seam_sp();
+        self.delay_sim(ns);
     }
 }
 
