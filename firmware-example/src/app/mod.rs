@@ -613,6 +613,7 @@ where
 
     /// Takes channel `i` out of service after a fault: ends its pulse as soon as allowed and
     /// drops its queued pulses.
+    #[inline(never)]
     fn isolate(&mut self, i: usize, f: Finding) -> Result<(), AppError> {
         self.ch[i].health = Health::Isolated(f);
         let now = self.clock.now();
@@ -671,6 +672,7 @@ where
     }
 
     /// Applies one scheduler edge to the pins.
+    #[inline(never)]
     fn apply(&mut self, e: &PinEvent) -> Result<(), AppError> {
         let i = usize::from(e.channel.0);
         let (ms, us) = self.stamp(e.at);
@@ -809,6 +811,7 @@ where
     }
 
     /// Handles programme step `index`.
+    #[inline(never)]
     fn request(&mut self, index: usize, s: &Step, obs: &mut impl Observer) -> Result<(), AppError> {
         let now = self.clock.now();
         let i = s.channel.min(N - 1);
