@@ -55,6 +55,8 @@ pub const PROBE_FRACTION: f32 = 0.5;
 pub const TRIP_FRACTION: f32 = 0.5;
 /// Converter readings averaged for the zero offset at start-up.
 const ZERO_READINGS: u32 = 16;
+/// Edges taken from the scheduler per poll.
+const EDGES: usize = 8;
 /// Hold PWM frequency the economiser duty is computed for, Hz (the board's PWM carrier).
 pub const HOLD_HZ: f32 = 2_000.0;
 
@@ -195,6 +197,8 @@ pub struct Controller<'s, Sw, Pwm, Sense, Clk, const N: usize> {
     criteria: Criteria,
     options: FitOptions,
     buf: [u16; SAMPLES],
+    /// The edges of one scheduler poll (here rather than on [`Self::run`]'s stack).
+    edges: heapless::Vec<PinEvent, EDGES>,
 }
 
 fn rail_index(r: Rail) -> usize {
@@ -274,6 +278,49 @@ fn chan(spec: &ChannelSpec, i: usize, now: Instant) -> Result<Chan, AppError> {
     })
 }
 
+/// The sampling description of a capture: `period` and `first` sample time, A per count, zero
+/// offset and noise in counts, a 12-bit converter (out of line: built after the board calls, its
+/// temporaries stay out of the callers' frames).
+#[inline(never)]
+fn sampling_of(
+    period: Seconds,
+    first: Seconds,
+    amps_per_count: f32,
+    zero: f32,
+    noise_counts: f32,
+) -> Result<Sampling, coilwise::Error> {
+    Sampling::new(period, amps_per_count)
+        .and_then(|s| s.with_first_sample(first))
+        .and_then(|s| s.with_zero(zero))
+        .and_then(|s| s.with_full_scale(4095.0))
+        .and_then(|s| s.with_noise(noise_counts))
+}
+
+/// Self-check part 1: the core's calculations against reference values, each logged (out of
+/// line: the computed values stay out of [`Controller::self_check`]'s frame, which calls into the
+/// board). Returns whether every value holds.
+#[inline(never)]
+fn core_holds() -> bool {
+    defmt::info!("self-check 1/2: core calculations against reference values");
+    let mut ok = true;
+    for v in vectors::compute().iter() {
+        if v.holds() {
+            defmt::info!("  ok   {=str}: {=f32} [{=str}]", v.what, v.got, v.source);
+        } else {
+            defmt::error!(
+                "  FAIL {=str}: {=f32}, expected {=f32} +- {=f32} [{=str}]",
+                v.what,
+                v.got,
+                v.want,
+                v.tolerance,
+                v.source
+            );
+            ok = false;
+        }
+    }
+    ok
+}
+
 impl<'s, Sw, Pwm, Sense, Clk, const N: usize> Controller<'s, Sw, Pwm, Sense, Clk, N>
 where
     Sw: OutputPin,
@@ -317,6 +364,7 @@ where
             addr_of_mut!((*p).criteria).write(Criteria::default());
             addr_of_mut!((*p).options).write(FitOptions::default());
             addr_of_mut!((*p).buf).write([0; SAMPLES]);
+            addr_of_mut!((*p).edges).write(heapless::Vec::new());
             Ok(&mut *p)
         }
     }
@@ -393,24 +441,7 @@ where
     /// hardware errors.
     #[inline(never)]
     pub fn self_check(&mut self, obs: &mut impl Observer) -> Result<usize, AppError> {
-        defmt::info!("self-check 1/2: core calculations against reference values");
-        let mut ok = true;
-        for v in vectors::compute().iter() {
-            if v.holds() {
-                defmt::info!("  ok   {=str}: {=f32} [{=str}]", v.what, v.got, v.source);
-            } else {
-                defmt::error!(
-                    "  FAIL {=str}: {=f32}, expected {=f32} +- {=f32} [{=str}]",
-                    v.what,
-                    v.got,
-                    v.want,
-                    v.tolerance,
-                    v.source
-                );
-                ok = false;
-            }
-        }
-        if !ok {
+        if !core_holds() {
             defmt::error!(
                 "self-check: the core's arithmetic is wrong on this device; no coil will be driven"
             );
@@ -421,9 +452,14 @@ where
         );
         for i in 0..N {
             self.measure_zero(i)?;
-            let v = self.probe(i)?;
+            // Borrowed in place: moving the verdict out of the `Result` would copy it.
+            let probed = self.probe(i);
+            let v = match &probed {
+                Ok(v) => v,
+                Err(e) => return Err(*e),
+            };
             let at = self.clock.now();
-            self.log_verdict(i, Kind::Probe, &v, None);
+            self.log_verdict(i, Kind::Probe, v, None);
             obs.verdict(&Report {
                 at,
                 channel: i,
@@ -490,12 +526,14 @@ where
     fn sampling(&self, i: usize, first: Ticks, period: Ticks) -> Result<Sampling, AppError> {
         let rate = self.clock.rate();
         let apc = self.hw[i].sense.scale().amps_per_count;
-        Sampling::new(rate.seconds(period), apc)
-            .and_then(|s| s.with_first_sample(rate.seconds(first)))
-            .and_then(|s| s.with_zero(self.ch[i].zero))
-            .and_then(|s| s.with_full_scale(4095.0))
-            .and_then(|s| s.with_noise(self.specs[i].sense.noise_counts))
-            .map_err(|e| AppError::Design(i, e))
+        sampling_of(
+            rate.seconds(period),
+            rate.seconds(first),
+            apc,
+            self.ch[i].zero,
+            self.specs[i].sense.noise_counts,
+        )
+        .map_err(|e| AppError::Design(i, e))
     }
 
     /// One diagnostic pulse on channel `i` (blocking, about a millisecond): sampled across the
@@ -810,6 +848,69 @@ where
         w.cause == WakeCause::KeepAlive || w.at.is_at_or_after(until)
     }
 
+    /// Channel `i`'s rail `r` is flagged low: re-checks it with a diagnostic pulse when the coil
+    /// is at rest and nothing else is due (out of line: the verdict stays out of
+    /// [`Self::request`]'s frame). Returns whether the request goes ahead; when not, its outcome
+    /// has been reported.
+    #[inline(never)]
+    fn recheck_rail(
+        &mut self,
+        index: usize,
+        i: usize,
+        r: usize,
+        now: Instant,
+        obs: &mut impl Observer,
+    ) -> Result<bool, AppError> {
+        let c = &self.ch[i];
+        let window = now.after(c.probe.length).after(Ticks(1000));
+        if c.rise.is_some() || !now.is_at_or_after(c.rest_at) || !self.quiet_until(window) {
+            defmt::warn!("  refused: supply rail low and the coil is busy, cannot re-check now");
+            obs.request(index, &Outcome::SupplyLow);
+            return Ok(false);
+        }
+        defmt::info!("  supply rail flagged low: re-checking with a diagnostic pulse first");
+        // Borrowed in place, as in `self_check`.
+        let probed = self.probe(i);
+        let v = match &probed {
+            Ok(v) => v,
+            Err(e) => return Err(*e),
+        };
+        self.log_verdict(i, Kind::Probe, v, None);
+        obs.verdict(&Report {
+            at: now,
+            channel: i,
+            kind: Kind::Probe,
+            finding: v.finding,
+        });
+        match v.finding {
+            Finding::Healthy => {
+                self.rail_low[r] = false;
+                defmt::info!(
+                    "  {} rail back in range: request goes ahead",
+                    self.specs[i].rail
+                );
+            }
+            Finding::SupplyLow | Finding::CannotTell(_) => {
+                defmt::warn!("  refused: supply still low");
+                obs.request(index, &Outcome::SupplyLow);
+                return Ok(false);
+            }
+            f => {
+                self.isolate(i, f)?;
+                obs.request(index, &Outcome::Isolated);
+                return Ok(false);
+            }
+        }
+        Ok(true)
+    }
+
+    /// The scheduler's admission of `req` (out of line: its working state stays out of
+    /// [`Self::request`]'s frame, which calls into the board).
+    #[inline(never)]
+    fn submit(&mut self, now: Instant, req: Request) -> Result<Admission, Refusal> {
+        self.sched.submit(now, req)
+    }
+
     /// Handles programme step `index`.
     #[inline(never)]
     fn request(&mut self, index: usize, s: &Step, obs: &mut impl Observer) -> Result<(), AppError> {
@@ -836,44 +937,8 @@ where
             return Ok(());
         }
         let r = rail_index(self.specs[i].rail);
-        if self.rail_low[r] {
-            let c = &self.ch[i];
-            let window = now.after(c.probe.length).after(Ticks(1000));
-            if c.rise.is_some() || !now.is_at_or_after(c.rest_at) || !self.quiet_until(window) {
-                defmt::warn!(
-                    "  refused: supply rail low and the coil is busy, cannot re-check now"
-                );
-                obs.request(index, &Outcome::SupplyLow);
-                return Ok(());
-            }
-            defmt::info!("  supply rail flagged low: re-checking with a diagnostic pulse first");
-            let v = self.probe(i)?;
-            self.log_verdict(i, Kind::Probe, &v, None);
-            obs.verdict(&Report {
-                at: now,
-                channel: i,
-                kind: Kind::Probe,
-                finding: v.finding,
-            });
-            match v.finding {
-                Finding::Healthy => {
-                    self.rail_low[r] = false;
-                    defmt::info!(
-                        "  {} rail back in range: request goes ahead",
-                        self.specs[i].rail
-                    );
-                }
-                Finding::SupplyLow | Finding::CannotTell(_) => {
-                    defmt::warn!("  refused: supply still low");
-                    obs.request(index, &Outcome::SupplyLow);
-                    return Ok(());
-                }
-                f => {
-                    self.isolate(i, f)?;
-                    obs.request(index, &Outcome::Isolated);
-                    return Ok(());
-                }
-            }
+        if self.rail_low[r] && !self.recheck_rail(index, i, r, now, obs)? {
+            return Ok(());
         }
         let now = self.clock.now();
         let duration = Ticks(s.duration_ms * 1000);
@@ -899,7 +964,7 @@ where
         if let Some(w) = s.within_ms {
             req = req.within(Ticks(w * 1000));
         }
-        let outcome = match self.sched.submit(now, req) {
+        let outcome = match self.submit(now, req) {
             Ok(Admission::Accepted { start }) => {
                 let (ms, us) = self.stamp(start);
                 defmt::info!("  accepted: on at t={=u32}.{=u32:03} ms", ms, us);
@@ -960,16 +1025,16 @@ where
             programme.len()
         );
         let mut next = 0usize;
-        let mut edges: heapless::Vec<PinEvent, 8> = heapless::Vec::new();
         loop {
             let now = self.clock.now();
-            edges.clear();
+            self.edges.clear();
             let wake = self
                 .sched
-                .poll(now, &mut edges)
+                .poll(now, &mut self.edges)
                 .map_err(AppError::Schedule)?;
-            for e in edges.iter() {
-                self.apply(e)?;
+            for k in 0..self.edges.len() {
+                let e = self.edges[k];
+                self.apply(&e)?;
             }
             for i in 0..N {
                 self.collect(i, now, obs)?;
