@@ -29,17 +29,25 @@ type Ctl = Controller<
     CHANNELS,
 >;
 
-/// The scenario's channel designs, in static memory (out of line: the temporaries of building
-/// them stay out of `main`'s frame).
+/// The scenario's channel designs, built one by one straight into static memory (out of line:
+/// the temporaries of building them stay out of `main`'s frame).
 #[inline(never)]
 fn specs() -> Option<&'static [ChannelSpec; CHANNELS]> {
-    let Ok(specs) = scenario::channels() else {
-        defmt::error!("the scenario's designs are invalid");
-        return None;
-    };
-    let s: &'static [ChannelSpec; CHANNELS] =
-        cortex_m::singleton!(: [ChannelSpec; CHANNELS] = specs)?;
-    Some(s)
+    let slot = cortex_m::singleton!(
+        : MaybeUninit<[ChannelSpec; CHANNELS]> = MaybeUninit::uninit()
+    )?;
+    let first = slot.as_mut_ptr().cast::<ChannelSpec>();
+    for i in 0..CHANNELS {
+        let Some(Ok(spec)) = scenario::channel(i) else {
+            defmt::error!("the scenario's designs are invalid");
+            return None;
+        };
+        // SAFETY: `i < CHANNELS`, so `first.add(i)` is element `i` of the array in `slot`, which
+        // nothing else refers to (`slot` is borrowed mutably).
+        unsafe { first.add(i).write(spec) };
+    }
+    // SAFETY: every one of the `CHANNELS` elements was written above.
+    Some(unsafe { slot.assume_init_ref() })
 }
 
 /// Builds the board and the controller in static memory, out of line for the same reason.

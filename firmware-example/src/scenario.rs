@@ -231,49 +231,39 @@ pub fn pump_design() -> Result<DriverDesign, Error> {
     Ok(design)
 }
 
-/// The four channels of the controller, in channel order: valves A, B, C, pump relay.
+/// Channel `index` of the controller's four, in channel order: valves A, B, C, pump relay
+/// (`None` past the last). One at a time, so a caller can build the set in place (e.g. in a
+/// `static`) without a copy of all four on its stack.
 ///
 /// Valves hold at PWM after pull-in (economiser, invented: 55 % of the pull-in current); the
 /// pump relay runs at full drive and has a winding heat rating (invented: 0.6 W continuous,
 /// 3 s thermal time constant), so back-to-back pump runs meet the scheduler's thermal budget.
 #[inline(never)]
-pub fn channels() -> Result<[ChannelSpec; CHANNELS], Error> {
-    Ok([
-        ChannelSpec {
-            name: "valve A",
+pub fn channel(index: usize) -> Option<Result<ChannelSpec, Error>> {
+    let valve = |name, design: Result<DriverDesign, Error>, rise_period| {
+        design.map(|design| ChannelSpec {
+            name,
             rail: Rail::Valves24V,
-            design: valve_design(TICK_HZ)?,
+            design,
             sense: VALVE_SENSE,
             hold_fraction: Some(0.55),
             coil_rating: None,
-            rise_period: 100,
-        },
-        ChannelSpec {
-            name: "valve B",
-            rail: Rail::Valves24V,
-            design: valve_b_design()?,
-            sense: VALVE_SENSE,
-            hold_fraction: Some(0.55),
-            coil_rating: None,
-            rise_period: 100,
-        },
-        ChannelSpec {
-            name: "valve C",
-            rail: Rail::Valves24V,
-            design: valve_c_design()?,
-            sense: VALVE_SENSE,
-            hold_fraction: Some(0.55),
-            coil_rating: None,
-            rise_period: 80,
-        },
-        ChannelSpec {
+            rise_period,
+        })
+    };
+    Some(match index {
+        0 => valve("valve A", valve_design(TICK_HZ), 100),
+        1 => valve("valve B", valve_b_design(), 100),
+        2 => valve("valve C", valve_c_design(), 80),
+        3 => pump_design().map(|design| ChannelSpec {
             name: "pump relay",
             rail: Rail::Pump12V,
-            design: pump_design()?,
+            design,
             sense: PUMP_SENSE,
             hold_fraction: None,
             coil_rating: Some((0.6, 3.0)),
             rise_period: 8,
-        },
-    ])
+        }),
+        _ => return None,
+    })
 }

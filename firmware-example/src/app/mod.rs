@@ -239,7 +239,8 @@ fn expected_of(spec: &ChannelSpec, i: usize) -> Result<Expected, AppError> {
 }
 
 /// Builds the scheduler for the channels at `ch` (`N` of them, initialised) and writes it to
-/// `dst` (out of line: its temporaries stay in this frame only).
+/// `dst` (out of line: the scheduler's one temporary copy, the returned `Result`, stays in this
+/// frame only).
 ///
 /// # Safety
 /// `ch` points to `N` initialised channels; `dst` is valid for writing a scheduler.
@@ -250,11 +251,29 @@ unsafe fn write_scheduler<const N: usize>(
     now: Instant,
 ) -> Result<(), AppError> {
     // SAFETY: the caller guarantees `N` initialised channels at `ch`.
+    match unsafe { new_scheduler::<N>(ch, now) } {
+        Ok(sched) => {
+            // SAFETY: the caller guarantees `dst` is valid for a write.
+            unsafe { dst.write(sched) };
+            Ok(())
+        }
+        Err(e) => Err(AppError::Limits(0, e)),
+    }
+}
+
+/// The scheduler for the channels at `ch` (out of line: the limits gathered for it and the
+/// scheduler's own set-up temporaries stay in this frame, not in [`write_scheduler`]'s).
+///
+/// # Safety
+/// `ch` points to `N` initialised channels.
+#[inline(never)]
+unsafe fn new_scheduler<const N: usize>(
+    ch: *const Chan,
+    now: Instant,
+) -> Result<Scheduler<N, QUEUE>, LimitsError> {
+    // SAFETY: the caller guarantees `N` initialised channels at `ch`.
     let limits: [ChannelLimits; N] = core::array::from_fn(|i| unsafe { (*ch.add(i)).limits });
-    let sched = Scheduler::new(limits, INRUSH_CAP, now).map_err(|e| AppError::Limits(0, e))?;
-    // SAFETY: the caller guarantees `dst` is valid for a write.
-    unsafe { dst.write(sched) };
-    Ok(())
+    Scheduler::new(limits, INRUSH_CAP, now)
 }
 
 /// What channel `i` needs from its design: scheduler limits, healthy bands, diagnostic pulse.
