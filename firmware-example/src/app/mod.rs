@@ -276,25 +276,39 @@ unsafe fn new_scheduler<const N: usize>(
     Scheduler::new(limits, INRUSH_CAP, now)
 }
 
-/// What channel `i` needs from its design: scheduler limits, healthy bands, diagnostic pulse.
+/// What channel `i` needs from its design: scheduler limits, healthy bands, diagnostic pulse,
+/// written to `dst` (out of line, and written in place rather than returned: no copy of the
+/// channel stays in the caller's frame). On an error `dst` is left unwritten.
+///
+/// # Safety
+/// `dst` is valid for writing a channel.
 #[inline(never)]
-fn chan(spec: &ChannelSpec, i: usize, now: Instant) -> Result<Chan, AppError> {
+unsafe fn write_chan(
+    dst: *mut Chan,
+    spec: &ChannelSpec,
+    i: usize,
+    now: Instant,
+) -> Result<(), AppError> {
     let limits = limits_of(spec, i)?;
     let expected = expected_of(spec, i)?;
     let probe = Probe::new(&spec.design, PROBE_FRACTION).map_err(|e| AppError::Design(i, e))?;
-    Ok(Chan {
-        health: Health::Ok,
-        limits,
-        expected,
-        probe,
-        band: None,
-        trip: 0,
-        zero: 0.0,
-        rise: None,
-        rest_at: now,
-        probe_rest_at: now,
-        pulses: 0,
-    })
+    // SAFETY: the caller guarantees `dst` is valid for a write.
+    unsafe {
+        dst.write(Chan {
+            health: Health::Ok,
+            limits,
+            expected,
+            probe,
+            band: None,
+            trip: 0,
+            zero: 0.0,
+            rise: None,
+            rest_at: now,
+            probe_rest_at: now,
+            pulses: 0,
+        })
+    };
+    Ok(())
 }
 
 /// The sampling description of a capture: `period` and `first` sample time, A per count, zero
@@ -370,8 +384,7 @@ where
         // `MaybeUninit` is simply never assumed initialised (no field needs dropping).
         let ch = unsafe { addr_of_mut!((*p).ch) }.cast::<Chan>();
         for (i, spec) in specs.iter().enumerate() {
-            let c = chan(spec, i, now)?;
-            unsafe { ch.add(i).write(c) };
+            unsafe { write_chan(ch.add(i), spec, i, now)? };
         }
         unsafe { write_scheduler(addr_of_mut!((*p).sched), ch, now)? };
         unsafe {
