@@ -238,6 +238,13 @@ fn expected_of(spec: &ChannelSpec, i: usize) -> Result<Expected, AppError> {
     Expected::new(&spec.design, &Conditions::default()).map_err(|e| AppError::Design(i, e))
 }
 
+/// The healthy crossing band of a channel's comparator set at `level` (out of line: its
+/// working state stays out of [`Controller::self_check`]'s frame, which calls into the board).
+#[inline(never)]
+fn band_of(spec: &ChannelSpec, level: Amps) -> Result<ThresholdBand, coilwise::Error> {
+    ThresholdBand::new(&spec.design, &Conditions::default(), level)
+}
+
 /// Builds the scheduler for the channels at `ch` (`N` of them, initialised) and writes it to
 /// `dst` (out of line: the scheduler's one temporary copy, the returned `Result`, stays in this
 /// frame only).
@@ -536,8 +543,7 @@ where
         let trip = libm::roundf(wanted / apc + zero).clamp(1.0, 4094.0) as u16;
         // The band for the level actually set (rounded to a count).
         let level = Amps::new((f32::from(trip) - zero) * apc);
-        let band = ThresholdBand::new(d, &Conditions::default(), level)
-            .map_err(|e| AppError::Design(i, e))?;
+        let band = band_of(&self.specs[i], level).map_err(|e| AppError::Design(i, e))?;
         let c = &mut self.ch[i];
         c.zero = zero;
         c.trip = trip;
