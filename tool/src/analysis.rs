@@ -10,7 +10,6 @@ use coilwise::{
     MosfetCheck, Ohms, OperatingPoint, SelfHeating, Switch, Volts, COMMON_OVERDRIVE,
 };
 
-use crate::approx;
 use crate::error::{ErrorClass, ToolError};
 use crate::quantity::eng;
 use crate::spec::{core_error, Spec};
@@ -130,7 +129,7 @@ pub struct ClampRow {
 pub struct HoldPoint {
     /// Duty, valley, peak, ripple, average current and winding power of the periodic hold.
     pub hold: Hold,
-    /// Average clamp power while holding, W (see [`approx::hold_clamp_power`]); `None` for a
+    /// Average clamp power while holding, W (the core's `Hold::clamp_power`); `None` for a
     /// clamp without a first-order freewheel loop.
     pub clamp_power: Option<f64>,
 }
@@ -696,13 +695,7 @@ impl<'a> Analysis<'a> {
                     })?;
                 Ok(HoldPoint {
                     hold: held,
-                    clamp_power: approx::hold_clamp_power(
-                        &fitted_clamp,
-                        wide(held.duty),
-                        wide(held.average.value()),
-                        wide(op.supply.value()),
-                        v_br,
-                    ),
+                    clamp_power: Some(wide(held.clamp_power.value())),
                 })
             };
             HoldFigures {

@@ -202,7 +202,7 @@ pub struct HoldOut {
     pub average_a: Option<f64>,
     /// Winding power, W.
     pub coil_power_w: Option<f64>,
-    /// Clamp power while holding (approximation), W.
+    /// Clamp power while holding (core `Hold::clamp_power`), W.
     pub clamp_power_w: Option<f64>,
     /// Why there is no hold here, else null.
     pub error: Option<String>,

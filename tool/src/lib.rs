@@ -13,7 +13,6 @@
 #![deny(missing_docs)]
 
 pub mod analysis;
-pub mod approx;
 pub mod constants;
 pub mod error;
 pub mod input;

@@ -4,7 +4,6 @@ use coilwise::{Amps, Armature, OperatingPoint, Seconds, Switch};
 use plotters::prelude::*;
 
 use crate::analysis::{self, wide, Analysis};
-use crate::approx::freewheel_voltage;
 use crate::error::{ErrorClass, ToolError};
 
 /// Which operating point to draw.
@@ -96,9 +95,9 @@ pub fn cycle(a: &Analysis<'_>, corner: Corner, on_time: Option<f64>) -> Result<C
         };
         let rel = c.release(&op, Amps::new(i_off as f32)).map_err(err)?;
         let t0 = wide(rel.time_to_zero().map_err(err)?.value());
-        releases.push((row.label.clone(), row.clamp, rel, t0));
+        releases.push((row.label.clone(), rel, t0));
     }
-    let slowest = releases.iter().map(|r| r.3).fold(0.0, f64::max);
+    let slowest = releases.iter().map(|r| r.2).fold(0.0, f64::max);
     let end = on + (slowest * 1.15).max(0.25 * on);
 
     let on_voltage = |i: f64| match *d.circuit.switch() {
@@ -106,29 +105,13 @@ pub fn cycle(a: &Analysis<'_>, corner: Corner, on_time: Option<f64>) -> Result<C
         Switch::Bipolar { saturation, .. } => saturation.value() as f64,
     };
     let mut traces = Vec::new();
-    for (label, clamp, rel, t0) in releases {
+    for (label, rel, t0) in releases {
         let mut samples = Vec::with_capacity(2 * SAMPLES + 4);
         for k in 0..=SAMPLES {
             let t = on * k as f64 / SAMPLES as f64;
             let i = rise.value_at(Seconds::new(t as f32)).map_err(err)? as f64;
             samples.push((t, i, on_voltage(i)));
         }
-        // Across the switch: supply plus the voltage opposing the freewheel current (for a
-        // zener across the switch or avalanche this is simply the clamping voltage; for the RC
-        // snubber the core's reverse voltage along its second-order release).
-        let v_clamped = |i: f64, dt: f64| -> Result<f64, ToolError> {
-            Ok(match rel.snubber() {
-                Some(sn) => {
-                    supply
-                        + wide(
-                            sn.reverse_voltage_at(Seconds::new(dt as f32))
-                                .map_err(err)?
-                                .value(),
-                        )
-                }
-                None => supply + freewheel_voltage(&clamp, i, supply, breakdown).unwrap_or(0.0),
-            })
-        };
         // Off-phase: dense until zero current, then one point at rest.
         for k in 0..=SAMPLES {
             let dt = t0 * k as f64 / SAMPLES as f64;
@@ -137,8 +120,14 @@ pub fn cycle(a: &Analysis<'_>, corner: Corner, on_time: Option<f64>) -> Result<C
                     .map_err(err)?
                     .value(),
             );
+            // Across the switch (core): supply plus the clamp's reverse coil voltage while the
+            // current flows, the supply once it is zero.
             let v = if k < SAMPLES {
-                v_clamped(i, dt)?
+                wide(
+                    rel.switch_voltage_at(Seconds::new(dt as f32))
+                        .map_err(err)?
+                        .value(),
+                )
             } else {
                 supply
             };

@@ -432,7 +432,7 @@ pub fn render_report(a: &Analysis<'_>) -> String {
         for p in problems {
             let _ = writeln!(out, "{p}");
         }
-        out.push_str("  exact periodic steady state of the PWM (core); clamp power approximated as (1 - duty) x average current x clamp voltage.\n");
+        out.push_str("  exact periodic steady state of the PWM (core); clamp power: the clamp carries the coil current in every off phase, (1 - duty) x (V x mean off-phase current + R_clamp x mean square).\n");
     }
 
     out.push_str("\nDIAGNOSIS: WHAT A HEALTHY COIL SHOWS ON THE SENSE INPUT (all 32 corners)\n");

@@ -418,9 +418,42 @@ impl Release {
     /// Largest reverse voltage across the coil during the release, V (magnitude).
     fn peak_coil_voltage(&self) -> f32 {
         match &self.shape {
-            Shape::Linear => self.opposing + self.curve.initial() * self.clamp_resistance,
+            Shape::Linear => self.coil_voltage_at_current(self.curve.initial()),
             Shape::Snubber(s) => s.peak_reverse_voltage().value(),
         }
+    }
+
+    /// Reverse voltage across the coil while the first-order clamp carries `i` amperes:
+    /// `V + i·R_clamp`, V.
+    fn coil_voltage_at_current(&self, i: f32) -> f32 {
+        self.opposing + i * self.clamp_resistance
+    }
+
+    /// Voltage across the switch (magnitude) at time t after switch-off, V:
+    /// `V_supply + V + i(t)·R_clamp` while the clamp conducts, `V_supply` once the current has
+    /// reached zero (the clamp diode blocks); for the RC snubber `V_supply` plus its reverse coil
+    /// voltage. Domain: t ≥ 0.
+    pub fn switch_voltage_at(&self, t: Seconds) -> Result<Volts, Error> {
+        let coil = match &self.shape {
+            Shape::Snubber(s) => s.reverse_voltage_at(t)?.value(),
+            Shape::Linear => {
+                let i = self.current_at(t)?.value();
+                if i > 0.0 {
+                    self.coil_voltage_at_current(i)
+                } else {
+                    0.0
+                }
+            }
+        };
+        result(self.supply + coil).map(Volts::new)
+    }
+
+    /// Power into the clamp element while it carries a current of mean `mean` and triangular
+    /// peak-to-peak ripple `ripple` (A): `V_element·ī + R_clamp·(ī² + ΔI²/12)`, W. The same split
+    /// as [`EnergySplit::clamp`]; for the hold PWM's off phases.
+    pub(crate) fn clamp_power_at(&self, mean: f32, ripple: f32) -> f32 {
+        self.clamp_element_voltage * mean
+            + self.clamp_resistance * (mean * mean + ripple * ripple / 12.0)
     }
 
     /// Energy balance over the whole release (to zero current), J:
@@ -557,6 +590,35 @@ mod tests {
         let rel = c.release(&op(), Amps::new(0.13)).unwrap();
         assert!((rel.peak_switch_voltage().value() - 24.8).abs() < 1e-5);
         assert!((rel.peak_node_voltage().value() - 24.8).abs() < 1e-5);
+    }
+
+    #[test]
+    fn switch_voltage_follows_the_clamp_then_returns_to_the_supply() {
+        // Common practice, no source: while a freewheel diode conducts the switch sits at
+        // V_supply + V_F; a resistor adds i·R; once the current is zero the node returns to the
+        // supply.
+        let d = valve(Clamp::diode(Volts::new(0.8)).unwrap())
+            .release(&op(), Amps::new(0.13))
+            .unwrap();
+        let t0 = d.time_to_zero().unwrap().value();
+        assert!((d.switch_voltage_at(Seconds::new(0.0)).unwrap().value() - 24.8).abs() < 1e-5);
+        assert!((d.switch_voltage_at(Seconds::new(0.5 * t0)).unwrap().value() - 24.8).abs() < 1e-5);
+        assert_eq!(
+            d.switch_voltage_at(Seconds::new(2.0 * t0)).unwrap().value(),
+            24.0
+        );
+        let r = valve(Clamp::diode_resistor(Volts::new(0.8), Ohms::new(220.0)).unwrap())
+            .release(&op(), Amps::new(0.13))
+            .unwrap();
+        let t = Seconds::new(0.3 * r.time_to_zero().unwrap().value());
+        let i = r.current_at(t).unwrap().value();
+        let v = r.switch_voltage_at(t).unwrap().value();
+        assert!((v - (24.0 + 0.8 + 220.0 * i)).abs() < 1e-4, "{v}");
+        assert_eq!(
+            r.switch_voltage_at(Seconds::new(0.0)).unwrap(),
+            r.peak_switch_voltage()
+        );
+        assert!(r.switch_voltage_at(Seconds::new(-1.0)).is_err());
     }
 
     #[test]

@@ -47,6 +47,11 @@ pub struct Hold {
     /// Winding dissipation while holding, `R_w·(ī² + ΔI²/12)`, W (the ripple treated as a
     /// triangle; the exact exponential segments differ by a term of order ΔI²·T/τ).
     pub winding_power: Watts,
+    /// Clamp dissipation while holding: the clamp carries the coil current in every off phase,
+    /// `(1 − D)·(V_element·ī_off + R_clamp·(ī_off² + ΔI²/12))`, W, with ī_off the mean current of
+    /// the off phase (ripple treated as a triangle). Large for a zener clamp: the price of fast
+    /// release is paid in every PWM period, not only at the final switch-off.
+    pub clamp_power: Watts,
 }
 
 impl Circuit {
@@ -111,6 +116,9 @@ impl Circuit {
             ripple: Amps::new(ripple),
             average: Amps::new(average),
             winding_power: Watts::new(winding * (average * average + ripple * ripple / 12.0)),
+            clamp_power: Watts::new(result(
+                (1.0 - duty) * release.clamp_power_at(mean_off, ripple),
+            )?),
         })
     }
 }
@@ -150,9 +158,22 @@ mod tests {
 
     /// Brute-force reference: step the two exact segments from zero until the period repeats.
     fn simulate(c: &Circuit, h: &Hold) -> (f32, f32, f32) {
+        let (lo, hi, avg, _) = simulate_with_clamp(c, h, 0.0, 0.0);
+        (lo, hi, avg)
+    }
+
+    /// [`simulate`], plus the clamp's mean power over a period by midpoint quadrature of
+    /// `v_element·i + r_clamp·i²` along the last off segment (2 000 steps).
+    fn simulate_with_clamp(
+        c: &Circuit,
+        h: &Hold,
+        v_element: f32,
+        r_clamp: f32,
+    ) -> (f32, f32, f32, f32) {
         let period = 1.0 / h.frequency.value();
         let mut i = 0.0f32;
         let (mut lo, mut hi, mut avg) = (0.0, 0.0, 0.0);
+        let mut last_top = 0.0f32;
         for _ in 0..5000 {
             let on = c.energize(&op(), Armature::Operated, Amps::new(i)).unwrap();
             let t_on = Seconds::new(h.duty * period);
@@ -165,8 +186,19 @@ mod tests {
             lo = bottom;
             hi = top;
             i = bottom;
+            last_top = top;
         }
-        (lo, hi, avg)
+        let rel = c.release(&op(), Amps::new(last_top)).unwrap();
+        let t_off = (1.0 - h.duty) * period;
+        let steps = 2000;
+        let mut energy = 0.0f64;
+        for k in 0..steps {
+            let t = (k as f32 + 0.5) * t_off / steps as f32;
+            let i = rel.curve().value_at(Seconds::new(t)).unwrap() as f64;
+            energy +=
+                (v_element as f64 * i + r_clamp as f64 * i * i) * (t_off / steps as f32) as f64;
+        }
+        (lo, hi, avg, (energy / period as f64) as f32)
     }
 
     #[test]
@@ -185,6 +217,34 @@ mod tests {
         // Small ripple at 20 kHz: ΔI ≈ (V − R_on·I_h)·D·T/L.
         let approx = (24.0 - 181.0 * ih) * d / 20_000.0 / 0.45;
         assert!((h.ripple.value() - approx).abs() < 0.01 * approx);
+    }
+
+    #[test]
+    fn clamp_power_while_holding_matches_quadrature() {
+        // Reference: numerical quadrature of the clamp's instantaneous power v·i + R·i² along the
+        // exact off segment of the periodic steady state (independent of the closed form's
+        // triangle-ripple treatment).
+        for (clamp, v_el, r_cl) in [
+            (Clamp::diode(Volts::new(0.8)).unwrap(), 0.8, 0.0),
+            (
+                Clamp::diode_zener(Volts::new(0.8), Volts::new(20.0)).unwrap(),
+                20.0,
+                0.0,
+            ),
+            (
+                Clamp::diode_resistor(Volts::new(0.8), Ohms::new(100.0)).unwrap(),
+                0.8,
+                100.0,
+            ),
+        ] {
+            let c = valve(clamp);
+            for f in [1_000.0, 5_000.0] {
+                let h = c.hold(&op(), Amps::new(0.05), Hertz::new(f)).unwrap();
+                let (.., p) = simulate_with_clamp(&c, &h, v_el, r_cl);
+                let got = h.clamp_power.value();
+                assert!((got - p).abs() < 1e-4 * p, "{clamp:?} {f}: {got} vs {p}");
+            }
+        }
     }
 
     #[test]
