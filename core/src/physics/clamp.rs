@@ -37,6 +37,18 @@ pub enum Clamp {
     },
     /// No clamp: the switch avalanches at its breakdown voltage and absorbs the energy itself.
     Unclamped,
+    /// Bidirectional TVS straight across the coil, no series diode. At switch-off it clamps the
+    /// coil's reverse voltage at `clamp_voltage` like [`Clamp::DiodeZener`]; but it also sees the
+    /// full forward coil voltage while the switch is on, so the on-state coil voltage must stay
+    /// below its `standoff` (checked at release, where the supply is known).
+    TvsAcrossCoil {
+        /// Voltage across the coil while clamping (TVS clamping voltage at the coil current), V
+        /// (> `standoff`).
+        clamp_voltage: Volts,
+        /// Reverse standoff voltage: the highest voltage at which the TVS does not conduct
+        /// (V_RWM on a datasheet), V (> 0).
+        standoff: Volts,
+    },
     /// Series resistor + capacitor across the coil, no diode. Second-order: modelled exactly while
     /// overdamped or critically damped (`(R + R_s)² ≥ 4L/C`), an error when it would ring. The
     /// capacitor is taken as charged to the on-state coil voltage at switch-off.
@@ -62,6 +74,8 @@ pub enum ClampKind {
     AcrossSwitch,
     /// [`Clamp::Unclamped`].
     Unclamped,
+    /// [`Clamp::TvsAcrossCoil`].
+    TvsAcrossCoil,
     /// [`Clamp::RcSnubber`].
     RcSnubber,
 }
@@ -91,6 +105,16 @@ impl Clamp {
         c.validate().map(|()| c)
     }
 
+    /// Bidirectional TVS across the coil, no series diode: clamps at `clamp_voltage` (V) and
+    /// stays off below `standoff` (V, 0 < standoff < clamp_voltage).
+    pub fn tvs_across_coil(clamp_voltage: Volts, standoff: Volts) -> Result<Self, Error> {
+        let c = Clamp::TvsAcrossCoil {
+            clamp_voltage,
+            standoff,
+        };
+        c.validate().map(|()| c)
+    }
+
     /// Series R–C snubber across the coil (`resistance` > 0 Ω, `capacitance` > 0 F). Whether it is
     /// damped enough for the model is checked at release, where L and R are known.
     pub fn rc_snubber(resistance: Ohms, capacitance: Farads) -> Result<Self, Error> {
@@ -101,8 +125,10 @@ impl Clamp {
         c.validate().map(|()| c)
     }
 
-    /// Checks the clamp's own values (finite, positive, clamp voltage above diode drop). Whether a
-    /// clamp across the switch sits above the supply is checked at release, where the supply is known.
+    /// Checks the clamp's own values (finite, positive, clamp voltage above diode drop, TVS standoff
+    /// below its clamping voltage). Whether a clamp across the switch sits above the supply, and
+    /// whether a TVS across the coil stays below its standoff while the switch is on, is checked at
+    /// release, where the supply is known.
     pub fn validate(&self) -> Result<(), Error> {
         match *self {
             Clamp::Diode { forward } => {
@@ -129,6 +155,16 @@ impl Clamp {
                 positive(clamp_voltage.value(), Param::ClampVoltage)?;
             }
             Clamp::Unclamped => {}
+            Clamp::TvsAcrossCoil {
+                clamp_voltage,
+                standoff,
+            } => {
+                let vc = positive(clamp_voltage.value(), Param::ClampVoltage)?;
+                let vs = positive(standoff.value(), Param::StandoffVoltage)?;
+                if vs >= vc {
+                    return Err(Error::invalid(Param::StandoffVoltage, Why::Inverted));
+                }
+            }
             Clamp::RcSnubber {
                 resistance,
                 capacitance,
@@ -148,6 +184,7 @@ impl Clamp {
             Clamp::DiodeResistor { .. } => ClampKind::DiodeResistor,
             Clamp::AcrossSwitch { .. } => ClampKind::AcrossSwitch,
             Clamp::Unclamped => ClampKind::Unclamped,
+            Clamp::TvsAcrossCoil { .. } => ClampKind::TvsAcrossCoil,
             Clamp::RcSnubber { .. } => ClampKind::RcSnubber,
         }
     }
@@ -173,6 +210,18 @@ mod tests {
         assert!(Clamp::diode(Volts::new(0.0)).is_err());
         assert!(Clamp::diode(Volts::new(f32::NAN)).is_err());
         assert!(Clamp::diode_resistor(Volts::new(0.7), Ohms::new(-1.0)).is_err());
+        assert_eq!(
+            Clamp::tvs_across_coil(Volts::new(30.0), Volts::new(30.0)),
+            Err(Error::invalid(Param::StandoffVoltage, Why::Inverted))
+        );
+        assert!(Clamp::tvs_across_coil(Volts::new(30.0), Volts::new(0.0)).is_err());
+        assert!(Clamp::tvs_across_coil(Volts::new(f32::NAN), Volts::new(20.0)).is_err());
+        assert_eq!(
+            Clamp::tvs_across_coil(Volts::new(30.0), Volts::new(26.0))
+                .unwrap()
+                .kind(),
+            ClampKind::TvsAcrossCoil
+        );
         let low = valve(Clamp::AcrossSwitch {
             clamp_voltage: Volts::new(20.0),
         });

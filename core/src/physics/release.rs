@@ -93,7 +93,9 @@ impl Circuit {
     ///
     /// # Errors
     /// Invalid operating point or current; [`Why::BelowSupply`] when the switch breakdown or a
-    /// clamp across the switch does not exceed the supply; [`crate::Limit::SnubberUnderdamped`] for
+    /// clamp across the switch does not exceed the supply, or when the drive voltage
+    /// (`V_supply − V_CE(sat)`, the coil voltage at switch-on) reaches the standoff of a TVS across
+    /// the coil ([`Param::StandoffVoltage`]: it would conduct while the switch is on); [`crate::Limit::SnubberUnderdamped`] for
     /// a snubber that would ring; [`crate::Limit::Overflow`] when the peak switch voltage
     /// `V_supply + V + I₀·R_clamp` overflows f32.
     pub fn release(&self, op: &OperatingPoint, initial: Amps) -> Result<Release, Error> {
@@ -122,6 +124,17 @@ impl Circuit {
                     return Err(Error::invalid(Param::ClampVoltage, Why::BelowSupply));
                 }
                 (0.0, v - supply, v, supply)
+            }
+            Clamp::TvsAcrossCoil {
+                clamp_voltage,
+                standoff,
+            } => {
+                // While the switch is on the coil carries the drive voltage the moment it turns on
+                // (no current yet, no drop): above the standoff the TVS conducts forward.
+                if r.drive.value() >= standoff.value() {
+                    return Err(Error::invalid(Param::StandoffVoltage, Why::BelowSupply));
+                }
+                (0.0, clamp_voltage.value(), clamp_voltage.value(), 0.0)
             }
             Clamp::Unclamped => {
                 if breakdown <= supply {
@@ -409,7 +422,7 @@ mod tests {
         OperatingPoint::new(Volts::new(24.0), Celsius::new(20.0))
     }
 
-    fn every_clamp() -> [Clamp; 6] {
+    fn every_clamp() -> [Clamp; 7] {
         [
             Clamp::diode(Volts::new(0.8)).unwrap(),
             Clamp::diode_zener(Volts::new(0.8), Volts::new(34.0)).unwrap(),
@@ -419,7 +432,39 @@ mod tests {
             },
             Clamp::Unclamped,
             Clamp::rc_snubber(Ohms::new(1000.0), Farads::from_micro(10.0)).unwrap(),
+            Clamp::tvs_across_coil(Volts::new(34.0), Volts::new(26.0)).unwrap(),
         ]
+    }
+
+    #[test]
+    fn tvs_across_the_coil_releases_like_a_diode_and_zener_of_the_same_voltage() {
+        // Kirchhoff's voltage law around the freewheel loop (textbook, from memory): only the
+        // voltage across the coil while clamping matters to the release, not whether it is made
+        // of a zener plus diode or one bidirectional TVS.
+        let tvs = valve(Clamp::tvs_across_coil(Volts::new(34.0), Volts::new(26.0)).unwrap())
+            .release(&op(), Amps::new(0.13))
+            .unwrap();
+        let dz = valve(Clamp::diode_zener(Volts::new(0.8), Volts::new(34.0)).unwrap())
+            .release(&op(), Amps::new(0.13))
+            .unwrap();
+        assert_eq!(tvs.time_to_zero(), dz.time_to_zero());
+        assert_eq!(tvs.energy(), dz.energy());
+        assert!((tvs.peak_switch_voltage().value() - 58.0).abs() < 1e-5);
+        assert_eq!(tvs.peak_switch_voltage(), dz.peak_switch_voltage());
+    }
+
+    #[test]
+    fn tvs_across_the_coil_must_stand_off_the_drive_voltage() {
+        // A TVS conducts above its standoff (common practice, no source): at 24 V, one with a
+        // 22 V standoff straight across the coil would conduct while the switch is on.
+        let low = valve(Clamp::tvs_across_coil(Volts::new(34.0), Volts::new(22.0)).unwrap());
+        assert_eq!(
+            low.release(&op(), Amps::new(0.1)),
+            Err(Error::invalid(Param::StandoffVoltage, Why::BelowSupply))
+        );
+        // Exactly at the drive voltage: refused too (it starts to conduct there).
+        let at = valve(Clamp::tvs_across_coil(Volts::new(34.0), Volts::new(24.0)).unwrap());
+        assert!(at.release(&op(), Amps::new(0.1)).is_err());
     }
 
     #[test]
