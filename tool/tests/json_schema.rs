@@ -317,6 +317,20 @@ fn variants() -> Vec<Vec<&'static str>> {
             "--set",
             "clamp.capacitance=47 uF",
         ],
+        // Bidirectional TVS across the coil: its own clamp kind.
+        vec![
+            "report",
+            "examples/greenhouse-valve.toml",
+            "--json",
+            "--set",
+            "clamp.kind=tvs-across-coil",
+            "--set",
+            "clamp.diode_drop=",
+            "--set",
+            "clamp.zener=33 V",
+            "--set",
+            "clamp.standoff=28 V",
+        ],
     ]
 }
 

@@ -161,6 +161,14 @@ fn label_of(spec: &Spec) -> String {
                 eng(wide(clamp_voltage.value()), "V")
             )
         }
+        Clamp::TvsAcrossCoil {
+            clamp_voltage,
+            standoff,
+        } => format!(
+            "TVS {} across coil (standoff {})",
+            eng(wide(clamp_voltage.value()), "V"),
+            eng(wide(standoff.value()), "V")
+        ),
         Clamp::RcSnubber {
             resistance,
             capacitance,
@@ -169,7 +177,7 @@ fn label_of(spec: &Spec) -> String {
             eng(wide(resistance.value()), "Ω"),
             eng(wide(capacitance.value()), "F")
         ),
-        _ => "none (switch avalanches)".to_string(),
+        Clamp::Unclamped => "none (switch avalanches)".to_string(),
     }
 }
 

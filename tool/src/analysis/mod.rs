@@ -92,6 +92,7 @@ pub(crate) fn figures_error(spec: &Spec, err: coilwise::Error, corner: &str) -> 
     let key = match err {
         coilwise::Error::Invalid { param, .. } => match param {
             Param::ClampVoltage => Some("clamp.zener"),
+            Param::StandoffVoltage => Some("clamp.standoff"),
             Param::BreakdownVoltage => Some("switch.breakdown"),
             Param::Temperature | Param::TemperatureRange => Some("temperature.max"),
             Param::Supply => Some("supply.min"),
@@ -114,6 +115,13 @@ pub(crate) fn figures_error(spec: &Spec, err: coilwise::Error, corner: &str) -> 
             .inputs
             .error(k, ErrorClass::Impossible, message)
             .hint("the snubber must be at least critically damped, (R_winding + R_s)^2 >= 4 L / C: use a larger capacitor or resistor"),
+        Some(k @ "clamp.standoff") => spec
+            .inputs
+            .error(k, ErrorClass::Impossible, message)
+            .hint(format!(
+                "a TVS straight across the coil sees the drive voltage (supply minus switch saturation, up to {}) while the switch is on; at or above its standoff it conducts: choose a TVS with a higher standoff, or a zener behind a diode (clamp.kind = \"zener\")",
+                eng(wide(spec.design.supply.max().value()), "V")
+            )),
         Some(k) => spec.inputs.error(k, ErrorClass::Impossible, message),
         // No single key to blame: name the file.
         None => ToolError::new(ErrorClass::Impossible, message).at(
