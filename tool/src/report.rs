@@ -382,11 +382,17 @@ pub fn render_report(a: &Analysis<'_>) -> String {
     out.push_str(&checks_table(a));
 
     if let (Some(h), Some(hold)) = (a.hold, spec.hold) {
+        let unclamped = matches!(spec.design.circuit.clamp(), coilwise::Clamp::Unclamped);
         let _ = writeln!(
             out,
-            "\nHOLD ECONOMISER ({} at {} PWM, freewheeling through the fitted clamp)",
+            "\nHOLD ECONOMISER ({} at {} PWM, {})",
             eng(hold.current, "A"),
-            eng(hold.pwm_frequency, "Hz")
+            eng(hold.pwm_frequency, "Hz"),
+            if unclamped {
+                "NO CLAMP: the switch avalanches in every off-interval"
+            } else {
+                "freewheeling through the fitted clamp"
+            }
         );
         let mut rows = vec![vec![
             "point".to_string(),

@@ -125,3 +125,61 @@ fn keys_shows_an_example_fit_for_each_key_and_one_need_per_key() {
     assert!(!o.status.success());
     assert!(!stderr(&o).contains("\"24 V\""), "{}", stderr(&o));
 }
+
+/// The valve example without a clamp (its hold economiser kept).
+const NO_CLAMP: [&str; 10] = [
+    "--set",
+    "clamp.kind=none",
+    "--set",
+    "clamp.diode_drop=",
+    "--set",
+    "clamp.zener=",
+    "--set",
+    "clamp.power_rating=",
+    "--set",
+    "switch.avalanche_energy=50 mJ",
+];
+
+#[test]
+fn a_hold_economiser_without_a_clamp_fails_with_a_repetitive_avalanche_caution() {
+    let o = run_s(&with(&["report", VALVE], &NO_CLAMP));
+    let text = stdout(&o);
+    assert!(o.status.success(), "{}", stderr(&o));
+    let row = text
+        .lines()
+        .find(|l| l.starts_with("switch avalanche while holding"))
+        .unwrap_or_else(|| panic!("no hold avalanche check:\n{text}"));
+    assert!(row.contains("FAIL"), "{row}");
+    assert!(text.contains("repetitive avalanche"), "{text}");
+    assert!(
+        !text.contains("freewheeling through the fitted clamp"),
+        "{text}"
+    );
+    assert!(text.contains("NO CLAMP: the switch avalanches in every off-interval"));
+    assert!(text.contains("RESULT: FAIL"));
+    // --strict turns the failure into exit status 3 (docs/tool.md).
+    let strict = with(&["report", VALVE, "--strict"], &NO_CLAMP);
+    assert_eq!(run_s(&strict).status.code(), Some(3));
+}
+
+#[test]
+fn a_huge_breakdown_voltage_gives_no_silently_wrong_hold_figures() {
+    let mut args = with(&["report", VALVE], &NO_CLAMP);
+    args.extend(["--set".to_string(), "switch.breakdown=1 GV".to_string()]);
+    let o = run_s(&args);
+    let text = stdout(&o);
+    let hold: Vec<&str> = text
+        .lines()
+        .skip_while(|l| !l.starts_with("HOLD ECONOMISER"))
+        .take(6)
+        .collect();
+    // The duty of a hold PWM is below 100 % by definition; the core refuses instead of 100 %.
+    assert!(!hold.iter().any(|l| l.contains("100.0 %")), "{hold:?}");
+    // The valley check prints a computed valley or says there is none, never the request.
+    let valley = text
+        .lines()
+        .find(|l| l.starts_with("hold current (ripple valley)"))
+        .unwrap();
+    assert!(!valley.contains("valley 60.00 mA"), "{valley}");
+    assert!(valley.contains("no hold computed"), "{valley}");
+}

@@ -216,6 +216,7 @@ const CHECK_IDS: &[&str] = &[
     "hold_duty",
     "hold_clamp_power",
     "hold_current",
+    "hold_avalanche",
     "self_heating",
     "rise_band",
 ];

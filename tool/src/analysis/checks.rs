@@ -312,25 +312,59 @@ impl Analysis<'_> {
                     });
                 }
             }
-            // The lowest current of the ripple must stay above drop-out.
+            // The lowest current of the ripple must stay above drop-out: the lowest valley the
+            // core computed, never the requested hold current in its place.
             let valley = points
                 .iter()
                 .map(|p| wide(p.hold.valley.value()))
-                .fold(hold.current, f64::min);
-            let m = valley / i_drop - 1.0;
-            out.push(Check {
-                id: "hold_current",
-                title: "hold current (ripple valley) above drop-out",
-                status: if m <= 0.0 {
-                    Status::Fail
-                } else {
-                    graded(m, 0.5)
+                .reduce(f64::min);
+            let note = "pass at 1.5x drop-out current or more; the datasheet's hold rating takes precedence".to_string();
+            out.push(match valley {
+                Some(valley) => {
+                    let m = valley / i_drop - 1.0;
+                    Check {
+                        id: "hold_current",
+                        title: "hold current (ripple valley) above drop-out",
+                        status: if m <= 0.0 {
+                            Status::Fail
+                        } else {
+                            graded(m, 0.5)
+                        },
+                        value: format!("valley {}", eng(valley, "A")),
+                        limit: format!("drop-out {}", eng(i_drop, "A")),
+                        margin: Some(m),
+                        note,
+                    }
+                }
+                None => Check {
+                    id: "hold_current",
+                    title: "hold current (ripple valley) above drop-out",
+                    status: Status::Info,
+                    value: "no hold computed".to_string(),
+                    limit: format!("drop-out {}", eng(i_drop, "A")),
+                    margin: None,
+                    note,
                 },
-                value: format!("valley {}", eng(valley, "A")),
-                limit: format!("drop-out {}", eng(i_drop, "A")),
-                margin: Some(m),
-                note: "pass at 1.5x drop-out current or more; the datasheet's hold rating takes precedence".to_string(),
             });
+            // No clamp: every PWM off-interval ends in avalanche of the switch.
+            if unclamped {
+                let power = points.iter().filter_map(|p| p.clamp_power).reduce(f64::max);
+                out.push(Check {
+                    id: "hold_avalanche",
+                    title: "switch avalanche while holding (no clamp)",
+                    status: Status::Fail,
+                    value: match power {
+                        Some(p) => format!("average {}", eng(p, "W")),
+                        None => "not computed".to_string(),
+                    },
+                    limit: "no repetitive avalanche".to_string(),
+                    margin: None,
+                    note: format!(
+                        "no clamp: the switch avalanches in every PWM off-interval at {} (repetitive avalanche); a single-pulse rating (switch.avalanche_energy) does not cover it and few switches are rated for it: fit a clamp before using a hold economiser",
+                        eng(hold.pwm_frequency, "Hz")
+                    ),
+                });
+            }
         }
 
         // Self-heating.

@@ -240,6 +240,9 @@ impl<'a> Analysis<'a> {
                         coilwise::Error::OutsideModel(Limit::NotFirstOrder) => {
                             HoldProblem::NotFirstOrder
                         }
+                        coilwise::Error::OutsideModel(Limit::Overflow) => {
+                            HoldProblem::OffIntervalTooShort
+                        }
                         other => HoldProblem::Other(other),
                     })?;
                 Ok(HoldPoint {

@@ -104,6 +104,9 @@ pub enum HoldProblem {
     Discontinuous,
     /// The fitted clamp (RC snubber) has no first-order freewheel loop for the hold model.
     NotFirstOrder,
+    /// The clamp (or breakdown) voltage is so far above the supply that the off-interval is
+    /// below f32 resolution of the period: the duty would round to 100 %.
+    OffIntervalTooShort,
     /// Another error from the core.
     Other(coilwise::Error),
 }
@@ -119,6 +122,7 @@ impl HoldProblem {
                 "PWM too slow: the current falls to zero in every off-interval".to_string()
             }
             HoldProblem::NotFirstOrder => "not modelled for an RC snubber".to_string(),
+            HoldProblem::OffIntervalTooShort => "not computed: the clamp or breakdown voltage is so far above the supply that the off-interval is too short to resolve (the duty would round to 100 %)".to_string(),
             HoldProblem::Other(e) => e.to_string(),
         }
     }
