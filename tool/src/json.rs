@@ -492,6 +492,30 @@ pub fn build(a: &Analysis<'_>) -> Report {
     }
 }
 
+/// What `coilwise compare --json` prints: the comparison rows and the cautions.
+#[derive(Debug, Serialize)]
+pub struct Comparison {
+    /// Schema identifier, the same as the full report's.
+    pub schema: &'static str,
+    /// The rows, as in [`Report::clamp_comparison`].
+    pub clamp_comparison: Vec<ClampOut>,
+    /// Safety cautions (the same as the full report's).
+    pub cautions: Vec<&'static str>,
+}
+
+/// The `compare --json` text, pretty-printed, with a trailing newline.
+pub fn render_comparison(a: &Analysis<'_>) -> String {
+    let doc = Comparison {
+        schema: SCHEMA,
+        clamp_comparison: build(a).clamp_comparison,
+        cautions: CAUTIONS.to_vec(),
+    };
+    let mut s = serde_json::to_string_pretty(&doc)
+        .unwrap_or_else(|e| format!("{{\"schema\":\"{SCHEMA}\",\"error\":\"{e}\"}}"));
+    s.push('\n');
+    s
+}
+
 /// The JSON text, pretty-printed, with a trailing newline.
 pub fn render(a: &Analysis<'_>) -> String {
     let mut s = serde_json::to_string_pretty(&build(a))

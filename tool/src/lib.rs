@@ -13,6 +13,7 @@
 #![deny(missing_docs)]
 
 pub mod analysis;
+pub mod cautions;
 pub mod constants;
 pub mod error;
 pub mod input;

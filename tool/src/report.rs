@@ -9,13 +9,7 @@ use crate::analysis::{self, wide, Analysis, ClampRow, Status, BAND_SOURCE_TEXT};
 use crate::quantity::{eng, percent};
 use crate::table::render;
 
-/// Cautions printed wherever the tool reports stress.
-pub const CAUTIONS: &[&str] = &[
-    "These are engineering estimates from first-order models: constant inductance per armature position, ideal clamp elements, no core saturation or eddy currents. Measure the real circuit before relying on them.",
-    "Check every stress figure against the component datasheets and their derating curves; where a datasheet and this report disagree, the datasheet wins.",
-    "Switching a coil off without a working clamp puts a high voltage on the switch and on exposed conductors; an open clamp diode does the same. Do not rely on switch avalanche without an avalanche rating.",
-    "Contacts that switch mains are dangerous: follow local electrical codes and have such circuits designed and checked under licensed practice.",
-];
+pub use crate::cautions::CAUTIONS;
 
 fn s(x: f32, unit: &str) -> String {
     eng(wide(x), unit)
@@ -293,6 +287,16 @@ fn comparison_row(row: &ClampRow, notes: &mut Vec<String>) -> Vec<String> {
     }
 }
 
+/// What `coilwise compare` prints: a title, the comparison table and the cautions.
+pub fn render_comparison(a: &Analysis<'_>) -> String {
+    format!(
+        "coilwise clamp comparison: {}\n\n{}\n{}",
+        a.spec.name,
+        comparison_table(a),
+        crate::cautions::text_section()
+    )
+}
+
 /// The full report.
 pub fn render_report(a: &Analysis<'_>) -> String {
     let spec = a.spec;
@@ -527,10 +531,8 @@ pub fn render_report(a: &Analysis<'_>) -> String {
     out.push_str("\nCLAMP COMPARISON\n");
     out.push_str(&comparison_table(a));
 
-    out.push_str("\nCAUTIONS\n");
-    for c in CAUTIONS {
-        let _ = writeln!(out, "- {c}");
-    }
+    out.push('\n');
+    out.push_str(&crate::cautions::text_section());
     let worst = a
         .checks
         .iter()

@@ -183,3 +183,49 @@ fn a_huge_breakdown_voltage_gives_no_silently_wrong_hold_figures() {
     assert!(!valley.contains("valley 60.00 mA"), "{valley}");
     assert!(valley.contains("no hold computed"), "{valley}");
 }
+
+/// What every output with stress figures must say (the brief's safety section).
+const CAUTION_NEEDLES: [&str; 5] = [
+    "engineering estimates",
+    "datasheet",
+    "local electrical codes",
+    "licensed practice",
+    "hundreds of volts",
+];
+
+#[test]
+fn compare_and_plot_carry_the_cautions() {
+    let text = stdout(&run(&["compare", VALVE]));
+    assert!(text.contains("CAUTIONS"), "{text}");
+    for n in CAUTION_NEEDLES {
+        assert!(text.contains(n), "compare: no `{n}`");
+    }
+    let o = run(&["compare", VALVE, "--json"]);
+    let v: serde_json::Value = serde_json::from_slice(&o.stdout).unwrap();
+    let cautions = v["cautions"].as_array().expect("cautions array").clone();
+    let joined: Vec<String> = cautions
+        .iter()
+        .map(|c| c.as_str().unwrap().to_string())
+        .collect();
+    for n in CAUTION_NEEDLES {
+        assert!(joined.join(" ").contains(n), "compare --json: no `{n}`");
+    }
+    assert!(v["clamp_comparison"]
+        .as_array()
+        .is_some_and(|a| !a.is_empty()));
+    // The SVG: every text element, joined, holds every caution.
+    let svg = plot(&[]);
+    let doc = roxmltree::Document::parse(&svg).unwrap();
+    let words: Vec<&str> = doc
+        .descendants()
+        .filter(|n| n.has_tag_name("text"))
+        .filter_map(|n| n.text())
+        .flat_map(str::split_whitespace)
+        .collect();
+    let all = words.join(" ");
+    assert!(all.contains("CAUTIONS"));
+    for c in coilwise_tool::cautions::CAUTIONS {
+        let c: Vec<&str> = c.split_whitespace().collect();
+        assert!(all.contains(&c.join(" ")), "plot: caution missing: {c:?}");
+    }
+}

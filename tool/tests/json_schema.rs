@@ -398,9 +398,13 @@ fn nulls_appear_where_documented() {
 
 #[test]
 fn compare_json_rows_match_the_report_rows() {
-    let rows = json_of(&["compare", "examples/greenhouse-valve.toml", "--json"]);
+    let doc = json_of(&["compare", "examples/greenhouse-valve.toml", "--json"]);
     let report = json_of(&["report", "examples/greenhouse-valve.toml", "--json"]);
-    assert_eq!(rows, report["clamp_comparison"]);
-    let typed: Vec<ClampRow> = serde_json::from_value(rows).unwrap();
+    assert_eq!(doc["clamp_comparison"], report["clamp_comparison"]);
+    assert_eq!(doc["cautions"], report["cautions"]);
+    assert_eq!(doc["schema"], report["schema"]);
+    let keys: Vec<&String> = doc.as_object().unwrap().keys().collect();
+    assert_eq!(keys, ["cautions", "clamp_comparison", "schema"]);
+    let typed: Vec<ClampRow> = serde_json::from_value(doc["clamp_comparison"].clone()).unwrap();
     assert_eq!(typed.iter().filter(|r| r.fitted).count(), 1);
 }
