@@ -510,7 +510,18 @@ pub fn render_comparison(a: &Analysis<'_>) -> String {
         clamp_comparison: build(a).clamp_comparison,
         cautions: CAUTIONS.to_vec(),
     };
-    let mut s = serde_json::to_string_pretty(&doc)
+    pretty(&doc)
+}
+
+/// `doc` as pretty JSON with its numbers at f32 precision ([`crate::numbers::tidy`]) and a
+/// trailing newline.
+fn pretty(doc: &impl Serialize) -> String {
+    let mut s = serde_json::to_value(doc)
+        .map(|mut v| {
+            crate::numbers::tidy(&mut v);
+            v
+        })
+        .and_then(|v| serde_json::to_string_pretty(&v))
         .unwrap_or_else(|e| format!("{{\"schema\":\"{SCHEMA}\",\"error\":\"{e}\"}}"));
     s.push('\n');
     s
@@ -518,8 +529,5 @@ pub fn render_comparison(a: &Analysis<'_>) -> String {
 
 /// The JSON text, pretty-printed, with a trailing newline.
 pub fn render(a: &Analysis<'_>) -> String {
-    let mut s = serde_json::to_string_pretty(&build(a))
-        .unwrap_or_else(|e| format!("{{\"schema\":\"{SCHEMA}\",\"error\":\"{e}\"}}"));
-    s.push('\n');
-    s
+    pretty(&build(a))
 }

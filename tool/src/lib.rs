@@ -18,6 +18,7 @@ pub mod constants;
 pub mod error;
 pub mod input;
 pub mod json;
+pub mod numbers;
 pub mod output;
 pub mod plot;
 pub mod quantity;

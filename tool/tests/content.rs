@@ -229,3 +229,51 @@ fn compare_and_plot_carry_the_cautions() {
         assert!(all.contains(&c.join(" ")), "plot: caution missing: {c:?}");
     }
 }
+
+/// Every non-integer number in a JSON tree, with its path.
+fn floats(v: &serde_json::Value, path: &str, out: &mut Vec<(String, f64)>) {
+    match v {
+        serde_json::Value::Number(n) if n.is_f64() => {
+            out.push((path.to_string(), n.as_f64().unwrap()))
+        }
+        serde_json::Value::Array(a) => {
+            for (i, x) in a.iter().enumerate() {
+                floats(x, &format!("{path}[{i}]"), out);
+            }
+        }
+        serde_json::Value::Object(m) => {
+            for (k, x) in m {
+                floats(x, &format!("{path}.{k}"), out);
+            }
+        }
+        _ => {}
+    }
+}
+
+#[test]
+fn json_numbers_are_printed_at_f32_precision() {
+    let o = run(&["report", VALVE, "--json"]);
+    let text = stdout(&o);
+    let v: serde_json::Value = serde_json::from_str(&text).unwrap();
+    // 26.4 V highest supply + 18 V zener + 0.8 V diode (Kirchhoff, textbook, from memory).
+    assert_eq!(v["worst"]["peak_switch_voltage_v"], 45.2, "{}", v["worst"]);
+    // 14.4 V must-operate / 160 ohm (Ohm's law).
+    assert_eq!(v["pull_in_current_a"], 0.09);
+    assert!(!text.contains("45.199997") && !text.contains("0.089999996"));
+    let mut all = Vec::new();
+    floats(&v, "", &mut all);
+    assert!(all.len() > 50);
+    for (path, x) in all {
+        // f32 carries at most 9 significant digits; the output never shows more (the f64
+        // artefacts of a margin computed from f32 figures showed 17).
+        let s = format!("{x:e}");
+        let digits = s
+            .split('e')
+            .next()
+            .unwrap()
+            .chars()
+            .filter(char::is_ascii_digit)
+            .count();
+        assert!(digits <= 9, "{path} = {x} ({s})");
+    }
+}
