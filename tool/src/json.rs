@@ -330,7 +330,7 @@ pub fn build(a: &Analysis<'_>) -> Report {
     let n = &a.nominal;
     let mut worst = FigureSet::from(&a.release, a.min_off_time);
     let p = FigureSet::from(&a.pull_in, a.min_off_time);
-    worst.tau_on_s = p.tau_on_s;
+    worst.tau_on_s = a.tau_on_max;
     worst.pull_in_time_s = p.pull_in_time_s;
     worst.pull_in_margin = p.pull_in_margin;
     let status_rank = |s: &str| match s {

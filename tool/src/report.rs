@@ -66,8 +66,8 @@ fn figures_table(a: &Analysis<'_>) -> String {
     row(
         "time constant, switch-on",
         s(n.tau_on.value(), "s"),
-        s(p.tau_on.value(), "s"),
-        "pull-in corner",
+        eng(a.tau_on_max, "s"),
+        "largest of the 32 corners",
     );
     row(
         "pull-in time (electrical)",
@@ -117,8 +117,13 @@ fn figures_table(a: &Analysis<'_>) -> String {
         s(r.energy.stored.value(), "J"),
         "release corner",
     );
+    let unclamped = matches!(a.spec.design.circuit.clamp(), coilwise::Clamp::Unclamped);
     row(
-        "clamp energy",
+        if unclamped {
+            "avalanche energy (switch)"
+        } else {
+            "clamp energy"
+        },
         s(n.energy.clamp.value(), "J"),
         s(r.energy.clamp.value(), "J"),
         "release corner",
@@ -155,13 +160,19 @@ fn figures_table(a: &Analysis<'_>) -> String {
         r.clamp_power.map_or("-".to_string(), |w| s(w.value(), "W")),
         "release corner, planned rate",
     );
+    let (nominal_rate, worst_rate) = a.max_repetition();
+    let rate_text =
+        |r: Option<(f64, analysis::RateLimit)>| r.map_or("-".to_string(), |(f, _)| eng(f, "Hz"));
+    let which = match worst_rate {
+        Some((_, analysis::RateLimit::Timing)) => "lowest: 1 / (min on-time + safe min off-time)",
+        Some((_, analysis::RateLimit::ClampRating)) => "lowest: clamp power rating",
+        None => "never pulls in, no clamp.power_rating",
+    };
     row(
         "maximum repetition rate",
-        n.max_repetition
-            .map_or("-".to_string(), |h| s(h.value(), "Hz")),
-        r.max_repetition
-            .map_or("-".to_string(), |h| s(h.value(), "Hz")),
-        "release corner (lowest)",
+        rate_text(nominal_rate),
+        rate_text(worst_rate),
+        which,
     );
     row(
         "coil dissipation, on",
@@ -268,7 +279,12 @@ fn comparison_row(row: &ClampRow, notes: &mut Vec<String>) -> Vec<String> {
             s(f.release_time.value(), "s"),
             s(f.time_to_zero.value(), "s"),
             s(f.peak_switch_voltage.value(), "V"),
-            s(f.energy.clamp.value(), "J"),
+            if matches!(row.clamp, coilwise::Clamp::Unclamped) {
+                // No clamp: the energy goes into the switch's avalanche.
+                format!("{} (switch)", s(f.energy.clamp.value(), "J"))
+            } else {
+                s(f.energy.clamp.value(), "J")
+            },
             s(f.energy.winding.value(), "J"),
             row.status.word().to_uppercase(),
         ],
@@ -351,7 +367,7 @@ pub fn render_report(a: &Analysis<'_>) -> String {
     out.push_str(
         "  pull-in corner: lowest supply, hottest winding, highest R and L: slowest pull-in.\n",
     );
-    out.push_str("  release corner: highest supply, coldest winding, lowest R: most current, energy and voltage at switch-off.\n");
+    out.push_str("  release corner: highest supply, coldest winding, lowest R, highest L: most current, stored energy and voltage at switch-off, longest release.\n");
 
     out.push_str("\nTIMING, ENERGY AND STRESS\n");
     out.push_str(&figures_table(a));

@@ -277,3 +277,79 @@ fn json_numbers_are_printed_at_f32_precision() {
         assert!(digits <= 9, "{path} = {x} ({s})");
     }
 }
+
+/// The figures-table row that starts with `name`, split at runs of two or more spaces.
+fn figure_row(text: &str, name: &str) -> Vec<String> {
+    let line = text
+        .lines()
+        .find(|l| l.starts_with(name))
+        .unwrap_or_else(|| panic!("no row {name}"));
+    line.split("  ")
+        .map(str::trim)
+        .filter(|c| !c.is_empty())
+        .map(str::to_string)
+        .collect()
+}
+
+#[test]
+fn the_switch_on_time_constant_worst_is_the_largest_corner() {
+    let text = stdout(&run(&["report", VALVE]));
+    let row = figure_row(&text, "time constant, switch-on");
+    // Hand calculation, coldest winding (-20 degC), resistance -7 %, inductance +15 %, sense
+    // -1 %: R_w = 160 x 0.93 x (1 + 0.00393 x (-40)) = 125.41 ohm (copper coefficient 0.00393 /K,
+    // the annealed-copper standard IEC 60028), R_on = 125.41 + 0.4 + 0.495 + 0.05 = 126.36 ohm,
+    // tau = 0.35 H x 1.15 / 126.36 ohm = 3.186 ms. The pull-in corner's (hot) is only 1.7 ms.
+    assert_eq!(row[2], "3.186 ms", "{row:?}");
+    assert!(row[3].contains("largest"), "{row:?}");
+    let v: serde_json::Value =
+        serde_json::from_slice(&run(&["report", VALVE, "--json"]).stdout).unwrap();
+    let worst = v["worst"]["tau_on_s"].as_f64().unwrap();
+    assert!((worst - 3.1855e-3).abs() < 1e-6, "{worst}");
+    assert!(worst >= v["tau_on_s"].as_f64().unwrap());
+}
+
+#[test]
+fn the_maximum_repetition_rate_includes_the_timing_cap() {
+    // The relay example has no clamp.power_rating: the timing limit still exists.
+    let text = stdout(&run(&["report", "examples/greenhouse-pump-relay.toml"]));
+    let row = figure_row(&text, "maximum repetition rate");
+    assert_ne!(row[2], "-", "{row:?}");
+    assert!(
+        row[3].contains("min on-time + safe min off-time"),
+        "{row:?}"
+    );
+    // 1 / (minimum on-time + safe minimum off-time), from the same report.
+    let on = figure_row(&text, "minimum on-time");
+    let off = figure_row(&text, "safe minimum off-time");
+    let ms = |c: &str| c.trim_end_matches(" ms").parse::<f64>().unwrap();
+    let hz = row[2].trim_end_matches(" Hz").parse::<f64>().unwrap();
+    let expect = 1e3 / (ms(&on[2]) + ms(&off[2]));
+    assert!((hz - expect).abs() < 2e-3 * expect, "{hz} vs {expect}");
+    // With a rating below that, the clamp rating sets it and the row says so.
+    let text = stdout(&run(&[
+        "report",
+        "examples/greenhouse-pump-relay.toml",
+        "--set",
+        "clamp.power_rating=1 mW",
+    ]));
+    let row = figure_row(&text, "maximum repetition rate");
+    assert!(row[3].contains("clamp power rating"), "{row:?}");
+}
+
+#[test]
+fn the_no_clamp_energy_is_labelled_as_the_switchs() {
+    let text = stdout(&run(&["compare", VALVE]));
+    let none = text.lines().find(|l| l.starts_with("none")).unwrap();
+    assert!(none.contains("(switch)"), "{none}");
+    let text = stdout(&run_s(&with(&["report", VALVE], &NO_CLAMP)));
+    assert!(text
+        .lines()
+        .any(|l| l.starts_with("avalanche energy (switch)")));
+    assert!(!text.lines().any(|l| l.starts_with("clamp energy")));
+    // The release-corner note names every tolerance the corner takes, inductance included.
+    let note = text
+        .lines()
+        .find(|l| l.trim_start().starts_with("release corner:"))
+        .unwrap();
+    assert!(note.contains("highest L"), "{note}");
+}

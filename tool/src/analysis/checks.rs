@@ -150,7 +150,7 @@ impl Analysis<'_> {
                             format!("rating {}", eng(rating, "W")),
                             Some(m),
                             format!(
-                                "pass at or below half the rating; highest repetition rate {}",
+                                "pass at or below half the rating; highest repetition rate the clamp rating allows {}",
                                 max_rep.map_or("unlimited".to_string(), |f| eng(f, "Hz"))
                             ),
                         )
@@ -161,7 +161,7 @@ impl Analysis<'_> {
                         format!("rating {}", eng(wide(rating.value()), "W")),
                         None,
                         format!(
-                            "highest repetition rate {}; give timing.on_time and timing.repetition to check",
+                            "highest repetition rate the clamp rating allows {}; give timing.on_time and timing.repetition to check",
                             max_rep.map_or("unlimited".to_string(), |f| eng(f, "Hz"))
                         ),
                     ),

@@ -18,8 +18,8 @@ use coilwise::diagnosis::{Conditions, Expected, Probe};
 use coilwise::physics::drive::{check_bipolar, check_mosfet, BaseDrive, GateDrive};
 use coilwise::physics::off_time::OffTimeLimit;
 use coilwise::{
-    Amps, Celsius, Figures, Hertz, KelvinPerWatt, Limit, Ohms, OperatingPoint, Switch, Volts,
-    COMMON_OVERDRIVE,
+    Amps, Armature, Celsius, Figures, Hertz, KelvinPerWatt, Limit, Ohms, OperatingPoint, Switch,
+    Volts, COMMON_OVERDRIVE,
 };
 
 use crate::error::{ErrorClass, ToolError};
@@ -45,6 +45,8 @@ pub struct Analysis<'a> {
     pub release: Figures,
     /// Minimum on-time (worst pull-in + operate allowance), s.
     pub min_on_time: Option<f64>,
+    /// Largest switch-on time constant `L_released / R_on` over the 32 tolerance corners, s.
+    pub tau_on_max: f64,
     /// Safe minimum off-time over nominal and release corner, s.
     pub min_off_time: f64,
     /// Which requirement set the off-time.
@@ -154,6 +156,16 @@ impl<'a> Analysis<'a> {
             .map_err(|e| figures_error(spec, e, "release corner"))?;
 
         let operate = wide(d.operate_allowance.value());
+        let mut tau_on_max = wide(pull_in.tau_on.value()).max(wide(nominal.tau_on.value()));
+        let mut k = 0;
+        while let Some(op) = d.corner(k) {
+            k += 1;
+            let rise = d
+                .circuit
+                .energize(&op, Armature::Released, Amps::new(0.0))
+                .map_err(|e| figures_error(spec, e, "a tolerance corner"))?;
+            tau_on_max = tau_on_max.max(wide(rise.tau().value()));
+        }
         let min_on_time = pull_in.pull_in_time.map(|t| wide(t.value()) + operate);
         let (mut min_off, off_time_limit) =
             if release.off_time.required >= nominal.off_time.required {
@@ -332,6 +344,7 @@ impl<'a> Analysis<'a> {
             pull_in,
             release,
             min_on_time,
+            tau_on_max,
             min_off_time,
             off_time_limit,
             ticks,
@@ -350,6 +363,33 @@ impl<'a> Analysis<'a> {
         };
         a.checks = a.make_checks();
         Ok(a)
+    }
+
+    /// Maximum repetition rate at the nominal point and the worst case, with the limit that sets
+    /// it: the lower of `1 / (t_on,min + t_off,min)` (the shortest legal cycle) and the clamp's
+    /// `P_rating / E_clamp` (the core's figure; the release corner's is the lower). `None` where
+    /// neither exists (no pull-in and no rating).
+    pub fn max_repetition(&self) -> (Option<RepetitionLimit>, Option<RepetitionLimit>) {
+        let operate = wide(self.spec.design.operate_allowance.value());
+        let pick = |timing: Option<f64>, clamp: Option<coilwise::Hertz>| {
+            let timing = timing
+                .filter(|t| *t > 0.0)
+                .map(|t| (1.0 / t, RateLimit::Timing));
+            let clamp = clamp.map(|h| (wide(h.value()), RateLimit::ClampRating));
+            match (timing, clamp) {
+                (Some(t), Some(c)) => Some(if c.0 < t.0 { c } else { t }),
+                (t, c) => t.or(c),
+            }
+        };
+        let n = &self.nominal;
+        let nominal_cycle = n
+            .pull_in_time
+            .map(|t| wide(t.value()) + operate + wide(n.off_time.required.value()));
+        let worst_cycle = self.min_on_time.map(|t| t + self.min_off_time);
+        (
+            pick(nominal_cycle, n.max_repetition),
+            pick(worst_cycle, self.release.max_repetition),
+        )
     }
 
     /// Whether any check failed.

@@ -175,6 +175,18 @@ pub struct SelfHeatingCheck {
     pub outcome: Result<SelfHeating, coilwise::Error>,
 }
 
+/// Which limit sets the maximum repetition rate.
+#[derive(Clone, Copy, Debug, PartialEq, Eq)]
+pub enum RateLimit {
+    /// The shortest legal cycle: minimum on-time plus safe minimum off-time.
+    Timing,
+    /// The clamp's power rating over its energy per pulse.
+    ClampRating,
+}
+
+/// A maximum repetition rate (Hz) and the limit that sets it.
+pub type RepetitionLimit = (f64, RateLimit);
+
 /// Firmware tick counts (each rounded toward safety).
 #[derive(Clone, Copy, Debug, PartialEq, Eq)]
 pub struct TickCounts {
