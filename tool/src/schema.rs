@@ -233,9 +233,9 @@ pub const KEYS: &[KeySpec] = &[
     .eg("40 mA"),
     key("diagnosis.probe_fraction", Quantity(Percent), false, Some("50 %"), "diagnostic pulse: the longest pulse that keeps the current below this fraction of pull-in at every corner")
     .eg("50 %"),
-    key("compare.zener", QuantityList(Voltage), false, Some("[three from the E24 series]"), "zener / TVS voltages for the clamp comparison")
+    key("compare.zener", QuantityList(Voltage), false, Some("[three from the E24 series, IEC 60063]"), "zener / TVS voltages for the clamp comparison")
     .eg("15 V"),
-    key("compare.resistor", QuantityList(Resistance), false, Some("[two from the E12 series]"), "clamp resistors for the clamp comparison")
+    key("compare.resistor", QuantityList(Resistance), false, Some("[two from the E12 series, IEC 60063]"), "clamp resistors for the clamp comparison")
     .eg("220 ohm"),
     key("compare.diode_drop", Quantity(Voltage), false, Some("clamp.diode_drop, else 0.8 V"), "diode drop used for the compared clamps")
     .eg("0.8 V"),

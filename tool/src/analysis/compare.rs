@@ -7,9 +7,9 @@ use super::{wide, ClampRow, Status};
 use crate::quantity::eng;
 use crate::spec::Spec;
 
-/// E12 mantissas.
+/// E12 mantissas (IEC 60063 preferred number series).
 pub const E12: [f64; 12] = [1.0, 1.2, 1.5, 1.8, 2.2, 2.7, 3.3, 3.9, 4.7, 5.6, 6.8, 8.2];
-/// E24 mantissas.
+/// E24 mantissas (IEC 60063 preferred number series).
 pub const E24: [f64; 24] = [
     1.0, 1.1, 1.2, 1.3, 1.5, 1.6, 1.8, 2.0, 2.2, 2.4, 2.7, 3.0, 3.3, 3.6, 3.9, 4.3, 4.7, 5.1, 5.6,
     6.2, 6.8, 7.5, 8.2, 9.1,
