@@ -155,7 +155,11 @@ fn figures_table(a: &Analysis<'_>) -> String {
         "release corner (to ground)",
     );
     row(
-        "clamp average power",
+        if unclamped {
+            "avalanche power (switch)"
+        } else {
+            "clamp average power"
+        },
         n.clamp_power.map_or("-".to_string(), |w| s(w.value(), "W")),
         r.clamp_power.map_or("-".to_string(), |w| s(w.value(), "W")),
         "release corner, planned rate",

@@ -346,6 +346,10 @@ fn the_no_clamp_energy_is_labelled_as_the_switchs() {
         .lines()
         .any(|l| l.starts_with("avalanche energy (switch)")));
     assert!(!text.lines().any(|l| l.starts_with("clamp energy")));
+    assert!(text
+        .lines()
+        .any(|l| l.starts_with("avalanche power (switch)")));
+    assert!(!text.lines().any(|l| l.starts_with("clamp average power")));
     // The release-corner note names every tolerance the corner takes, inductance included.
     let note = text
         .lines()
