@@ -45,6 +45,8 @@ pub enum Param {
     ClampVoltage,
     /// Clamp resistor.
     ClampResistance,
+    /// Reverse standoff voltage of a TVS straight across the coil.
+    StandoffVoltage,
     /// Snubber or node capacitance.
     Capacitance,
     /// A resistance in a capacitive node.
@@ -90,7 +92,9 @@ pub enum Why {
     Inverted,
     /// A clamp voltage at or below the clamp diode's own forward drop.
     BelowDiodeDrop,
-    /// The switch breakdown voltage is at or below the supply: it would conduct while off.
+    /// A voltage that must block the supply is at or below it: the switch breakdown or a clamp
+    /// across the switch (it would conduct while off), or the standoff of a TVS across the coil (it
+    /// would conduct while on).
     BelowSupply,
     /// A must-release voltage at or above the must-operate voltage.
     ReleaseAboveOperate,
@@ -171,6 +175,7 @@ impl fmt::Display for Param {
             Param::DiodeDrop => "diode forward drop",
             Param::ClampVoltage => "clamp voltage",
             Param::ClampResistance => "clamp resistance",
+            Param::StandoffVoltage => "TVS standoff voltage",
             Param::Capacitance => "capacitance",
             Param::NodeResistance => "node resistance",
             Param::Current => "current",

@@ -51,6 +51,8 @@ fn clamps(v: f32, r: f32, l: f32, vf: f32, vz: f32, rc: f32, k: f32) -> Vec<Clam
         },
         Clamp::Unclamped,
         Clamp::rc_snubber(Ohms::new(rc), Farads::new(c_crit * k)).unwrap(),
+        // Standoff between the supply (the MOSFET's drive voltage) and the clamping voltage.
+        Clamp::tvs_across_coil(Volts::new(v + vz), Volts::new(v + 0.5 * vz)).unwrap(),
     ]
 }
 
@@ -127,6 +129,34 @@ proptest! {
         let drop = Amps::new(0.2 / r);
         prop_assert!(b.time_to_current(drop).unwrap() <= a.time_to_current(drop).unwrap());
         prop_assert!(b.peak_switch_voltage() >= a.peak_switch_voltage());
+        // The same for a TVS straight across the coil (standoff just above the supply).
+        let tvs = |vc: f32| {
+            let clamp = Clamp::tvs_across_coil(Volts::new(v + vc), Volts::new(v + 0.5)).unwrap();
+            let c = circuit(r, l, clamp, 300.0);
+            c.release(&op, c.final_current(&op).unwrap()).unwrap()
+        };
+        let (a, b) = (tvs(low), tvs(high));
+        prop_assert!(b.time_to_zero().unwrap() <= a.time_to_zero().unwrap());
+        prop_assert!(b.time_to_current(drop).unwrap() <= a.time_to_current(drop).unwrap());
+        prop_assert!(b.peak_switch_voltage() >= a.peak_switch_voltage());
+    }
+
+    #[test]
+    fn a_tvs_across_the_coil_is_refused_when_the_supply_reaches_its_standoff(
+        v in 5.0f32..48.0, r in 5.0f32..2000.0, l in 1e-3f32..2.0, s in 0.1f32..2.0,
+    ) {
+        // Fact of the trade (common practice, no source): a TVS conducts above its standoff, so
+        // one straight across the coil would conduct while the switch is on.
+        let clamp = Clamp::tvs_across_coil(Volts::new(3.0 * v), Volts::new(s * v)).unwrap();
+        let c = circuit(r, l, clamp, 300.0);
+        let op = OperatingPoint::new(Volts::new(v), Celsius::new(20.0));
+        let got = c.release(&op, Amps::new(0.01));
+        if s * v <= v {
+            prop_assert_eq!(got.err(), Some(coilwise::Error::invalid(
+                coilwise::Param::StandoffVoltage, coilwise::Why::BelowSupply)));
+        } else {
+            prop_assert!(got.is_ok());
+        }
     }
 
     #[test]

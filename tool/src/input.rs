@@ -187,7 +187,7 @@ impl Inputs {
                 ),
             )
             .at(value_place, Some(key))
-            .hint(format!("write it like {} = {}", key, spec.kind.describe())));
+            .hint(format!("write it like {} = {}", key, spec.format())));
         }
         self.entries.insert(
             key.to_string(),
@@ -286,9 +286,7 @@ impl Inputs {
 
     /// A missing-key error naming the section the key belongs in.
     pub fn missing(&self, key: &str, why: &str) -> ToolError {
-        let kind = schema::spec(key)
-            .map(|s| s.kind.describe())
-            .unwrap_or_default();
+        let kind = schema::spec(key).map(|s| s.format()).unwrap_or_default();
         let section = key.split('.').next().unwrap_or(key);
         let name = key.split('.').nth(1).unwrap_or(key);
         self.error(
@@ -327,14 +325,17 @@ impl Inputs {
         };
         let mut err = ToolError::new(class, format!("value \"{text}\" {e}; expected {expected}"))
             .at(place, Some(key));
+        // The key's own example ("0.8 V" for a diode drop), not the unit's generic one.
+        let example = schema::spec(key)
+            .and_then(|s| s.example)
+            .unwrap_or(dim.example());
         let hint = match (&e, dim) {
             (QuantityError::UnknownUnit(u), Dim::Temperature) if u == "C" => {
                 "write degrees Celsius as degC or °C, e.g. \"85 degC\"".to_string()
             }
-            (_, Dim::Number) => format!("write a plain number, e.g. {}", dim.example()),
+            (_, Dim::Number) => format!("write a plain number, e.g. {example}"),
             _ => format!(
-                "write it like \"{}\" (SI prefixes p n u µ m k M G allowed where it makes sense)",
-                dim.example()
+                "write it like \"{example}\" (SI prefixes p n u µ m k M G allowed where it makes sense)"
             ),
         };
         err = err.hint(hint);

@@ -330,7 +330,7 @@ pub fn build(a: &Analysis<'_>) -> Report {
     let n = &a.nominal;
     let mut worst = FigureSet::from(&a.release, a.min_off_time);
     let p = FigureSet::from(&a.pull_in, a.min_off_time);
-    worst.tau_on_s = p.tau_on_s;
+    worst.tau_on_s = a.tau_on_max;
     worst.pull_in_time_s = p.pull_in_time_s;
     worst.pull_in_margin = p.pull_in_margin;
     let status_rank = |s: &str| match s {
@@ -492,10 +492,42 @@ pub fn build(a: &Analysis<'_>) -> Report {
     }
 }
 
-/// The JSON text, pretty-printed, with a trailing newline.
-pub fn render(a: &Analysis<'_>) -> String {
-    let mut s = serde_json::to_string_pretty(&build(a))
+/// What `coilwise compare --json` prints: the comparison rows and the cautions.
+#[derive(Debug, Serialize)]
+pub struct Comparison {
+    /// Schema identifier, the same as the full report's.
+    pub schema: &'static str,
+    /// The rows, as in [`Report::clamp_comparison`].
+    pub clamp_comparison: Vec<ClampOut>,
+    /// Safety cautions (the same as the full report's).
+    pub cautions: Vec<&'static str>,
+}
+
+/// The `compare --json` text, pretty-printed, with a trailing newline.
+pub fn render_comparison(a: &Analysis<'_>) -> String {
+    let doc = Comparison {
+        schema: SCHEMA,
+        clamp_comparison: build(a).clamp_comparison,
+        cautions: CAUTIONS.to_vec(),
+    };
+    pretty(&doc)
+}
+
+/// `doc` as pretty JSON with its numbers at f32 precision ([`crate::numbers::tidy`]) and a
+/// trailing newline.
+fn pretty(doc: &impl Serialize) -> String {
+    let mut s = serde_json::to_value(doc)
+        .map(|mut v| {
+            crate::numbers::tidy(&mut v);
+            v
+        })
+        .and_then(|v| serde_json::to_string_pretty(&v))
         .unwrap_or_else(|e| format!("{{\"schema\":\"{SCHEMA}\",\"error\":\"{e}\"}}"));
     s.push('\n');
     s
+}
+
+/// The JSON text, pretty-printed, with a trailing newline.
+pub fn render(a: &Analysis<'_>) -> String {
+    pretty(&build(a))
 }

@@ -13,10 +13,12 @@
 #![deny(missing_docs)]
 
 pub mod analysis;
+pub mod cautions;
 pub mod constants;
 pub mod error;
 pub mod input;
 pub mod json;
+pub mod numbers;
 pub mod output;
 pub mod plot;
 pub mod quantity;

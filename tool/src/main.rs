@@ -122,17 +122,9 @@ fn run(cli: Cli) -> Result<ExitCode, ToolError> {
             let spec = coilwise_tool::load(&design.design, &design.set)?;
             let a = Analysis::new(&spec)?;
             let text = if json {
-                let doc = json::build(&a);
-                let mut s = serde_json::to_string_pretty(&doc.clamp_comparison)
-                    .map_err(|e| ToolError::new(ErrorClass::Io, e.to_string()))?;
-                s.push('\n');
-                s
+                json::render_comparison(&a)
             } else {
-                format!(
-                    "coilwise clamp comparison: {}\n\n{}",
-                    spec.name,
-                    report::comparison_table(&a)
-                )
+                report::render_comparison(&a)
             };
             output::write(output.as_deref(), text.as_bytes())?;
         }

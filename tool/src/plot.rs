@@ -165,12 +165,20 @@ fn time_scale(end: f64) -> (f64, &'static str) {
     }
 }
 
-/// Renders the cycle as an SVG document (900 × 720 px).
+/// Height of the strip under the panels that carries the cautions, px.
+const CAUTION_STRIP: u32 = 130;
+/// Characters per caution line at 11 px sans-serif across 900 px.
+const CAUTION_WIDTH: usize = 150;
+
+/// Renders the cycle as an SVG document (900 × 850 px): the two panels, then the cautions.
 pub fn svg(c: &Cycle, title: &str) -> Result<String, ToolError> {
     let mut out = String::new();
     {
-        let root = SVGBackend::with_string(&mut out, (900, 720)).into_drawing_area();
-        root.fill(&WHITE).map_err(draw_err)?;
+        let canvas =
+            SVGBackend::with_string(&mut out, (900, 720 + CAUTION_STRIP)).into_drawing_area();
+        canvas.fill(&WHITE).map_err(draw_err)?;
+        let (root, strip) = canvas.split_vertically(720);
+        draw_cautions(&strip)?;
         let root = root.titled(title, ("sans-serif", 20)).map_err(draw_err)?;
         let (upper, lower) = root.split_vertically(340);
         let (k, unit) = time_scale(c.end);
@@ -233,6 +241,53 @@ pub fn svg(c: &Cycle, title: &str) -> Result<String, ToolError> {
         root.present().map_err(draw_err)?;
     }
     Ok(out)
+}
+
+/// The cautions of [`crate::cautions::CAUTIONS`], word-wrapped, in the strip under the panels.
+fn draw_cautions<DB: DrawingBackend>(
+    strip: &DrawingArea<DB, plotters::coord::Shift>,
+) -> Result<(), ToolError> {
+    let style = ("sans-serif", 11).into_font().color(&BLACK);
+    let mut y = 4;
+    strip
+        .draw(&Text::new(
+            "CAUTIONS",
+            (12, y),
+            ("sans-serif", 12).into_font().color(&BLACK),
+        ))
+        .map_err(draw_err)?;
+    y += 15;
+    for caution in crate::cautions::CAUTIONS {
+        for (n, line) in wrap(caution, CAUTION_WIDTH).iter().enumerate() {
+            let text = if n == 0 {
+                format!("- {line}")
+            } else {
+                format!("  {line}")
+            };
+            strip
+                .draw(&Text::new(text, (12, y), style.clone()))
+                .map_err(draw_err)?;
+            y += 13;
+        }
+    }
+    Ok(())
+}
+
+/// Greedy word wrap at `width` characters.
+fn wrap(text: &str, width: usize) -> Vec<String> {
+    let mut lines = vec![String::new()];
+    for word in text.split_whitespace() {
+        let last = lines.last_mut().expect("never empty");
+        if !last.is_empty() && last.chars().count() + 1 + word.chars().count() > width {
+            lines.push(word.to_string());
+        } else {
+            if !last.is_empty() {
+                last.push(' ');
+            }
+            last.push_str(word);
+        }
+    }
+    lines
 }
 
 /// Axis texts and ranges of one panel.

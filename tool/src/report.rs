@@ -9,13 +9,7 @@ use crate::analysis::{self, wide, Analysis, ClampRow, Status, BAND_SOURCE_TEXT};
 use crate::quantity::{eng, percent};
 use crate::table::render;
 
-/// Cautions printed wherever the tool reports stress.
-pub const CAUTIONS: &[&str] = &[
-    "These are engineering estimates from first-order models: constant inductance per armature position, ideal clamp elements, no core saturation or eddy currents. Measure the real circuit before relying on them.",
-    "Check every stress figure against the component datasheets and their derating curves; where a datasheet and this report disagree, the datasheet wins.",
-    "Switching a coil off without a working clamp puts a high voltage on the switch and on exposed conductors; an open clamp diode does the same. Do not rely on switch avalanche without an avalanche rating.",
-    "Contacts that switch mains are dangerous: follow local electrical codes and have such circuits designed and checked under licensed practice.",
-];
+pub use crate::cautions::CAUTIONS;
 
 fn s(x: f32, unit: &str) -> String {
     eng(wide(x), unit)
@@ -72,8 +66,8 @@ fn figures_table(a: &Analysis<'_>) -> String {
     row(
         "time constant, switch-on",
         s(n.tau_on.value(), "s"),
-        s(p.tau_on.value(), "s"),
-        "pull-in corner",
+        eng(a.tau_on_max, "s"),
+        "largest of the 32 corners",
     );
     row(
         "pull-in time (electrical)",
@@ -123,8 +117,13 @@ fn figures_table(a: &Analysis<'_>) -> String {
         s(r.energy.stored.value(), "J"),
         "release corner",
     );
+    let unclamped = matches!(a.spec.design.circuit.clamp(), coilwise::Clamp::Unclamped);
     row(
-        "clamp energy",
+        if unclamped {
+            "avalanche energy (switch)"
+        } else {
+            "clamp energy"
+        },
         s(n.energy.clamp.value(), "J"),
         s(r.energy.clamp.value(), "J"),
         "release corner",
@@ -156,18 +155,28 @@ fn figures_table(a: &Analysis<'_>) -> String {
         "release corner (to ground)",
     );
     row(
-        "clamp average power",
+        if unclamped {
+            "avalanche power (switch)"
+        } else {
+            "clamp average power"
+        },
         n.clamp_power.map_or("-".to_string(), |w| s(w.value(), "W")),
         r.clamp_power.map_or("-".to_string(), |w| s(w.value(), "W")),
         "release corner, planned rate",
     );
+    let (nominal_rate, worst_rate) = a.max_repetition();
+    let rate_text =
+        |r: Option<(f64, analysis::RateLimit)>| r.map_or("-".to_string(), |(f, _)| eng(f, "Hz"));
+    let which = match worst_rate {
+        Some((_, analysis::RateLimit::Timing)) => "lowest: 1 / (min on-time + safe min off-time)",
+        Some((_, analysis::RateLimit::ClampRating)) => "lowest: clamp power rating",
+        None => "never pulls in, no clamp.power_rating",
+    };
     row(
         "maximum repetition rate",
-        n.max_repetition
-            .map_or("-".to_string(), |h| s(h.value(), "Hz")),
-        r.max_repetition
-            .map_or("-".to_string(), |h| s(h.value(), "Hz")),
-        "release corner (lowest)",
+        rate_text(nominal_rate),
+        rate_text(worst_rate),
+        which,
     );
     row(
         "coil dissipation, on",
@@ -274,7 +283,12 @@ fn comparison_row(row: &ClampRow, notes: &mut Vec<String>) -> Vec<String> {
             s(f.release_time.value(), "s"),
             s(f.time_to_zero.value(), "s"),
             s(f.peak_switch_voltage.value(), "V"),
-            s(f.energy.clamp.value(), "J"),
+            if matches!(row.clamp, coilwise::Clamp::Unclamped) {
+                // No clamp: the energy goes into the switch's avalanche.
+                format!("{} (switch)", s(f.energy.clamp.value(), "J"))
+            } else {
+                s(f.energy.clamp.value(), "J")
+            },
             s(f.energy.winding.value(), "J"),
             row.status.word().to_uppercase(),
         ],
@@ -291,6 +305,16 @@ fn comparison_row(row: &ClampRow, notes: &mut Vec<String>) -> Vec<String> {
             ]
         }
     }
+}
+
+/// What `coilwise compare` prints: a title, the comparison table and the cautions.
+pub fn render_comparison(a: &Analysis<'_>) -> String {
+    format!(
+        "coilwise clamp comparison: {}\n\n{}\n{}",
+        a.spec.name,
+        comparison_table(a),
+        crate::cautions::text_section()
+    )
 }
 
 /// The full report.
@@ -347,7 +371,7 @@ pub fn render_report(a: &Analysis<'_>) -> String {
     out.push_str(
         "  pull-in corner: lowest supply, hottest winding, highest R and L: slowest pull-in.\n",
     );
-    out.push_str("  release corner: highest supply, coldest winding, lowest R: most current, energy and voltage at switch-off.\n");
+    out.push_str("  release corner: highest supply, coldest winding, lowest R, highest L: most current, stored energy and voltage at switch-off, longest release.\n");
 
     out.push_str("\nTIMING, ENERGY AND STRESS\n");
     out.push_str(&figures_table(a));
@@ -382,11 +406,17 @@ pub fn render_report(a: &Analysis<'_>) -> String {
     out.push_str(&checks_table(a));
 
     if let (Some(h), Some(hold)) = (a.hold, spec.hold) {
+        let unclamped = matches!(spec.design.circuit.clamp(), coilwise::Clamp::Unclamped);
         let _ = writeln!(
             out,
-            "\nHOLD ECONOMISER ({} at {} PWM, freewheeling through the fitted clamp)",
+            "\nHOLD ECONOMISER ({} at {} PWM, {})",
             eng(hold.current, "A"),
-            eng(hold.pwm_frequency, "Hz")
+            eng(hold.pwm_frequency, "Hz"),
+            if unclamped {
+                "NO CLAMP: the switch avalanches in every off-interval"
+            } else {
+                "freewheeling through the fitted clamp"
+            }
         );
         let mut rows = vec![vec![
             "point".to_string(),
@@ -521,10 +551,8 @@ pub fn render_report(a: &Analysis<'_>) -> String {
     out.push_str("\nCLAMP COMPARISON\n");
     out.push_str(&comparison_table(a));
 
-    out.push_str("\nCAUTIONS\n");
-    for c in CAUTIONS {
-        let _ = writeln!(out, "- {c}");
-    }
+    out.push('\n');
+    out.push_str(&crate::cautions::text_section());
     let worst = a
         .checks
         .iter()

@@ -509,7 +509,7 @@ impl Spec {
             only_clamp(i, "clamp.diode_drop", clamp_kind)?;
             None
         };
-        let zener = if matches!(clamp_kind, "zener" | "switch-zener") {
+        let zener = if matches!(clamp_kind, "zener" | "switch-zener" | "tvs-across-coil") {
             Some(i.quantity("clamp.zener")?.ok_or_else(|| {
                 i.missing(
                     "clamp.zener",
@@ -538,6 +538,14 @@ impl Spec {
             )
         } else {
             only_clamp(i, "clamp.capacitance", clamp_kind)?;
+            None
+        };
+        let standoff = if clamp_kind == "tvs-across-coil" {
+            Some(i.quantity("clamp.standoff")?.ok_or_else(|| {
+                i.missing("clamp.standoff", " (clamp.kind = \"tvs-across-coil\")")
+            })?)
+        } else {
+            only_clamp(i, "clamp.standoff", clamp_kind)?;
             None
         };
         let vf = diode.unwrap_or(0.8);
@@ -572,6 +580,10 @@ impl Spec {
                 };
                 c.validate().map(|()| c)
             }
+            "tvs-across-coil" => Clamp::tvs_across_coil(
+                Volts::new(f(zener.unwrap_or(0.0))),
+                Volts::new(f(standoff.unwrap_or(0.0))),
+            ),
             _ => Ok(Clamp::Unclamped),
         }
         .map_err(|e| {
@@ -588,6 +600,10 @@ impl Spec {
                     param: coilwise::Param::Capacitance,
                     ..
                 } => "clamp.capacitance",
+                coilwise::Error::Invalid {
+                    param: coilwise::Param::StandoffVoltage,
+                    ..
+                } => "clamp.standoff",
                 _ => "clamp.diode_drop",
             };
             core_error(i, key, e)

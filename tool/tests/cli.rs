@@ -98,8 +98,8 @@ fn compare_plot_constants_and_keys_succeed() {
     assert!(o.status.success());
     assert!(stdout(&o).contains("zener 18.00 V + diode (fitted)"));
     let o = run(&["compare", RELAY, "--json"]);
-    let rows: serde_json::Value = serde_json::from_str(&stdout(&o)).unwrap();
-    assert!(rows.as_array().unwrap().len() >= 5);
+    let doc: serde_json::Value = serde_json::from_str(&stdout(&o)).unwrap();
+    assert!(doc["clamp_comparison"].as_array().unwrap().len() >= 5);
 
     let svg = dir.path().join("cycle.svg");
     let o = run(&[

@@ -216,6 +216,7 @@ const CHECK_IDS: &[&str] = &[
     "hold_duty",
     "hold_clamp_power",
     "hold_current",
+    "hold_avalanche",
     "self_heating",
     "rise_band",
 ];
@@ -317,6 +318,20 @@ fn variants() -> Vec<Vec<&'static str>> {
             "--set",
             "clamp.capacitance=47 uF",
         ],
+        // Bidirectional TVS across the coil: its own clamp kind.
+        vec![
+            "report",
+            "examples/greenhouse-valve.toml",
+            "--json",
+            "--set",
+            "clamp.kind=tvs-across-coil",
+            "--set",
+            "clamp.diode_drop=",
+            "--set",
+            "clamp.zener=33 V",
+            "--set",
+            "clamp.standoff=28 V",
+        ],
     ]
 }
 
@@ -383,9 +398,13 @@ fn nulls_appear_where_documented() {
 
 #[test]
 fn compare_json_rows_match_the_report_rows() {
-    let rows = json_of(&["compare", "examples/greenhouse-valve.toml", "--json"]);
+    let doc = json_of(&["compare", "examples/greenhouse-valve.toml", "--json"]);
     let report = json_of(&["report", "examples/greenhouse-valve.toml", "--json"]);
-    assert_eq!(rows, report["clamp_comparison"]);
-    let typed: Vec<ClampRow> = serde_json::from_value(rows).unwrap();
+    assert_eq!(doc["clamp_comparison"], report["clamp_comparison"]);
+    assert_eq!(doc["cautions"], report["cautions"]);
+    assert_eq!(doc["schema"], report["schema"]);
+    let keys: Vec<&String> = doc.as_object().unwrap().keys().collect();
+    assert_eq!(keys, ["cautions", "clamp_comparison", "schema"]);
+    let typed: Vec<ClampRow> = serde_json::from_value(doc["clamp_comparison"].clone()).unwrap();
     assert_eq!(typed.iter().filter(|r| r.fitted).count(), 1);
 }

@@ -42,6 +42,25 @@ fn output(args: &[&str]) -> String {
 }
 
 #[test]
+fn valve_with_a_tvs_across_the_coil_report() {
+    check(
+        "greenhouse-valve-tvs.report.txt",
+        &output(&[
+            "report",
+            "examples/greenhouse-valve.toml",
+            "--set",
+            "clamp.kind=tvs-across-coil",
+            "--set",
+            "clamp.diode_drop=",
+            "--set",
+            "clamp.zener=33 V",
+            "--set",
+            "clamp.standoff=28 V",
+        ]),
+    );
+}
+
+#[test]
 fn valve_report() {
     check(
         "greenhouse-valve.report.txt",

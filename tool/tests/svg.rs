@@ -16,7 +16,7 @@ fn plot(design: &str, extra: &[&str]) -> (String, Vec<String>) {
     // The traces are the compared clamps that could be evaluated.
     let rows = run(&["compare", design, "--json"]);
     let rows: serde_json::Value = serde_json::from_str(&stdout(&rows)).unwrap();
-    let labels = rows
+    let labels = rows["clamp_comparison"]
         .as_array()
         .unwrap()
         .iter()

@@ -61,7 +61,9 @@ impl Circuit {
     /// # Errors
     /// [`Error::Unreachable`] when `I_h ≥ I_on = V_drive/R_on` (the coil cannot be held there even
     /// at 100 %); [`Limit::NotFirstOrder`] for the RC snubber; [`Limit::DiscontinuousConduction`]
-    /// when the current would reach zero in the off phase (PWM too slow); invalid inputs.
+    /// when the current would reach zero in the off phase (PWM too slow); [`Limit::Overflow`] when
+    /// the clamp's opposing voltage is so far above the drive that the duty rounds to 1 in f32;
+    /// invalid inputs.
     pub fn hold(
         &self,
         op: &OperatingPoint,
@@ -88,10 +90,18 @@ impl Circuit {
         // R·τ = L for both loops, so the duty can be written with rates (1/τ) instead of ohms.
         let r_on = 1.0 / tau_on; // ∝ R_on
         let r_off = 1.0 / tau_off; // ∝ R_off
-        let duty = result(r_off * (a + ih) / (r_on * (i_on - ih) + r_off * (a + ih)))?;
+        let den = r_on * (i_on - ih) + r_off * (a + ih);
+        let duty = result(r_off * (a + ih) / den)?;
+        // The off fraction from its own expression, not 1 − D: with a clamp voltage far above the
+        // supply 1 − D is tiny and `1.0 - duty` would keep none of its digits. Where D itself
+        // rounds to 1 in f32 the contract 0 < D < 1 cannot be met: refuse.
+        let off = result(r_on * (i_on - ih) / den)?;
+        if !(duty < 1.0 && off > 0.0) {
+            return Err(Error::OutsideModel(Limit::Overflow));
+        }
         let period = result(1.0 / f)?;
         let x_on = duty * period / tau_on;
-        let x_off = (1.0 - duty) * period / tau_off;
+        let x_off = off * period / tau_off;
         let m_on = -libm::expm1f(-x_on);
         let m_off = -libm::expm1f(-x_off);
         let m_tot = -libm::expm1f(-(x_on + x_off));
@@ -106,7 +116,7 @@ impl Circuit {
         let peak = valley + ripple;
         let mean_on = valley + (i_on - valley) * mean_fraction(x_on);
         let mean_off = peak - (peak + a) * mean_fraction(x_off);
-        let average = result(duty * mean_on + (1.0 - duty) * mean_off)?;
+        let average = result(duty * mean_on + off * mean_off)?;
         let winding = self.resolve(op)?.winding.value();
         Ok(Hold {
             duty,
@@ -116,9 +126,7 @@ impl Circuit {
             ripple: Amps::new(ripple),
             average: Amps::new(average),
             winding_power: Watts::new(winding * (average * average + ripple * ripple / 12.0)),
-            clamp_power: Watts::new(result(
-                (1.0 - duty) * release.clamp_power_at(mean_off, ripple),
-            )?),
+            clamp_power: Watts::new(result(off * release.clamp_power_at(mean_off, ripple))?),
         })
     }
 }
@@ -296,6 +304,44 @@ mod tests {
         assert!(c
             .hold(&op(), Amps::new(0.05), Hertz::new(f32::NAN))
             .is_err());
+    }
+
+    #[test]
+    fn a_clamp_far_above_the_supply_keeps_the_off_interval_and_the_contract() {
+        // Reference: the module's steady periodic solution written out in f64 (volt-second
+        // balance and the two exact exponential segments, textbook, from memory). Valve circuit:
+        // R_on = 180.5 + 0.5 + 0.05 Ω (winding 180 + wiring 0.4 + sense 0.5 + R_DS 0.1 at 20 °C
+        // as in `valve`), read back from the core's own loop resistances.
+        let c = valve(Clamp::diode_zener(Volts::new(0.8), Volts::new(1.0e5)).unwrap());
+        let (f, ih) = (20_000.0f64, 0.06f64);
+        let h = c
+            .hold(&op(), Amps::new(ih as f32), Hertz::new(f as f32))
+            .unwrap();
+        let r = c.resolve(&op()).unwrap();
+        let (r_on, r_off) = (r.on_loop.value() as f64, r.off_loop.value() as f64);
+        let l = r.inductance_operated as f64;
+        let (i_on, a) = (24.0 / r_on, 1.0e5 / r_off);
+        let den = r_on * (i_on - ih) + r_off * (a + ih);
+        let (duty, off) = (r_off * (a + ih) / den, r_on * (i_on - ih) / den);
+        let (x_on, x_off) = (duty * r_on * l.recip() / f, off * r_off * l.recip() / f);
+        let (m_on, m_off, m_tot) = (
+            -(-x_on).exp_m1(),
+            -(-x_off).exp_m1(),
+            -(-(x_on + x_off)).exp_m1(),
+        );
+        let valley = (i_on * m_on * (1.0 - m_off) - a * m_off) / m_tot;
+        let ripple = (i_on - valley) * m_on;
+        assert!((h.duty as f64 - duty).abs() < 1e-7, "{} vs {duty}", h.duty);
+        assert!(h.duty < 1.0);
+        let got = h.ripple.value() as f64;
+        assert!((got - ripple).abs() < 1e-3 * ripple, "{got} vs {ripple}");
+        assert!((h.valley.value() as f64 - valley).abs() < 1e-5 * valley);
+        // So far above the supply that the duty rounds to 1 in f32: refused, never D = 1.
+        let huge = valve(Clamp::diode_zener(Volts::new(0.8), Volts::new(1.0e9)).unwrap());
+        assert_eq!(
+            huge.hold(&op(), Amps::new(0.06), Hertz::new(20e3)),
+            Err(Error::OutsideModel(Limit::Overflow))
+        );
     }
 
     #[test]

@@ -11,6 +11,7 @@ pub mod heating;
 pub mod hold;
 pub mod off_time;
 pub mod rc_node;
+pub mod release;
 pub mod repetition;
 mod root;
 pub mod snubber;
