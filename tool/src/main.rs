@@ -183,11 +183,28 @@ fn run(cli: Cli) -> Result<ExitCode, ToolError> {
 }
 
 fn main() -> ExitCode {
-    let cli = Cli::parse();
+    let cli = match Cli::try_parse() {
+        Ok(cli) => cli,
+        // `--help` and `--version` go through the one write path like any output; a malformed
+        // command line is reported on standard error (never a panic on a closed pipe).
+        Err(e) if !e.use_stderr() => {
+            return match output::write(None, e.render().to_string().as_bytes()) {
+                Ok(()) => ExitCode::SUCCESS,
+                Err(err) => {
+                    output::error(&err);
+                    ExitCode::from(1)
+                }
+            };
+        }
+        Err(e) => {
+            let _ = e.print();
+            return ExitCode::from(2);
+        }
+    };
     match run(cli) {
         Ok(code) => code,
         Err(e) => {
-            eprintln!("{e}");
+            output::error(&e);
             ExitCode::from(1)
         }
     }
