@@ -15,6 +15,7 @@
 pub mod analysis;
 pub mod constants;
 pub mod error;
+pub mod escape;
 pub mod input;
 pub mod json;
 pub mod output;

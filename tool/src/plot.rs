@@ -5,6 +5,7 @@ use plotters::prelude::*;
 
 use crate::analysis::{self, wide, Analysis};
 use crate::error::{ErrorClass, ToolError};
+use crate::escape::xml_text;
 
 /// Which operating point to draw.
 #[derive(Clone, Copy, Debug, PartialEq, Eq)]
@@ -165,13 +166,16 @@ fn time_scale(end: f64) -> (f64, &'static str) {
     }
 }
 
-/// Renders the cycle as an SVG document (900 × 720 px).
+/// Renders the cycle as an SVG document (900 × 720 px). Every text passes through
+/// [`xml_text`], so the document is well-formed XML whatever `title` holds.
 pub fn svg(c: &Cycle, title: &str) -> Result<String, ToolError> {
     let mut out = String::new();
     {
         let root = SVGBackend::with_string(&mut out, (900, 720)).into_drawing_area();
         root.fill(&WHITE).map_err(draw_err)?;
-        let root = root.titled(title, ("sans-serif", 20)).map_err(draw_err)?;
+        let root = root
+            .titled(&xml_text(title), ("sans-serif", 20))
+            .map_err(draw_err)?;
         let (upper, lower) = root.split_vertically(340);
         let (k, unit) = time_scale(c.end);
         let x_end = c.end * k;
@@ -254,7 +258,7 @@ fn panel<DB: DrawingBackend>(
     levels: &[(f64, String, RGBColor)],
 ) -> Result<(), ToolError> {
     let mut chart = ChartBuilder::on(area)
-        .caption(&p.caption, ("sans-serif", 15))
+        .caption(xml_text(&p.caption), ("sans-serif", 15))
         .margin(12)
         .x_label_area_size(38)
         .y_label_area_size(64)
@@ -262,8 +266,8 @@ fn panel<DB: DrawingBackend>(
         .map_err(draw_err)?;
     chart
         .configure_mesh()
-        .x_desc(p.x_desc)
-        .y_desc(p.y_desc)
+        .x_desc(xml_text(p.x_desc))
+        .y_desc(xml_text(p.y_desc))
         .draw()
         .map_err(draw_err)?;
     for (n, t) in traces.iter().enumerate() {
@@ -274,7 +278,7 @@ fn panel<DB: DrawingBackend>(
                 col.stroke_width(2),
             ))
             .map_err(draw_err)?
-            .label(t.label.clone())
+            .label(xml_text(&t.label))
             .legend(move |(x, y)| PathElement::new(vec![(x, y), (x + 18, y)], col.stroke_width(2)));
     }
     for (level, label, col) in levels {
@@ -287,7 +291,7 @@ fn panel<DB: DrawingBackend>(
                 col.stroke_width(1),
             ))
             .map_err(draw_err)?
-            .label(label.clone())
+            .label(xml_text(label))
             .legend(move |(x, y)| PathElement::new(vec![(x, y), (x + 18, y)], col.stroke_width(1)));
     }
     chart
