@@ -8,8 +8,12 @@ use toml::de::{DeTable, DeValue};
 use toml::Spanned;
 
 use crate::error::{ErrorClass, Place, ToolError};
+use crate::escape::echo;
 use crate::quantity::{self, Dim, QuantityError};
 use crate::schema::{self, Kind};
+
+/// The most characters of a key or value an error message echoes.
+const ECHO_MAX: usize = 80;
 
 /// A value as read, before interpretation.
 #[derive(Clone, Debug, PartialEq)]
@@ -59,6 +63,52 @@ pub struct Inputs {
     sections: BTreeMap<String, Place>,
 }
 
+/// The largest design file read, bytes (1 MiB; the examples are under 3 KiB). A larger input —
+/// `/dev/zero`, a log file given by mistake — is refused after reading this much, never read
+/// until memory runs out.
+pub const MAX_FILE_BYTES: u64 = 1 << 20;
+
+/// Reads the design file at `path`: at most [`MAX_FILE_BYTES`], UTF-8.
+///
+/// # Errors
+/// [`ErrorClass::Io`] when it cannot be read or is larger; [`ErrorClass::Syntax`] at the line,
+/// column and byte offset of the first byte that is not UTF-8.
+pub fn read(path: &str) -> Result<String, ToolError> {
+    use std::io::Read as _;
+    let mut bytes = Vec::new();
+    std::fs::File::open(path)
+        .and_then(|f| f.take(MAX_FILE_BYTES + 1).read_to_end(&mut bytes))
+        .map_err(|e| ToolError::io(path, "read", &e))?;
+    if bytes.len() as u64 > MAX_FILE_BYTES {
+        return Err(ToolError::new(
+            ErrorClass::Io,
+            format!(
+                "`{path}` is larger than {} bytes (1 MiB), the most a design file may hold",
+                MAX_FILE_BYTES
+            ),
+        )
+        .hint("a design file is a few kilobytes of TOML; check the file name"));
+    }
+    String::from_utf8(bytes).map_err(|e| {
+        let at = e.utf8_error().valid_up_to();
+        let valid = std::str::from_utf8(&e.as_bytes()[..at]).unwrap_or_default();
+        let (line, column) = line_col(valid, at);
+        ToolError::new(
+            ErrorClass::Syntax,
+            format!("not valid TOML: not UTF-8 text (byte offset {at} is not part of a UTF-8 character)"),
+        )
+        .at(
+            Some(Place::File {
+                path: path.to_string(),
+                line,
+                column,
+            }),
+            None,
+        )
+        .hint("save the file as UTF-8")
+    })
+}
+
 /// 1-based line and character column of byte offset `at` in `text`.
 fn line_col(text: &str, at: usize) -> (usize, usize) {
     let at = at.min(text.len());
@@ -89,11 +139,14 @@ impl Inputs {
                     column,
                 }
             });
-            ToolError::new(
-                ErrorClass::Syntax,
-                format!("not valid TOML: {}", e.message().trim()),
-            )
-            .at(place, None)
+            let mut message = format!("not valid TOML: {}", e.message().trim());
+            // The parser's message says "duplicate key" without the key: it is under the span.
+            if let Some(s) = e.span().filter(|_| message.contains("duplicate key")) {
+                if let Some(written) = text.get(s) {
+                    message.push_str(&format!(" `{}`", echo(written.trim(), ECHO_MAX)));
+                }
+            }
+            ToolError::new(ErrorClass::Syntax, message).at(place, None)
         })?;
         let mut inputs = Inputs {
             path: path.to_string(),
@@ -110,21 +163,22 @@ impl Inputs {
         };
         for (name, value) in table.get_ref().iter() {
             let section = name.get_ref().to_string();
+            let shown = echo(&section, ECHO_MAX);
             let DeValue::Table(inner) = value.get_ref() else {
                 return Err(ToolError::new(
                     ErrorClass::UnknownKey,
                     format!(
-                        "top-level key `{section}` is not part of the design file; keys belong in a section such as [coil]"
+                        "top-level key `{shown}` is not part of the design file; keys belong in a section such as [coil]"
                     ),
                 )
-                .at(file(name.span()), Some(&section)));
+                .at(file(name.span()), Some(&shown)));
             };
             if !schema::sections().contains(&section.as_str()) {
                 let mut err = ToolError::new(
                     ErrorClass::UnknownKey,
-                    format!("section [{section}] is not part of the design file"),
+                    format!("section [{shown}] is not part of the design file"),
                 )
-                .at(file(name.span()), Some(&section));
+                .at(file(name.span()), Some(&shown));
                 err = err.hint(format!("sections are {}", schema::sections().join(", ")));
                 return Err(err);
             }
@@ -155,11 +209,12 @@ impl Inputs {
         value_place: Option<Place>,
     ) -> Result<(), ToolError> {
         let Some(spec) = schema::spec(key) else {
+            let shown = echo(key, ECHO_MAX);
             let mut err = ToolError::new(
                 ErrorClass::UnknownKey,
-                format!("`{key}` is not a key of the design file"),
+                format!("`{shown}` is not a key of the design file"),
             )
-            .at(place, Some(key));
+            .at(place, Some(&shown));
             err = match schema::closest(key) {
                 Some(k) => err.hint(format!("did you mean `{k}`? (`coilwise keys` lists all)")),
                 None => err.hint("`coilwise keys` lists every key"),
@@ -325,8 +380,14 @@ impl Inputs {
             Dim::Number => dim.name().to_string(),
             _ => format!("{} in {}", dim.name(), dim.unit_hint()),
         };
-        let mut err = ToolError::new(class, format!("value \"{text}\" {e}; expected {expected}"))
-            .at(place, Some(key));
+        let mut err = ToolError::new(
+            class,
+            format!(
+                "value \"{}\" {e}; expected {expected}",
+                echo(text, ECHO_MAX)
+            ),
+        )
+        .at(place, Some(key));
         let hint = match (&e, dim) {
             (QuantityError::UnknownUnit(u), Dim::Temperature) if u == "C" => {
                 "write degrees Celsius as degC or °C, e.g. \"85 degC\"".to_string()
@@ -341,15 +402,36 @@ impl Inputs {
         err
     }
 
+    /// `raw` read as the quantity `key` expects, then held to its physical range
+    /// ([`physical_range`]).
     fn parse_one(&self, key: &str, raw: &Raw, place: Option<Place>) -> Result<f64, ToolError> {
+        let v = self.parse_raw(key, raw, place.clone())?;
+        physical_range(Self::dim_of(key), v).map_err(|why| {
+            ToolError::new(ErrorClass::Impossible, why)
+                .at(place, Some(key))
+                .hint("see docs/design-file.md for the allowed range")
+        })?;
+        Ok(v)
+    }
+
+    fn parse_raw(&self, key: &str, raw: &Raw, place: Option<Place>) -> Result<f64, ToolError> {
         let dim = Self::dim_of(key);
         match raw {
             Raw::Str(s) => {
                 quantity::parse(dim, s).map_err(|e| self.quantity_error(key, place, s, e))
             }
             Raw::Number(v, written) if dim == Dim::Number => {
-                // TOML's `nan` and `inf` literals are refused here too.
-                quantity::in_range(*v).map_err(|e| self.quantity_error(key, place, written, e))
+                let based = ["0x", "0o", "0b"].iter().any(|p| written.starts_with(p));
+                let value = if !v.is_finite() {
+                    // TOML's `nan` and `inf` literals.
+                    Err(QuantityError::NotFinite)
+                } else if based {
+                    quantity::in_range(*v)
+                } else {
+                    // A decimal TOML number is read by the one number grammar.
+                    quantity::parse(dim, written)
+                };
+                value.map_err(|e| self.quantity_error(key, place, written, e))
             }
             Raw::Number(_, written) => {
                 Err(self.quantity_error(key, place, written, QuantityError::MissingUnit))
@@ -436,10 +518,43 @@ impl Inputs {
                 self.error(
                     key,
                     ErrorClass::BadValue,
-                    format!("\"{written}\" is not one of: {}", words.join(", ")),
+                    format!(
+                        "\"{}\" is not one of: {}",
+                        echo(&written, ECHO_MAX),
+                        words.join(", ")
+                    ),
                 )
             })
     }
+}
+
+/// The one physical-range check per quantity, applied to every key of that quantity: every
+/// temperature (winding range, ambient, reference) lies within the copper resistance model's
+/// range, `MIN_WINDING_TEMPERATURE ..= MAX_WINDING_TEMPERATURE` of the core (−100 °C to
+/// +250 °C). Other quantities are held to their ranges by the checks of `spec`, which know what
+/// each key means (a resistance > 0, a tolerance ≤ 90 %).
+///
+/// # Errors
+/// Why the value is outside, in a sentence.
+pub fn physical_range(dim: Dim, value: f64) -> Result<(), String> {
+    use coilwise::physics::coil::{MAX_WINDING_TEMPERATURE, MIN_WINDING_TEMPERATURE};
+    if dim != Dim::Temperature {
+        return Ok(());
+    }
+    let lo = f64::from(MIN_WINDING_TEMPERATURE.value());
+    let hi = f64::from(MAX_WINDING_TEMPERATURE.value());
+    if (lo..=hi).contains(&value) {
+        return Ok(());
+    }
+    // −273.15 °C: absolute zero (the kelvin's definition, SI Brochure).
+    let below_zero = if value < -273.15 {
+        " (it is below absolute zero)"
+    } else {
+        ""
+    };
+    Err(format!(
+        "a temperature of {value} °C is outside {lo} °C to {hi} °C, the range of the copper resistance model{below_zero}"
+    ))
 }
 
 fn number(text: &str, radix: u32) -> f64 {

@@ -33,9 +33,9 @@ pub use spec::Spec;
 /// Reads the design file at `path`, applies `overrides` (`KEY=VALUE`, in order) and validates it.
 ///
 /// # Errors
-/// Unreadable file, invalid TOML, any schema or physics error, each with file, line and key.
+/// Unreadable file, a file larger than [`input::MAX_FILE_BYTES`] or not UTF-8, invalid TOML, any schema or physics error, each with file, line and key.
 pub fn load(path: &str, overrides: &[String]) -> Result<Spec, ToolError> {
-    let text = std::fs::read_to_string(path).map_err(|e| ToolError::io(path, "read", &e))?;
+    let text = input::read(path)?;
     load_str(path, &text, overrides)
 }
 
