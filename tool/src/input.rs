@@ -79,6 +79,14 @@ pub fn read(path: &str) -> Result<String, ToolError> {
     std::fs::File::open(path)
         .and_then(|f| f.take(MAX_FILE_BYTES + 1).read_to_end(&mut bytes))
         .map_err(|e| ToolError::io(path, "read", &e))?;
+    decode(path, bytes)
+}
+
+/// The contents of the design file `path` from its bytes: at most [`MAX_FILE_BYTES`], UTF-8.
+///
+/// # Errors
+/// As [`read`].
+pub fn decode(path: &str, bytes: Vec<u8>) -> Result<String, ToolError> {
     if bytes.len() as u64 > MAX_FILE_BYTES {
         return Err(ToolError::new(
             ErrorClass::Io,
