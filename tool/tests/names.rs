@@ -8,8 +8,10 @@ use std::process::Command;
 
 const VALVE: &str = "examples/greenhouse-valve.toml";
 
-/// Every C0 control, DEL, a C1 control, U+FFFE / U+FFFF (not XML characters), the line and
-/// paragraph separators, a right-to-left override, and the characters each format quotes.
+/// Every C0 control, DEL, a C1 control, U+FFFE / U+FFFF (outside the `Char` production of XML
+/// 1.0, W3C Recommendation §2.2), the line and paragraph separators, a right-to-left override
+/// (refused in comments by rustc's `text_direction_codepoint_in_comment` lint), and the
+/// characters each format quotes.
 fn hostile() -> String {
     let mut s = String::from("zone <valve> & \"quoted\" 'single' \\ */ ");
     s.extend((1u32..0x20).filter_map(char::from_u32));
