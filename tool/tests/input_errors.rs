@@ -220,3 +220,32 @@ fn unbounded_input_is_cut_off_at_one_mebibyte() {
     assert_eq!(o.status.code(), Some(1));
     assert!(err.contains("1 MiB"), "{err}");
 }
+
+#[test]
+fn a_list_holds_at_most_64_values() {
+    let v = example("greenhouse-valve.toml");
+    let at = line_of(&v, "thresholds = [");
+    let many = vec!["\"1 mA\""; 100_000].join(", ");
+    let text = edit(
+        &v,
+        "thresholds = [\"40 mA\", \"75 mA\"]",
+        &format!("thresholds = [{many}]"),
+    );
+    let start = Instant::now();
+    refused(
+        &text,
+        "bad-value",
+        at,
+        &["diagnosis.thresholds", "100000 values", "at most 64"],
+    );
+    // Was seconds of diagnosis bands for a 100 000-row report (and quadratic placing).
+    assert!(start.elapsed().as_secs_f64() < 2.0, "{:?}", start.elapsed());
+    let ok = vec!["\"1 mA\""; 64].join(", ");
+    let text = edit(
+        &v,
+        "thresholds = [\"40 mA\", \"75 mA\"]",
+        &format!("thresholds = [{ok}]"),
+    );
+    let (err, o) = report_on(&text);
+    assert!(o.status.success(), "{err}");
+}
