@@ -8,6 +8,7 @@
 //! | Rust identifiers (`--module`) | [`rust_module_name`] | refuses keywords and anything not a lower-case identifier |
 //! | SVG / XML text (`plot`) | [`xml_text`] | replaces what XML 1.0 cannot carry even escaped; the SVG backend escapes `<`, `>`, `&`, `"`, `'` |
 //! | JSON (`--json`) | `serde_json` | its serializer escapes `"`, `\` and every control character (RFC 8259) |
+//! | plain-text report (terminal) | [`text_line`] | escapes controls |
 //! | error messages (terminal) | [`echo`] | escapes controls and shortens long echoes of the input |
 
 /// Whether `c` must not appear raw in a Rust comment: a control character (it may end the comment
@@ -94,6 +95,12 @@ pub fn xml_text(text: &str) -> String {
             c => c,
         })
         .collect()
+}
+
+/// `text` as one line of the plain-text report: control characters escaped (`\n`, `\u{1b}`),
+/// so a name cannot start a line of its own or send terminal control sequences.
+pub fn text_line(text: &str) -> String {
+    echo(text, usize::MAX)
 }
 
 /// `text` as echoed in an error message: control characters escaped (`\n`, `\u{1b}`), and at

@@ -130,7 +130,7 @@ fn run(cli: Cli) -> Result<ExitCode, ToolError> {
             } else {
                 format!(
                     "coilwise clamp comparison: {}\n\n{}",
-                    spec.name,
+                    coilwise_tool::escape::text_line(&spec.name),
                     report::comparison_table(&a)
                 )
             };

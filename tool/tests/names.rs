@@ -132,3 +132,22 @@ fn json_carries_the_name_exactly() {
     // RFC 8259 §7: control characters are escaped, never raw.
     assert!(!stdout(&o).chars().any(|c| (c as u32) < 0x20 && c != '\n'));
 }
+
+#[test]
+fn the_text_report_keeps_the_name_on_its_line() {
+    let set = format!("design.name={}", hostile());
+    for cmd in ["report", "compare"] {
+        let o = run(&[cmd, VALVE, "--set", &set]);
+        assert!(o.status.success(), "{}", stderr(&o));
+        let s = stdout(&o);
+        let first = s.lines().next().unwrap();
+        assert!(
+            first.contains("zone <valve>") && first.ends_with("end"),
+            "{first}"
+        );
+        assert!(
+            !s.contains('\u{1b}') && !s.contains('\r'),
+            "raw control characters"
+        );
+    }
+}
