@@ -168,6 +168,39 @@ impl<'a> Lines<'a> {
     }
 }
 
+/// The byte offset of the start of the first line at which `text` already fails to parse with
+/// `message` and no span: the smallest prefix of whole lines that fails that way, found by
+/// bisection (about 20 parses of a 1 MiB file). Start of the file when no prefix does.
+fn first_failing_line(text: &str, message: &str) -> usize {
+    let ends: Vec<usize> = text
+        .match_indices('\n')
+        .map(|(i, _)| i + 1)
+        .chain(std::iter::once(text.len()))
+        .collect();
+    let fails = |k: usize| {
+        DeTable::parse(&text[..ends[k]])
+            .err()
+            .is_some_and(|e| e.span().is_none() && e.message() == message)
+    };
+    let (mut lo, mut hi) = (0, ends.len() - 1);
+    if !fails(hi) {
+        return 0;
+    }
+    while lo < hi {
+        let mid = lo + (hi - lo) / 2;
+        if fails(mid) {
+            hi = mid;
+        } else {
+            lo = mid + 1;
+        }
+    }
+    if lo == 0 {
+        0
+    } else {
+        ends[lo - 1]
+    }
+}
+
 impl Inputs {
     /// Parses `text` (the contents of `path`) and checks every key against the schema.
     ///
@@ -177,13 +210,16 @@ impl Inputs {
     pub fn parse(path: &str, text: &str) -> Result<Self, ToolError> {
         let lines = Lines::new(text);
         let table = DeTable::parse(text).map_err(|e| {
-            let place = e.span().map(|s| {
-                let (line, column) = lines.line_col(s.start);
-                Place::File {
-                    path: path.to_string(),
-                    line,
-                    column,
-                }
+            // Some errors ("recursion limit" of dotted keys) come without a span: found by
+            // bisection over the lines instead.
+            let at = e
+                .span()
+                .map_or_else(|| first_failing_line(text, e.message()), |s| s.start);
+            let (line, column) = lines.line_col(at);
+            let place = Some(Place::File {
+                path: path.to_string(),
+                line,
+                column,
             });
             let mut message = format!("not valid TOML: {}", e.message().trim());
             // The parser's message says "duplicate key" without the key: it is under the span.

@@ -152,6 +152,17 @@ fn too_deep_nesting_gives_a_line() {
 }
 
 #[test]
+fn too_deep_dotted_keys_give_a_line() {
+    // The parser reports "recursion limit" without a span for these; was no place at all.
+    let v = example("greenhouse-valve.toml");
+    let dotted = vec!["a"; 2000].join(".");
+    let text = edit(&v, "[wiring]", &format!("[{dotted}]\n[wiring]"));
+    refused(&text, "syntax", line_of(&v, "[wiring]"), &["recursion"]);
+    let text = edit(&v, "[wiring]\n", &format!("[wiring]\n{dotted} = 1\n"));
+    refused(&text, "syntax", line_of(&v, "[wiring]") + 1, &["recursion"]);
+}
+
+#[test]
 fn invalid_utf8_gives_a_line_and_a_byte_offset() {
     let v = example("greenhouse-valve.toml");
     let at = v.find("zone valve").unwrap();
