@@ -23,6 +23,7 @@ pub mod plot;
 pub mod quantity;
 pub mod report;
 pub mod schema;
+pub mod source;
 pub mod spec;
 pub mod table;
 
@@ -33,9 +34,9 @@ pub use spec::Spec;
 /// Reads the design file at `path`, applies `overrides` (`KEY=VALUE`, in order) and validates it.
 ///
 /// # Errors
-/// Unreadable file, a file larger than [`input::MAX_FILE_BYTES`] or not UTF-8, invalid TOML, any schema or physics error, each with file, line and key.
+/// Unreadable file, a file larger than [`source::MAX_FILE_BYTES`] or not UTF-8, invalid TOML, any schema or physics error, each with file, line and key.
 pub fn load(path: &str, overrides: &[String]) -> Result<Spec, ToolError> {
-    let text = input::read(path)?;
+    let text = source::read(path)?;
     load_str(path, &text, overrides)
 }
 

@@ -238,6 +238,35 @@ impl fmt::Display for QuantityError {
     }
 }
 
+/// The one physical-range check per quantity, applied to every key of that quantity: every
+/// temperature (winding range, ambient, reference) lies within the copper resistance model's
+/// range, `MIN_WINDING_TEMPERATURE ..= MAX_WINDING_TEMPERATURE` of the core (−100 °C to
+/// +250 °C). Other quantities are held to their ranges by the checks of `spec`, which know what
+/// each key means (a resistance > 0, a tolerance ≤ 90 %).
+///
+/// # Errors
+/// Why the value is outside, in a sentence.
+pub fn physical_range(dim: Dim, value: f64) -> Result<(), String> {
+    use coilwise::physics::coil::{MAX_WINDING_TEMPERATURE, MIN_WINDING_TEMPERATURE};
+    if dim != Dim::Temperature {
+        return Ok(());
+    }
+    let lo = f64::from(MIN_WINDING_TEMPERATURE.value());
+    let hi = f64::from(MAX_WINDING_TEMPERATURE.value());
+    if (lo..=hi).contains(&value) {
+        return Ok(());
+    }
+    // −273.15 °C: absolute zero (the kelvin's definition, SI Brochure).
+    let below_zero = if value < -273.15 {
+        " (it is below absolute zero)"
+    } else {
+        ""
+    };
+    Err(format!(
+        "a temperature of {value} °C is outside {lo} °C to {hi} °C, the range of the copper resistance model{below_zero}"
+    ))
+}
+
 /// The end of a run of digits starting at `i` (`DIGITS = DIGIT { ["_"] DIGIT }`), or `None` when
 /// there is no digit at `i`.
 ///

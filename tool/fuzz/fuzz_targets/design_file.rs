@@ -7,7 +7,7 @@
 #![no_main]
 
 use coilwise_tool::ToolError;
-use coilwise_tool::{analysis::Analysis, constants, input, json, report, ErrorClass, Place};
+use coilwise_tool::{analysis::Analysis, constants, json, report, source, ErrorClass, Place};
 use libfuzzer_sys::fuzz_target;
 
 const PATH: &str = "fuzz.toml";
@@ -27,7 +27,7 @@ fn located(err: &ToolError, text: Option<&str>) {
 }
 
 fuzz_target!(|data: &[u8]| {
-    let text = match input::decode(PATH, data.to_vec()) {
+    let text = match source::decode(PATH, data.to_vec()) {
         Ok(t) => t,
         Err(e) => {
             // Too large is an I/O error of the whole file; not UTF-8 has a line.
