@@ -109,6 +109,7 @@ fn run(cli: Cli) -> Result<ExitCode, ToolError> {
             } else {
                 report::render_report(&a)
             };
+            output::not_the_input(output.as_deref(), &design.design)?;
             output::write(output.as_deref(), text.as_bytes())?;
             if strict && a.any_failed() {
                 return Ok(ExitCode::from(3));
@@ -134,6 +135,7 @@ fn run(cli: Cli) -> Result<ExitCode, ToolError> {
                     report::comparison_table(&a)
                 )
             };
+            output::not_the_input(output.as_deref(), &design.design)?;
             output::write(output.as_deref(), text.as_bytes())?;
         }
         Command::Plot {
@@ -158,6 +160,7 @@ fn run(cli: Cli) -> Result<ExitCode, ToolError> {
             };
             let cycle = plot::cycle(&a, corner, on)?;
             let svg = plot::svg(&cycle, &format!("coilwise: {}", spec.name))?;
+            output::not_the_input(Some(&output), &design.design)?;
             output::write(Some(&output), svg.as_bytes())?;
         }
         Command::Constants {
@@ -173,6 +176,7 @@ fn run(cli: Cli) -> Result<ExitCode, ToolError> {
             let spec = coilwise_tool::load(&design.design, &set)?;
             let a = Analysis::new(&spec)?;
             let text = constants::render(&a, module.as_deref())?;
+            output::not_the_input(output.as_deref(), &design.design)?;
             output::write(output.as_deref(), text.as_bytes())?;
         }
         Command::Keys => {

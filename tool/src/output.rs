@@ -33,6 +33,32 @@ pub fn write(path: Option<&Path>, contents: &[u8]) -> Result<(), ToolError> {
     }
 }
 
+/// Refuses an output file that is the design file itself (`coilwise constants X.toml -o X.toml`
+/// would replace the design with generated code), by the same path or through a link.
+///
+/// # Errors
+/// [`ErrorClass::Usage`] naming both.
+pub fn not_the_input(output: Option<&Path>, design: &str) -> Result<(), ToolError> {
+    let Some(out) = output.filter(|p| p.as_os_str() != "-") else {
+        return Ok(());
+    };
+    let same = match (fs::canonicalize(out), fs::canonicalize(design)) {
+        (Ok(a), Ok(b)) => a == b,
+        _ => false,
+    };
+    if same {
+        return Err(ToolError::new(
+            ErrorClass::Usage,
+            format!(
+                "-o `{}` is the design file `{design}`; it would be replaced by the output",
+                out.display()
+            ),
+        )
+        .hint("write the output to another file"));
+    }
+    Ok(())
+}
+
 /// Prints `err` on standard error. A write failure (a closed pipe) is ignored: the caller exits
 /// with status 1 either way, and there is nowhere left to report it.
 pub fn error(err: &ToolError) {

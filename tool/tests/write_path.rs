@@ -232,3 +232,31 @@ fn help_reaches_an_open_stdout() {
     assert!(child.wait().unwrap().success());
     assert!(text.contains("Usage"), "{text}");
 }
+
+#[test]
+fn the_design_file_is_never_the_output() {
+    let dir = tempfile::tempdir().unwrap();
+    let design = dir.path().join("valve.toml");
+    std::fs::copy(root().join(VALVE), &design).unwrap();
+    let before = std::fs::read_to_string(&design).unwrap();
+    let d = design.to_str().unwrap();
+    let via_dot = dir.path().join(".").join("valve.toml");
+    for args in [
+        vec!["constants", d, "-o", d],
+        vec!["report", d, "-o", via_dot.to_str().unwrap()],
+        vec!["plot", d, "-o", d],
+    ] {
+        let o = run(&args);
+        let err = stderr(&o);
+        assert_eq!(o.status.code(), Some(1), "{args:?}: {err}");
+        assert!(err.contains("is the design file"), "{err}");
+    }
+    #[cfg(unix)]
+    {
+        let link = dir.path().join("link.rs");
+        std::os::unix::fs::symlink(&design, &link).unwrap();
+        let o = run(&["constants", d, "-o", link.to_str().unwrap()]);
+        assert_eq!(o.status.code(), Some(1), "{}", stderr(&o));
+    }
+    assert_eq!(std::fs::read_to_string(&design).unwrap(), before);
+}
