@@ -66,7 +66,11 @@ impl fmt::Display for Place {
     fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
         match self {
             Place::File { path, line, column } => write!(f, "{path}:{line}:{column}"),
-            Place::CommandLine { argument } => write!(f, "command line `--set {argument}`"),
+            Place::CommandLine { argument } => write!(
+                f,
+                "command line `--set {}`",
+                crate::escape::echo(argument, 120)
+            ),
         }
     }
 }

@@ -8,8 +8,18 @@ use toml::de::{DeTable, DeValue};
 use toml::Spanned;
 
 use crate::error::{ErrorClass, Place, ToolError};
+use crate::escape::echo;
 use crate::quantity::{self, Dim, QuantityError};
 use crate::schema::{self, Kind};
+use crate::source::{first_failing_line, Lines};
+
+/// The most values a list key (`diagnosis.thresholds`, `compare.zener`, `compare.resistor`) may
+/// hold: every value costs a diagnosis band or a comparison row, and 100 000 of them kept the
+/// tool busy for seconds.
+pub const MAX_LIST: usize = 64;
+
+/// The most characters of a key or value an error message echoes.
+const ECHO_MAX: usize = 80;
 
 /// A value as read, before interpretation.
 #[derive(Clone, Debug, PartialEq)]
@@ -59,20 +69,6 @@ pub struct Inputs {
     sections: BTreeMap<String, Place>,
 }
 
-/// 1-based line and character column of byte offset `at` in `text`.
-fn line_col(text: &str, at: usize) -> (usize, usize) {
-    let at = at.min(text.len());
-    let mut start = at;
-    while !text.is_char_boundary(start) {
-        start -= 1;
-    }
-    let before = &text[..start];
-    let line = before.matches('\n').count() + 1;
-    let line_start = before.rfind('\n').map_or(0, |i| i + 1);
-    let column = before[line_start..].chars().count() + 1;
-    (line, column)
-}
-
 impl Inputs {
     /// Parses `text` (the contents of `path`) and checks every key against the schema.
     ///
@@ -80,20 +76,27 @@ impl Inputs {
     /// [`ErrorClass::Syntax`] for invalid TOML, [`ErrorClass::UnknownKey`] for a key outside the
     /// schema, [`ErrorClass::BadValue`] for a value of the wrong TOML type.
     pub fn parse(path: &str, text: &str) -> Result<Self, ToolError> {
+        let lines = Lines::new(text);
         let table = DeTable::parse(text).map_err(|e| {
-            let place = e.span().map(|s| {
-                let (line, column) = line_col(text, s.start);
-                Place::File {
-                    path: path.to_string(),
-                    line,
-                    column,
-                }
+            // Some errors ("recursion limit" of dotted keys) come without a span: found by
+            // bisection over the lines instead.
+            let at = e
+                .span()
+                .map_or_else(|| first_failing_line(text, e.message()), |s| s.start);
+            let (line, column) = lines.line_col(at);
+            let place = Some(Place::File {
+                path: path.to_string(),
+                line,
+                column,
             });
-            ToolError::new(
-                ErrorClass::Syntax,
-                format!("not valid TOML: {}", e.message().trim()),
-            )
-            .at(place, None)
+            let mut message = format!("not valid TOML: {}", e.message().trim());
+            // The parser's message says "duplicate key" without the key: it is under the span.
+            if let Some(s) = e.span().filter(|_| message.contains("duplicate key")) {
+                if let Some(written) = text.get(s) {
+                    message.push_str(&format!(" `{}`", echo(written.trim(), ECHO_MAX)));
+                }
+            }
+            ToolError::new(ErrorClass::Syntax, message).at(place, None)
         })?;
         let mut inputs = Inputs {
             path: path.to_string(),
@@ -101,7 +104,7 @@ impl Inputs {
             sections: BTreeMap::new(),
         };
         let file = |span: Range<usize>| {
-            let (line, column) = line_col(text, span.start);
+            let (line, column) = lines.line_col(span.start);
             Some(Place::File {
                 path: path.to_string(),
                 line,
@@ -110,21 +113,22 @@ impl Inputs {
         };
         for (name, value) in table.get_ref().iter() {
             let section = name.get_ref().to_string();
+            let shown = echo(&section, ECHO_MAX);
             let DeValue::Table(inner) = value.get_ref() else {
                 return Err(ToolError::new(
                     ErrorClass::UnknownKey,
                     format!(
-                        "top-level key `{section}` is not part of the design file; keys belong in a section such as [coil]"
+                        "top-level key `{shown}` is not part of the design file; keys belong in a section such as [coil]"
                     ),
                 )
-                .at(file(name.span()), Some(&section)));
+                .at(file(name.span()), Some(&shown)));
             };
             if !schema::sections().contains(&section.as_str()) {
                 let mut err = ToolError::new(
                     ErrorClass::UnknownKey,
-                    format!("section [{section}] is not part of the design file"),
+                    format!("section [{shown}] is not part of the design file"),
                 )
-                .at(file(name.span()), Some(&section));
+                .at(file(name.span()), Some(&shown));
                 err = err.hint(format!("sections are {}", schema::sections().join(", ")));
                 return Err(err);
             }
@@ -155,11 +159,12 @@ impl Inputs {
         value_place: Option<Place>,
     ) -> Result<(), ToolError> {
         let Some(spec) = schema::spec(key) else {
+            let shown = echo(key, ECHO_MAX);
             let mut err = ToolError::new(
                 ErrorClass::UnknownKey,
-                format!("`{key}` is not a key of the design file"),
+                format!("`{shown}` is not a key of the design file"),
             )
-            .at(place, Some(key));
+            .at(place, Some(&shown));
             err = match schema::closest(key) {
                 Some(k) => err.hint(format!("did you mean `{k}`? (`coilwise keys` lists all)")),
                 None => err.hint("`coilwise keys` lists every key"),
@@ -323,8 +328,14 @@ impl Inputs {
             Dim::Number => dim.name().to_string(),
             _ => format!("{} in {}", dim.name(), dim.unit_hint()),
         };
-        let mut err = ToolError::new(class, format!("value \"{text}\" {e}; expected {expected}"))
-            .at(place, Some(key));
+        let mut err = ToolError::new(
+            class,
+            format!(
+                "value \"{}\" {e}; expected {expected}",
+                echo(text, ECHO_MAX)
+            ),
+        )
+        .at(place, Some(key));
         // The key's own example ("0.8 V" for a diode drop), not the unit's generic one.
         let example = schema::spec(key)
             .and_then(|s| s.example)
@@ -342,15 +353,36 @@ impl Inputs {
         err
     }
 
+    /// `raw` read as the quantity `key` expects, then held to its physical range
+    /// ([`quantity::physical_range`]).
     fn parse_one(&self, key: &str, raw: &Raw, place: Option<Place>) -> Result<f64, ToolError> {
+        let v = self.parse_raw(key, raw, place.clone())?;
+        quantity::physical_range(Self::dim_of(key), v).map_err(|why| {
+            ToolError::new(ErrorClass::Impossible, why)
+                .at(place, Some(key))
+                .hint("see docs/design-file.md for the allowed range")
+        })?;
+        Ok(v)
+    }
+
+    fn parse_raw(&self, key: &str, raw: &Raw, place: Option<Place>) -> Result<f64, ToolError> {
         let dim = Self::dim_of(key);
         match raw {
             Raw::Str(s) => {
                 quantity::parse(dim, s).map_err(|e| self.quantity_error(key, place, s, e))
             }
             Raw::Number(v, written) if dim == Dim::Number => {
-                // TOML's `nan` and `inf` literals are refused here too.
-                quantity::in_range(*v).map_err(|e| self.quantity_error(key, place, written, e))
+                let based = ["0x", "0o", "0b"].iter().any(|p| written.starts_with(p));
+                let value = if !v.is_finite() {
+                    // TOML's `nan` and `inf` literals.
+                    Err(QuantityError::NotFinite)
+                } else if based {
+                    quantity::in_range(*v)
+                } else {
+                    // A decimal TOML number is read by the one number grammar.
+                    quantity::parse(dim, written)
+                };
+                value.map_err(|e| self.quantity_error(key, place, written, e))
             }
             Raw::Number(_, written) => {
                 Err(self.quantity_error(key, place, written, QuantityError::MissingUnit))
@@ -396,6 +428,16 @@ impl Inputs {
         let Raw::List(items) = &e.value else {
             return Err(self.error(key, ErrorClass::BadValue, "expected an array"));
         };
+        if items.len() > MAX_LIST {
+            return Err(self.error(
+                key,
+                ErrorClass::BadValue,
+                format!(
+                    "the array has {} values; at most {MAX_LIST} are allowed",
+                    items.len()
+                ),
+            ));
+        }
         let mut out = Vec::with_capacity(items.len());
         for (raw, place) in items {
             let place = place.clone().or_else(|| e.value_place.clone());
@@ -437,7 +479,11 @@ impl Inputs {
                 self.error(
                     key,
                     ErrorClass::BadValue,
-                    format!("\"{written}\" is not one of: {}", words.join(", ")),
+                    format!(
+                        "\"{}\" is not one of: {}",
+                        echo(&written, ECHO_MAX),
+                        words.join(", ")
+                    ),
                 )
             })
     }
@@ -477,17 +523,6 @@ fn convert(value: &Spanned<DeValue<'_>>, place: &dyn Fn(Range<usize>) -> Option<
 #[cfg(test)]
 mod tests {
     use super::*;
-
-    #[test]
-    fn lines_and_columns() {
-        let t = "a\nbc = 1\n  µd = 2\n";
-        assert_eq!(line_col(t, 0), (1, 1));
-        assert_eq!(line_col(t, 2), (2, 1));
-        assert_eq!(line_col(t, 7), (2, 6));
-        // `µ` is two bytes but one column.
-        let at = t.find('d').unwrap();
-        assert_eq!(line_col(t, at), (3, 4));
-    }
 
     #[test]
     fn unknown_key_names_line_and_suggests() {

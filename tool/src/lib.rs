@@ -16,6 +16,7 @@ pub mod analysis;
 pub mod cautions;
 pub mod constants;
 pub mod error;
+pub mod escape;
 pub mod input;
 pub mod json;
 pub mod numbers;
@@ -24,6 +25,7 @@ pub mod plot;
 pub mod quantity;
 pub mod report;
 pub mod schema;
+pub mod source;
 pub mod spec;
 pub mod table;
 
@@ -34,9 +36,9 @@ pub use spec::Spec;
 /// Reads the design file at `path`, applies `overrides` (`KEY=VALUE`, in order) and validates it.
 ///
 /// # Errors
-/// Unreadable file, invalid TOML, any schema or physics error, each with file, line and key.
+/// Unreadable file, a file larger than [`source::MAX_FILE_BYTES`] or not UTF-8, invalid TOML, any schema or physics error, each with file, line and key.
 pub fn load(path: &str, overrides: &[String]) -> Result<Spec, ToolError> {
-    let text = std::fs::read_to_string(path).map_err(|e| ToolError::io(path, "read", &e))?;
+    let text = source::read(path)?;
     load_str(path, &text, overrides)
 }
 

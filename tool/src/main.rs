@@ -109,6 +109,7 @@ fn run(cli: Cli) -> Result<ExitCode, ToolError> {
             } else {
                 report::render_report(&a)
             };
+            output::not_the_input(output.as_deref(), &design.design)?;
             output::write(output.as_deref(), text.as_bytes())?;
             if strict && a.any_failed() {
                 return Ok(ExitCode::from(3));
@@ -126,6 +127,7 @@ fn run(cli: Cli) -> Result<ExitCode, ToolError> {
             } else {
                 report::render_comparison(&a)
             };
+            output::not_the_input(output.as_deref(), &design.design)?;
             output::write(output.as_deref(), text.as_bytes())?;
         }
         Command::Plot {
@@ -150,6 +152,7 @@ fn run(cli: Cli) -> Result<ExitCode, ToolError> {
             };
             let cycle = plot::cycle(&a, corner, on)?;
             let svg = plot::svg(&cycle, &format!("coilwise: {}", spec.name))?;
+            output::not_the_input(Some(&output), &design.design)?;
             output::write(Some(&output), svg.as_bytes())?;
         }
         Command::Constants {
@@ -165,6 +168,7 @@ fn run(cli: Cli) -> Result<ExitCode, ToolError> {
             let spec = coilwise_tool::load(&design.design, &set)?;
             let a = Analysis::new(&spec)?;
             let text = constants::render(&a, module.as_deref())?;
+            output::not_the_input(output.as_deref(), &design.design)?;
             output::write(output.as_deref(), text.as_bytes())?;
         }
         Command::Keys => {
@@ -175,11 +179,28 @@ fn run(cli: Cli) -> Result<ExitCode, ToolError> {
 }
 
 fn main() -> ExitCode {
-    let cli = Cli::parse();
+    let cli = match Cli::try_parse() {
+        Ok(cli) => cli,
+        // `--help` and `--version` go through the one write path like any output; a malformed
+        // command line is reported on standard error (never a panic on a closed pipe).
+        Err(e) if !e.use_stderr() => {
+            return match output::write(None, e.render().to_string().as_bytes()) {
+                Ok(()) => ExitCode::SUCCESS,
+                Err(err) => {
+                    output::error(&err);
+                    ExitCode::from(1)
+                }
+            };
+        }
+        Err(e) => {
+            let _ = e.print();
+            return ExitCode::from(2);
+        }
+    };
     match run(cli) {
         Ok(code) => code,
         Err(e) => {
-            eprintln!("{e}");
+            output::error(&e);
             ExitCode::from(1)
         }
     }

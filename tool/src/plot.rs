@@ -5,6 +5,7 @@ use plotters::prelude::*;
 
 use crate::analysis::{self, wide, Analysis};
 use crate::error::{ErrorClass, ToolError};
+use crate::escape::xml_text;
 
 /// Which operating point to draw.
 #[derive(Clone, Copy, Debug, PartialEq, Eq)]
@@ -171,6 +172,8 @@ const CAUTION_STRIP: u32 = 130;
 const CAUTION_WIDTH: usize = 150;
 
 /// Renders the cycle as an SVG document (900 × 850 px): the two panels, then the cautions.
+/// Every text passes through [`xml_text`], so the document is well-formed XML whatever `title`
+/// holds.
 pub fn svg(c: &Cycle, title: &str) -> Result<String, ToolError> {
     let mut out = String::new();
     {
@@ -179,7 +182,9 @@ pub fn svg(c: &Cycle, title: &str) -> Result<String, ToolError> {
         canvas.fill(&WHITE).map_err(draw_err)?;
         let (root, strip) = canvas.split_vertically(720);
         draw_cautions(&strip)?;
-        let root = root.titled(title, ("sans-serif", 20)).map_err(draw_err)?;
+        let root = root
+            .titled(&xml_text(title), ("sans-serif", 20))
+            .map_err(draw_err)?;
         let (upper, lower) = root.split_vertically(340);
         let (k, unit) = time_scale(c.end);
         let x_end = c.end * k;
@@ -309,7 +314,7 @@ fn panel<DB: DrawingBackend>(
     levels: &[(f64, String, RGBColor)],
 ) -> Result<(), ToolError> {
     let mut chart = ChartBuilder::on(area)
-        .caption(&p.caption, ("sans-serif", 15))
+        .caption(xml_text(&p.caption), ("sans-serif", 15))
         .margin(12)
         .x_label_area_size(38)
         .y_label_area_size(64)
@@ -317,8 +322,8 @@ fn panel<DB: DrawingBackend>(
         .map_err(draw_err)?;
     chart
         .configure_mesh()
-        .x_desc(p.x_desc)
-        .y_desc(p.y_desc)
+        .x_desc(xml_text(p.x_desc))
+        .y_desc(xml_text(p.y_desc))
         .draw()
         .map_err(draw_err)?;
     for (n, t) in traces.iter().enumerate() {
@@ -329,7 +334,7 @@ fn panel<DB: DrawingBackend>(
                 col.stroke_width(2),
             ))
             .map_err(draw_err)?
-            .label(t.label.clone())
+            .label(xml_text(&t.label))
             .legend(move |(x, y)| PathElement::new(vec![(x, y), (x + 18, y)], col.stroke_width(2)));
     }
     for (level, label, col) in levels {
@@ -342,7 +347,7 @@ fn panel<DB: DrawingBackend>(
                 col.stroke_width(1),
             ))
             .map_err(draw_err)?
-            .label(label.clone())
+            .label(xml_text(label))
             .legend(move |(x, y)| PathElement::new(vec![(x, y), (x + 18, y)], col.stroke_width(1)));
     }
     chart

@@ -1,9 +1,22 @@
 //! Values with units, as a person types them in a design file: `"24 V"`, `"160 ohm"`, `"0.35 H"`,
 //! `"5 ms"`, `"4.7 kohm"`, `"-40 degC"`, `"5 %"`; and the engineering notation the report prints.
 //!
-//! Grammar: `NUMBER [space] UNIT`, where `NUMBER` is a decimal with optional sign, fraction and
-//! exponent, and `UNIT` is an SI prefix (`p n u µ m k M G`) followed by the base symbol of the
-//! expected quantity. Temperatures, percentages and the temperature coefficient take no prefix.
+//! Grammar (the one place it is implemented; `docs/design-file.md` states the same):
+//!
+//! ```text
+//! VALUE    = NUMBER [spaces] UNIT          (UNIT absent for a plain number)
+//! NUMBER   = [SIGN] MANTISSA [EXPONENT]
+//! MANTISSA = DIGITS ["." DIGITS] | "." DIGITS
+//! EXPONENT = ("e" | "E") [SIGN] DIGITS
+//! DIGITS   = DIGIT { ["_"] DIGIT }         (`_` only singly, between two digits)
+//! SIGN     = "+" | "-"
+//! ```
+//!
+//! `UNIT` is an SI prefix (`p n u µ m k M G`) followed by the base symbol of the expected
+//! quantity. Temperatures, percentages and the temperature coefficient take no prefix. A value
+//! whose SI magnitude lies outside the computable range (see [`in_range`]) is refused — also one
+//! written non-zero that rounds to zero (`"1e-400 %"`) or to infinity (`"1e999 V"`) in `f64`. The
+//! same grammar reads the decimal numbers TOML writes bare (`min_gain = 1e2`).
 
 use std::fmt;
 
@@ -158,6 +171,9 @@ const PREFIXES: [(&str, f64); 9] = [
 pub enum QuantityError {
     /// No number at the start of the text.
     NotANumber,
+    /// A number that breaks the grammar: a `_` not between two digits, a point without digits
+    /// after it.
+    MalformedNumber,
     /// A number without a unit where a unit is required.
     MissingUnit,
     /// A known unit of another quantity.
@@ -204,6 +220,9 @@ impl fmt::Display for QuantityError {
     fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
         match self {
             QuantityError::NotANumber => f.write_str("does not start with a number"),
+            QuantityError::MalformedNumber => f.write_str(
+                "is not a number as the design file writes them (`_` only singly between digits, digits after a decimal point)",
+            ),
             QuantityError::MissingUnit => f.write_str("has no unit"),
             QuantityError::WrongUnit { found, unit } => {
                 write!(f, "has unit `{unit}`, which is {}", found.name())
@@ -219,7 +238,64 @@ impl fmt::Display for QuantityError {
     }
 }
 
-/// Splits `"4.7 kohm"` into `(4.7, "kohm")`. The unit part is trimmed and may be empty.
+/// The one physical-range check per quantity, applied to every key of that quantity: every
+/// temperature (winding range, ambient, reference) lies within the copper resistance model's
+/// range, `MIN_WINDING_TEMPERATURE ..= MAX_WINDING_TEMPERATURE` of the core (−100 °C to
+/// +250 °C). Other quantities are held to their ranges by the checks of `spec`, which know what
+/// each key means (a resistance > 0, a tolerance ≤ 90 %).
+///
+/// # Errors
+/// Why the value is outside, in a sentence.
+pub fn physical_range(dim: Dim, value: f64) -> Result<(), String> {
+    use coilwise::physics::coil::{MAX_WINDING_TEMPERATURE, MIN_WINDING_TEMPERATURE};
+    if dim != Dim::Temperature {
+        return Ok(());
+    }
+    let lo = f64::from(MIN_WINDING_TEMPERATURE.value());
+    let hi = f64::from(MAX_WINDING_TEMPERATURE.value());
+    if (lo..=hi).contains(&value) {
+        return Ok(());
+    }
+    // −273.15 °C: absolute zero (the kelvin's definition, SI Brochure).
+    let below_zero = if value < -273.15 {
+        " (it is below absolute zero)"
+    } else {
+        ""
+    };
+    Err(format!(
+        "a temperature of {value} °C is outside {lo} °C to {hi} °C, the range of the copper resistance model{below_zero}"
+    ))
+}
+
+/// The end of a run of digits starting at `i` (`DIGITS = DIGIT { ["_"] DIGIT }`), or `None` when
+/// there is no digit at `i`.
+///
+/// # Errors
+/// [`QuantityError::MalformedNumber`] for a `_` that does not stand between two digits.
+fn digits(b: &[u8], mut i: usize) -> Result<Option<usize>, QuantityError> {
+    if i >= b.len() || !b[i].is_ascii_digit() {
+        return Ok(None);
+    }
+    while i < b.len() {
+        if b[i].is_ascii_digit() {
+            i += 1;
+        } else if b[i] == b'_' {
+            if i + 1 < b.len() && b[i + 1].is_ascii_digit() {
+                i += 1;
+            } else {
+                return Err(QuantityError::MalformedNumber);
+            }
+        } else {
+            break;
+        }
+    }
+    Ok(Some(i))
+}
+
+/// Splits `"4.7 kohm"` into `(4.7, "kohm")` by the number grammar of the module doc. The unit
+/// part is trimmed and may be empty. The value is finite; it is zero only when every digit
+/// written is zero (a written non-zero that rounds to zero or infinity in `f64` is
+/// [`QuantityError::OutOfRange`], like any other value outside the tool's range).
 fn split_number(text: &str) -> Result<(f64, &str), QuantityError> {
     let s = text.trim();
     let b = s.as_bytes();
@@ -227,33 +303,51 @@ fn split_number(text: &str) -> Result<(f64, &str), QuantityError> {
     if i < b.len() && (b[i] == b'+' || b[i] == b'-') {
         i += 1;
     }
-    let digits_start = i;
-    while i < b.len() && (b[i].is_ascii_digit() || b[i] == b'.' || b[i] == b'_') {
-        i += 1;
+    if i < b.len() && b[i] == b'_' {
+        return Err(QuantityError::MalformedNumber);
     }
-    if i == digits_start {
+    let whole = digits(b, i)?;
+    let mut end = whole.unwrap_or(i);
+    let mut fraction = None;
+    if end < b.len() && b[end] == b'.' {
+        if end + 1 < b.len() && b[end + 1] == b'_' {
+            return Err(QuantityError::MalformedNumber);
+        }
+        fraction = digits(b, end + 1)?;
+        match fraction {
+            Some(e) => end = e,
+            // `5.` is not a number of the grammar; `.` alone is no number at all.
+            None if whole.is_some() => return Err(QuantityError::MalformedNumber),
+            None => {}
+        }
+    }
+    if whole.is_none() && fraction.is_none() {
         return Err(QuantityError::NotANumber);
     }
-    // Exponent: only when `e`/`E` is followed by a digit (or a sign and a digit), so that
-    // a unit starting with `e` would not be swallowed.
-    if i < b.len() && (b[i] == b'e' || b[i] == b'E') {
-        let mut j = i + 1;
+    // Exponent: only when `e`/`E` is followed by a digit (or a sign and a digit), so that a unit
+    // starting with `e` is not swallowed.
+    if end < b.len() && (b[end] == b'e' || b[end] == b'E') {
+        let mut j = end + 1;
         if j < b.len() && (b[j] == b'+' || b[j] == b'-') {
             j += 1;
         }
-        if j < b.len() && b[j].is_ascii_digit() {
-            while j < b.len() && b[j].is_ascii_digit() {
-                j += 1;
-            }
-            i = j;
+        if let Some(e) = digits(b, j)? {
+            end = e;
         }
     }
-    let number: String = s[..i].chars().filter(|&c| c != '_').collect();
-    let value: f64 = number.parse().map_err(|_| QuantityError::NotANumber)?;
-    if !value.is_finite() {
-        return Err(QuantityError::NotFinite);
+    if end < b.len() && b[end] == b'_' {
+        return Err(QuantityError::MalformedNumber);
     }
-    Ok((value, s[i..].trim()))
+    let written = &s[..end];
+    let number: String = written.chars().filter(|&c| c != '_').collect();
+    let value: f64 = number.parse().map_err(|_| QuantityError::NotANumber)?;
+    // Digits of the mantissa only (the exponent's digits do not make a zero non-zero).
+    let mantissa = written.split(['e', 'E']).next().unwrap_or("");
+    let non_zero = mantissa.bytes().any(|c| (b'1'..=b'9').contains(&c));
+    if !value.is_finite() || (non_zero && value == 0.0) {
+        return Err(QuantityError::OutOfRange);
+    }
+    Ok((value, s[end..].trim()))
 }
 
 /// The SI factor of `unit` if it is a unit of `dim`.
@@ -291,7 +385,12 @@ pub fn parse(dim: Dim, text: &str) -> Result<f64, QuantityError> {
         return Err(QuantityError::MissingUnit);
     }
     if let Some(k) = unit_factor(dim, unit) {
-        return in_range(value * k);
+        let si = value * k;
+        if value != 0.0 && si == 0.0 {
+            // `"1e-310 pF"`: the prefix underflows what the number alone did not.
+            return Err(QuantityError::OutOfRange);
+        }
+        return in_range(si);
     }
     for other in Dim::ALL {
         if other != dim && unit_factor(other, unit).is_some() {
@@ -407,6 +506,65 @@ mod tests {
         assert!(parse(Dim::Temperature, "85 mdegC").is_err());
         assert!(parse(Dim::Number, "100 x").is_err());
         assert!(parse(Dim::Voltage, "1e999 V").is_err());
+    }
+
+    #[test]
+    fn the_number_grammar_of_the_docs() {
+        for (text, want) in [
+            ("1_000 V", 1000.0),
+            ("1_0.2_5 V", 10.25),
+            ("+.5 V", 0.5),
+            ("-0.5e-1_0 V", -0.5e-10),
+            ("2E3V", 2000.0),
+            ("0e999 V", 0.0),
+            ("0.000 V", 0.0),
+        ] {
+            assert_eq!(parse(Dim::Voltage, text), Ok(want), "{text}");
+        }
+        for text in [
+            "_1__6__0_ ohm",
+            "1__6 ohm",
+            "16_ ohm",
+            "_16 ohm",
+            "1_.5 ohm",
+            "1._5 ohm",
+            "5. ohm",
+            "1e5_ ohm",
+        ] {
+            assert_eq!(
+                parse(Dim::Resistance, text),
+                Err(QuantityError::MalformedNumber),
+                "{text}"
+            );
+        }
+        // `e` not followed by an exponent starts the unit, which is then unknown.
+        assert!(matches!(
+            parse(Dim::Resistance, "1e_5 ohm"),
+            Err(QuantityError::UnknownUnit(_))
+        ));
+        assert_eq!(parse(Dim::Voltage, ". V"), Err(QuantityError::NotANumber));
+        assert_eq!(parse(Dim::Voltage, "e5 V"), Err(QuantityError::NotANumber));
+    }
+
+    #[test]
+    fn underflow_and_overflow_are_out_of_range_not_zero_or_infinite() {
+        // "1e-30 %" was refused, "1e-400 %" read as 0 and accepted.
+        for text in ["1e-30 %", "1e-400 %", "0.1e-330 %", "1e-310 %"] {
+            assert_eq!(
+                parse(Dim::Percent, text),
+                Err(QuantityError::OutOfRange),
+                "{text}"
+            );
+        }
+        assert_eq!(
+            parse(Dim::Capacitance, "1e-305 pF"),
+            Err(QuantityError::OutOfRange)
+        );
+        assert_eq!(
+            parse(Dim::Voltage, "1e999 V"),
+            Err(QuantityError::OutOfRange)
+        );
+        assert_eq!(parse(Dim::Number, "1e-400"), Err(QuantityError::OutOfRange));
     }
 
     #[test]

@@ -311,7 +311,7 @@ fn comparison_row(row: &ClampRow, notes: &mut Vec<String>) -> Vec<String> {
 pub fn render_comparison(a: &Analysis<'_>) -> String {
     format!(
         "coilwise clamp comparison: {}\n\n{}\n{}",
-        a.spec.name,
+        crate::escape::text_line(&a.spec.name),
         comparison_table(a),
         crate::cautions::text_section()
     )
@@ -322,10 +322,11 @@ pub fn render_report(a: &Analysis<'_>) -> String {
     let spec = a.spec;
     let d = &spec.design;
     let mut out = String::new();
-    let _ = writeln!(out, "coilwise report: {}", spec.name);
-    let _ = writeln!(out, "design file: {}", spec.inputs.path());
+    let line = crate::escape::text_line;
+    let _ = writeln!(out, "coilwise report: {}", line(&spec.name));
+    let _ = writeln!(out, "design file: {}", line(spec.inputs.path()));
     if let Some(n) = &spec.notes {
-        let _ = writeln!(out, "notes: {n}");
+        let _ = writeln!(out, "notes: {}", line(n));
     }
     let coil = d.circuit.coil();
     let _ = writeln!(

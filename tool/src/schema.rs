@@ -260,6 +260,17 @@ pub fn sections() -> Vec<&'static str> {
 
 /// The known key closest to `unknown` (edit distance ≤ 3), for "did you mean" hints.
 pub fn closest(unknown: &str) -> Option<&'static str> {
+    // The edit distance is at least the difference in length: a key more than 3 characters
+    // longer than every schema key has no suggestion, and is not compared (a 1 MB key took
+    // seconds).
+    let longest = KEYS
+        .iter()
+        .map(|k| k.key.chars().count())
+        .max()
+        .unwrap_or(0);
+    if unknown.chars().take(longest + 4).count() > longest + 3 {
+        return None;
+    }
     KEYS.iter()
         .map(|k| (edit_distance(unknown, k.key), k.key))
         .filter(|&(d, _)| d <= 3)

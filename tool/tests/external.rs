@@ -6,13 +6,13 @@ use common::{run, stderr, stdout};
 use serde_json::Value;
 
 /// A minimal design at one fixed point (no tolerances, no spread of supply or temperature), so
-/// that the circuit of the textbook law is exactly what is evaluated. Its values are invented
-/// round numbers (10 V, 10 Ω, 0.1 H), not a worked example from a book.
-fn round_number_design(coil: &str, supply: f64, clamp: &str, switch_breakdown: f64) -> String {
+/// that the closed-form circuit of each check is exactly what is evaluated. The values are
+/// invented round numbers, chosen so the closed forms are easy to follow.
+fn one_point_design(coil: &str, supply: f64, clamp: &str, switch_breakdown: f64) -> String {
     format!(
         r#"
 [design]
-name = "round-number check (invented values)"
+name = "one-point check design (invented round numbers)"
 
 [coil]
 {coil}
@@ -59,8 +59,9 @@ fn close(actual: f64, expected: f64, rel: f64, what: &str) {
 }
 
 #[test]
-fn rl_step_response_matches_the_textbook_law_with_round_numbers() {
-    // RL step response, textbook law (from memory), invented round numbers: 10 V across 10 Ω and 0.1 H gives I∞ = 1 A,
+fn rl_step_response_matches_its_closed_form() {
+    // RL step response i(t) = I∞·(1 − e^(−t/τ)) (textbook, from memory), on an invented
+    // round-number coil: 10 V across 10 Ω and 0.1 H gives I∞ = 1 A,
     // τ = L/R = 10 ms, the current reaches half its final value after τ·ln 2 = 6.931 ms, and the
     // energy stored at 1 A is ½·L·I² = 0.05 J.
     let coil = r#"resistance = "10 ohm"
@@ -68,7 +69,7 @@ inductance = "0.1 H"
 must_operate = "5 V"
 must_release = "1 V""#;
     let v = report_json(
-        &round_number_design(coil, 10.0, "kind = \"diode\"\ndiode_drop = \"0.7 V\"", 60.0),
+        &one_point_design(coil, 10.0, "kind = \"diode\"\ndiode_drop = \"0.7 V\"", 60.0),
         &[],
     );
     close(v["final_current_a"].as_f64().unwrap(), 1.0, 1e-6, "I∞");
@@ -80,15 +81,16 @@ must_release = "1 V""#;
         "t(½ I∞)",
     );
     close(v["stored_energy_j"].as_f64().unwrap(), 0.05, 1e-6, "½LI²");
-    // Conservation of energy (first law): with a diode clamp every joule stored ends in the
-    // diode or the winding.
+    // Conservation of energy (first law of thermodynamics; textbook, from memory): with a diode
+    // clamp every joule stored ends in the diode or the winding.
     let split = v["clamp_energy_j"].as_f64().unwrap() + v["winding_energy_j"].as_f64().unwrap();
     close(split, 0.05, 1e-4, "clamp + winding");
 }
 
 #[test]
-fn free_decay_matches_the_textbook_law_with_round_numbers() {
-    // RL natural response, textbook law (from memory), invented round numbers: with an ideal freewheel path the current
+fn free_decay_matches_its_closed_form() {
+    // RL natural response (textbook, from memory), invented round-number coil: with an ideal
+    // freewheel path the current
     // decays as I₀·e^(−t/τ), so it falls from 1 A to 0.1 A in τ·ln 10 = 23.03 ms (τ = 10 ms).
     // A 1 µV diode drop stands in for the ideal diode (it shifts the time by about
     // (V_F/R)/(0.1 A)/ln 10 ≈ 4e-7 relative).
@@ -97,7 +99,7 @@ inductance = "0.1 H"
 must_operate = "5 V"
 must_release = "1 V""#;
     let v = report_json(
-        &round_number_design(coil, 10.0, "kind = \"diode\"\ndiode_drop = \"1 uV\"", 60.0),
+        &one_point_design(coil, 10.0, "kind = \"diode\"\ndiode_drop = \"1 uV\"", 60.0),
         &[],
     );
     close(
@@ -158,13 +160,13 @@ fn plain_diode_holds_the_switch_at_supply_plus_one_drop() {
 
 #[test]
 fn hot_copper_resistance_follows_the_annealed_copper_standard() {
-    // IEC 60028 (annealed copper): α20 = 0.00393 /K, so a winding of
+    // IEC 60028 (annealed copper standard): α20 = 0.00393 /K, so a winding of
     // 10 Ω at 20 °C has 10·(1 + 0.00393·65) = 12.5545 Ω at 85 °C; at 10 V it carries 0.79653 A.
     let coil = r#"resistance = "10 ohm"
 inductance = "0.1 H"
 must_operate = "5 V"
 must_release = "1 V""#;
-    let text = round_number_design(coil, 10.0, "kind = \"diode\"\ndiode_drop = \"0.7 V\"", 60.0)
+    let text = one_point_design(coil, 10.0, "kind = \"diode\"\ndiode_drop = \"0.7 V\"", 60.0)
         .replace(
             "min = \"20 degC\"\nmax = \"20 degC\"",
             "min = \"85 degC\"\nmax = \"85 degC\"",
@@ -183,15 +185,13 @@ fn unclamped_switch_energy_approaches_the_uis_formula() {
     // single-pulse unclamped inductive switching (UIS) energy, JEDEC JESD24 / AEC-Q101 (from memory): a lossless inductor
     // switched off from I into a switch that avalanches at V_BR from a supply V_DD delivers
     // E = ½·L·I²·V_BR/(V_BR − V_DD). Here 0.1 H, 1 A, V_BR = 100 V, V_DD = 2 V: 51.02 mJ. The
-    // 2 Ω winding takes about R·I/(2·(V_BR − V_DD)) ≈ 1 % of it, so allow 2 %.
+    // 2 Ω winding takes about R·I/(2·(V_BR − V_DD)) ≈ 1 % of it (first-order estimate from the
+    // same energy balance, no source), so allow 2 %.
     let coil = r#"resistance = "2 ohm"
 inductance = "0.1 H"
 must_operate = "1 V"
 must_release = "0.2 V""#;
-    let v = report_json(
-        &round_number_design(coil, 2.0, "kind = \"none\"", 100.0),
-        &[],
-    );
+    let v = report_json(&one_point_design(coil, 2.0, "kind = \"none\"", 100.0), &[]);
     let e = v["clamp_energy_j"].as_f64().unwrap();
     let uis = 0.5 * 0.1 * 1.0 * 100.0 / 98.0;
     assert!(e < uis && e > 0.98 * uis, "{e} vs {uis}");

@@ -109,14 +109,31 @@ pub(crate) fn figures_error(spec: &Spec, err: coilwise::Error, corner: &str) -> 
             Some("clamp.capacitance")
         }
         coilwise::Error::TickOverflow => Some("timing.tick_rate"),
+        // A snubber's figures leave the f32 range only through its own R and C (the other
+        // clamps' figures are bounded by the validated supply, coil and clamp values).
+        coilwise::Error::OutsideModel(_) if spec.clamp_kind == "snubber" => {
+            Some("clamp.capacitance")
+        }
         _ => None,
     };
-    let message = format!("at the {corner}: {err}");
+    let mut message = format!("at the {corner}: {err}");
+    if key == Some("clamp.capacitance")
+        && matches!(err, coilwise::Error::OutsideModel(l) if l != coilwise::Limit::SnubberUnderdamped)
+    {
+        message.push_str(" (the snubber's clamp.resistance and clamp.capacitance together)");
+    }
     match key {
-        Some(k @ "clamp.capacitance") => spec
+        Some(k @ "clamp.capacitance")
+            if matches!(
+                err,
+                coilwise::Error::OutsideModel(coilwise::Limit::SnubberUnderdamped)
+            ) =>
+        {
+            spec
             .inputs
             .error(k, ErrorClass::Impossible, message)
-            .hint("the snubber must be at least critically damped, (R_winding + R_s)^2 >= 4 L / C: use a larger capacitor or resistor"),
+            .hint("the snubber must be at least critically damped, (R_winding + R_s)^2 >= 4 L / C: use a larger capacitor or resistor")
+        }
         Some(k @ "clamp.standoff") => spec
             .inputs
             .error(k, ErrorClass::Impossible, message)
