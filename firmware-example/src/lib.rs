@@ -23,7 +23,14 @@ use defmt_semihosting as _;
 pub mod app;
 pub mod board;
 pub mod demo;
-pub mod hw;
+/// The hardware seam, now in the driver library.
+pub mod hw {
+    pub use coilwise_driver::sense::*;
+    pub use coilwise_driver::ChannelHw as Channel;
+    pub use embedded_hal::delay::DelayNs;
+    pub use embedded_hal::digital::OutputPin;
+    pub use embedded_hal::pwm::SetDutyCycle;
+}
 pub mod measure;
 pub mod scenario;
 pub mod ticks;

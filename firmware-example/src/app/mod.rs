@@ -18,8 +18,8 @@
 //! make a coil, its wiring or the installation safe. Follow the datasheets, local electrical codes
 //! and licensed practice.
 
-pub mod text;
-pub mod vectors;
+pub use coilwise_driver::selfcheck as vectors;
+pub use coilwise_driver::words as text;
 
 use core::mem::MaybeUninit;
 use core::ptr::addr_of_mut;
