@@ -348,3 +348,23 @@ fn a_sense_failure_takes_only_its_channel_out_of_service() {
     );
     finish(&plant);
 }
+
+/// The monitor is not a rubber stamp: edges made behind the driver's back (a pulse below the
+/// minimum on-time on a valve, on again 1 ms after its off edge) are reported.
+#[test]
+fn the_monitor_reports_edges_that_break_the_limits() {
+    use embedded_hal::digital::OutputPin;
+    let (plant, mut clock, drv) = rig(&[]);
+    let mut hw = drv.free();
+    let sw = &mut hw[A].switch;
+    sw.set_high().unwrap();
+    clock.wait_until(ms(30));
+    sw.set_low().unwrap();
+    clock.wait_until(ms(31));
+    sw.set_high().unwrap();
+    clock.wait_until(ms(40));
+    sw.set_low().unwrap();
+    let mut p = plant.borrow_mut();
+    assert!(p.monitor.violations() >= 1);
+    assert!(!p.monitor.finish());
+}

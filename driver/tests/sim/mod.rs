@@ -86,6 +86,8 @@ pub struct Plant {
     pub monitor: Monitor,
     /// Sense calls to fail from now on (tests of hardware errors): channel.
     pub broken_sense: Option<usize>,
+    /// Every drive change: (ns, channel, new state).
+    pub edges: Vec<(u64, usize, DriveState)>,
 }
 
 /// The shared plant, as peripherals share one chip.
@@ -148,6 +150,7 @@ impl Plant {
             now_ns: 0,
             monitor: Monitor::new(),
             broken_sense: None,
+            edges: Vec::new(),
         };
         p.apply_due(0);
         Rc::new(RefCell::new(p))
@@ -262,6 +265,7 @@ impl Plant {
         }
         let view = self.view(ch);
         self.monitor.drive(self.now_ns, ch, after, &view);
+        self.edges.push((self.now_ns, ch, after));
         let b = &mut self.benches[ch];
         let _ = match after {
             DriveState::Off => b.set_gate(0, false),
@@ -446,11 +450,20 @@ impl SimClock {
     }
 }
 
+/// The driver on the rig, with an event queue of `E`.
+pub type RigDriverE<const E: usize> =
+    coilwise_driver::Driver<SimSwitch, SimHold, SimSense, CHANNELS, 8, E>;
+
 /// The driver on the rig.
-pub type RigDriver = coilwise_driver::Driver<SimSwitch, SimHold, SimSense, CHANNELS, 8, 32>;
+pub type RigDriver = RigDriverE<32>;
 
 /// Builds the rig with `script` and the driver on it (monitor armed with the driver's limits).
 pub fn rig(script: &[(u32, Happening)]) -> (Shared, SimClock, RigDriver) {
+    rig_e::<32>(script)
+}
+
+/// [`rig`] with an event queue of `E`.
+pub fn rig_e<const E: usize>(script: &[(u32, Happening)]) -> (Shared, SimClock, RigDriverE<E>) {
     let plant = Plant::greenhouse(script);
     let hw = core::array::from_fn(|ch| {
         ChannelHw::new(
@@ -461,7 +474,7 @@ pub fn rig(script: &[(u32, Happening)]) -> (Shared, SimClock, RigDriver) {
     });
     let configs = core::array::from_fn(parts::channel_config);
     let clock = SimClock(plant.clone());
-    let drv = RigDriver::new(configs, hw, clock.rate(), clock.now(), parts::INRUSH_CAP)
+    let drv = RigDriverE::<E>::new(configs, hw, clock.rate(), clock.now(), parts::INRUSH_CAP)
         .expect("rig driver");
     plant
         .borrow_mut()

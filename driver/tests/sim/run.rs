@@ -4,7 +4,7 @@
 use coilwise::{Instant, Ticks};
 use coilwise_driver::{Event, EventKind, TickSource};
 
-use super::{RigDriver, SimClock};
+use super::{RigDriverE, SimClock};
 
 /// Milliseconds → the rig's instants (1 µs ticks from power-up).
 pub fn ms(t: u32) -> Instant {
@@ -17,7 +17,12 @@ pub fn ticks_ms(t: u32) -> Ticks {
 }
 
 /// Services the driver at every instant it asks for until `until`, collecting its events.
-pub fn run_until(drv: &mut RigDriver, clock: &mut SimClock, until: Instant, log: &mut Vec<Event>) {
+pub fn run_until<const E: usize>(
+    drv: &mut RigDriverE<E>,
+    clock: &mut SimClock,
+    until: Instant,
+    log: &mut Vec<Event>,
+) {
     loop {
         let now = clock.now();
         let next = drv.service(now).expect("service");
