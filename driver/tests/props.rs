@@ -79,23 +79,19 @@ struct Stats {
 impl Stats {
     const fn new(name: &'static str) -> Self {
         Stats {
-    name,
-    cases: AtomicU64::new(0),
-    edges: AtomicU64::new(0),
-    lost: AtomicU64::new(0),
-    emitted: AtomicU64::new(0),
-    lossy: AtomicU64::new(0),
-    last_lost: AtomicU64::new(0),
-};
+            name,
+            cases: AtomicU64::new(0),
+            edges: AtomicU64::new(0),
+            lost: AtomicU64::new(0),
+            emitted: AtomicU64::new(0),
+            lossy: AtomicU64::new(0),
+            last_lost: AtomicU64::new(0),
+        }
+    }
+}
 
-static SMALL: Stats = Stats {
-    name: "4-slot queue",
-    ..NEW_STATS
-};
-static LARGE: Stats = Stats {
-    name: "32-slot queue, popped always",
-    ..NEW_STATS
-};
+static SMALL: Stats = Stats::new("4-slot queue");
+static LARGE: Stats = Stats::new("32-slot queue, popped always");
 
 impl Stats {
     fn record(&self, edges: usize, lost: u32, emitted: u32) {
