@@ -8,7 +8,7 @@
 //! the device. Without a design the channel is scheduled just as safely, but not diagnosed:
 //! no diagnostic pulse, no rise capture, no findings.
 
-use coilwise::diagnosis::{Conditions, Expected, Finding, Probe, ThresholdBand};
+use coilwise::diagnosis::{Conditions, Expected, Finding, Probe, ThresholdBand, Verdict};
 use coilwise::schedule::{ChannelLimits, HeatRatings, HoldPlan};
 use coilwise::{Amps, DriverDesign, Instant, Ticks};
 
@@ -270,7 +270,6 @@ pub(crate) struct RiseWatch {
 /// What the driver keeps per channel.
 #[derive(Clone, Copy, Debug)]
 pub(crate) struct ChanState {
-    pub cfg: ChannelConfig,
     pub health: Health,
     pub setup: Option<SenseSetup>,
     pub rise: Option<RiseWatch>,
@@ -286,12 +285,15 @@ pub(crate) struct ChanState {
     pub on_at: Instant,
     pub pulses: u32,
     pub last_finding: Option<Finding>,
+    pub last_verdict: Option<Verdict>,
 }
 
 impl ChanState {
-    pub(crate) fn new(cfg: ChannelConfig, now: Instant) -> Self {
+    /// A channel not yet commissioned, its instants at 0 (set by the constructor).
+    pub(crate) const IDLE: Self = Self::new(Instant(0));
+
+    pub(crate) const fn new(now: Instant) -> Self {
         Self {
-            cfg,
             health: Health::Commissioning,
             setup: None,
             rise: None,
@@ -304,6 +306,7 @@ impl ChanState {
             on_at: now,
             pulses: 0,
             last_finding: None,
+            last_verdict: None,
         }
     }
 }

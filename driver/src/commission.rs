@@ -16,7 +16,6 @@
 //! wraps the whole for start-up code that can wait.
 
 use coilwise::diagnosis::{Conditions, Finding, Sampling, ThresholdBand};
-use coilwise::schedule::WakeCause;
 use coilwise::{Amps, Instant, Seconds, Ticks};
 use embedded_hal::delay::DelayNs;
 use embedded_hal::digital::OutputPin;
@@ -105,7 +104,8 @@ fn band_of(design: &coilwise::DriverDesign, level: Amps) -> Option<ThresholdBand
     ThresholdBand::new(design, &Conditions::default(), level).ok()
 }
 
-impl<Sw, Pwm, Sense, const N: usize, const Q: usize, const E: usize> Driver<Sw, Pwm, Sense, N, Q, E>
+impl<Sw, Pwm, Sense, const N: usize, const Q: usize, const E: usize>
+    Driver<'_, Sw, Pwm, Sense, N, Q, E>
 where
     Sw: OutputPin,
     Pwm: SetDutyCycle,
@@ -123,25 +123,25 @@ where
     /// [`ErrorKind::Phase`] when called twice. A converter error takes only its channel out of
     /// service ([`EventKind::HardwareFault`]).
     pub fn commission(&mut self, now: Instant) -> Result<[Vector; selfcheck::COUNT], DriverError> {
-        if self.phase != Phase::NotStarted {
+        if self.st.phase != Phase::NotStarted {
             return Err(DriverError::general(ErrorKind::Phase));
         }
         let vectors = selfcheck::compute();
         if !vectors.iter().all(Vector::holds) {
-            self.phase = Phase::Failed;
+            self.st.phase = Phase::Failed;
             return Err(DriverError::general(ErrorKind::SelfCheck));
         }
         for i in 0..N {
-            if self.chans[i].cfg.diagnosis.is_none() {
-                self.chans[i].health = Health::InService;
+            if self.configs[i].diagnosis.is_none() {
+                self.st.chans[i].health = Health::InService;
                 continue;
             }
             match self.measure_zero(i) {
-                Ok(()) => self.chans[i].probe_due = Some(ProbePurpose::Commission),
+                Ok(()) => self.st.chans[i].probe_due = Some(ProbePurpose::Commission),
                 Err(kind) => self.fault(now, i, kind),
             }
         }
-        self.phase = Phase::Running;
+        self.st.phase = Phase::Running;
         self.finish_commissioning(now);
         Ok(vectors)
     }
@@ -157,9 +157,9 @@ where
         clock: &mut C,
     ) -> Result<[Vector; selfcheck::COUNT], DriverError> {
         let v = self.commission(clock.now())?;
-        while self.phase == Phase::Running {
+        while self.st.phase == Phase::Running {
             let next = self.service(clock.now())?;
-            if self.phase != Phase::Running {
+            if self.st.phase != Phase::Running {
                 break;
             }
             let d = next.since(clock.now());
@@ -174,13 +174,13 @@ where
 
     /// Where commissioning is.
     pub const fn phase(&self) -> Phase {
-        self.phase
+        self.st.phase
     }
 
     /// Averages [`ZERO_READINGS`] conversions with the coil off: the converter's zero; then sets
     /// the comparator level and its band.
     fn measure_zero(&mut self, i: usize) -> Result<(), ErrorKind> {
-        let Some(d) = self.chans[i].cfg.diagnosis else {
+        let Some(d) = self.configs[i].diagnosis else {
             return Ok(());
         };
         let sense = &mut self.hw[i].sense;
@@ -204,7 +204,7 @@ where
         } else {
             (None, None, Amps::new(0.0))
         };
-        self.chans[i].setup = Some(SenseSetup {
+        self.st.chans[i].setup = Some(SenseSetup {
             zero_counts: zero,
             trip_counts: trip,
             trip_level: level,
@@ -215,21 +215,28 @@ where
 
     /// Ends commissioning once no commissioning pulse is left.
     pub(crate) fn finish_commissioning(&mut self, now: Instant) {
-        if self.phase != Phase::Running {
+        if self.st.phase != Phase::Running {
             return;
         }
         if self
+            .st
             .chans
             .iter()
             .any(|c| c.probe_due == Some(ProbePurpose::Commission))
             || self
+                .st
                 .probe
                 .is_some_and(|p| p.purpose == ProbePurpose::Commission)
         {
             return;
         }
-        self.phase = Phase::Ready;
-        let in_service = self.chans.iter().filter(|c| c.health.in_service()).count();
+        self.st.phase = Phase::Ready;
+        let in_service = self
+            .st
+            .chans
+            .iter()
+            .filter(|c| c.health.in_service())
+            .count();
         self.emit(
             now,
             0,
@@ -241,7 +248,7 @@ where
 
     /// The end of a diagnostic pulse's window (no pulse may start before it), or `now`.
     pub(crate) fn probe_window_end(&self, now: Instant) -> Instant {
-        match self.probe {
+        match self.st.probe {
             Some(p) if p.off_at.since(now) > 0 => p.off_at,
             _ => now,
         }
@@ -250,8 +257,14 @@ where
     /// Whether another coil is in its pull-in window at `now`; the end of the latest such window.
     fn inrush_busy(&self, now: Instant) -> Option<Instant> {
         let mut busy: Option<Instant> = None;
-        for c in self.chans.iter().filter(|c| c.on) {
-            let end = c.on_at.after(c.cfg.limits.inrush_window());
+        for (c, cfg) in self
+            .st
+            .chans
+            .iter()
+            .zip(self.configs.iter())
+            .filter(|(c, _)| c.on)
+        {
+            let end = c.on_at.after(cfg.limits.inrush_window());
             if end.since(now) > 0 {
                 busy = Some(busy.map_or(end, |b| b.latest(end)));
             }
@@ -262,7 +275,7 @@ where
     /// Starts a due diagnostic pulse when the coil is at rest and nothing else is due; returns
     /// when to try again if one is due but cannot start yet.
     pub(crate) fn try_start_probe(&mut self, now: Instant) -> Option<Instant> {
-        if self.probe.is_some() {
+        if self.st.probe.is_some() {
             return None;
         }
         let mut retry: Option<Instant> = None;
@@ -274,8 +287,8 @@ where
             return retry;
         }
         for i in 0..N {
-            let c = &self.chans[i];
-            let (Some(purpose), Some(d)) = (c.probe_due, c.cfg.diagnosis) else {
+            let c = &self.st.chans[i];
+            let (Some(purpose), Some(d)) = (c.probe_due, self.configs[i].diagnosis) else {
                 continue;
             };
             let rest = c.rest_at.latest(c.probe_rest_at);
@@ -288,8 +301,7 @@ where
                 continue;
             }
             let off_at = now.after(d.probe.length);
-            let w = self.sched.next_wake();
-            if w.cause != WakeCause::KeepAlive && off_at.since(w.at) > 0 {
+            if self.st.next_wake().is_some_and(|w| off_at.since(w) > 0) {
                 // An edge is due before the pulse would end: after it.
                 continue;
             }
@@ -309,8 +321,8 @@ where
                 self.fault(now, i, ErrorKind::Switch);
                 continue;
             }
-            self.chans[i].probe_due = None;
-            self.probe = Some(ActiveProbe {
+            self.st.chans[i].probe_due = None;
+            self.st.probe = Some(ActiveProbe {
                 channel: i,
                 purpose,
                 on: now,
@@ -327,7 +339,7 @@ where
     /// Advances the diagnostic pulse in progress: its off edge, then its capture and verdict.
     /// Returns when to be called next for it.
     pub(crate) fn probe_step(&mut self, now: Instant) -> Option<Instant> {
-        let mut p = self.probe?;
+        let mut p = self.st.probe?;
         let i = p.channel;
         if !p.switched_off {
             if !now.is_at_or_after(p.off_at) {
@@ -335,12 +347,12 @@ where
             }
             let off_ok = self.hw[i].switch.set_low().is_ok();
             p.switched_off = true;
-            let c = &mut self.chans[i];
-            c.probe_rest_at = now.after(c.cfg.limits.min_off());
+            let c = &mut self.st.chans[i];
+            c.probe_rest_at = now.after(self.configs[i].limits.min_off());
             c.rest_at = c.rest_at.latest(c.probe_rest_at);
-            self.probe = Some(p);
+            self.st.probe = Some(p);
             if !off_ok {
-                self.probe = None;
+                self.st.probe = None;
                 self.fault(now, i, ErrorKind::Switch);
                 return None;
             }
@@ -348,32 +360,32 @@ where
         if !now.is_at_or_after(p.done) {
             return Some(p.done);
         }
-        let cap = match self.hw[i].sense.samples(&mut self.buf) {
+        let cap = match self.hw[i].sense.samples(&mut self.st.buf) {
             Ok(Some(cap)) => cap,
             Ok(None) if p.retries < 2 => {
                 p.retries += 1;
                 p.done = now.after(Ticks((p.off_at.since(p.on).max(1) as u32).div_ceil(4)));
-                self.probe = Some(p);
+                self.st.probe = Some(p);
                 return Some(p.done);
             }
             Ok(None) => {
-                self.probe = None;
+                self.st.probe = None;
                 self.fault(now, i, ErrorKind::CaptureMissing);
                 return None;
             }
             Err(e) => {
-                self.probe = None;
+                self.st.probe = None;
                 self.fault(now, i, ErrorKind::Sense(e.kind()));
                 return None;
             }
         };
-        self.probe = None;
-        let d = self.chans[i].cfg.diagnosis?;
+        self.st.probe = None;
+        let d = self.configs[i].diagnosis?;
         let verdict = match self.sampling(i, cap.first, cap.period, d.noise_counts) {
             Ok(s) => {
                 let n = cap.len.min(SAMPLES);
                 d.probe.judge(
-                    &self.buf[..n],
+                    &self.st.buf[..n],
                     &s,
                     &d.expected,
                     &self.criteria,
@@ -389,7 +401,8 @@ where
                 return None;
             }
         };
-        self.chans[i].last_finding = Some(verdict.finding);
+        self.st.chans[i].last_finding = Some(verdict.finding);
+        self.st.chans[i].last_verdict = Some(verdict);
         self.emit(
             p.on,
             i,
@@ -397,7 +410,7 @@ where
                 source: Source::Probe,
                 purpose: Some(p.purpose),
                 pulse: 0,
-                verdict,
+                finding: verdict.finding,
                 comparator: None,
             },
         );
@@ -408,13 +421,15 @@ where
     /// Acts on a diagnostic pulse's finding, by purpose.
     fn after_probe(&mut self, now: Instant, i: usize, purpose: ProbePurpose, f: Finding) {
         let class = classify(&f);
-        let g = usize::from(self.chans[i].cfg.supply_group);
+        let g = usize::from(self.configs[i].supply_group);
         match purpose {
             ProbePurpose::Commission | ProbePurpose::Reenable => {
-                let was = self.chans[i].health;
+                let was = self.st.chans[i].health;
                 match class {
-                    Class::Healthy | Class::SupplyLow => self.chans[i].health = Health::InService,
-                    Class::Unsure => self.chans[i].health = Health::Unverified,
+                    Class::Healthy | Class::SupplyLow => {
+                        self.st.chans[i].health = Health::InService
+                    }
+                    Class::Unsure => self.st.chans[i].health = Health::Unverified,
                     Class::Fault => {}
                 }
                 match class {
@@ -424,18 +439,18 @@ where
                 }
                 if purpose == ProbePurpose::Reenable
                     && was == Health::Rechecking
-                    && self.chans[i].health.in_service()
+                    && self.st.chans[i].health.in_service()
                 {
                     self.emit(now, i, EventKind::Reenabled);
                 }
                 self.finish_commissioning(now);
             }
             ProbePurpose::SupplyCheck => {
-                let parked = self.chans[i].parked.take();
+                let parked = self.st.chans[i].parked.take();
                 match class {
                     Class::Healthy => {
-                        if self.group_low[g] {
-                            self.group_low[g] = false;
+                        if self.st.group_low[g] {
+                            self.st.group_low[g] = false;
                             self.emit(now, i, EventKind::SupplyRecovered { group: g as u8 });
                         }
                         if let Some(p) = parked {
@@ -477,7 +492,7 @@ where
         noise: f32,
     ) -> Result<Sampling, coilwise::Error> {
         let scale = self.hw[i].sense.scale();
-        let zero = self.chans[i].setup.map_or(0.0, |s| s.zero_counts);
+        let zero = self.st.chans[i].setup.map_or(0.0, |s| s.zero_counts);
         sampling_of(
             self.rate.seconds(period),
             self.rate.seconds(first),

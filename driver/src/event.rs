@@ -7,7 +7,7 @@
 //! (where the dropped events would have been), and [`EventQueue::lost`] keeps the total. So `events popped (Lost excluded) + Σ Lost.count +
 //! pending loss = events emitted`, always ([`EventQueue::emitted`]).
 
-use coilwise::diagnosis::{Finding, Verdict};
+use coilwise::diagnosis::Finding;
 use coilwise::schedule::DelayReason;
 use coilwise::Instant;
 
@@ -60,8 +60,10 @@ pub enum EventKind {
         purpose: Option<ProbePurpose>,
         /// The channel's pulse count at the measured pulse (rises only; 0 for probes).
         pulse: u32,
-        /// The verdict, with its estimates.
-        verdict: Verdict,
+        /// The finding. Its estimates (current, time constant, resistance, inductance, fit
+        /// quality) stay with the channel: [`crate::Driver::last_verdict`] until its next
+        /// measurement, so that an event stays small.
+        finding: Finding,
         /// The comparator's reading (rises with a comparator band only).
         comparator: Option<ComparatorReading>,
     },

@@ -63,6 +63,7 @@ pub mod words;
 pub use channel::{
     ChannelConfig, ChannelHw, ChannelOptions, Diagnosis, Health, SenseSetup, Status, SAMPLES,
 };
+pub use commission::Phase;
 pub use error::{DriverError, ErrorKind, SetupError};
 pub use event::{ComparatorReading, Event, EventKind, EventQueue, ProbePurpose, Source};
 pub use request::{Granted, Length, Pulse, Refused, Start};
@@ -71,54 +72,102 @@ pub use sense::{
 };
 pub use ticks::TickSource;
 
-use coilwise::diagnosis::{Criteria, FitOptions};
-use coilwise::schedule::{ChannelLimits, Scheduler};
+use coilwise::diagnosis::{Criteria, FitOptions, Verdict};
+use coilwise::schedule::{ChannelLimits, Scheduler, WakeCause};
 use coilwise::{Instant, TickRate};
 
 use channel::ChanState;
-use commission::{ActiveProbe, Phase};
+use commission::ActiveProbe;
 
-/// The driver: `N` channels (1…256), `Q` pulses pending or in flight (1…255), `E` events
-/// queued (2…255). Owns the channels' hardware; [`Driver::free`] gives it back.
-///
-/// Memory: a few hundred bytes per channel (its design, bands and limits), the scheduler
-/// (about 40 bytes per queue slot), a 64-sample capture buffer and the event queue (about
-/// 100 bytes per event). Build it straight into a `static` on a small part.
-pub struct Driver<Sw, Pwm, Sense, const N: usize, const Q: usize = 8, const E: usize = 16> {
-    pub(crate) hw: [ChannelHw<Sw, Pwm, Sense>; N],
+/// The driver's working state: per-channel bookkeeping, the scheduler, the event queue and
+/// the capture buffer — the bulk of its memory (a few hundred bytes per channel, about 40 per
+/// queue slot, about 30 per event, 128 for the buffer), supplied by the caller like a buffer:
+/// [`DriverState::new`] is `const`, so it can sit in a `static` or in `main`'s frame without
+/// being built on the stack and copied.
+pub struct DriverState<const N: usize, const Q: usize = 8, const E: usize = 16> {
     pub(crate) chans: [ChanState; N],
-    pub(crate) sched: Scheduler<N, Q>,
+    /// `None` until [`Driver::new`] builds it.
+    pub(crate) sched: Option<Scheduler<N, Q>>,
     pub(crate) events: EventQueue<E>,
     /// Per supply group (numbered below `N`): flagged low.
     pub(crate) group_low: [bool; N],
     pub(crate) phase: Phase,
     pub(crate) probe: Option<ActiveProbe>,
+    pub(crate) buf: [u16; SAMPLES],
+}
+
+impl<const N: usize, const Q: usize, const E: usize> Default for DriverState<N, Q, E> {
+    fn default() -> Self {
+        Self::new()
+    }
+}
+
+impl<const N: usize, const Q: usize, const E: usize> DriverState<N, Q, E> {
+    /// Empty state, for [`Driver::new`].
+    pub const fn new() -> Self {
+        Self {
+            chans: [ChanState::IDLE; N],
+            sched: None,
+            events: EventQueue::new(),
+            group_low: [false; N],
+            phase: Phase::NotStarted,
+            probe: None,
+            buf: [0; SAMPLES],
+        }
+    }
+
+    /// The scheduler's next edge (`None`: nothing scheduled).
+    pub(crate) fn next_wake(&self) -> Option<Instant> {
+        let w = self.sched.as_ref()?.next_wake();
+        (w.cause != WakeCause::KeepAlive).then_some(w.at)
+    }
+}
+
+/// The driver: `N` channels (1…256), `Q` pulses pending or in flight (1…255), `E` events
+/// queued (2…255). Borrows its channel configurations and its [`DriverState`] (`'c`); owns the
+/// channels' hardware, which [`Driver::free`] gives back. Itself small (the handles, a few
+/// references and the diagnosis criteria).
+pub struct Driver<'c, Sw, Pwm, Sense, const N: usize, const Q: usize = 8, const E: usize = 16> {
+    pub(crate) configs: &'c [ChannelConfig; N],
+    pub(crate) st: &'c mut DriverState<N, Q, E>,
+    pub(crate) hw: [ChannelHw<Sw, Pwm, Sense>; N],
     pub(crate) rate: TickRate,
     pub(crate) criteria: Criteria,
     pub(crate) options: FitOptions,
-    pub(crate) buf: [u16; SAMPLES],
     pub(crate) inrush_cap: u8,
 }
 
-impl<Sw, Pwm, Sense, const N: usize, const Q: usize, const E: usize> Driver<Sw, Pwm, Sense, N, Q, E>
+impl<'c, Sw, Pwm, Sense, const N: usize, const Q: usize, const E: usize>
+    Driver<'c, Sw, Pwm, Sense, N, Q, E>
 where
     Sense: CurrentSense,
 {
-    /// A driver for these channels, ticks at `rate`, its clock starting at `now`, at most
-    /// `inrush_cap` coils in their pull-in window at once (≥ 1; `N` for no cap). Nothing is
-    /// driven until [`Driver::commission`].
+    /// A driver for these channels, in `state` (reset), ticks at `rate`, its clock starting at
+    /// `now`, at most `inrush_cap` coils in their pull-in window at once (≥ 1; `N` for no cap).
+    /// Nothing is driven until [`Driver::commission`]. The only temporary is the scheduler
+    /// (about 40 bytes per queue slot).
     ///
     /// # Errors
     /// [`SetupError::Limits`] for an inrush cap of zero; [`SetupError::SupplyGroup`] for a group
-    /// number ≥ `N`; [`SetupError::Capture`] when a channel's rise capture does not fit the
-    /// board's `MAX_SAMPLES` or the driver's buffer.
+    /// number ≥ `N`; [`SetupError::Capture`] when a diagnosed channel's capture does not fit the
+    /// board's `MAX_SAMPLES`. `state` is then reset and unused.
+    #[inline(never)]
     pub fn new(
-        configs: [ChannelConfig; N],
+        configs: &'c [ChannelConfig; N],
+        state: &'c mut DriverState<N, Q, E>,
         hw: [ChannelHw<Sw, Pwm, Sense>; N],
         rate: TickRate,
         now: Instant,
         inrush_cap: u8,
     ) -> Result<Self, SetupError> {
+        state.sched = None;
+        state.events = EventQueue::new();
+        state.group_low = [false; N];
+        state.phase = Phase::NotStarted;
+        state.probe = None;
+        for c in state.chans.iter_mut() {
+            *c = ChanState::new(now);
+        }
         for (i, c) in configs.iter().enumerate() {
             let channel = i as u8;
             if usize::from(c.supply_group) >= N {
@@ -129,20 +178,17 @@ where
             }
         }
         let limits: [ChannelLimits; N] = core::array::from_fn(|i| configs[i].limits);
-        let sched = Scheduler::new(limits, inrush_cap, now)
-            .map_err(|error| SetupError::Limits { channel: 0, error })?;
+        state.sched = Some(
+            Scheduler::new(limits, inrush_cap, now)
+                .map_err(|error| SetupError::Limits { channel: 0, error })?,
+        );
         Ok(Self {
+            configs,
+            st: state,
             hw,
-            chans: core::array::from_fn(|i| ChanState::new(configs[i], now)),
-            sched,
-            events: EventQueue::new(),
-            group_low: [false; N],
-            phase: Phase::NotStarted,
-            probe: None,
             rate,
             criteria: Criteria::default(),
             options: FitOptions::default(),
-            buf: [0; SAMPLES],
             inrush_cap,
         })
     }
@@ -153,24 +199,37 @@ where
         self.hw
     }
 
+    /// Whether nothing is pending: no pulse queued or on, no capture or diagnostic pulse in
+    /// progress or due, no request waiting (the application may sleep until its next request;
+    /// [`Driver::service`] still wants a call within 2³⁰ ticks).
+    pub fn idle(&self) -> bool {
+        self.st.sched.as_ref().is_none_or(|s| s.pending() == 0)
+            && self.st.probe.is_none()
+            && self
+                .st
+                .chans
+                .iter()
+                .all(|c| c.rise.is_none() && c.probe_due.is_none() && c.parked.is_none() && !c.on)
+    }
+
     /// The oldest queued event.
     pub fn pop_event(&mut self) -> Option<Event> {
-        self.events.pop()
+        self.st.events.pop()
     }
 
     /// The event queue (counts of events emitted and lost).
     pub fn events(&self) -> &EventQueue<E> {
-        &self.events
+        &self.st.events
     }
 
     /// Channel `i`'s status (`None` past the last channel).
     pub fn status(&self, i: usize) -> Option<Status> {
-        let c = self.chans.get(i)?;
+        let c = self.st.chans.get(i)?;
         Some(Status {
             health: c.health,
             on: c.on,
-            measuring: c.rise.is_some() || self.probe.is_some_and(|p| p.channel == i),
-            supply_low: self.group_low[usize::from(c.cfg.supply_group)],
+            measuring: c.rise.is_some() || self.st.probe.is_some_and(|p| p.channel == i),
+            supply_low: self.st.group_low[usize::from(self.configs[i].supply_group)],
             awaiting_supply_check: c.parked.is_some(),
             pulses: c.pulses,
             last_finding: c.last_finding,
@@ -178,19 +237,25 @@ where
         })
     }
 
+    /// Channel `i`'s latest verdict with its estimates (kept until its next measurement; the
+    /// [`EventKind::Judged`] event carries the finding alone).
+    pub fn last_verdict(&self, i: usize) -> Option<&Verdict> {
+        self.st.chans.get(i).and_then(|c| c.last_verdict.as_ref())
+    }
+
     /// Channel `i`'s configuration.
-    pub fn config(&self, i: usize) -> Option<&ChannelConfig> {
-        self.chans.get(i).map(|c| &c.cfg)
+    pub fn config(&self, i: usize) -> Option<&'c ChannelConfig> {
+        self.configs.get(i)
     }
 
     /// Channel `i`'s converter zero and comparator, once commissioned.
     pub fn sense_setup(&self, i: usize) -> Option<&SenseSetup> {
-        self.chans.get(i).and_then(|c| c.setup.as_ref())
+        self.st.chans.get(i).and_then(|c| c.setup.as_ref())
     }
 
     /// The limits the scheduler enforces on every channel (e.g. for an independent monitor).
     pub fn limits(&self) -> [ChannelLimits; N] {
-        core::array::from_fn(|i| self.chans[i].cfg.limits)
+        core::array::from_fn(|i| self.configs[i].limits)
     }
 
     /// The inrush cap the driver was built with.
@@ -205,7 +270,7 @@ where
 
     /// Queues an event on `channel`.
     pub(crate) fn emit(&mut self, at: Instant, channel: usize, kind: EventKind) {
-        self.events.push(Event {
+        self.st.events.push(Event {
             at,
             channel: channel as u8,
             kind,

@@ -146,7 +146,8 @@ pub enum Refused {
     Busy,
 }
 
-impl<Sw, Pwm, Sense, const N: usize, const Q: usize, const E: usize> Driver<Sw, Pwm, Sense, N, Q, E>
+impl<Sw, Pwm, Sense, const N: usize, const Q: usize, const E: usize>
+    Driver<'_, Sw, Pwm, Sense, N, Q, E>
 where
     Sw: OutputPin,
     Pwm: SetDutyCycle,
@@ -185,6 +186,7 @@ where
         pulse: Pulse,
     ) -> Result<Granted, Refused> {
         let c = self
+            .st
             .chans
             .get(channel)
             .ok_or(Refused::Schedule(Refusal::UnknownChannel))?;
@@ -197,13 +199,19 @@ where
         if c.parked.is_some() || c.held_pending {
             return Err(Refused::Busy);
         }
-        let g = usize::from(c.cfg.supply_group);
-        if self.group_low[g] && c.cfg.diagnosis.is_some() {
+        let cfg = &self.configs[channel];
+        let g = usize::from(cfg.supply_group);
+        if self.st.group_low[g] && cfg.diagnosis.is_some() {
             // Checked against the scheduler's clock first, so a refusal comes now, not later.
-            if now.since(self.sched.now()) < 0 {
+            if self
+                .st
+                .sched
+                .as_ref()
+                .is_some_and(|s| now.since(s.now()) < 0)
+            {
                 return Err(Refused::Schedule(Refusal::TimeWentBackwards));
             }
-            let c = &mut self.chans[channel];
+            let c = &mut self.st.chans[channel];
             c.parked = Some(pulse);
             c.probe_due = Some(ProbePurpose::SupplyCheck);
             return Ok(Granted::AwaitingSupplyCheck);
@@ -225,7 +233,7 @@ where
         // No start inside a diagnostic pulse's window (it counts against the inrush cap) nor,
         // on its own channel, before the coil is at rest after it.
         let mut floor = self.probe_window_end(now);
-        let rest = self.chans[channel].probe_rest_at;
+        let rest = self.st.chans[channel].probe_rest_at;
         if rest.since(floor) > 0 {
             floor = rest;
         }
@@ -255,10 +263,13 @@ where
             }
             req = req.within(Ticks(w.get() - used));
         }
-        let admission = self.sched.submit(now, req).map_err(Refused::Schedule)?;
+        let sched = self.st.sched.as_mut().ok_or(Refused::NotCommissioned)?;
+        let admission = sched.submit(now, req).map_err(Refused::Schedule)?;
         let start = admission.start();
-        let c = &mut self.chans[channel];
-        let end = start.after(duration).after(c.cfg.limits.min_off());
+        let c = &mut self.st.chans[channel];
+        let end = start
+            .after(duration)
+            .after(self.configs[channel].limits.min_off());
         if end.since(c.rest_at) > 0 {
             c.rest_at = end;
         }
@@ -287,14 +298,17 @@ where
             return Err(DriverError::on(channel, ErrorKind::UnknownChannel));
         }
         let s = self
+            .st
             .sched
+            .as_mut()
+            .ok_or(DriverError::on(channel, ErrorKind::Phase))?
             .stop(now, ChannelId(channel as u8))
             .map_err(|e| DriverError::on(channel, e.into()))?;
-        let c = &mut self.chans[channel];
+        let c = &mut self.st.chans[channel];
         c.parked = None;
         c.held_pending = false;
         if let Stopping::Ending { off_at, .. } = s {
-            c.rest_at = off_at.after(c.cfg.limits.min_off());
+            c.rest_at = off_at.after(self.configs[channel].limits.min_off());
         }
         Ok(s)
     }
@@ -318,6 +332,7 @@ where
     /// [`ErrorKind::NotIsolated`] for a channel in service; [`ErrorKind::UnknownChannel`].
     pub fn reenable(&mut self, now: Instant, channel: usize) -> Result<(), DriverError> {
         let c = self
+            .st
             .chans
             .get_mut(channel)
             .ok_or(DriverError::on(channel, ErrorKind::UnknownChannel))?;
@@ -326,7 +341,7 @@ where
             _ => return Err(DriverError::on(channel, ErrorKind::NotIsolated)),
         }
         c.health = Health::Rechecking;
-        if c.cfg.diagnosis.is_some() {
+        if self.configs[channel].diagnosis.is_some() {
             c.probe_due = Some(ProbePurpose::Reenable);
         } else {
             c.health = Health::InService;

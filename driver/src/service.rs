@@ -57,7 +57,8 @@ fn earlier(a: Option<Instant>, b: Instant) -> Option<Instant> {
     })
 }
 
-impl<Sw, Pwm, Sense, const N: usize, const Q: usize, const E: usize> Driver<Sw, Pwm, Sense, N, Q, E>
+impl<Sw, Pwm, Sense, const N: usize, const Q: usize, const E: usize>
+    Driver<'_, Sw, Pwm, Sense, N, Q, E>
 where
     Sw: OutputPin,
     Pwm: SetDutyCycle,
@@ -76,7 +77,10 @@ where
         loop {
             edges.clear();
             let wake = self
+                .st
                 .sched
+                .as_mut()
+                .ok_or(DriverError::general(ErrorKind::Phase))?
                 .poll(now, &mut edges)
                 .map_err(|e| DriverError::general(e.into()))?;
             for e in edges.iter() {
@@ -98,12 +102,11 @@ where
         if let Some(t) = self.try_start_probe(now) {
             next = earlier(next, t);
         }
-        if let Some(p) = self.probe {
+        if let Some(p) = self.st.probe {
             next = earlier(next, if p.switched_off { p.done } else { p.off_at });
         }
-        let w = self.sched.next_wake();
-        if w.cause != WakeCause::KeepAlive {
-            next = earlier(next, w.at);
+        if let Some(w) = self.st.next_wake() {
+            next = earlier(next, w);
         }
         Ok(next.unwrap_or(now.after(KEEP_ALIVE)))
     }
@@ -124,7 +127,7 @@ where
                 hold.set_duty_cycle(compare).map_err(|_| ErrorKind::Pwm)
             }
             PinAction::Off => {
-                let c = &mut self.chans[i];
+                let c = &mut self.st.chans[i];
                 c.on = false;
                 if c.held_pending && e.at.is_at_or_after(c.on_at) {
                     c.held_pending = false;
@@ -142,8 +145,8 @@ where
 
     /// Arms the rise capture and switches channel `i` on.
     fn switch_on(&mut self, now: Instant, i: usize) -> Result<(), ErrorKind> {
-        let c = &self.chans[i];
-        let capture = match (c.cfg.diagnosis, c.setup) {
+        let c = &self.st.chans[i];
+        let capture = match (self.configs[i].diagnosis, c.setup) {
             (Some(d), Some(s)) => Some((d.rise_period, s.trip_counts)),
             _ => None,
         };
@@ -160,7 +163,7 @@ where
                 .map_err(|e| ErrorKind::Sense(e.kind()))?;
         }
         hw.switch.set_high().map_err(|_| ErrorKind::Switch)?;
-        let c = &mut self.chans[i];
+        let c = &mut self.st.chans[i];
         c.on = true;
         c.on_at = now;
         c.pulses = c.pulses.wrapping_add(1);
@@ -178,30 +181,30 @@ where
     /// Judges channel `i`'s rise once its capture is complete; returns when to look again.
     #[inline(never)]
     fn collect(&mut self, i: usize, now: Instant) -> Option<Instant> {
-        let mut w = self.chans[i].rise?;
+        let mut w = self.st.chans[i].rise?;
         if !now.is_at_or_after(w.done) {
             return Some(w.done);
         }
-        let cap = match self.hw[i].sense.samples(&mut self.buf) {
+        let cap = match self.hw[i].sense.samples(&mut self.st.buf) {
             Ok(Some(cap)) => cap,
             Ok(None) if w.retries < 2 => {
                 w.retries += 1;
                 w.done = now.after(Ticks((w.done.since(w.on).max(4) as u32) / 4));
-                self.chans[i].rise = Some(w);
+                self.st.chans[i].rise = Some(w);
                 return Some(w.done);
             }
             Ok(None) => {
-                self.chans[i].rise = None;
+                self.st.chans[i].rise = None;
                 self.fault(now, i, ErrorKind::CaptureMissing);
                 return None;
             }
             Err(e) => {
-                self.chans[i].rise = None;
+                self.st.chans[i].rise = None;
                 self.fault(now, i, ErrorKind::Sense(e.kind()));
                 return None;
             }
         };
-        self.chans[i].rise = None;
+        self.st.chans[i].rise = None;
         let crossing = match self.hw[i].sense.crossing() {
             Ok(c) => c,
             Err(e) => {
@@ -209,7 +212,7 @@ where
                 return None;
             }
         };
-        let d = self.chans[i].cfg.diagnosis?;
+        let d = self.configs[i].diagnosis?;
         let Ok(sampling) = self.sampling(i, cap.first, cap.period, d.noise_counts) else {
             self.fault(
                 now,
@@ -220,7 +223,7 @@ where
         };
         let n = cap.len.min(SAMPLES);
         let fit = judge_actuation(
-            &self.buf[..n],
+            &self.st.buf[..n],
             &sampling,
             &d.expected,
             &self.criteria,
@@ -232,7 +235,7 @@ where
                 waited: self.rate.seconds(Ticks(now.since(w.on).max(0) as u32)),
             },
         };
-        let band = self.chans[i].setup.and_then(|s| s.band);
+        let band = self.st.chans[i].setup.and_then(|s| s.band);
         let cmp =
             band.map(|b| judge_threshold(reading, &b, None, &d.expected, &self.criteria).finding);
         let verdict = Verdict {
@@ -242,7 +245,8 @@ where
             ),
             estimates: fit.estimates,
         };
-        self.chans[i].last_finding = Some(verdict.finding);
+        self.st.chans[i].last_finding = Some(verdict.finding);
+        self.st.chans[i].last_verdict = Some(verdict);
         self.emit(
             w.on,
             i,
@@ -250,7 +254,7 @@ where
                 source: Source::Rise,
                 purpose: None,
                 pulse: w.pulse,
-                verdict,
+                finding: verdict.finding,
                 comparator: cmp.map(|finding| ComparatorReading { crossing, finding }),
             },
         );
@@ -264,22 +268,27 @@ where
 
     /// Flags channel `i`'s supply group low.
     pub(crate) fn flag_supply(&mut self, now: Instant, i: usize) {
-        let g = usize::from(self.chans[i].cfg.supply_group);
-        if !self.group_low[g] {
-            self.group_low[g] = true;
+        let g = usize::from(self.configs[i].supply_group);
+        if !self.st.group_low[g] {
+            self.st.group_low[g] = true;
             self.emit(now, i, EventKind::SupplyLow { group: g as u8 });
         }
     }
 
     /// Ends channel `i`'s pulses as soon as allowed; returns (off edge, pulses dropped).
     fn stop_channel(&mut self, now: Instant, i: usize) -> (Option<Instant>, u8) {
-        let c = &mut self.chans[i];
+        let c = &mut self.st.chans[i];
         c.held_pending = false;
-        match self.sched.stop(now, ChannelId(i as u8)) {
+        let Some(sched) = self.st.sched.as_mut() else {
+            return (None, 0);
+        };
+        match sched.stop(now, ChannelId(i as u8)) {
             Ok(Stopping::Ending {
                 off_at, cancelled, ..
             }) => {
-                c.rest_at = c.rest_at.latest(off_at.after(c.cfg.limits.min_off()));
+                c.rest_at = c
+                    .rest_at
+                    .latest(off_at.after(self.configs[i].limits.min_off()));
                 (Some(off_at), cancelled)
             }
             Ok(Stopping::NotRunning { cancelled }) => (None, cancelled),
@@ -289,7 +298,7 @@ where
 
     /// Takes channel `i` out of service after a fault.
     pub(crate) fn isolate(&mut self, now: Instant, i: usize, finding: Finding) {
-        self.chans[i].health = Health::Isolated(finding);
+        self.st.chans[i].health = Health::Isolated(finding);
         let (off_at, dropped) = self.stop_channel(now, i);
         self.emit(
             now,
@@ -300,22 +309,22 @@ where
                 dropped,
             },
         );
-        if self.chans[i].parked.take().is_some() {
+        if self.st.chans[i].parked.take().is_some() {
             self.emit(now, i, EventKind::Refused(Refused::Isolated(finding)));
         }
     }
 
     /// Takes channel `i` out of service after a hardware error, and tries to switch it off.
     pub(crate) fn fault(&mut self, now: Instant, i: usize, kind: ErrorKind) {
-        self.chans[i].health = Health::Faulted(kind);
-        self.chans[i].probe_due = None;
+        self.st.chans[i].health = Health::Faulted(kind);
+        self.st.chans[i].probe_due = None;
         let _ = self.stop_channel(now, i);
         let hw = &mut self.hw[i];
         let _ = hw.hold.set_duty_cycle(0);
         let _ = hw.switch.set_low();
-        self.chans[i].on = false;
+        self.st.chans[i].on = false;
         self.emit(now, i, EventKind::HardwareFault(kind));
-        if self.chans[i].parked.take().is_some() {
+        if self.st.chans[i].parked.take().is_some() {
             self.emit(now, i, EventKind::Refused(Refused::Faulted(kind)));
         }
         self.finish_commissioning(now);

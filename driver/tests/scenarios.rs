@@ -30,8 +30,8 @@ fn judged(kinds: &[EventKind], source: Source) -> Vec<Finding> {
         .iter()
         .filter_map(|k| match k {
             EventKind::Judged {
-                source: s, verdict, ..
-            } if *s == source => Some(verdict.finding),
+                source: s, finding, ..
+            } if *s == source => Some(*finding),
             _ => None,
         })
         .collect()

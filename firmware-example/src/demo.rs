@@ -24,9 +24,9 @@
 //! | 700 | | valve A | refuse: isolated |
 //! | 800 | 24 V rail sags to 17 V | | |
 //! | 850 | | valve B | rise says supply low: hold the 24 V rail back |
-//! | 1000 | | valve B | diagnostic pulse: still low, refuse |
+//! | 1000 | | valve B | supply re-check pulse: still low, refuse |
 //! | 1100 | 24 V rail back to 24 V | | |
-//! | 1200 | | valve B | diagnostic pulse healthy: go ahead |
+//! | 1200 | | valve B | re-check healthy: go ahead once the coil is at rest after it |
 //! | 1250 | | valve B at 1400 ms | accept the set time |
 //! | 1600 | pump wire breaks | | |
 //! | ≈2231 | | (the thermally delayed pump run) | rise says open circuit: isolate the pump |
@@ -34,11 +34,60 @@
 
 use coilwise::diagnosis::Finding;
 use coilwise::schedule::{DelayReason, Refusal};
+use coilwise::{Instant, Ticks};
+use coilwise_driver::{CurrentSense, TickSource};
+use coilwise_driver::{DriverError, Event, EventKind, Granted, Pulse, Refused, Source};
 use coilwise_host_tests::Fault;
+use embedded_hal::delay::DelayNs;
+use embedded_hal::digital::OutputPin;
+use embedded_hal::pwm::SetDutyCycle;
 
-use crate::app::{Observer, Outcome, Report, StartAt, Step};
 use crate::board::{Happening, Scripted};
-use crate::scenario::Rail;
+use crate::scenario::{ChannelSpec, CHANNELS, PUMP_RAIL, VALVE_RAIL};
+
+/// The driver as the demo uses it: the scenario's channels, 8 pulses queued, 8 events.
+pub type Drv<Sw, Pwm, Sense> =
+    coilwise_driver::Driver<'static, Sw, Pwm, Sense, CHANNELS, QUEUE, EVENTS>;
+
+/// Pulses pending or in flight the scheduler holds at most.
+pub const QUEUE: usize = 8;
+/// Events the driver queues between two drains of the demo loop.
+pub const EVENTS: usize = 8;
+
+/// When a programme step asks its pulse to start.
+#[derive(Clone, Copy, Debug, PartialEq, Eq, defmt::Format)]
+pub enum StartAt {
+    /// As soon as the constraints allow.
+    Now,
+    /// At this time, ms after power-up (or as soon after as allowed).
+    At(u32),
+}
+
+/// One request of the timed programme.
+#[derive(Clone, Copy, Debug, PartialEq, Eq)]
+pub struct Step {
+    /// When the request is made, ms after power-up.
+    pub at_ms: u32,
+    /// The channel.
+    pub channel: usize,
+    /// Pulse length, ms.
+    pub duration_ms: u32,
+    /// Asked start.
+    pub start: StartAt,
+    /// Refuse rather than start more than this late, ms (`None`: any delay).
+    pub within_ms: Option<u32>,
+}
+
+/// What became of a request, as the checker sees it.
+#[derive(Clone, Copy, Debug, PartialEq, defmt::Format)]
+pub enum Outcome {
+    /// Starts when asked.
+    Accepted,
+    /// Starts later, for this reason.
+    Delayed(DelayReason),
+    /// Refused by the driver.
+    Refused(Refused),
+}
 
 /// Valve A, B, C and the pump relay.
 const A: usize = 0;
@@ -65,14 +114,14 @@ pub static SCRIPT: [Scripted; 6] = [
     Scripted {
         at_ms: 800,
         what: Happening::Supply {
-            rail: Rail::Valves24V,
+            rail: VALVE_RAIL,
             volts: 17.0,
         },
     },
     Scripted {
         at_ms: 1100,
         what: Happening::Supply {
-            rail: Rail::Valves24V,
+            rail: VALVE_RAIL,
             volts: 24.0,
         },
     },
@@ -87,7 +136,7 @@ pub static SCRIPT: [Scripted; 6] = [
     Scripted {
         at_ms: 3000,
         what: Happening::Supply {
-            rail: Rail::Pump12V,
+            rail: PUMP_RAIL,
             volts: 12.0,
         },
     },
@@ -158,7 +207,7 @@ const TABLE: [(Step, Expect); STEPS] = [
     (step(700, A, 60), Expect::Isolated),
     (step(850, B, 60), Expect::Accepted),
     (step(1000, B, 60), Expect::SupplyLow),
-    (step(1200, B, 60), Expect::Accepted),
+    (step(1200, B, 60), Expect::Delayed(DelayReason::OffTime)),
     (at(step(1250, B, 60), 1400), Expect::Accepted),
     (step(2600, PUMP, 100), Expect::Isolated),
     (step(2700, B, 60), Expect::Accepted),
@@ -204,35 +253,43 @@ fn truth(ch: usize, t_ms: u32) -> Finding {
     }
 }
 
-fn rail_of(ch: usize) -> Rail {
+fn rail_of(ch: usize) -> u8 {
     if ch == PUMP {
-        Rail::Pump12V
+        PUMP_RAIL
     } else {
-        Rail::Valves24V
+        VALVE_RAIL
     }
 }
 
-fn nominal(r: Rail) -> f64 {
-    match r {
-        Rail::Valves24V => 24.0,
-        Rail::Pump12V => 12.0,
+fn nominal(r: u8) -> f64 {
+    if r == PUMP_RAIL {
+        12.0
+    } else {
+        24.0
     }
 }
 
 fn matches(outcome: &Outcome, expect: &Expect) -> bool {
     match (outcome, expect) {
-        (Outcome::Accepted { .. }, Expect::Accepted) => true,
-        (Outcome::Delayed { reason, .. }, Expect::Delayed(r)) => reason == r,
-        (Outcome::Refused(Refusal::TooLate { reason, .. }), Expect::TooLate(r)) => reason == r,
-        (Outcome::Refused(Refusal::BelowMinOn { .. }), Expect::BelowMinOn) => true,
-        (Outcome::Isolated, Expect::Isolated) => true,
-        (Outcome::SupplyLow, Expect::SupplyLow) => true,
+        (Outcome::Accepted, Expect::Accepted) => true,
+        (Outcome::Delayed(reason), Expect::Delayed(r)) => reason == r,
+        (
+            Outcome::Refused(Refused::Schedule(Refusal::TooLate { reason, .. })),
+            Expect::TooLate(r),
+        ) => reason == r,
+        (Outcome::Refused(Refused::Schedule(Refusal::BelowMinOn { .. })), Expect::BelowMinOn) => {
+            true
+        }
+        (Outcome::Refused(Refused::Isolated(_)), Expect::Isolated) => true,
+        (Outcome::Refused(Refused::SupplyLow), Expect::SupplyLow) => true,
         _ => false,
     }
 }
 
-/// The checker: an [`Observer`] that compares every outcome and verdict with the script.
+/// The checker: compares every request outcome and verdict with the script.
 pub struct Checker {
+    /// Per channel: the programme step waiting for a supply re-check.
+    awaiting: [Option<usize>; CHANNELS],
     handled: [bool; STEPS],
     /// Per scripted event: whether a verdict on its channel named it.
     detected: [bool; SCRIPT.len()],
@@ -246,6 +303,7 @@ impl Checker {
     /// A checker for a controller whose time origin is `origin`.
     pub const fn new(origin: coilwise::Instant) -> Self {
         Self {
+            awaiting: [None; CHANNELS],
             handled: [false; STEPS],
             detected: [false; SCRIPT.len()],
             failures: 0,
@@ -299,7 +357,8 @@ impl Checker {
     }
 }
 
-impl Observer for Checker {
+impl Checker {
+    /// Programme step `index` came to `outcome`.
     fn request(&mut self, index: usize, outcome: &Outcome) {
         let Some((_, expect)) = PROGRAMME.get(index) else {
             self.failures += 1;
@@ -319,17 +378,45 @@ impl Observer for Checker {
         }
     }
 
-    fn verdict(&mut self, r: &Report) {
+    /// A driver event: verdicts are checked against the script; the outcome of a request that
+    /// waited for a supply re-check resolves its step.
+    fn event(&mut self, e: &Event) {
+        let ch = usize::from(e.channel);
+        let resolved = match e.kind {
+            EventKind::Accepted { .. } => Some(Outcome::Accepted),
+            EventKind::Delayed { reason, .. } => Some(Outcome::Delayed(reason)),
+            EventKind::Refused(r) => Some(Outcome::Refused(r)),
+            EventKind::Judged {
+                source, finding, ..
+            } => {
+                self.verdict(e.at, ch, source, finding);
+                None
+            }
+            EventKind::Lost { .. } => {
+                defmt::error!("[check] driver events were lost");
+                self.failures += 1;
+                None
+            }
+            _ => None,
+        };
+        if let (Some(o), Some(slot)) = (resolved, self.awaiting.get_mut(ch)) {
+            if let Some(index) = slot.take() {
+                self.request(index, &o);
+            }
+        }
+    }
+
+    fn verdict(&mut self, at: Instant, channel: usize, kind: Source, finding: Finding) {
         self.verdicts += 1;
-        let t_ms = (r.at.since(self.origin).max(0) as u32) / 1000;
-        let want = truth(r.channel, t_ms);
-        if r.finding != want {
+        let t_ms = (at.since(self.origin).max(0) as u32) / 1000;
+        let want = truth(channel, t_ms);
+        if finding != want {
             defmt::error!(
                 "[check] ch{=usize} at t={=u32} ms ({}): verdict {}, the script says {}",
-                r.channel,
+                channel,
                 t_ms,
-                r.kind,
-                r.finding,
+                kind,
+                finding,
                 want
             );
             self.failures += 1;
@@ -339,9 +426,9 @@ impl Observer for Checker {
         let mut credit = None;
         for (k, e) in SCRIPT.iter().enumerate().filter(|(_, e)| e.at_ms <= t_ms) {
             match e.what {
-                Happening::Fault { channel, .. } if channel == r.channel => credit = Some(k),
+                Happening::Fault { channel: c, .. } if c == channel => credit = Some(k),
                 Happening::Supply { rail, volts }
-                    if rail == rail_of(r.channel)
+                    if rail == rail_of(channel)
                         && volts < 0.9 * nominal(rail)
                         && want == Finding::SupplyLow =>
                 {
@@ -356,4 +443,167 @@ impl Observer for Checker {
             }
         }
     }
+}
+
+/// The pulse a programme step asks for, with the run's time origin `t0`.
+fn pulse_of(t0: Instant, s: &Step) -> Pulse {
+    let ticks = Ticks(s.duration_ms * 1000);
+    let mut p = match s.start {
+        StartAt::Now => Pulse::now(ticks),
+        StartAt::At(ms) => Pulse::at(t0.after(Ticks(ms * 1000)), ticks),
+    };
+    if let Some(w) = s.within_ms {
+        p = p.within(Ticks(w * 1000));
+    }
+    p
+}
+
+/// Logs and checks every queued event of the driver.
+#[inline(never)]
+fn drain<Sw, Pwm, Sense>(
+    drv: &mut Drv<Sw, Pwm, Sense>,
+    now: Instant,
+    specs: &[ChannelSpec; CHANNELS],
+    bands: &[(f32, f32); CHANNELS],
+    checker: &mut Checker,
+    check: bool,
+) where
+    Sw: OutputPin,
+    Pwm: SetDutyCycle,
+    Sense: CurrentSense,
+{
+    while let Some(e) = drv.pop_event() {
+        let last = drv.last_verdict(usize::from(e.channel));
+        crate::log::event(checker.origin, now, &e, last, specs, bands);
+        if check {
+            checker.event(&e);
+        }
+    }
+}
+
+/// Makes programme step `index`'s request and hands its outcome to the checker.
+#[inline(never)]
+fn request<Sw, Pwm, Sense>(
+    drv: &mut Drv<Sw, Pwm, Sense>,
+    now: Instant,
+    index: usize,
+    s: &Step,
+    checker: &mut Checker,
+) where
+    Sw: OutputPin,
+    Pwm: SetDutyCycle,
+    Sense: CurrentSense,
+{
+    let us = now.since(checker.origin).max(0) as u32;
+    defmt::info!(
+        "t={=u32}.{=u32:03} ms  request: ch{=usize} for {=u32} ms{=str}",
+        us / 1000,
+        us % 1000,
+        s.channel,
+        s.duration_ms,
+        match (s.start, s.within_ms) {
+            (StartAt::Now, None) => ", as soon as allowed",
+            (StartAt::Now, Some(_)) => ", now or refuse",
+            (StartAt::At(_), _) => ", at a set time",
+        }
+    );
+    match drv.request(now, s.channel, pulse_of(checker.origin, s)) {
+        Ok(Granted::Accepted { .. }) => checker.request(index, &Outcome::Accepted),
+        Ok(Granted::Delayed { reason, .. }) => checker.request(index, &Outcome::Delayed(reason)),
+        Ok(Granted::AwaitingSupplyCheck) => {
+            defmt::info!("  supply rail flagged low: a diagnostic pulse re-checks it first");
+            if let Some(slot) = checker.awaiting.get_mut(s.channel) {
+                *slot = Some(index);
+            }
+        }
+        Err(r) => checker.request(index, &Outcome::Refused(r)),
+    }
+}
+
+/// Runs the programme on the driver: services it at every instant it asks for, makes each
+/// programme request at its time, logs and checks every event, until every request is handled
+/// and nothing is pending. Returns the end of the run, ms after power-up.
+///
+/// # Errors
+/// The driver's (time going backwards: a broken clock).
+#[inline(never)]
+pub fn run<Sw, Pwm, Sense, C>(
+    drv: &mut Drv<Sw, Pwm, Sense>,
+    clock: &mut C,
+    specs: &[ChannelSpec; CHANNELS],
+    checker: &mut Checker,
+) -> Result<u32, DriverError>
+where
+    Sw: OutputPin,
+    Pwm: SetDutyCycle,
+    Sense: CurrentSense,
+    C: TickSource + DelayNs,
+{
+    let bands: [(f32, f32); CHANNELS] = core::array::from_fn(|i| {
+        drv.sense_setup(i)
+            .and_then(|s| s.band)
+            .map_or((0.0, 0.0), |b| {
+                (b.time.min.value() * 1e3, b.time.max.value() * 1e3)
+            })
+    });
+    defmt::info!("run: {=usize} requests (times are from power-up)", STEPS);
+    let t0 = checker.origin;
+    let mut next = 0usize;
+    loop {
+        let now = clock.now();
+        let wake = drv.service(now)?;
+        drain(drv, now, specs, &bands, checker, true);
+        let before = next;
+        while let Some((s, _)) = PROGRAMME.get(next) {
+            if !now.is_at_or_after(t0.after(Ticks(s.at_ms * 1000))) {
+                break;
+            }
+            request(drv, now, next, s, checker);
+            // The request's own outcome, already checked from its return value: log only.
+            drain(drv, now, specs, &bands, checker, false);
+            next += 1;
+        }
+        if next != before {
+            // New requests: service again now, for edges due at once.
+            continue;
+        }
+        let mut until = wake;
+        if let Some((s, _)) = PROGRAMME.get(next) {
+            let t = t0.after(Ticks(s.at_ms * 1000));
+            if t.since(until) < 0 {
+                until = t;
+            }
+        } else if drv.idle() {
+            break;
+        }
+        let d = until.since(clock.now());
+        if d > 0 {
+            clock.delay_us(d as u32);
+        }
+    }
+    let us = clock.now().since(t0).max(0) as u32;
+    defmt::info!("run: programme done at t={=u32} ms", us / 1000);
+    Ok(us / 1000)
+}
+
+/// Logs and checks every queued event (e.g. after commissioning).
+#[inline(never)]
+pub fn drain_all<Sw, Pwm, Sense>(
+    drv: &mut Drv<Sw, Pwm, Sense>,
+    now: Instant,
+    specs: &[ChannelSpec; CHANNELS],
+    checker: &mut Checker,
+) where
+    Sw: OutputPin,
+    Pwm: SetDutyCycle,
+    Sense: CurrentSense,
+{
+    let bands: [(f32, f32); CHANNELS] = core::array::from_fn(|i| {
+        drv.sense_setup(i)
+            .and_then(|s| s.band)
+            .map_or((0.0, 0.0), |b| {
+                (b.time.min.value() * 1e3, b.time.max.value() * 1e3)
+            })
+    });
+    drain(drv, now, specs, &bands, checker, true);
 }

@@ -452,7 +452,7 @@ impl SimClock {
 
 /// The driver on the rig, with an event queue of `E`.
 pub type RigDriverE<const E: usize> =
-    coilwise_driver::Driver<SimSwitch, SimHold, SimSense, CHANNELS, 8, E>;
+    coilwise_driver::Driver<'static, SimSwitch, SimHold, SimSense, CHANNELS, 8, E>;
 
 /// The driver on the rig.
 pub type RigDriver = RigDriverE<32>;
@@ -472,10 +472,20 @@ pub fn rig_e<const E: usize>(script: &[(u32, Happening)]) -> (Shared, SimClock, 
             SimSense(plant.clone(), ch),
         )
     });
-    let configs = core::array::from_fn(parts::channel_config);
+    // The driver borrows its configurations; a test leaks one small array per rig.
+    let configs: &'static [coilwise_driver::ChannelConfig; CHANNELS] =
+        Box::leak(Box::new(core::array::from_fn(parts::channel_config)));
     let clock = SimClock(plant.clone());
-    let drv = RigDriverE::<E>::new(configs, hw, clock.rate(), clock.now(), parts::INRUSH_CAP)
-        .expect("rig driver");
+    let state = Box::leak(Box::new(coilwise_driver::DriverState::new()));
+    let drv = RigDriverE::<E>::new(
+        configs,
+        state,
+        hw,
+        clock.rate(),
+        clock.now(),
+        parts::INRUSH_CAP,
+    )
+    .expect("rig driver");
     plant
         .borrow_mut()
         .monitor
