@@ -24,7 +24,7 @@ use embedded_hal::pwm::SetDutyCycle;
 use crate::channel::{Health, SenseSetup, SAMPLES};
 use crate::error::{DriverError, ErrorKind};
 use crate::event::{EventKind, ProbePurpose, Source};
-use crate::selfcheck::{self, Vector};
+use crate::selfcheck;
 use crate::sense::{CurrentSense, SenseError, SensePlan};
 use crate::ticks::TickSource;
 use crate::Driver;
@@ -116,18 +116,19 @@ where
     /// the diagnostic pulses to [`Driver::service`]. Channels without a design go into service
     /// at once. An [`EventKind::Commissioned`] marks the end.
     ///
-    /// Returns the self-check vectors, for the log.
+    /// The vectors themselves, for a log, come from [`selfcheck::compute`] (deterministic: the
+    /// same values the driver checks).
     ///
     /// # Errors
     /// [`ErrorKind::SelfCheck`] when a vector does not hold (nothing will ever be driven);
     /// [`ErrorKind::Phase`] when called twice. A converter error takes only its channel out of
     /// service ([`EventKind::HardwareFault`]).
-    pub fn commission(&mut self, now: Instant) -> Result<[Vector; selfcheck::COUNT], DriverError> {
+    #[inline(never)]
+    pub fn commission(&mut self, now: Instant) -> Result<(), DriverError> {
         if self.st.phase != Phase::NotStarted {
             return Err(DriverError::general(ErrorKind::Phase));
         }
-        let vectors = selfcheck::compute();
-        if !vectors.iter().all(Vector::holds) {
+        if !selfcheck::holds() {
             self.st.phase = Phase::Failed;
             return Err(DriverError::general(ErrorKind::SelfCheck));
         }
@@ -143,7 +144,7 @@ where
         }
         self.st.phase = Phase::Running;
         self.finish_commissioning(now);
-        Ok(vectors)
+        Ok(())
     }
 
     /// [`Driver::commission`], then [`Driver::service`] and waits on `clock` until every
@@ -155,8 +156,8 @@ where
     pub fn commission_blocking<C: TickSource + DelayNs>(
         &mut self,
         clock: &mut C,
-    ) -> Result<[Vector; selfcheck::COUNT], DriverError> {
-        let v = self.commission(clock.now())?;
+    ) -> Result<(), DriverError> {
+        self.commission(clock.now())?;
         while self.st.phase == Phase::Running {
             let next = self.service(clock.now())?;
             if self.st.phase != Phase::Running {
@@ -169,7 +170,7 @@ where
                 clock.delay_ns(ns.min(u64::from(u32::MAX)) as u32);
             }
         }
-        Ok(v)
+        Ok(())
     }
 
     /// Where commissioning is.
@@ -179,6 +180,7 @@ where
 
     /// Averages [`ZERO_READINGS`] conversions with the coil off: the converter's zero; then sets
     /// the comparator level and its band.
+    #[inline(never)]
     fn measure_zero(&mut self, i: usize) -> Result<(), ErrorKind> {
         let Some(d) = self.configs[i].diagnosis else {
             return Ok(());
@@ -380,8 +382,35 @@ where
             }
         };
         self.st.probe = None;
-        let d = self.configs[i].diagnosis?;
-        let verdict = match self.sampling(i, cap.first, cap.period, d.noise_counts) {
+        let scale = self.hw[i].sense.scale();
+        self.judge_probe(now, p, cap, scale);
+        None
+    }
+
+    /// Judges a complete diagnostic-pulse capture and acts on it (out of line, after every call
+    /// into the board, as the rise's).
+    #[inline(never)]
+    fn judge_probe(
+        &mut self,
+        now: Instant,
+        p: ActiveProbe,
+        cap: crate::sense::Capture,
+        scale: crate::sense::SenseScale,
+    ) {
+        let i = p.channel;
+        let Some(d) = self.configs[i].diagnosis else {
+            return;
+        };
+        let zero = self.st.chans[i].setup.map_or(0.0, |s| s.zero_counts);
+        let sampling = sampling_of(
+            self.rate.seconds(cap.period),
+            self.rate.seconds(cap.first),
+            scale.amps_per_count,
+            zero,
+            scale.full_scale_counts,
+            d.noise_counts,
+        );
+        let verdict = match sampling {
             Ok(s) => {
                 let n = cap.len.min(SAMPLES);
                 d.probe.judge(
@@ -398,7 +427,7 @@ where
                     i,
                     ErrorKind::Sense(crate::sense::SenseErrorKind::PeriodUnsupported),
                 );
-                return None;
+                return;
             }
         };
         self.st.chans[i].last_finding = Some(verdict.finding);
@@ -415,7 +444,6 @@ where
             },
         );
         self.after_probe(now, i, p.purpose, verdict.finding);
-        None
     }
 
     /// Acts on a diagnostic pulse's finding, by purpose.
@@ -481,25 +509,5 @@ where
                 }
             }
         }
-    }
-
-    /// The sampling of channel `i`'s capture.
-    pub(crate) fn sampling(
-        &self,
-        i: usize,
-        first: Ticks,
-        period: Ticks,
-        noise: f32,
-    ) -> Result<Sampling, coilwise::Error> {
-        let scale = self.hw[i].sense.scale();
-        let zero = self.st.chans[i].setup.map_or(0.0, |s| s.zero_counts);
-        sampling_of(
-            self.rate.seconds(period),
-            self.rate.seconds(first),
-            scale.amps_per_count,
-            zero,
-            scale.full_scale_counts,
-            noise,
-        )
     }
 }

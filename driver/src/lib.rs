@@ -123,6 +123,20 @@ impl<const N: usize, const Q: usize, const E: usize> DriverState<N, Q, E> {
     }
 }
 
+/// The scheduler for `configs`, written into `slot` (out of line: its temporaries stay in
+/// this frame).
+#[inline(never)]
+fn build_scheduler<const N: usize, const Q: usize>(
+    slot: &mut Option<Scheduler<N, Q>>,
+    configs: &[ChannelConfig; N],
+    inrush_cap: u8,
+    now: Instant,
+) -> Result<(), coilwise::schedule::LimitsError> {
+    let limits: [ChannelLimits; N] = core::array::from_fn(|i| configs[i].limits);
+    *slot = Some(Scheduler::new(limits, inrush_cap, now)?);
+    Ok(())
+}
+
 /// The driver: `N` channels (1…256), `Q` pulses pending or in flight (1…255), `E` events
 /// queued (2…255). Borrows its channel configurations and its [`DriverState`] (`'c`); owns the
 /// channels' hardware, which [`Driver::free`] gives back. Itself small (the handles, a few
@@ -177,11 +191,8 @@ where
                 return Err(SetupError::Capture { channel });
             }
         }
-        let limits: [ChannelLimits; N] = core::array::from_fn(|i| configs[i].limits);
-        state.sched = Some(
-            Scheduler::new(limits, inrush_cap, now)
-                .map_err(|error| SetupError::Limits { channel: 0, error })?,
-        );
+        build_scheduler(&mut state.sched, configs, inrush_cap, now)
+            .map_err(|error| SetupError::Limits { channel: 0, error })?;
         Ok(Self {
             configs,
             st: state,

@@ -212,14 +212,42 @@ where
                 return None;
             }
         };
-        let d = self.configs[i].diagnosis?;
-        let Ok(sampling) = self.sampling(i, cap.first, cap.period, d.noise_counts) else {
+        let scale = self.hw[i].sense.scale();
+        self.judge_rise(i, now, w, cap, crossing, scale);
+        None
+    }
+
+    /// Judges a complete rise capture of channel `i` and acts on the finding (out of line, and
+    /// after every call into the board: the fit's working state never sits below a hardware
+    /// call).
+    #[inline(never)]
+    fn judge_rise(
+        &mut self,
+        i: usize,
+        now: Instant,
+        w: RiseWatch,
+        cap: crate::sense::Capture,
+        crossing: Crossing,
+        scale: crate::sense::SenseScale,
+    ) {
+        let Some(d) = self.configs[i].diagnosis else {
+            return;
+        };
+        let zero = self.st.chans[i].setup.map_or(0.0, |s| s.zero_counts);
+        let Ok(sampling) = crate::commission::sampling_of(
+            self.rate.seconds(cap.period),
+            self.rate.seconds(cap.first),
+            scale.amps_per_count,
+            zero,
+            scale.full_scale_counts,
+            d.noise_counts,
+        ) else {
             self.fault(
                 now,
                 i,
                 ErrorKind::Sense(crate::SenseErrorKind::PeriodUnsupported),
             );
-            return None;
+            return;
         };
         let n = cap.len.min(SAMPLES);
         let fit = judge_actuation(
@@ -263,7 +291,6 @@ where
             Class::SupplyLow => self.flag_supply(now, i),
             Class::Fault => self.isolate(now, i, verdict.finding),
         }
-        None
     }
 
     /// Flags channel `i`'s supply group low.

@@ -488,6 +488,7 @@ fn request<Sw, Pwm, Sense>(
     now: Instant,
     index: usize,
     s: &Step,
+    name: &str,
     checker: &mut Checker,
 ) where
     Sw: OutputPin,
@@ -496,10 +497,11 @@ fn request<Sw, Pwm, Sense>(
 {
     let us = now.since(checker.origin).max(0) as u32;
     defmt::info!(
-        "t={=u32}.{=u32:03} ms  request: ch{=usize} for {=u32} ms{=str}",
+        "t={=u32}.{=u32:03} ms  request: ch{=usize} {=str} for {=u32} ms{=str}",
         us / 1000,
         us % 1000,
         s.channel,
+        name,
         s.duration_ms,
         match (s.start, s.within_ms) {
             (StartAt::Now, None) => ", as soon as allowed",
@@ -558,7 +560,8 @@ where
             if !now.is_at_or_after(t0.after(Ticks(s.at_ms * 1000))) {
                 break;
             }
-            request(drv, now, next, s, checker);
+            let name = specs.get(s.channel).map_or("?", |c| c.name);
+            request(drv, now, next, s, name, checker);
             // The request's own outcome, already checked from its return value: log only.
             drain(drv, now, specs, &bands, checker, false);
             next += 1;
@@ -586,24 +589,65 @@ where
     Ok(us / 1000)
 }
 
-/// Logs and checks every queued event (e.g. after commissioning).
+/// Commissioning, logged: the self-check vectors and the converter zeros now, then the
+/// diagnostic pulses, serviced until the driver reports commissioning done. Returns whether the
+/// driver may be used.
 #[inline(never)]
-pub fn drain_all<Sw, Pwm, Sense>(
+pub fn commission<Sw, Pwm, Sense, C>(
     drv: &mut Drv<Sw, Pwm, Sense>,
-    now: Instant,
+    clock: &mut C,
     specs: &[ChannelSpec; CHANNELS],
     checker: &mut Checker,
-) where
+) -> bool
+where
     Sw: OutputPin,
     Pwm: SetDutyCycle,
     Sense: CurrentSense,
+    C: TickSource + DelayNs,
 {
-    let bands: [(f32, f32); CHANNELS] = core::array::from_fn(|i| {
+    crate::log::vectors();
+    match drv.commission(clock.now()) {
+        Ok(()) => {}
+        Err(e) => {
+            defmt::error!(
+                "commissioning stopped the firmware: {}; no coil will be driven",
+                e
+            );
+            return false;
+        }
+    }
+    defmt::info!("commissioning 2/3: converter zero and comparator, per channel");
+    for (i, s) in specs.iter().enumerate() {
+        if let Some(z) = drv.sense_setup(i) {
+            crate::log::sense_setup(i, s.name, z);
+        }
+    }
+    defmt::info!("commissioning 3/3: a diagnostic pulse below pull-in, per channel");
+    let bands = bands(drv);
+    while drv.phase() == coilwise_driver::Phase::Running {
+        let now = clock.now();
+        let Ok(next) = drv.service(now) else {
+            return false;
+        };
+        drain(drv, now, specs, &bands, checker, true);
+        let d = next.since(clock.now());
+        if d > 0 && drv.phase() == coilwise_driver::Phase::Running {
+            clock.delay_us(d as u32);
+        }
+    }
+    drv.phase() == coilwise_driver::Phase::Ready
+}
+
+/// The healthy comparator band of every channel, ms (for the log).
+fn bands<Sw, Pwm, Sense>(drv: &Drv<Sw, Pwm, Sense>) -> [(f32, f32); CHANNELS]
+where
+    Sense: CurrentSense,
+{
+    core::array::from_fn(|i| {
         drv.sense_setup(i)
             .and_then(|s| s.band)
             .map_or((0.0, 0.0), |b| {
                 (b.time.min.value() * 1e3, b.time.max.value() * 1e3)
             })
-    });
-    drain(drv, now, specs, &bands, checker, true);
+    })
 }

@@ -4,7 +4,6 @@
 
 use coilwise::diagnosis::{Estimates, Finding, Verdict};
 use coilwise::Instant;
-use coilwise_driver::selfcheck::Vector;
 use coilwise_driver::words;
 use coilwise_driver::{
     ComparatorReading, Crossing, Event, EventKind, ProbePurpose, Refused, SenseSetup, Source,
@@ -95,11 +94,11 @@ pub fn design(specs: &[ChannelSpec], queue: usize) {
     }
 }
 
-/// The self-check vectors.
+/// The self-check vectors (the same deterministic values the driver checks at commissioning).
 #[inline(never)]
-pub fn vectors(v: &[Vector]) {
+pub fn vectors() {
     defmt::info!("commissioning 1/3: core calculations against reference values");
-    for v in v {
+    for v in coilwise_driver::selfcheck::compute().iter() {
         if v.holds() {
             defmt::info!("  ok   {=str}: {=f32} [{=str}]", v.what, v.got, v.source);
         } else {

@@ -112,38 +112,6 @@ fn arm_monitor(board: &SimBoard, drv: &Driver) {
         .set_limits(&drv.limits(), drv.inrush_cap());
 }
 
-/// Commissioning: self-check vectors and converter zero now, then the diagnostic pulses
-/// (driven by the driver's service loop while the board's clock advances).
-#[inline(never)]
-fn commission(
-    board: &'static SimBoard,
-    drv: &mut Driver,
-    specs: &[ChannelSpec; CHANNELS],
-    checker: &mut Checker,
-) -> bool {
-    let mut clock = board.clock();
-    match drv.commission_blocking(&mut clock) {
-        Ok(v) => fw::log::vectors(&v),
-        Err(e) => {
-            fw::log::vectors(&coilwise_driver::selfcheck::compute());
-            defmt::error!(
-                "commissioning stopped the firmware: {}; no coil will be driven",
-                e
-            );
-            return false;
-        }
-    }
-    defmt::info!("commissioning 2/3: converter zero and comparator, per channel");
-    for (i, s) in specs.iter().enumerate() {
-        if let Some(z) = drv.sense_setup(i) {
-            fw::log::sense_setup(i, s.name, z);
-        }
-    }
-    defmt::info!("commissioning 3/3: a diagnostic pulse below pull-in, per channel");
-    demo::drain_all(drv, clock.now(), specs, checker);
-    true
-}
-
 #[entry]
 fn main() -> ! {
     // Paint free RAM first so the run's stack high-water mark can be reported at the end.
@@ -183,7 +151,7 @@ fn main() -> ! {
     fw::log::design(specs, demo::QUEUE);
 
     let mut checker = Checker::new(board.clock().now());
-    let ok_run = commission(board, drv, specs, &mut checker)
+    let ok_run = demo::commission(drv, &mut board.clock(), specs, &mut checker)
         && match demo::run(drv, &mut board.clock(), specs, &mut checker) {
             Ok(_) => true,
             Err(e) => {
