@@ -11,7 +11,8 @@
 //! - [`board`]: the QEMU board — the driver's hardware seam implemented on a simulated coil
 //!   plant;
 //! - [`demo`]: the scripted demo (faults, programme, expected outcomes, checker, run loop);
-//! - [`log`]: the designs, the commissioning and the driver's events in words.
+//! - [`log`]: the designs, the commissioning and the driver's events in words;
+//! - [`fake`]: replaying hardware for the cost probes of the driver.
 //!
 //! The runtime itself (commissioning, scheduling, capture, diagnosis, isolation) is the
 //! `coilwise-driver` library; this crate is board + scenario + `main` on top of it.
@@ -26,6 +27,7 @@ use defmt_semihosting as _;
 
 pub mod board;
 pub mod demo;
+pub mod fake;
 pub mod log;
 pub mod measure;
 pub mod scenario;
