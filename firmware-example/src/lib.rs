@@ -10,7 +10,8 @@
 //!   configurations;
 //! - [`board`]: the QEMU board — the driver's hardware seam implemented on a simulated coil
 //!   plant;
-//! - [`demo`]: the scripted demo (faults, programme, expected outcomes, checker, run loop);
+//! - [`demo`]: the scripted demo (faults, programme, expected outcomes, checker);
+//! - [`run`]: the demo's loop on the driver (commissioning, requests, service, events);
 //! - [`log`]: the designs, the commissioning and the driver's events in words;
 //! - [`fake`]: replaying hardware for the cost probes of the driver.
 //!
@@ -30,6 +31,7 @@ pub mod demo;
 pub mod fake;
 pub mod log;
 pub mod measure;
+pub mod run;
 pub mod scenario;
 pub mod ticks;
 

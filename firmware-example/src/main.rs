@@ -151,8 +151,8 @@ fn main() -> ! {
     fw::log::design(specs, demo::QUEUE);
 
     let mut checker = Checker::new(board.clock().now());
-    let ok_run = demo::commission(drv, &mut board.clock(), specs, &mut checker)
-        && match demo::run(drv, &mut board.clock(), specs, &mut checker) {
+    let ok_run = fw::run::commission(drv, &mut board.clock(), specs, &mut checker)
+        && match fw::run::run(drv, &mut board.clock(), specs, &mut checker) {
             Ok(_) => true,
             Err(e) => {
                 defmt::error!("run stopped: {}", e);
