@@ -232,10 +232,14 @@ where
         };
         // No start inside a diagnostic pulse's window (it counts against the inrush cap) nor,
         // on its own channel, before the coil is at rest after it.
+        // Which constraint a push past it is: the coil's own rest after its diagnostic pulse
+        // (minimum off-time), or another coil's diagnostic pulse in progress (inrush).
         let mut floor = self.probe_window_end(now);
+        let mut why = DelayReason::Inrush;
         let rest = self.st.chans[channel].probe_rest_at;
-        if rest.since(floor) > 0 {
+        if rest.since(floor) >= 0 {
             floor = rest;
+            why = DelayReason::OffTime;
         }
         let pushed = floor.since(asked) > 0 && pulse.start == Start::Now
             || matches!(pulse.start, Start::At(t) if floor.since(t) > 0);
@@ -258,7 +262,7 @@ where
             if used > w.get() {
                 return Err(Refused::Schedule(Refusal::TooLate {
                     earliest: floor,
-                    reason: DelayReason::OffTime,
+                    reason: why,
                 }));
             }
             req = req.within(Ticks(w.get() - used));
@@ -276,10 +280,7 @@ where
         c.held_pending = matches!(pulse.length, Length::UntilReleased { .. });
         Ok(match admission {
             Admission::Accepted { start } if !pushed => Granted::Accepted { start },
-            Admission::Accepted { start } => Granted::Delayed {
-                reason: DelayReason::OffTime,
-                start,
-            },
+            Admission::Accepted { start } => Granted::Delayed { reason: why, start },
             Admission::Delayed { reason, until } => Granted::Delayed {
                 reason,
                 start: until,
