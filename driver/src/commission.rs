@@ -511,3 +511,34 @@ where
         }
     }
 }
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use coilwise::diagnosis::{TraceFault, Undetermined};
+
+    #[test]
+    fn findings_are_acted_on_by_class() {
+        assert_eq!(classify(&Finding::Healthy), Class::Healthy);
+        assert_eq!(
+            classify(&Finding::CannotTell(Undetermined::TooFewSamples)),
+            Class::Unsure
+        );
+        assert_eq!(classify(&Finding::SupplyLow), Class::SupplyLow);
+        assert_eq!(
+            classify(&Finding::SensorImplausible(TraceFault::PoorFit)),
+            Class::Fault
+        );
+        for f in [
+            Finding::OpenCircuit,
+            Finding::ShortCircuit,
+            Finding::ShortedTurns,
+            Finding::HighResistance,
+            Finding::InductanceHigh,
+            Finding::SlowRise,
+            Finding::ArmatureStuck,
+        ] {
+            assert_eq!(classify(&f), Class::Fault, "{f:?}");
+        }
+    }
+}

@@ -7,15 +7,58 @@
 //! judged, a faulty coil isolated, a sagging supply held back until a diagnostic pulse finds it
 //! in range again. The application calls it; it is not a programme the application hands over.
 //!
-//! ```ignore
-//! let mut drv: Driver<_, _, _, 4> = Driver::new(configs, hw, clock.rate(), clock.now(), 1)?;
-//! drv.commission(clock.now())?;                  // self-check + converter zero
-//! loop {
-//!     let next = drv.service(clock.now())?;      // edges, captures, verdicts
-//!     while let Some(e) = drv.pop_event() { log(e) }
-//!     if button() { drv.request(clock.now(), VALVE, Pulse::now(Ticks(80_000))).ok(); }
-//!     timer.wake_at(next);                       // or: set the compare register
+//! A valve scheduled from the tool's tick constants (`coilwise constants
+//! examples/greenhouse-valve.toml`: `MIN_ON_TICKS = 19_285`, `MIN_OFF_TICKS = 23_704` at 1 MHz),
+//! on hardware that does nothing, serviced at the instants the driver asks for:
+//!
+//! ```
+//! use coilwise::schedule::ChannelLimits;
+//! use coilwise::{Instant, TickRate, Ticks};
+//! use coilwise_driver::*;
+//! # use core::convert::Infallible;
+//! # struct Pin;
+//! # impl embedded_hal::digital::ErrorType for Pin { type Error = Infallible; }
+//! # impl embedded_hal::digital::OutputPin for Pin {
+//! #     fn set_low(&mut self) -> Result<(), Infallible> { Ok(()) }
+//! #     fn set_high(&mut self) -> Result<(), Infallible> { Ok(()) }
+//! # }
+//! # impl embedded_hal::pwm::ErrorType for Pin { type Error = Infallible; }
+//! # impl embedded_hal::pwm::SetDutyCycle for Pin {
+//! #     fn max_duty_cycle(&self) -> u16 { 1000 }
+//! #     fn set_duty_cycle(&mut self, _: u16) -> Result<(), Infallible> { Ok(()) }
+//! # }
+//! # struct Adc;
+//! # impl CurrentSense for Adc {
+//! #     type Error = SenseErrorKind;
+//! #     const MAX_SAMPLES: usize = 64;
+//! #     fn scale(&self) -> SenseScale {
+//! #         SenseScale { amps_per_count: 2e-4, offset_counts: 0, full_scale_counts: 4095 }
+//! #     }
+//! #     fn sample_now(&mut self) -> Result<u16, SenseErrorKind> { Ok(0) }
+//! #     fn arm(&mut self, _: &SensePlan) -> Result<(), SenseErrorKind> { Ok(()) }
+//! #     fn samples(&mut self, _: &mut [u16]) -> Result<Option<Capture>, SenseErrorKind> { Ok(None) }
+//! #     fn crossing(&mut self) -> Result<Crossing, SenseErrorKind> { Ok(Crossing::NotYet) }
+//! # }
+//! let valve = ChannelLimits::new(Ticks(19_285), Ticks(23_704))?;
+//! let configs = [ChannelConfig::from_limits(valve, 0)];
+//! let mut state = DriverState::<1>::new();
+//! let hw = [ChannelHw::new(Pin, Pin, Adc)];
+//! let mut drv = Driver::new(&configs, &mut state, hw, TickRate::new(1_000_000)?, Instant(0), 1)?;
+//! drv.commission(Instant(0))?;                   // self-check vectors; no design: no probe
+//!
+//! assert!(matches!(drv.request(Instant(0), 0, Pulse::now(Ticks(80_000))), Ok(Granted::Accepted { .. })));
+//! // Too short to pull in: refused, with the reason.
+//! assert!(drv.request(Instant(0), 0, Pulse::now(Ticks(5_000))).is_err());
+//! let mut now = Instant(0);
+//! while !drv.idle() {
+//!     now = drv.service(now)?;                   // on at 0, off at 80 000: set a timer to it
+//!     assert!(drv.status(0).unwrap().health.in_service());
 //! }
+//! assert_eq!(now, Instant(80_000).after(coilwise::schedule::KEEP_ALIVE));
+//! while let Some(e) = drv.pop_event() {
+//!     // Commissioned, Accepted, Refused: log them
+//! }
+//! # Ok::<(), Box<dyn std::error::Error>>(())
 //! ```
 //!
 //! ## Layout

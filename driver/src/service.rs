@@ -357,3 +357,28 @@ where
         self.finish_commissioning(now);
     }
 }
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use coilwise::diagnosis::TraceFault;
+
+    /// The combination rule of the module docs, case by case.
+    #[test]
+    fn a_coil_fault_named_by_either_wins_and_healthy_needs_both() {
+        let h = Finding::Healthy;
+        let unsure = Finding::CannotTell(Undetermined::NotYet);
+        let sensor = Finding::SensorImplausible(TraceFault::PoorFit);
+        assert_eq!(combine(h, h), h);
+        assert_eq!(combine(h, unsure), unsure);
+        assert_eq!(combine(unsure, h), unsure);
+        assert_eq!(combine(h, Finding::SlowRise), Finding::SlowRise);
+        assert_eq!(
+            combine(Finding::ShortedTurns, Finding::SlowRise),
+            Finding::ShortedTurns
+        );
+        assert_eq!(combine(sensor, Finding::OpenCircuit), Finding::OpenCircuit);
+        assert_eq!(combine(sensor, h), sensor);
+        assert_eq!(combine(unsure, sensor), unsure);
+    }
+}

@@ -368,3 +368,29 @@ fn the_monitor_reports_edges_that_break_the_limits() {
     assert!(p.monitor.violations() >= 1);
     assert!(!p.monitor.finish());
 }
+
+/// A wire that breaks in service: the next rise says open circuit, the channel is isolated and
+/// its pulse ends at its minimum on-time; the other channels carry on.
+#[test]
+fn an_open_wire_in_service_isolates_at_the_next_rise() {
+    let (plant, mut clock, mut drv) = rig(&[(150, Happening::Fault(PUMP, Fault::Open))]);
+    drv.commission_blocking(&mut clock).unwrap();
+    let mut log = Vec::new();
+    run_until(&mut drv, &mut clock, ms(200), &mut log);
+    let start = clock.now();
+    assert!(drv.request(start, PUMP, Pulse::now(ticks_ms(300))).is_ok());
+    assert!(drv.request(start, A, Pulse::now(ticks_ms(60))).is_ok());
+    run_until(&mut drv, &mut clock, ms(700), &mut log);
+    let pump = on_channel(&log, PUMP as u8);
+    assert_eq!(judged(&pump, Source::Rise), [Finding::OpenCircuit]);
+    let off = pump.iter().find_map(|k| match k {
+        EventKind::Isolated { off_at, .. } => *off_at,
+        _ => None,
+    });
+    assert_eq!(off, Some(start.after(drv.limits()[PUMP].min_on())));
+    assert_eq!(
+        judged(&on_channel(&log, A as u8), Source::Rise),
+        [Finding::Healthy]
+    );
+    finish(&plant);
+}

@@ -333,8 +333,8 @@ pub fn event(
             ),
         },
         EventKind::HardwareFault(k) => defmt::error!(
-            "t={=u32}.{=u32:03} ms  ch{=usize} {=str} out of service: hardware error {}",
-            ms, us, i, name, k
+            "t={=u32}.{=u32:03} ms  ch{=usize} {=str} out of service: {=str}",
+            ms, us, i, name, words::error_kind(k)
         ),
         EventKind::SupplyLow { group } => defmt::warn!(
             "t={=u32}.{=u32:03} ms  {=str} flagged LOW: the coil is not blamed; new pulses on this rail wait for a diagnostic pulse to find the supply back in range",
