@@ -90,12 +90,20 @@ fn hardware(
 }
 
 /// The driver's working state: a `static` initialised at load time (`State::new` is `const`), so
-/// it is never built on the stack.
-fn state() -> &'static mut State {
+/// it is never built on the stack; `None` after the first call.
+fn state() -> Option<&'static mut State> {
+    use core::sync::atomic::{AtomicBool, Ordering};
     static mut STATE: State = State::new();
-    // SAFETY: called once, from `main`, before any interrupt handler could exist that touches
-    // it (none does); the only reference to `STATE` is the one returned here.
-    unsafe { &mut *core::ptr::addr_of_mut!(STATE) }
+    static TAKEN: AtomicBool = AtomicBool::new(false);
+    critical_section::with(|_| {
+        if TAKEN.load(Ordering::Relaxed) {
+            return None;
+        }
+        TAKEN.store(true, Ordering::Relaxed);
+        // SAFETY: `TAKEN` makes this the only reference ever made to `STATE`, and no interrupt
+        // handler touches it.
+        Some(unsafe { &mut *core::ptr::addr_of_mut!(STATE) })
+    })
 }
 
 /// The board's clock.
@@ -103,7 +111,8 @@ fn clock(board: &'static SimBoard) -> fw::board::SimClock<'static> {
     board.clock()
 }
 
-/// Gives the plant's monitor the limits the driver enforces (out of line, as `setup`).
+/// Gives the plant's monitor the limits the driver enforces (out of line: the copy of the
+/// limits and the monitor's own table stay out of `main`'s frame).
 #[inline(never)]
 fn arm_monitor(board: &SimBoard, drv: &Driver) {
     board
@@ -131,7 +140,9 @@ fn main() -> ! {
     let Some(board) = board(specs) else {
         fw::exit(fw::status::CHECK_FAILED)
     };
-    let state = state();
+    let Some(state) = state() else {
+        fw::exit(fw::status::CHECK_FAILED)
+    };
     let mut drv = match Driver::new(
         configs,
         state,
