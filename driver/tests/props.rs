@@ -62,7 +62,13 @@ fn happening() -> impl Strategy<Value = (u32, Happening)> {
     ]
 }
 
-const CASES: u32 = 256;
+/// Cases per property: 256, or `COILWISE_PROP_CASES` for a longer campaign outside CI.
+fn cases() -> u32 {
+    std::env::var("COILWISE_PROP_CASES")
+        .ok()
+        .and_then(|v| v.parse().ok())
+        .unwrap_or(256)
+}
 
 /// Totals over the cases run, printed with `--nocapture` (so a report can quote what the
 /// properties exercised).
@@ -250,7 +256,7 @@ fn check<const E: usize>(
 }
 
 proptest! {
-    #![proptest_config(ProptestConfig { cases: CASES, ..ProptestConfig::default() })]
+    #![proptest_config(ProptestConfig { cases: cases(), ..ProptestConfig::default() })]
 
     /// A 4-slot queue popped now and then: losses happen, every one is counted.
     #[test]

@@ -88,7 +88,7 @@ pub struct Monitor {
     limits: Option<[Limits; CHANNELS]>,
     inrush_cap: usize,
     watch: [Watch; CHANNELS],
-    windows: heapless::Vec<(u32, u32), MAX_PULSES>,
+    windows: Vec<(u32, u32)>,
     violations: u32,
     edges: u32,
 }
@@ -123,7 +123,7 @@ impl Monitor {
                 heat_at: 0,
                 pulses: 0,
             }; CHANNELS],
-            windows: heapless::Vec::new(),
+            windows: Vec::new(),
             violations: 0,
             edges: 0,
         }
@@ -245,7 +245,9 @@ impl Monitor {
                 }
                 // Ticks of a run shorter than 2^32 µs (71 minutes).
                 let end = on + lim.window.min(length);
-                if self.windows.push((on as u32, end as u32)).is_err() {
+                if self.windows.len() < MAX_PULSES {
+                    self.windows.push((on as u32, end as u32));
+                } else {
                     eprintln!(
                         "[monitor] more than {} pulses: inrush check incomplete",
                         MAX_PULSES
