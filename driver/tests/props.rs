@@ -256,7 +256,11 @@ fn check<const E: usize>(
 }
 
 proptest! {
-    #![proptest_config(ProptestConfig { cases: cases(), ..ProptestConfig::default() })]
+    #![proptest_config(ProptestConfig {
+        cases: cases(),
+        failure_persistence: None,
+        ..ProptestConfig::default()
+    })]
 
     /// A 4-slot queue popped now and then: losses happen, every one is counted.
     #[test]
