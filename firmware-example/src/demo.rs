@@ -24,9 +24,9 @@
 //! | 700 | | valve A | refuse: isolated |
 //! | 800 | 24 V rail sags to 17 V | | |
 //! | 850 | | valve B | rise says supply low: hold the 24 V rail back |
-//! | 1000 | | valve B | diagnostic pulse: still low, refuse |
+//! | 1000 | | valve B | supply re-check pulse: still low, refuse |
 //! | 1100 | 24 V rail back to 24 V | | |
-//! | 1200 | | valve B | diagnostic pulse healthy: go ahead |
+//! | 1200 | | valve B | re-check healthy: go ahead once the coil is at rest after it |
 //! | 1250 | | valve B at 1400 ms | accept the set time |
 //! | 1600 | pump wire breaks | | |
 //! | ≈2231 | | (the thermally delayed pump run) | rise says open circuit: isolate the pump |
@@ -34,11 +34,56 @@
 
 use coilwise::diagnosis::Finding;
 use coilwise::schedule::{DelayReason, Refusal};
+use coilwise::Instant;
+use coilwise_driver::{Event, EventKind, Refused, Source};
 use coilwise_host_tests::Fault;
 
-use crate::app::{Observer, Outcome, Report, StartAt, Step};
 use crate::board::{Happening, Scripted};
-use crate::scenario::Rail;
+use crate::scenario::{CHANNELS, PUMP_RAIL, VALVE_RAIL};
+
+/// The driver as the demo uses it: the scenario's channels, 8 pulses queued, 8 events.
+pub type Drv<Sw, Pwm, Sense> =
+    coilwise_driver::Driver<'static, Sw, Pwm, Sense, CHANNELS, QUEUE, EVENTS>;
+
+/// Pulses pending or in flight the scheduler holds at most.
+pub const QUEUE: usize = 8;
+/// Events the driver queues between two drains of the demo loop.
+pub const EVENTS: usize = 8;
+
+/// When a programme step asks its pulse to start.
+#[derive(Clone, Copy, Debug, PartialEq, Eq, defmt::Format)]
+pub enum StartAt {
+    /// As soon as the constraints allow.
+    Now,
+    /// At this time, ms after power-up (or as soon after as allowed).
+    At(u32),
+}
+
+/// One request of the timed programme.
+#[derive(Clone, Copy, Debug, PartialEq, Eq)]
+pub struct Step {
+    /// When the request is made, ms after power-up.
+    pub at_ms: u32,
+    /// The channel.
+    pub channel: usize,
+    /// Pulse length, ms.
+    pub duration_ms: u32,
+    /// Asked start.
+    pub start: StartAt,
+    /// Refuse rather than start more than this late, ms (`None`: any delay).
+    pub within_ms: Option<u32>,
+}
+
+/// What became of a request, as the checker sees it.
+#[derive(Clone, Copy, Debug, PartialEq, defmt::Format)]
+pub enum Outcome {
+    /// Starts when asked.
+    Accepted,
+    /// Starts later, for this reason.
+    Delayed(DelayReason),
+    /// Refused by the driver.
+    Refused(Refused),
+}
 
 /// Valve A, B, C and the pump relay.
 const A: usize = 0;
@@ -65,14 +110,14 @@ pub static SCRIPT: [Scripted; 6] = [
     Scripted {
         at_ms: 800,
         what: Happening::Supply {
-            rail: Rail::Valves24V,
+            rail: VALVE_RAIL,
             volts: 17.0,
         },
     },
     Scripted {
         at_ms: 1100,
         what: Happening::Supply {
-            rail: Rail::Valves24V,
+            rail: VALVE_RAIL,
             volts: 24.0,
         },
     },
@@ -87,7 +132,7 @@ pub static SCRIPT: [Scripted; 6] = [
     Scripted {
         at_ms: 3000,
         what: Happening::Supply {
-            rail: Rail::Pump12V,
+            rail: PUMP_RAIL,
             volts: 12.0,
         },
     },
@@ -158,7 +203,7 @@ const TABLE: [(Step, Expect); STEPS] = [
     (step(700, A, 60), Expect::Isolated),
     (step(850, B, 60), Expect::Accepted),
     (step(1000, B, 60), Expect::SupplyLow),
-    (step(1200, B, 60), Expect::Accepted),
+    (step(1200, B, 60), Expect::Delayed(DelayReason::OffTime)),
     (at(step(1250, B, 60), 1400), Expect::Accepted),
     (step(2600, PUMP, 100), Expect::Isolated),
     (step(2700, B, 60), Expect::Accepted),
@@ -166,17 +211,6 @@ const TABLE: [(Step, Expect); STEPS] = [
 
 /// The programme and what each step must come to (see the module table).
 pub static PROGRAMME: [(Step, Expect); STEPS] = TABLE;
-
-/// The steps alone, for the controller.
-pub static STEPS_ONLY: [Step; STEPS] = {
-    let mut s = [TABLE[0].0; STEPS];
-    let mut i = 0;
-    while i < STEPS {
-        s[i] = TABLE[i].0;
-        i += 1;
-    }
-    s
-};
 
 /// What the script makes of channel `ch` at `t_ms`: the finding a correct diagnosis gives.
 fn truth(ch: usize, t_ms: u32) -> Finding {
@@ -204,48 +238,57 @@ fn truth(ch: usize, t_ms: u32) -> Finding {
     }
 }
 
-fn rail_of(ch: usize) -> Rail {
+fn rail_of(ch: usize) -> u8 {
     if ch == PUMP {
-        Rail::Pump12V
+        PUMP_RAIL
     } else {
-        Rail::Valves24V
+        VALVE_RAIL
     }
 }
 
-fn nominal(r: Rail) -> f64 {
-    match r {
-        Rail::Valves24V => 24.0,
-        Rail::Pump12V => 12.0,
+fn nominal(r: u8) -> f64 {
+    if r == PUMP_RAIL {
+        12.0
+    } else {
+        24.0
     }
 }
 
 fn matches(outcome: &Outcome, expect: &Expect) -> bool {
     match (outcome, expect) {
-        (Outcome::Accepted { .. }, Expect::Accepted) => true,
-        (Outcome::Delayed { reason, .. }, Expect::Delayed(r)) => reason == r,
-        (Outcome::Refused(Refusal::TooLate { reason, .. }), Expect::TooLate(r)) => reason == r,
-        (Outcome::Refused(Refusal::BelowMinOn { .. }), Expect::BelowMinOn) => true,
-        (Outcome::Isolated, Expect::Isolated) => true,
-        (Outcome::SupplyLow, Expect::SupplyLow) => true,
+        (Outcome::Accepted, Expect::Accepted) => true,
+        (Outcome::Delayed(reason), Expect::Delayed(r)) => reason == r,
+        (
+            Outcome::Refused(Refused::Schedule(Refusal::TooLate { reason, .. })),
+            Expect::TooLate(r),
+        ) => reason == r,
+        (Outcome::Refused(Refused::Schedule(Refusal::BelowMinOn { .. })), Expect::BelowMinOn) => {
+            true
+        }
+        (Outcome::Refused(Refused::Isolated(_)), Expect::Isolated) => true,
+        (Outcome::Refused(Refused::SupplyLow), Expect::SupplyLow) => true,
         _ => false,
     }
 }
 
-/// The checker: an [`Observer`] that compares every outcome and verdict with the script.
+/// The checker: compares every request outcome and verdict with the script.
 pub struct Checker {
+    /// Per channel: the programme step waiting for a supply re-check.
+    pub(crate) awaiting: [Option<usize>; CHANNELS],
     handled: [bool; STEPS],
     /// Per scripted event: whether a verdict on its channel named it.
     detected: [bool; SCRIPT.len()],
     failures: u32,
     verdicts: u32,
     /// Time origin of the controller's instants (power-up), ticks.
-    origin: coilwise::Instant,
+    pub(crate) origin: coilwise::Instant,
 }
 
 impl Checker {
     /// A checker for a controller whose time origin is `origin`.
     pub const fn new(origin: coilwise::Instant) -> Self {
         Self {
+            awaiting: [None; CHANNELS],
             handled: [false; STEPS],
             detected: [false; SCRIPT.len()],
             failures: 0,
@@ -299,8 +342,9 @@ impl Checker {
     }
 }
 
-impl Observer for Checker {
-    fn request(&mut self, index: usize, outcome: &Outcome) {
+impl Checker {
+    /// Programme step `index` came to `outcome`.
+    pub(crate) fn request(&mut self, index: usize, outcome: &Outcome) {
         let Some((_, expect)) = PROGRAMME.get(index) else {
             self.failures += 1;
             return;
@@ -319,17 +363,45 @@ impl Observer for Checker {
         }
     }
 
-    fn verdict(&mut self, r: &Report) {
+    /// A driver event: verdicts are checked against the script; the outcome of a request that
+    /// waited for a supply re-check resolves its step.
+    pub(crate) fn event(&mut self, e: &Event) {
+        let ch = usize::from(e.channel);
+        let resolved = match e.kind {
+            EventKind::Accepted { .. } => Some(Outcome::Accepted),
+            EventKind::Delayed { reason, .. } => Some(Outcome::Delayed(reason)),
+            EventKind::Refused(r) => Some(Outcome::Refused(r)),
+            EventKind::Judged {
+                source, finding, ..
+            } => {
+                self.verdict(e.at, ch, source, finding);
+                None
+            }
+            EventKind::Lost { .. } => {
+                defmt::error!("[check] driver events were lost");
+                self.failures += 1;
+                None
+            }
+            _ => None,
+        };
+        if let (Some(o), Some(slot)) = (resolved, self.awaiting.get_mut(ch)) {
+            if let Some(index) = slot.take() {
+                self.request(index, &o);
+            }
+        }
+    }
+
+    fn verdict(&mut self, at: Instant, channel: usize, kind: Source, finding: Finding) {
         self.verdicts += 1;
-        let t_ms = (r.at.since(self.origin).max(0) as u32) / 1000;
-        let want = truth(r.channel, t_ms);
-        if r.finding != want {
+        let t_ms = (at.since(self.origin).max(0) as u32) / 1000;
+        let want = truth(channel, t_ms);
+        if finding != want {
             defmt::error!(
                 "[check] ch{=usize} at t={=u32} ms ({}): verdict {}, the script says {}",
-                r.channel,
+                channel,
                 t_ms,
-                r.kind,
-                r.finding,
+                kind,
+                finding,
                 want
             );
             self.failures += 1;
@@ -339,9 +411,9 @@ impl Observer for Checker {
         let mut credit = None;
         for (k, e) in SCRIPT.iter().enumerate().filter(|(_, e)| e.at_ms <= t_ms) {
             match e.what {
-                Happening::Fault { channel, .. } if channel == r.channel => credit = Some(k),
+                Happening::Fault { channel: c, .. } if c == channel => credit = Some(k),
                 Happening::Supply { rail, volts }
-                    if rail == rail_of(r.channel)
+                    if rail == rail_of(channel)
                         && volts < 0.9 * nominal(rail)
                         && want == Finding::SupplyLow =>
                 {

@@ -4,13 +4,19 @@
 //! - [`exit`]: ends the QEMU run with a status the runner passes through to `cargo run`;
 //! - panic, `defmt::panic!`, HardFault and unexpected interrupts all end the run with a
 //!   non-zero status (see [`status`]) after logging where it happened;
-//! - [`hw`]: the hardware seam the application is written against;
-//! - [`ticks`]: a monotonic tick source on SysTick;
+//! - [`ticks`]: the driver's tick source on SysTick (for the cost firmware);
 //! - [`measure`]: instruction counts and stack high-water marks for `src/bin/cost.rs`;
-//! - [`scenario`]: the invented greenhouse-controller parts the demo drives;
-//! - [`app`]: the controller application, generic over the hardware seam;
-//! - [`board`]: the QEMU board — the seam implemented on a simulated coil plant;
-//! - [`demo`]: the scripted demo (faults, programme, expected outcomes, checker).
+//! - [`scenario`]: the invented greenhouse-controller parts, as `coilwise-driver` channel
+//!   configurations;
+//! - [`board`]: the QEMU board — the driver's hardware seam implemented on a simulated coil
+//!   plant;
+//! - [`demo`]: the scripted demo (faults, programme, expected outcomes, checker);
+//! - [`run`]: the demo's loop on the driver (commissioning, requests, service, events);
+//! - [`log`]: the designs, the commissioning and the driver's events in words;
+//! - [`fake`]: replaying hardware for the cost probes of the driver.
+//!
+//! The runtime itself (commissioning, scheduling, capture, diagnosis, isolation) is the
+//! `coilwise-driver` library; this crate is board + scenario + `main` on top of it.
 //!
 //! Plain text, if any, goes to semihosting *stderr*: stdout carries the binary defmt stream and
 //! anything else written there corrupts it.
@@ -20,11 +26,12 @@
 use cortex_m_rt::{exception, ExceptionFrame};
 use defmt_semihosting as _;
 
-pub mod app;
 pub mod board;
 pub mod demo;
-pub mod hw;
+pub mod fake;
+pub mod log;
 pub mod measure;
+pub mod run;
 pub mod scenario;
 pub mod ticks;
 

@@ -10,10 +10,12 @@
 //! simulated hardware really is (each coil a little off nominal, at 25 °C, with its own armature)
 //! lives in the QEMU board module, `crate::board::parts`.
 
+use coilwise::schedule::{HeatRating, HeatRatings, HoldPlan};
 use coilwise::{
-    Celsius, Circuit, Clamp, Coil, DriverDesign, Error, Henries, Ohms, Seconds, SupplyRange,
-    Switch, TemperatureRange, TickRate, Tolerances, Topology, Volts,
+    Amps, Celsius, Circuit, Clamp, Coil, DriverDesign, Error, Henries, Hertz, Ohms, Seconds,
+    SupplyRange, Switch, TemperatureRange, TickRate, Ticks, Tolerances, Topology, Volts, Watts,
 };
+use coilwise_driver::{ChannelConfig, ChannelOptions, SetupError};
 
 /// Number of coil channels of the controller.
 pub const CHANNELS: usize = 4;
@@ -21,14 +23,25 @@ pub const CHANNELS: usize = 4;
 /// Scheduler and measurement tick rate, Hz (1 µs per tick).
 pub const TICK_HZ: u32 = 1_000_000;
 
-/// Which supply rail a channel hangs on.
-#[derive(Clone, Copy, Debug, PartialEq, Eq, defmt::Format)]
-pub enum Rail {
-    /// The 24 V valve rail.
-    Valves24V,
-    /// The 12 V pump-relay rail.
-    Pump12V,
+/// Supply group of the 24 V valve rail (the driver's `ChannelOptions::supply_group`).
+pub const VALVE_RAIL: u8 = 0;
+/// Supply group of the 12 V pump-relay rail.
+pub const PUMP_RAIL: u8 = 1;
+
+/// A supply group's name for the log.
+pub fn rail_name(group: u8) -> &'static str {
+    match group {
+        VALVE_RAIL => "24 V valve rail",
+        PUMP_RAIL => "12 V pump rail",
+        _ => "supply rail",
+    }
 }
+
+/// At most this many coils in their pull-in (inrush) window at once.
+pub const INRUSH_CAP: u8 = 1;
+
+/// Hold PWM frequency the economiser duty is computed for, Hz (the board's PWM carrier).
+pub const HOLD_HZ: f32 = 2_000.0;
 
 /// Current sense of one channel as the board is built (invented): shunt, amplifier gain and a
 /// 12-bit converter on a 3.3 V reference, `amps_per_count = V_ref / (2¹² · G · R_s)`.
@@ -56,8 +69,8 @@ impl SenseDesign {
 pub struct ChannelSpec {
     /// Short name for the log.
     pub name: &'static str,
-    /// Supply rail.
-    pub rail: Rail,
+    /// Supply group (rail): [`VALVE_RAIL`] or [`PUMP_RAIL`].
+    pub rail: u8,
     /// Coil, drive, clamp, ranges and tolerances.
     pub design: DriverDesign,
     /// Current sense.
@@ -243,7 +256,7 @@ pub fn channel(index: usize) -> Option<Result<ChannelSpec, Error>> {
     let valve = |name, design: Result<DriverDesign, Error>, rise_period| {
         design.map(|design| ChannelSpec {
             name,
-            rail: Rail::Valves24V,
+            rail: VALVE_RAIL,
             design,
             sense: VALVE_SENSE,
             hold_fraction: Some(0.55),
@@ -257,7 +270,7 @@ pub fn channel(index: usize) -> Option<Result<ChannelSpec, Error>> {
         2 => valve("valve C", valve_c_design(), 80),
         3 => pump_design().map(|design| ChannelSpec {
             name: "pump relay",
-            rail: Rail::Pump12V,
+            rail: PUMP_RAIL,
             design,
             sense: PUMP_SENSE,
             hold_fraction: None,
@@ -266,4 +279,34 @@ pub fn channel(index: usize) -> Option<Result<ChannelSpec, Error>> {
         }),
         _ => return None,
     })
+}
+
+impl ChannelSpec {
+    /// What the driver is given for this channel: limits, healthy bands and diagnostic pulse
+    /// from the design, the economiser at [`HOLD_HZ`], the thermal rating, the rise capture.
+    ///
+    /// # Errors
+    /// As [`ChannelConfig::from_design`].
+    #[inline(never)]
+    pub fn config(&self) -> Result<ChannelConfig, SetupError> {
+        let mut o = ChannelOptions::new(Ticks(self.rise_period))
+            .in_group(self.rail)
+            .with_noise(self.sense.noise_counts);
+        if let Some(f) = self.hold_fraction {
+            o = o.with_hold(HoldPlan {
+                current: Amps::new(f * self.design.circuit.coil().pull_in_current().value()),
+                frequency: Hertz::new(HOLD_HZ),
+            });
+        }
+        if let Some((p, tau)) = self.coil_rating {
+            o = o.with_heat(HeatRatings {
+                clamp: None,
+                coil: Some(HeatRating {
+                    power: Watts::new(p),
+                    time_constant: Seconds::new(tau),
+                }),
+            });
+        }
+        ChannelConfig::from_design(&self.design, &o)
+    }
 }

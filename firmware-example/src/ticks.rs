@@ -18,17 +18,7 @@ use cortex_m::peripheral::{SCB, SYST};
 use cortex_m_rt::exception;
 use critical_section::Mutex;
 
-/// A free-running, monotonic tick counter in the core's time base.
-///
-/// `now()` never goes backwards except by wrapping at 2^32; compare readings with
-/// [`Instant::since`] / [`Instant::is_at_or_after`], which are wrap-safe for instants less than
-/// 2^31 ticks apart. The scheduler and the diagnosis take their times in these ticks.
-pub trait TickSource {
-    /// Tick rate (ticks per second). Constant for the lifetime of the source.
-    fn rate(&self) -> TickRate;
-    /// The current count, wrapping at 2^32.
-    fn now(&self) -> Instant;
-}
+pub use coilwise_driver::TickSource;
 
 /// SysTick reload value: the full 24-bit range.
 const RELOAD: u32 = 0x00FF_FFFF;

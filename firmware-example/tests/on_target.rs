@@ -83,7 +83,7 @@ fn sampling() -> Sampling {
 #[defmt_test::tests]
 mod tests {
     use super::*;
-    use coilwise_firmware_example::app::vectors;
+    use coilwise_driver::selfcheck as vectors;
 
     #[test]
     fn self_check_vectors_hold() {

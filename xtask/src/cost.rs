@@ -14,7 +14,9 @@
 //!   (`arm-none-eabi-size -A`);
 //! - `core_flash_bytes`: sizes of the text and read-only symbols whose demangled name belongs to
 //!   the `coilwise` crate, in the main firmware ELF (`arm-none-eabi-nm -S -C --size-sort`). Code of
-//!   the core that LTO inlined into a caller outside the crate is not counted.
+//!   the core that LTO inlined into a caller outside the crate is not counted;
+//! - `driver_flash_bytes`: the same for the `coilwise_driver` crate (the runtime library, its
+//!   generic code as instantiated for the QEMU board).
 
 use std::collections::BTreeMap;
 use std::fmt::Write as _;
@@ -183,6 +185,12 @@ fn measure(b: &Board) -> Result<Vec<Figure>, String> {
         key: "core_flash_bytes".into(),
         what: "core flash as linked (coilwise symbols, .text+.rodata)".into(),
         value: crate_symbol_bytes(&nm, "coilwise"),
+        unit: "bytes",
+    });
+    figs.push(Figure {
+        key: "driver_flash_bytes".into(),
+        what: "driver library flash as linked (coilwise_driver symbols, .text+.rodata)".into(),
+        value: crate_symbol_bytes(&nm, "coilwise_driver"),
         unit: "bytes",
     });
     Ok(figs)
@@ -446,8 +454,13 @@ How:
   integrator with a step frame of about 1.4 KiB, called from inside the seam methods). It has a
   budget but no goal: a real board has no simulated plant.
 - **Flash**: `arm-none-eabi-size -A` of the main firmware ELF; the core's share is the sum of the
-  symbols of the `coilwise` crate in `arm-none-eabi-nm -S -C` (code that LTO inlined into callers
-  outside the crate is not counted there).
+  symbols of the `coilwise` crate in `arm-none-eabi-nm -S -C`, the driver library's the same for
+  `coilwise_driver` (code that LTO inlined into callers outside the crate is not counted there).
+- **The driver's `service()`** (`driver_service_*`): one valve channel on replaying hardware
+  (`firmware-example/src/fake.rs`: pins that do nothing, a sense that returns a precomputed
+  healthy 64-sample rise), so the figures are the library's own work: a call with nothing due,
+  a call applying one on edge (arming the capture), and a call that collects and judges a
+  complete rise (the fit and comparator verdicts dominate).
 - **Budget** is what CI enforces (`firmware-example/cost-budget.toml`, a regression guard a little
   above the measured value); **goal** is the target the design aims at. A missed goal is reported
   but does not fail CI.

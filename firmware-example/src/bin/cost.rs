@@ -140,6 +140,97 @@ impl Inputs {
     }
 }
 
+/// The driver's `service()` on one valve channel with replaying hardware (`fw::fake`): idle,
+/// applying one on edge (arming the capture), and collecting and judging a 64-sample rise
+/// (fit, comparator, verdict, event). Each measured call gets its state from an unmeasured
+/// set-up that moves time on by a second.
+#[inline(never)]
+fn driver_cases(m: &mut Meter, trace: &[u16; 64]) {
+    use coilwise_driver::{ChannelConfig, ChannelHw, Driver, DriverState, Phase, Pulse};
+    use fw::fake::{NullPin, NullPwm, ReplaySense};
+    let Some(Ok(spec)) = fw::scenario::channel(0) else {
+        fw::exit(fw::status::CHECK_FAILED)
+    };
+    let Ok(cfg) = spec.config() else {
+        fw::exit(fw::status::CHECK_FAILED)
+    };
+    let configs: [ChannelConfig; 1] = [cfg];
+    let mut state = DriverState::<1, 8, 8>::new();
+    let probe_period = cfg
+        .diagnosis
+        .map_or(1e-5, |d| d.probe.length.get() as f32 * 1e-6 / 64.0);
+    let (i_inf, tau) = (24.0f32 / 72.65, 0.30f32 / 72.65);
+    let probe_trace = fw::fake::rise_trace(i_inf, tau, probe_period, 0.000_201_4);
+    let sense = ReplaySense::new(*trace, probe_trace, 1762, 0.000_201_4);
+    let hw = [ChannelHw::new(NullPin, NullPwm, sense)];
+    let Ok(rate) = coilwise::TickRate::new(1_000_000) else {
+        fw::exit(fw::status::CHECK_FAILED)
+    };
+    let Ok(mut d) = Driver::new(&configs, &mut state, hw, rate, Instant(0), 1) else {
+        fw::exit(fw::status::CHECK_FAILED)
+    };
+    if d.commission(Instant(0)).is_err() {
+        fw::exit(fw::status::CHECK_FAILED)
+    }
+    let mut t = Instant(0);
+    for _ in 0..16 {
+        t = d.service(t).unwrap_or(t);
+        if d.phase() == Phase::Ready {
+            break;
+        }
+    }
+    while d.pop_event().is_some() {}
+    if d.phase() != Phase::Ready {
+        defmt::error!("cost: the replayed channel did not commission");
+        fw::exit(fw::status::CHECK_FAILED)
+    }
+    let drv = RefCell::new(d);
+    let now = core::cell::Cell::new(t.after(Ticks(1_000_000)));
+    // Moves time on by a second, lets the previous pulse end, drains the events.
+    let fresh = |with_pulse: bool| {
+        let mut d = drv.borrow_mut();
+        let t = now.get().after(Ticks(1_000_000));
+        now.set(t);
+        let _ = d.service(t);
+        while d.pop_event().is_some() {}
+        if with_pulse {
+            let _ = d.request(t, 0, Pulse::now(Ticks(80_000)));
+            let _ = d.pop_event();
+        }
+    };
+    case!(
+        m,
+        "driver_service_idle",
+        "driver service() with nothing due (1 valve channel)",
+        setup { fresh(false) },
+        drv.borrow_mut().service(black_box(now.get()))
+    );
+    case!(
+        m,
+        "driver_service_edge",
+        "driver service() applying one on edge and arming the rise capture",
+        setup { fresh(true) },
+        drv.borrow_mut().service(black_box(now.get()))
+    );
+    case!(
+        m,
+        "driver_service_rise",
+        "driver service() collecting and judging a 64-sample rise (fit + comparator + event)",
+        setup {
+            fresh(true);
+            let t = now.get();
+            let _ = drv.borrow_mut().service(t);
+            now.set(t.after(Ticks(6_400)));
+        },
+        drv.borrow_mut().service(black_box(now.get()))
+    );
+    let healthy = drv.borrow().last_verdict(0).map(|v| v.finding) == Some(Finding::Healthy);
+    if !healthy {
+        defmt::error!("cost: the measured rise was not judged healthy");
+        fw::exit(fw::status::CHECK_FAILED)
+    }
+}
+
 #[entry]
 fn main() -> ! {
     let cp = cortex_m::Peripherals::take().unwrap_or_else(|| fw::exit(fw::status::CHECK_FAILED));
@@ -247,6 +338,7 @@ fn main() -> ! {
         due.borrow_mut()
             .poll(black_box(Instant(2_000)), &mut *edges.borrow_mut())
     );
+    driver_cases(&mut m, &inputs.trace);
     // ------------------------------------------------------------------------------------------
 
     defmt::info!("cost done");

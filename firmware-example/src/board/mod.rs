@@ -1,8 +1,9 @@
-//! The QEMU board: the hardware seam of [`crate::hw`] and [`crate::ticks`] implemented on a
-//! simulated coil plant, in simulated time.
+//! The QEMU board: the driver's hardware seam (`coilwise_driver::CurrentSense`,
+//! `coilwise_driver::TickSource`, embedded-hal pins and PWM) implemented on a simulated coil
+//! plant, in simulated time.
 //!
-//! A real board replaces this module (see `docs/porting.md`); the application in [`crate::app`]
-//! does not change.
+//! A real board replaces this module (see `docs/porting.md`); the driver and the rest of the
+//! example do not change.
 //!
 //! - Each channel's coil, switch, clamp and armature is a numerical plant of
 //!   `coilwise-host-tests` (one `Bench<1>` per channel, so an idle coil costs nothing while
@@ -37,10 +38,10 @@ use embedded_hal::delay::DelayNs;
 use embedded_hal::digital::{ErrorType, OutputPin};
 use embedded_hal::pwm::SetDutyCycle;
 
-use crate::hw::{Capture, Crossing, CurrentSense, SenseErrorKind, SensePlan, SenseScale};
 use crate::measure::note_seam_sp;
-use crate::scenario::{Rail, CHANNELS, TICK_HZ};
-use crate::ticks::TickSource;
+use crate::scenario::{rail_name, CHANNELS, TICK_HZ};
+use coilwise_driver::TickSource;
+use coilwise_driver::{Capture, Crossing, CurrentSense, SenseErrorKind, SensePlan, SenseScale};
 use monitor::{DriveState, Monitor, PlantView};
 
 /// Samples one capture can hold.
@@ -68,8 +69,8 @@ pub enum Happening {
     },
     /// A rail's open-circuit voltage changes (a sag, or its recovery).
     Supply {
-        /// The rail.
-        rail: Rail,
+        /// The rail (supply group).
+        rail: u8,
         /// New voltage, V.
         volts: f64,
     },
@@ -126,7 +127,7 @@ pub struct Plant {
     benches: [Option<Bench<1>>; CHANNELS],
     adc: [AdcConfig; CHANNELS],
     rng: [Prng; CHANNELS],
-    rails: [Rail; CHANNELS],
+    rails: [u8; CHANNELS],
     /// Lowest supply each channel's design allows, V.
     design_min: [f64; CHANNELS],
     pin: [bool; CHANNELS],
@@ -172,7 +173,7 @@ impl Plant {
             benches: [const { None }; CHANNELS],
             adc: [NO_ADC; CHANNELS],
             rng: [Prng::new(0); CHANNELS],
-            rails: [Rail::Valves24V; CHANNELS],
+            rails: [0; CHANNELS],
             design_min: [0.0; CHANNELS],
             pin: [false; CHANNELS],
             duty: [0; CHANNELS],
@@ -271,10 +272,11 @@ impl Plant {
                         }
                     }
                     defmt::warn!(
-                        "[plant] t={=u32} ms: {} rail now {=f32} V",
+                        "[plant] t={=u32} ms: {=str} now at {=u32}.{=u32} V",
                         e.at_ms,
-                        rail,
-                        volts as f32
+                        rail_name(rail),
+                        (volts * 10.0) as u32 / 10,
+                        (volts * 10.0) as u32 % 10
                     );
                 }
             }
@@ -355,6 +357,7 @@ impl Plant {
         }
         let view = self.view(ch);
         self.monitor.drive(self.now_ns, ch, after, &view);
+        log_drive(self.now_ns, ch, after);
         let Some(b) = self.benches[ch].as_mut() else {
             return;
         };
@@ -380,6 +383,29 @@ impl Plant {
     #[inline(never)]
     pub fn finish(&mut self) -> bool {
         self.monitor.finish()
+    }
+}
+
+/// Logs a drive change of the switch as the plant received it: what the pins did.
+#[inline(never)]
+fn log_drive(t_ns: u64, ch: usize, d: DriveState) {
+    let us = (t_ns / 1_000) as u32;
+    let (ms, frac) = (us / 1000, us % 1000);
+    match d {
+        DriveState::Off => {
+            defmt::info!("t={=u32}.{=u32:03} ms  [pins] ch{=usize} off", ms, frac, ch)
+        }
+        DriveState::Full => {
+            defmt::info!("t={=u32}.{=u32:03} ms  [pins] ch{=usize} on", ms, frac, ch)
+        }
+        DriveState::Pwm(duty) => defmt::info!(
+            "t={=u32}.{=u32:03} ms  [pins] ch{=usize} hold PWM at {=u16}/{=u16}",
+            ms,
+            frac,
+            ch,
+            duty,
+            PWM_MAX_DUTY
+        ),
     }
 }
 

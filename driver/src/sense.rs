@@ -1,29 +1,25 @@
-//! The hardware seam the application is written against.
+//! The current-sense seam: what the driver needs from a board's converter and comparator.
 //!
 //! A coil channel on a real board is a low-side switch, an optional hold PWM, a current-sense
 //! resistor into an ADC, and (often) a comparator on the same sense voltage feeding a timer
-//! capture input. The application sees it through:
+//! capture input. The driver sees it through:
 //!
 //! | role | trait |
 //! |---|---|
 //! | switch on/off | [`embedded_hal::digital::OutputPin`] |
 //! | hold (economiser) PWM after pull-in | [`embedded_hal::pwm::SetDutyCycle`] |
-//! | busy waits | [`embedded_hal::delay::DelayNs`] |
-//! | rise of the coil current | [`CurrentSense`] (ours, below) |
-//! | time | [`crate::ticks::TickSource`] |
+//! | waits of the blocking helpers only | [`embedded_hal::delay::DelayNs`] |
+//! | rise of the coil current | [`CurrentSense`] (this module) |
+//! | time | [`crate::TickSource`] |
 //!
-//! [`Channel`] bundles one coil's parts so the application can be generic over a board.
-//! The QEMU board (`crate::board`: a simulated coil plant behind these same traits) is one
-//! implementation; `docs/porting.md` says what a real board implements.
+//! `docs/porting.md` says what a real board implements.
 
 use coilwise::{Amps, Ticks};
-pub use embedded_hal::delay::DelayNs;
-pub use embedded_hal::digital::OutputPin;
-pub use embedded_hal::pwm::SetDutyCycle;
 
 /// Why a current-sense operation failed. Small and `Copy`, like the embedded-hal error kinds.
 #[non_exhaustive]
-#[derive(Clone, Copy, Debug, PartialEq, Eq, defmt::Format)]
+#[derive(Clone, Copy, Debug, PartialEq, Eq)]
+#[cfg_attr(feature = "defmt", derive(defmt::Format))]
 pub enum SenseErrorKind {
     /// The converter or comparator is in use by another channel or still busy.
     Busy,
@@ -58,7 +54,8 @@ impl SenseError for SenseErrorKind {
 /// amplifier of gain `G` and an `N`-bit converter with reference `V_ref` (V):
 /// `amps_per_count = V_ref / (2^N · G · R_s)`. Example (invented values): 3.3 V, 12 bit, G = 20,
 /// R_s = 0.1 Ω → 4.03 mA per count, full scale 16.5 A.
-#[derive(Clone, Copy, Debug, PartialEq, defmt::Format)]
+#[derive(Clone, Copy, Debug, PartialEq)]
+#[cfg_attr(feature = "defmt", derive(defmt::Format))]
 pub struct SenseScale {
     /// Current of one count, A. Finite and > 0 for a usable channel.
     pub amps_per_count: f32,
@@ -82,7 +79,8 @@ impl SenseScale {
 /// On a real board both are started by hardware from the edge that switches the coil on (the
 /// timer that drives the switch triggers the ADC sequence and arms the capture input), so the
 /// application only prepares them and reads them later; nothing blocks.
-#[derive(Clone, Copy, Debug, PartialEq, Eq, defmt::Format)]
+#[derive(Clone, Copy, Debug, PartialEq, Eq)]
+#[cfg_attr(feature = "defmt", derive(defmt::Format))]
 pub struct SensePlan {
     /// Time of sample 0 after the switch-on edge, ticks.
     pub first: Ticks,
@@ -95,7 +93,8 @@ pub struct SensePlan {
 }
 
 /// Result of one completed capture.
-#[derive(Clone, Copy, Debug, PartialEq, Eq, defmt::Format)]
+#[derive(Clone, Copy, Debug, PartialEq, Eq)]
+#[cfg_attr(feature = "defmt", derive(defmt::Format))]
 pub struct Capture {
     /// Number of samples written to the front of the caller's buffer.
     pub len: usize,
@@ -104,12 +103,13 @@ pub struct Capture {
     /// Sample period actually used, in ticks of the board's [`TickSource`]
     /// (may differ from the plan when the converter timer rounds it).
     ///
-    /// [`TickSource`]: crate::ticks::TickSource
+    /// [`TickSource`]: crate::TickSource
     pub period: Ticks,
 }
 
 /// What the comparator saw since the latest switch-on.
-#[derive(Clone, Copy, Debug, PartialEq, Eq, defmt::Format)]
+#[derive(Clone, Copy, Debug, PartialEq, Eq)]
+#[cfg_attr(feature = "defmt", derive(defmt::Format))]
 pub enum Crossing {
     /// The sensed current first reached the trip level this many ticks after the switch-on edge.
     After(Ticks),
@@ -122,7 +122,7 @@ pub enum Crossing {
 /// both started by the channel's switch-on edge.
 ///
 /// Time zero is the most recent switch-on edge of the channel's drive output (a rising
-/// [`OutputPin::set_high`] from off). Counts are raw converter counts; [`CurrentSense::scale`]
+/// `OutputPin::set_high` from off). Counts are raw converter counts; [`CurrentSense::scale`]
 /// converts them to amperes.
 ///
 /// The calls never block: [`CurrentSense::arm`] prepares the next switch-on,
@@ -153,35 +153,4 @@ pub trait CurrentSense {
 
     /// The comparator's first crossing of the trip level since the latest switch-on.
     fn crossing(&mut self) -> Result<Crossing, Self::Error>;
-}
-
-/// One coil channel: drive switch, hold PWM, and current sense.
-///
-/// `switch` and `hold` drive the same transistor: while the hold PWM has a non-zero duty it
-/// drives the switch (a timer channel in PWM mode); at duty 0 the switch follows `switch`
-/// (the same channel forced active or inactive). On a real part both are usually one timer
-/// output; a board whose switch and PWM are separate pins ORs them in hardware.
-pub struct Channel<Sw, Pwm, Sense> {
-    /// Low-side switch (`set_high` = coil energised at full drive).
-    pub switch: Sw,
-    /// Hold PWM on the same switch path (economiser); duty 0 when unused.
-    pub hold: Pwm,
-    /// Current sense of this coil.
-    pub sense: Sense,
-}
-
-impl<Sw, Pwm, Sense> Channel<Sw, Pwm, Sense>
-where
-    Sw: OutputPin,
-    Pwm: SetDutyCycle,
-    Sense: CurrentSense,
-{
-    /// Bundles the three parts of a channel.
-    pub fn new(switch: Sw, hold: Pwm, sense: Sense) -> Self {
-        Self {
-            switch,
-            hold,
-            sense,
-        }
-    }
 }

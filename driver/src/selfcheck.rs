@@ -227,3 +227,9 @@ fn fit_hand_trace(tick: Option<TickRate>) -> f32 {
         Err(_) => f32::NAN,
     }
 }
+
+/// Whether every vector of [`compute`] holds (out of line: the vectors stay in this frame).
+#[inline(never)]
+pub fn holds() -> bool {
+    compute().iter().all(Vector::holds)
+}

@@ -64,3 +64,26 @@ pub fn refusal(r: &Refusal) -> &'static str {
         _ => "other refusal",
     }
 }
+
+/// A hardware error kind in words.
+pub fn error_kind(k: &crate::ErrorKind) -> &'static str {
+    use crate::{ErrorKind, SenseErrorKind};
+    match k {
+        ErrorKind::Switch => "switch output failed",
+        ErrorKind::Pwm => "hold PWM failed",
+        ErrorKind::Sense(s) => match s {
+            SenseErrorKind::Busy => "current sense busy",
+            SenseErrorKind::PeriodUnsupported => "sample period not supported by the converter",
+            SenseErrorKind::BufferLength => "capture longer than the buffer",
+            SenseErrorKind::Overrun => "converter overrun (samples lost)",
+            SenseErrorKind::LevelOutOfRange => "comparator level out of range",
+            _ => "current sense failed",
+        },
+        ErrorKind::CaptureMissing => "capture did not complete",
+        ErrorKind::TimeWentBackwards => "time went backwards",
+        ErrorKind::UnknownChannel => "unknown channel",
+        ErrorKind::Phase => "not allowed before commissioning",
+        ErrorKind::SelfCheck => "self-check vectors failed on this device",
+        ErrorKind::NotIsolated => "channel is not isolated",
+    }
+}
