@@ -1,0 +1,383 @@
+//! The rise capture: the RP2040's ADC free-running into its FIFO, drained by one DMA channel into
+//! the capturing channel's buffer, started by the switch-on edge.
+//!
+//! - [`Engine::prepare`] (called from `CurrentSense::arm`) sets the ADC input and its pacing
+//!   divider, clears the FIFO and its overflow flag, and starts a DMA transfer of the planned
+//!   length paced by the ADC's DREQ. The ADC stays paused, so nothing moves yet.
+//! - [`Engine::start`] (called by the drive in the same critical section as the gate edge) sets
+//!   `CS.START_MANY`: the first conversion follows within the measured start lead.
+//! - When the DMA has moved the last sample, its completion interrupt (`DMA_IRQ_0`,
+//!   [`Engine::finish`]) pauses the ADC, reads the FIFO overflow flag, drains the FIFO and
+//!   hands the buffer back to the channel. `CurrentSense::samples` polls the same path, so a
+//!   held-off interrupt cannot lose a capture.
+//!
+//! Sample timing. The ADC runs from `clk_adc` = 48 MHz (PLL_USB); the pacing divider gives a
+//! period of `1 + INT` ADC clocks (FRAC = 0), so a period of `P` µs is `INT = 48·P − 1`,
+//! exactly, for `P` in 2…1365 µs (a conversion takes 96 clocks = 2 µs; INT is 16 bits). The
+//! TIMER's 1 MHz tick and `clk_adc` come from the same 12 MHz crystal, so the period is exact in
+//! ticks. Sample `j` of the ADC stream is taken `(lead + j)·P` after the edge, where `lead` (0 or
+//! 1 period) is measured once at start-up by [`Engine::measure_lead`]; a plan whose first sample
+//! is later than that discards the leading samples in the buffer (at most [`MAX_LEAD`]).
+//!
+//! One ADC serves every channel: while one channel's capture is armed or running, another
+//! channel's `arm` answers `Busy`.
+
+use core::sync::atomic::{compiler_fence, Ordering};
+
+use coilwise::Ticks;
+use rp2040_hal as hal;
+
+use hal::adc::{Adc, AdcFifo, AdcPin, DmaReadTarget};
+use hal::dma::{single_buffer, Channel as DmaChannel, SingleChannel, WriteTarget, CH0};
+use hal::gpio::{DynPinId, FunctionNull, Pin, PullNone};
+
+use crate::seam::SenseErrorKind;
+
+/// Samples one capture can hand to the caller.
+pub const MAX_SAMPLES: usize = 64;
+/// Leading samples a plan may ask to skip (a first sample later than the ADC's start lead).
+pub const MAX_LEAD: usize = 8;
+/// Capacity of each channel's DMA buffer.
+pub const CAPACITY: usize = MAX_SAMPLES + MAX_LEAD;
+
+/// ADC clock, Hz (`clk_adc` from PLL_USB at 48 MHz).
+pub const ADC_HZ: u32 = 48_000_000;
+/// ADC clocks per TIMER tick (1 µs).
+const ADC_CLOCKS_PER_TICK: u32 = ADC_HZ / 1_000_000;
+/// Shortest sample period, ticks: one conversion is 96 ADC clocks.
+pub const MIN_PERIOD: u32 = 96 / ADC_CLOCKS_PER_TICK;
+/// Longest sample period, ticks: `1 + INT` with a 16-bit INT.
+pub const MAX_PERIOD: u32 = (u16::MAX as u32 + 1) / ADC_CLOCKS_PER_TICK;
+
+/// Bit 15 of a FIFO word: the conversion had an error (`FCS.ERR` set by the HAL's builder).
+const FIFO_ERR: u16 = 1 << 15;
+/// The 12 result bits of a FIFO word.
+const FIFO_VALUE: u16 = 0x0FFF;
+
+/// A sense input of the ADC (GPIO26…29 with its digital input and output disabled).
+pub type SensePin = AdcPin<Pin<DynPinId, FunctionNull, PullNone>>;
+/// One channel's DMA buffer.
+pub type Buffer = &'static mut [u16; CAPACITY];
+
+/// The front `len` words of a channel buffer as a DMA write target.
+pub struct Window {
+    buf: Buffer,
+    len: usize,
+}
+
+// SAFETY: the address and count handed to the DMA lie inside `buf` (`len ≤ CAPACITY` is checked
+// in `Engine::prepare`), `buf` is a `'static` exclusive borrow, and the window owns it for as long
+// as the transfer holds the window: no one else can touch the memory while the DMA writes it.
+unsafe impl WriteTarget for Window {
+    type TransmittedWord = u16;
+
+    fn tx_treq() -> Option<u8> {
+        None
+    }
+
+    fn tx_address_count(&mut self) -> (u32, u32) {
+        (self.buf.as_mut_ptr() as u32, self.len as u32)
+    }
+
+    fn tx_increment(&self) -> bool {
+        true
+    }
+}
+
+type Dma = DmaChannel<CH0>;
+type Running = single_buffer::Transfer<Dma, DmaReadTarget<u16>, Window>;
+
+/// The hardware timing of a capture as planned (pure arithmetic, see the module doc).
+#[derive(Clone, Copy, Debug, PartialEq, Eq)]
+pub struct Timing {
+    /// ADC samples discarded before the first one handed out.
+    pub skip: usize,
+    /// Samples handed out.
+    pub len: usize,
+    /// Time of the first sample handed out after the edge, ticks: `(lead + skip)·period`.
+    pub first: Ticks,
+    /// Sample period, ticks.
+    pub period: Ticks,
+    /// Pacing divider integer part, `48·period − 1`.
+    pub div_int: u16,
+}
+
+impl Timing {
+    /// Timing for `samples` samples every `period` ticks, the first no earlier than `first`
+    /// ticks after the edge, on an ADC whose first conversion comes `lead` periods after the
+    /// start: `skip = max(0, ⌈first/period⌉ − lead)`, actual first = `(lead + skip)·period`
+    /// (never earlier than asked unless `first < lead·period`, which the hardware cannot do).
+    ///
+    /// Errors: `period` outside [`MIN_PERIOD`]…[`MAX_PERIOD`] → `PeriodUnsupported`; more than
+    /// [`MAX_SAMPLES`] samples or more than [`MAX_LEAD`] to skip → `BufferLength`.
+    pub fn plan(
+        first: Ticks,
+        period: Ticks,
+        samples: usize,
+        lead: u32,
+    ) -> Result<Self, SenseErrorKind> {
+        let p = period.get();
+        if !(MIN_PERIOD..=MAX_PERIOD).contains(&p) {
+            return Err(SenseErrorKind::PeriodUnsupported);
+        }
+        if samples > MAX_SAMPLES {
+            return Err(SenseErrorKind::BufferLength);
+        }
+        let periods_to_first = first.get().div_ceil(p);
+        let skip = periods_to_first.saturating_sub(lead);
+        if skip as usize > MAX_LEAD {
+            return Err(SenseErrorKind::BufferLength);
+        }
+        let first_actual = (lead + skip)
+            .checked_mul(p)
+            .ok_or(SenseErrorKind::PeriodUnsupported)?;
+        let div_int = u16::try_from(p * ADC_CLOCKS_PER_TICK - 1)
+            .map_err(|_| SenseErrorKind::PeriodUnsupported)?;
+        Ok(Self {
+            skip: skip as usize,
+            len: samples,
+            first: Ticks(first_actual),
+            period,
+            div_int,
+        })
+    }
+}
+
+/// What became of one channel's capture.
+#[derive(Clone, Copy, Debug, PartialEq, Eq)]
+pub enum Slot {
+    /// Nothing armed (or the armed edge came and went without a plan).
+    Idle,
+    /// Prepared; waiting for the channel's switch-on edge.
+    Armed(Timing),
+    /// Converting since the edge.
+    Running(Timing),
+    /// Complete; `over`: the FIFO overflowed (samples may be lost).
+    Done {
+        /// The capture's timing.
+        timing: Timing,
+        /// FIFO overflow seen when the capture was stopped.
+        over: bool,
+    },
+}
+
+/// The ADC, its DMA channel, the sense inputs and each channel's capture state.
+pub struct Engine<const N: usize> {
+    adc: Option<&'static mut Adc>,
+    fifo: Option<AdcFifo<'static, u16>>,
+    dma: Option<Dma>,
+    running: Option<Running>,
+    /// Channel whose capture holds the ADC (armed or running).
+    owner: Option<usize>,
+    pins: [SensePin; N],
+    bufs: [Option<Buffer>; N],
+    slots: [Slot; N],
+    /// Periods from `START_MANY` to the first conversion (measured, 0 or 1).
+    lead: u32,
+}
+
+impl<const N: usize> Engine<N> {
+    /// The engine over an enabled ADC, DMA channel 0 and one sense input and buffer per channel.
+    pub fn new(adc: &'static mut Adc, dma: Dma, pins: [SensePin; N], bufs: [Buffer; N]) -> Self {
+        Self {
+            adc: Some(adc),
+            fifo: None,
+            dma: Some(dma),
+            running: None,
+            owner: None,
+            pins,
+            bufs: bufs.map(Some),
+            slots: [Slot::Idle; N],
+            lead: 1,
+        }
+    }
+
+    /// Measures how long the ADC takes from `START_MANY` to its first result, with a 100 µs
+    /// pacing period on channel 0's input, and keeps the lead (whole periods before the first
+    /// conversion starts: 0 when the first result comes within one conversion time, else 1).
+    /// `now` reads the 1 MHz TIMER. Takes ≈ 0.1–0.2 ms; returns the measured delay in ticks
+    /// (`None` if no result came within 1 ms: the ADC clock is not running, and the lead stays
+    /// the conservative 1).
+    pub fn measure_lead(&mut self, now: impl Fn() -> u32) -> Option<u32> {
+        let adc = self.adc.take()?;
+        let mut fifo = adc
+            .build_fifo()
+            .clock_divider((100 * ADC_CLOCKS_PER_TICK - 1) as u16, 0)
+            .set_channel(&mut self.pins[0])
+            .start_paused();
+        fifo.clear();
+        let t0 = now();
+        fifo.resume();
+        let mut waited = None;
+        while now().wrapping_sub(t0) < 1_000 {
+            if fifo.len() > 0 {
+                waited = Some(now().wrapping_sub(t0));
+                break;
+            }
+        }
+        fifo.pause();
+        self.adc = Some(fifo.stop());
+        if let Some(w) = waited {
+            // A result within half a period means the first conversion started at once.
+            self.lead = if w < 50 { 0 } else { 1 };
+        }
+        waited
+    }
+
+    /// One conversion of channel `ch`'s input now (blocking, 2 µs), 12-bit counts.
+    /// `Busy` while a capture holds the ADC.
+    pub fn convert_now(&mut self, ch: usize) -> Result<u16, SenseErrorKind> {
+        if self.owner.is_some() {
+            return Err(SenseErrorKind::Busy);
+        }
+        let adc = self.adc.as_mut().ok_or(SenseErrorKind::Busy)?;
+        let pin = self.pins.get_mut(ch).ok_or(SenseErrorKind::Other)?;
+        adc.read(pin).map_err(|_| SenseErrorKind::Other)
+    }
+
+    /// Prepares channel `ch`'s capture for its next switch-on edge (see the module doc);
+    /// `samples = 0` disarms. `Busy` while another channel's capture holds the ADC, or this
+    /// channel's previous capture is still running.
+    pub fn prepare(
+        &mut self,
+        ch: usize,
+        first: Ticks,
+        period: Ticks,
+        samples: usize,
+    ) -> Result<(), SenseErrorKind> {
+        if ch >= N {
+            return Err(SenseErrorKind::Other);
+        }
+        let timing = if samples == 0 {
+            None
+        } else {
+            Some(Timing::plan(first, period, samples, self.lead)?)
+        };
+        match self.owner {
+            Some(o) if o != ch => return Err(SenseErrorKind::Busy),
+            Some(_) if matches!(self.slots[ch], Slot::Running(_)) => {
+                return Err(SenseErrorKind::Busy)
+            }
+            Some(_) => self.release()?,
+            None => {}
+        }
+        self.slots[ch] = Slot::Idle;
+        let Some(timing) = timing else {
+            return Ok(());
+        };
+        let (Some(adc), Some(mut dma), Some(buf)) =
+            (self.adc.take(), self.dma.take(), self.bufs[ch].take())
+        else {
+            return Err(SenseErrorKind::Other);
+        };
+        let mut fifo = adc
+            .build_fifo()
+            .clock_divider(timing.div_int, 0)
+            .set_channel(&mut self.pins[ch])
+            .enable_dma()
+            .start_paused();
+        fifo.clear();
+        let _ = fifo.is_over(); // clears a stale overflow flag
+        dma.enable_irq0();
+        let window = Window {
+            buf,
+            len: timing.skip + timing.len,
+        };
+        self.running =
+            Some(single_buffer::Config::new(dma, fifo.dma_read_target(), window).start());
+        self.fifo = Some(fifo);
+        self.owner = Some(ch);
+        self.slots[ch] = Slot::Armed(timing);
+        Ok(())
+    }
+
+    /// Undoes a prepared capture that has not started: aborts the DMA and frees the ADC.
+    fn release(&mut self) -> Result<(), SenseErrorKind> {
+        let (Some(ch), Some(run), Some(fifo)) =
+            (self.owner.take(), self.running.take(), self.fifo.take())
+        else {
+            return Err(SenseErrorKind::Other);
+        };
+        let (dma, _, window) = run.abort();
+        self.dma = Some(dma);
+        self.bufs[ch] = Some(window.buf);
+        self.adc = Some(fifo.stop());
+        self.slots[ch] = Slot::Idle;
+        Ok(())
+    }
+
+    /// Channel `ch` switched on: starts its armed capture (sets `START_MANY`). Called by the
+    /// drive inside the critical section that makes the gate edge. A channel that was not armed
+    /// forgets its last capture (the latest switch-on started none).
+    pub fn start(&mut self, ch: usize) {
+        match self.slots.get(ch).copied() {
+            Some(Slot::Armed(t)) if self.owner == Some(ch) => {
+                if let Some(f) = self.fifo.as_mut() {
+                    f.resume();
+                    self.slots[ch] = Slot::Running(t);
+                }
+            }
+            Some(Slot::Done { .. }) => self.slots[ch] = Slot::Idle,
+            _ => {}
+        }
+    }
+
+    /// Stops a capture whose DMA transfer has completed (from `DMA_IRQ_0` or a poll): pauses the
+    /// ADC, reads the overflow flag, drains the FIFO, returns the buffer to its channel.
+    pub fn finish(&mut self) {
+        let done = self.running.as_mut().is_some_and(|r| {
+            let _ = r.check_irq0();
+            r.is_done()
+        });
+        if !done {
+            return;
+        }
+        let (Some(ch), Some(run), Some(mut fifo)) =
+            (self.owner.take(), self.running.take(), self.fifo.take())
+        else {
+            return;
+        };
+        fifo.pause();
+        let over = fifo.is_over();
+        let (dma, _, window) = run.wait();
+        compiler_fence(Ordering::SeqCst);
+        self.dma = Some(dma);
+        self.bufs[ch] = Some(window.buf);
+        self.adc = Some(fifo.stop());
+        if let Slot::Running(timing) = self.slots[ch] {
+            self.slots[ch] = Slot::Done { timing, over };
+        }
+    }
+
+    /// Copies channel `ch`'s completed capture into the front of `out`: `Ok(Some((len, first,
+    /// period)))`, `Ok(None)` while armed or running (or nothing was armed).
+    /// Errors: `out` shorter than the capture → `BufferLength`; FIFO overflow → `Overrun`; a
+    /// conversion flagged with an error → `Other`.
+    pub fn collect(
+        &mut self,
+        ch: usize,
+        out: &mut [u16],
+    ) -> Result<Option<(usize, Ticks, Ticks)>, SenseErrorKind> {
+        self.finish();
+        let Some(Slot::Done { timing, over }) = self.slots.get(ch).copied() else {
+            return Ok(None);
+        };
+        if over {
+            return Err(SenseErrorKind::Overrun);
+        }
+        let buf = self.bufs[ch].as_ref().ok_or(SenseErrorKind::Other)?;
+        let src = buf
+            .get(timing.skip..timing.skip + timing.len)
+            .ok_or(SenseErrorKind::Other)?;
+        let dst = out
+            .get_mut(..timing.len)
+            .ok_or(SenseErrorKind::BufferLength)?;
+        for (d, s) in dst.iter_mut().zip(src) {
+            if s & FIFO_ERR != 0 {
+                return Err(SenseErrorKind::Other);
+            }
+            *d = s & FIFO_VALUE;
+        }
+        Ok(Some((timing.len, timing.first, timing.period)))
+    }
+}
