@@ -42,12 +42,7 @@ use crate::seam::{Capture, Crossing, CurrentSense, SenseErrorKind, SensePlan, Se
 
 /// Coil channels on this board.
 pub const CHANNELS: usize = 2;
-/// Hold PWM carrier, Hz (above hearing; slice clock 125 MHz, TOP = 6249).
-pub const HOLD_HZ: u32 = 20_000;
-/// System clock the PWM slices count, Hz.
-pub const SYS_HZ: u32 = 125_000_000;
-/// Hold PWM TOP: `SYS_HZ / HOLD_HZ − 1`.
-pub const HOLD_TOP: u16 = (SYS_HZ / HOLD_HZ - 1) as u16;
+pub use coilwise_rp2040_arith::pwm::{HOLD_HZ, HOLD_TOP, SYS_HZ};
 
 /// A gate pin (PWM function, pulled down so the MOSFET stays off until the pad is driven).
 pub type GatePin = Pin<DynPinId, FunctionPwm, PullDown>;
@@ -285,7 +280,7 @@ impl CurrentSense for Sense {
             // Check the comparator level before touching the ADC, so a refused plan changes
             // nothing.
             if let Some(level) = plan.trip_level {
-                crate::comparator::reference_compare(level)?;
+                crate::comparator::compare_for(level)?;
             }
             b.engine
                 .prepare(self.ch, plan.first, plan.period, plan.samples)?;

@@ -11,13 +11,11 @@
 //!   hands the buffer back to the channel. `CurrentSense::samples` polls the same path, so a
 //!   held-off interrupt cannot lose a capture.
 //!
-//! Sample timing. The ADC runs from `clk_adc` = 48 MHz (PLL_USB); the pacing divider gives a
-//! period of `1 + INT` ADC clocks (FRAC = 0), so a period of `P` µs is `INT = 48·P − 1`,
-//! exactly, for `P` in 2…1365 µs (a conversion takes 96 clocks = 2 µs; INT is 16 bits). The
-//! TIMER's 1 MHz tick and `clk_adc` come from the same 12 MHz crystal, so the period is exact in
-//! ticks. Sample `j` of the ADC stream is taken `(lead + j)·P` after the edge, where `lead` (0 or
-//! 1 period) is measured once at start-up by [`Engine::measure_lead`]; a plan whose first sample
-//! is later than that discards the leading samples in the buffer (at most [`MAX_LEAD`]).
+//! Sample timing ([`coilwise_rp2040_arith::adc`]): a period of `P` µs is divider
+//! `INT = 48·P − 1` (P = 2…1365 µs), exact in TIMER ticks. Sample `j` of the ADC stream is taken
+//! `(lead + j)·P` after the edge, where `lead` (0 or 1 period) is measured once at start-up by
+//! [`Engine::measure_lead`]; a plan whose first sample is later than that discards the leading
+//! samples in the buffer (at most `MAX_LEAD`).
 //!
 //! One ADC serves every channel: while one channel's capture is armed or running, another
 //! channel's `arm` answers `Busy`.
@@ -33,26 +31,10 @@ use hal::gpio::{DynPinId, FunctionNull, Pin, PullNone};
 
 use crate::seam::SenseErrorKind;
 
-/// Samples one capture can hand to the caller.
-pub const MAX_SAMPLES: usize = 64;
-/// Leading samples a plan may ask to skip (a first sample later than the ADC's start lead).
-pub const MAX_LEAD: usize = 8;
-/// Capacity of each channel's DMA buffer.
-pub const CAPACITY: usize = MAX_SAMPLES + MAX_LEAD;
-
-/// ADC clock, Hz (`clk_adc` from PLL_USB at 48 MHz).
-pub const ADC_HZ: u32 = 48_000_000;
-/// ADC clocks per TIMER tick (1 µs).
-const ADC_CLOCKS_PER_TICK: u32 = ADC_HZ / 1_000_000;
-/// Shortest sample period, ticks: one conversion is 96 ADC clocks.
-pub const MIN_PERIOD: u32 = 96 / ADC_CLOCKS_PER_TICK;
-/// Longest sample period, ticks: `1 + INT` with a 16-bit INT.
-pub const MAX_PERIOD: u32 = (u16::MAX as u32 + 1) / ADC_CLOCKS_PER_TICK;
-
-/// Bit 15 of a FIFO word: the conversion had an error (`FCS.ERR` set by the HAL's builder).
-const FIFO_ERR: u16 = 1 << 15;
-/// The 12 result bits of a FIFO word.
-const FIFO_VALUE: u16 = 0x0FFF;
+use coilwise_rp2040_arith::adc::{decode, lead_from_delay};
+pub use coilwise_rp2040_arith::adc::{
+    Timing, ADC_CLOCKS_PER_TICK, ADC_HZ, CAPACITY, MAX_SAMPLES, MIN_PERIOD,
+};
 
 /// A sense input of the ADC (GPIO26…29 with its digital input and output disabled).
 pub type SensePin = AdcPin<Pin<DynPinId, FunctionNull, PullNone>>;
@@ -86,62 +68,6 @@ unsafe impl WriteTarget for Window {
 
 type Dma = DmaChannel<CH0>;
 type Running = single_buffer::Transfer<Dma, DmaReadTarget<u16>, Window>;
-
-/// The hardware timing of a capture as planned (pure arithmetic, see the module doc).
-#[derive(Clone, Copy, Debug, PartialEq, Eq)]
-pub struct Timing {
-    /// ADC samples discarded before the first one handed out.
-    pub skip: usize,
-    /// Samples handed out.
-    pub len: usize,
-    /// Time of the first sample handed out after the edge, ticks: `(lead + skip)·period`.
-    pub first: Ticks,
-    /// Sample period, ticks.
-    pub period: Ticks,
-    /// Pacing divider integer part, `48·period − 1`.
-    pub div_int: u16,
-}
-
-impl Timing {
-    /// Timing for `samples` samples every `period` ticks, the first no earlier than `first`
-    /// ticks after the edge, on an ADC whose first conversion comes `lead` periods after the
-    /// start: `skip = max(0, ⌈first/period⌉ − lead)`, actual first = `(lead + skip)·period`
-    /// (never earlier than asked unless `first < lead·period`, which the hardware cannot do).
-    ///
-    /// Errors: `period` outside [`MIN_PERIOD`]…[`MAX_PERIOD`] → `PeriodUnsupported`; more than
-    /// [`MAX_SAMPLES`] samples or more than [`MAX_LEAD`] to skip → `BufferLength`.
-    pub fn plan(
-        first: Ticks,
-        period: Ticks,
-        samples: usize,
-        lead: u32,
-    ) -> Result<Self, SenseErrorKind> {
-        let p = period.get();
-        if !(MIN_PERIOD..=MAX_PERIOD).contains(&p) {
-            return Err(SenseErrorKind::PeriodUnsupported);
-        }
-        if samples > MAX_SAMPLES {
-            return Err(SenseErrorKind::BufferLength);
-        }
-        let periods_to_first = first.get().div_ceil(p);
-        let skip = periods_to_first.saturating_sub(lead);
-        if skip as usize > MAX_LEAD {
-            return Err(SenseErrorKind::BufferLength);
-        }
-        let first_actual = (lead + skip)
-            .checked_mul(p)
-            .ok_or(SenseErrorKind::PeriodUnsupported)?;
-        let div_int = u16::try_from(p * ADC_CLOCKS_PER_TICK - 1)
-            .map_err(|_| SenseErrorKind::PeriodUnsupported)?;
-        Ok(Self {
-            skip: skip as usize,
-            len: samples,
-            first: Ticks(first_actual),
-            period,
-            div_int,
-        })
-    }
-}
 
 /// What became of one channel's capture.
 #[derive(Clone, Copy, Debug, PartialEq, Eq)]
@@ -218,8 +144,7 @@ impl<const N: usize> Engine<N> {
         fifo.pause();
         self.adc = Some(fifo.stop());
         if let Some(w) = waited {
-            // A result within half a period means the first conversion started at once.
-            self.lead = if w < 50 { 0 } else { 1 };
+            self.lead = lead_from_delay(w, 100);
         }
         waited
     }
@@ -227,6 +152,7 @@ impl<const N: usize> Engine<N> {
     /// One conversion of channel `ch`'s input now (blocking, 2 µs), 12-bit counts.
     /// `Busy` while a capture holds the ADC.
     pub fn convert_now(&mut self, ch: usize) -> Result<u16, SenseErrorKind> {
+        self.finish();
         if self.owner.is_some() {
             return Err(SenseErrorKind::Busy);
         }
@@ -248,6 +174,8 @@ impl<const N: usize> Engine<N> {
         if ch >= N {
             return Err(SenseErrorKind::Other);
         }
+        // A capture whose DMA completed while interrupts were masked is stopped first.
+        self.finish();
         let timing = if samples == 0 {
             None
         } else {
@@ -281,7 +209,7 @@ impl<const N: usize> Engine<N> {
         dma.enable_irq0();
         let window = Window {
             buf,
-            len: timing.skip + timing.len,
+            len: timing.transfer_len(),
         };
         self.running =
             Some(single_buffer::Config::new(dma, fifo.dma_read_target(), window).start());
@@ -373,10 +301,7 @@ impl<const N: usize> Engine<N> {
             .get_mut(..timing.len)
             .ok_or(SenseErrorKind::BufferLength)?;
         for (d, s) in dst.iter_mut().zip(src) {
-            if s & FIFO_ERR != 0 {
-                return Err(SenseErrorKind::Other);
-            }
-            *d = s & FIFO_VALUE;
+            *d = decode(*s)?;
         }
         Ok(Some((timing.len, timing.first, timing.period)))
     }

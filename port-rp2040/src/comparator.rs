@@ -4,15 +4,19 @@
 //! The RP2040 has no analog comparator and no DAC. Each channel's comparator (an external part
 //! with push-pull output and a few mV of hysteresis, see the README's wiring) compares the sense
 //! amplifier's output (the same node the ADC converts) with a reference made by one channel of
-//! PWM slice 3 at 122 kHz (TOP = 1023, 10 bits) through a two-stage RC filter (1 kΩ / 100 nF per
-//! stage, τ = 100 µs each). A trip level of `L` converter counts (`L/4096 · 3.3 V`) is compare
-//! value `round(L/4)` of 1024 (`L/4096` of the 3.3 V I/O rail), so the level is set to within
-//! ±2 counts (±0.05 % of full scale); ADC and PWM must share the 3.3 V rail for the two scales to
-//! agree (the bring-up checklist measures both).
+//! PWM slice 3 at 122 kHz (TOP = 1023, 10 bits) through a two-stage RC filter (1 kΩ / 100 nF,
+//! then 10 kΩ / 10 nF; see [`coilwise_rp2040_arith::reference`]). A trip level of `L`
+//! converter counts is compare value `round(L/4)` of 1024 (`L/4096` of the 3.3 V I/O rail), so
+//! the level is set to within ±2 counts (±0.05 % of full scale); the ADC reference and the I/O
+//! rail must be the same 3.3 V for the two scales to agree (the bring-up checklist measures
+//! both).
 //!
-//! Settling: the filter reaches 1/4096 of a step in ≈ 11.5 τ = 1.15 ms; [`SETTLE_TICKS`] allows
-//! 1.5 ms. A switch-on edge earlier than that after a level change gets no comparator reading
-//! (`crossing` answers `Busy` for that pulse) rather than a time against a moving threshold.
+//! Settling: [`SETTLE_TICKS`] = 1.5 ms brings a full-scale step within a quarter count (checked
+//! in the arithmetic crate against the ladder's exact two-pole step response). A switch-on edge
+//! sooner than that after a level change gets no comparator reading: `crossing` answers `Busy`
+//! for that pulse rather than a time against a moving threshold. The driver treats every sense
+//! error as a hardware fault of the channel, so `main` presets each reference to the trip level
+//! the driver chose at commissioning ([`Comparators::preset`]) before any real pulse.
 //!
 //! Timestamp: at the switch-on edge the channel's input pin gets a level-high interrupt
 //! (`IO_IRQ_BANK0`); the handler reads the TIMER's low word and stores `t − t_on`, then masks
@@ -29,24 +33,10 @@ use hal::pwm::{FreeRunning, Pwm3, Slice};
 
 use crate::seam::SenseErrorKind;
 
-/// Reference PWM period, counts (TOP + 1): 10 bits.
-pub const REF_STEPS: u16 = 1024;
-/// Time the reference filter needs after a level change, ticks (µs).
-pub const SETTLE_TICKS: u32 = 1_500;
-/// Largest trip level, converter counts (12 bits).
-pub const MAX_LEVEL: u16 = 4095;
+pub use coilwise_rp2040_arith::reference::{compare_for, REF_STEPS, SETTLE_TICKS};
 
 /// A comparator output wired to a GPIO input.
 pub type ComparatorPin = Pin<DynPinId, FunctionSioInput, PullNone>;
-
-/// The reference compare value for a trip level of `level` 12-bit counts,
-/// `round(level · 1024 / 4096)`; `LevelOutOfRange` above 4095.
-pub fn reference_compare(level: u16) -> Result<u16, SenseErrorKind> {
-    if level > MAX_LEVEL {
-        return Err(SenseErrorKind::LevelOutOfRange);
-    }
-    Ok((level + 2) / 4)
-}
 
 /// What one channel's comparator is doing.
 #[derive(Clone, Copy, Debug, PartialEq, Eq)]
@@ -114,7 +104,7 @@ impl Comparators {
             c.watch = Watch::Off;
             return Ok(());
         };
-        let compare = reference_compare(level)?;
+        let compare = compare_for(level)?;
         if c.level != Some(level) {
             let _ = match ch {
                 0 => self.reference.channel_a.set_duty_cycle(compare),
