@@ -182,6 +182,11 @@ impl<const N: usize> Engine<N> {
             Some(Timing::plan(first, period, samples, self.lead)?)
         };
         match self.owner {
+            // Disarming needs no ADC: only this channel's slot changes.
+            Some(o) if o != ch && timing.is_none() => {
+                self.slots[ch] = Slot::Idle;
+                return Ok(());
+            }
             Some(o) if o != ch => return Err(SenseErrorKind::Busy),
             Some(_) if matches!(self.slots[ch], Slot::Running(_)) => {
                 return Err(SenseErrorKind::Busy)
@@ -193,10 +198,13 @@ impl<const N: usize> Engine<N> {
         let Some(timing) = timing else {
             return Ok(());
         };
-        let (Some(adc), Some(mut dma), Some(buf)) =
-            (self.adc.take(), self.dma.take(), self.bufs[ch].take())
-        else {
-            return Err(SenseErrorKind::Other);
+        let (adc, mut dma, buf) = match (self.adc.take(), self.dma.take(), self.bufs[ch].take()) {
+            (Some(a), Some(d), Some(b)) => (a, d, b),
+            // Cannot happen while no capture owns the engine; put back what was there.
+            (a, d, b) => {
+                (self.adc, self.dma, self.bufs[ch]) = (a, d, b);
+                return Err(SenseErrorKind::Other);
+            }
         };
         let mut fifo = adc
             .build_fifo()
@@ -221,10 +229,12 @@ impl<const N: usize> Engine<N> {
 
     /// Undoes a prepared capture that has not started: aborts the DMA and frees the ADC.
     fn release(&mut self) -> Result<(), SenseErrorKind> {
-        let (Some(ch), Some(run), Some(fifo)) =
-            (self.owner.take(), self.running.take(), self.fifo.take())
-        else {
-            return Err(SenseErrorKind::Other);
+        let (ch, run, fifo) = match (self.owner.take(), self.running.take(), self.fifo.take()) {
+            (Some(c), Some(r), Some(f)) => (c, r, f),
+            (c, r, f) => {
+                (self.owner, self.running, self.fifo) = (c, r, f);
+                return Err(SenseErrorKind::Other);
+            }
         };
         let (dma, _, window) = run.abort();
         self.dma = Some(dma);
@@ -260,10 +270,12 @@ impl<const N: usize> Engine<N> {
         if !done {
             return;
         }
-        let (Some(ch), Some(run), Some(mut fifo)) =
-            (self.owner.take(), self.running.take(), self.fifo.take())
-        else {
-            return;
+        let (ch, run, mut fifo) = match (self.owner.take(), self.running.take(), self.fifo.take()) {
+            (Some(c), Some(r), Some(f)) => (c, r, f),
+            (c, r, f) => {
+                (self.owner, self.running, self.fifo) = (c, r, f);
+                return;
+            }
         };
         fifo.pause();
         let over = fifo.is_over();

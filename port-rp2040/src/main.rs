@@ -33,6 +33,7 @@ use coilwise_driver::{ChannelConfig, ChannelHw, ChannelOptions, Driver, Pulse, S
 use critical_section::Mutex;
 use defmt_rtt as _;
 use embedded_hal::delay::DelayNs as _;
+use embedded_hal::digital::InputPin as _;
 use heapless::Deque;
 use panic_probe as _;
 use rp2040_hal as hal;
@@ -64,10 +65,13 @@ const ADC_NOISE_COUNTS: f32 = 2.5;
 /// The valve holds at this fraction of its pull-in current after pull-in (invented).
 const VALVE_HOLD_FRACTION: f32 = 0.55;
 
-/// A pulse request from the main loop to the service interrupt.
+/// A request from the main loop to the service interrupt.
 #[derive(Clone, Copy)]
 enum Ask {
+    /// A pulse on a channel.
     Pulse(usize, Pulse),
+    /// The operator asks an isolated channel back (its diagnostic pulse decides).
+    Reenable(usize),
 }
 
 static ASKS: Mutex<RefCell<Deque<Ask, 4>>> = Mutex::new(RefCell::new(Deque::new()));
@@ -145,6 +149,15 @@ fn start(hw: Hardware) -> Result<(), StartError> {
         log::event(&e);
     }
     for ch in 0..CHANNELS {
+        if let Some(s) = drv.sense_setup(ch) {
+            defmt::info!(
+                "ch{=usize}: converter zero {=f32} counts, comparator at {} counts = {=f32} A",
+                ch,
+                s.zero_counts,
+                s.trip_counts,
+                s.trip_level.value()
+            );
+        }
         if let Some(level) = drv.sense_setup(ch).and_then(|s| s.trip_counts) {
             if board::preset_reference(ch, level).is_err() {
                 defmt::warn!(
@@ -185,9 +198,17 @@ fn TIMER_IRQ_0() {
     };
     s.alarm.clear_interrupt();
     while let Some(a) = critical_section::with(|cs| ASKS.borrow_ref_mut(cs).pop_front()) {
-        let Ask::Pulse(ch, pulse) = a;
-        // The outcome is queued as an event as well; it is logged below.
-        let _ = s.drv.request(s.clock.now(), ch, pulse);
+        let now = s.clock.now();
+        match a {
+            // The outcome is queued as an event as well; it is logged below.
+            Ask::Pulse(ch, pulse) => {
+                let _ = s.drv.request(now, ch, pulse);
+            }
+            Ask::Reenable(ch) => match s.drv.reenable(now, ch) {
+                Ok(()) => defmt::info!("ch{=usize}: re-enable asked, diagnostic pulse due", ch),
+                Err(e) => defmt::info!("ch{=usize}: not re-enabled: {}", ch, e),
+            },
+        }
     }
     let now = s.clock.now();
     let next = match s.drv.service(now) {
@@ -208,15 +229,27 @@ fn TIMER_IRQ_0() {
 
 /// The irrigation programme (invented): every 10 minutes the valve opens for 2 minutes, and
 /// 20 s after it opens the dosing pump runs for 8 s. Each request is refused rather than started
-/// more than 30 s late.
-fn programme(mut clock: TimerClock) -> ! {
+/// more than 30 s late. A press of the re-enable button (held 50 ms) asks every channel back
+/// into service; the driver answers "not isolated" for a channel in service.
+fn programme(mut clock: TimerClock, mut button: setup::Button) -> ! {
     const CYCLE: u32 = 600_000_000;
     const LATE: Ticks = Ticks(30_000_000);
     let mut cycle_start = clock.now().after(Ticks(5_000_000));
     let mut dosed = true;
     let mut opened = false;
+    let mut held_ms = 0u32;
     loop {
         let now = clock.now();
+        if button.is_low().unwrap_or(false) {
+            held_ms = held_ms.saturating_add(10);
+            if held_ms == 50 {
+                for ch in 0..CHANNELS {
+                    ask(Ask::Reenable(ch));
+                }
+            }
+        } else {
+            held_ms = 0;
+        }
         if !opened && now.is_at_or_after(cycle_start) {
             opened = ask(Ask::Pulse(0, Pulse::now(Ticks(120_000_000)).within(LATE)));
             dosed = false;
@@ -236,12 +269,12 @@ fn programme(mut clock: TimerClock) -> ! {
 
 #[cortex_m_rt::entry]
 fn main() -> ! {
-    let started = setup::setup().and_then(|hw| {
+    let started = setup::setup().and_then(|(hw, button)| {
         let clock = hw.clock;
-        start(hw).map(|()| clock)
+        start(hw).map(|()| (clock, button))
     });
     match started {
-        Ok(clock) => programme(clock),
+        Ok((clock, button)) => programme(clock, button),
         Err(e) => {
             defmt::error!("start-up failed: {}; every gate stays off", e);
             loop {

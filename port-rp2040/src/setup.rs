@@ -50,10 +50,14 @@ pub struct Hardware {
     pub adc_first_result: Option<u32>,
 }
 
+/// The operator's re-enable push button (GPIO15 to ground, internal pull-up).
+pub type Button =
+    hal::gpio::Pin<hal::gpio::DynPinId, hal::gpio::FunctionSioInput, hal::gpio::PullUp>;
+
 /// Clocks (125 MHz system, 48 MHz ADC/USB, 1 MHz TIMER tick), gate PWM slices, comparator
 /// references and inputs, ADC + DMA; the board installed and its interrupts unmasked; the ADC
-/// start lead measured.
-pub fn setup() -> Result<Hardware, StartError> {
+/// start lead measured. The re-enable button comes back separately, for the main loop.
+pub fn setup() -> Result<(Hardware, Button), StartError> {
     let mut pac = pac::Peripherals::take().ok_or(StartError::Clocks)?;
     let mut watchdog = hal::Watchdog::new(pac.WATCHDOG);
     let clocks = init_clocks_and_plls(
@@ -102,6 +106,7 @@ pub fn setup() -> Result<Hardware, StartError> {
     let _ = s3.channel_a.output_to(pins.gpio6);
     let _ = s3.channel_b.output_to(pins.gpio7);
     s3.enable();
+    let button = pins.gpio15.into_pull_up_input().into_dyn_pin();
     let cmp_pins = [
         pins.gpio10.into_floating_input().into_dyn_pin(),
         pins.gpio11.into_floating_input().into_dyn_pin(),
@@ -138,10 +143,11 @@ pub fn setup() -> Result<Hardware, StartError> {
         core.NVIC
             .set_priority(pac::Interrupt::TIMER_IRQ_0, SERVICE_PRIORITY)
     };
-    Ok(Hardware {
+    let hw = Hardware {
         handles,
         clock,
         alarm,
         adc_first_result,
-    })
+    };
+    Ok((hw, button))
 }
