@@ -23,14 +23,32 @@ pub fn event(e: &Event) {
     let (t, ch) = (e.at.0, e.channel);
     match &e.kind {
         EventKind::Judged {
-            source, verdict, ..
-        } => defmt::info!(
-            "t={=u32} us ch{=u8} {} judged: {=str}",
-            t,
-            ch,
             source,
-            words::finding(&verdict.finding)
-        ),
+            verdict,
+            comparator,
+            ..
+        } => {
+            let est = &verdict.estimates;
+            defmt::info!(
+                "t={=u32} us ch{=u8} {} judged: {=str} (R {=?} ohm, L {=?} H, tau {=?} s)",
+                t,
+                ch,
+                source,
+                words::finding(&verdict.finding),
+                est.resistance.map(|r| r.value()),
+                est.inductance.map(|l| l.value()),
+                est.tau.map(|x| x.value())
+            );
+            if let Some(c) = comparator {
+                defmt::info!(
+                    "t={=u32} us ch{=u8} comparator {}: {=str}",
+                    t,
+                    ch,
+                    c.crossing,
+                    words::finding(&c.finding)
+                );
+            }
+        }
         EventKind::Delayed { reason, start } => defmt::info!(
             "t={=u32} us ch{=u8} delayed to {=u32} us: {=str}",
             t,
