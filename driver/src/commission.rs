@@ -159,6 +159,9 @@ where
         let v = self.commission(clock.now())?;
         while self.phase == Phase::Running {
             let next = self.service(clock.now())?;
+            if self.phase != Phase::Running {
+                break;
+            }
             let d = next.since(clock.now());
             if d > 0 {
                 // ticks → ns, rounded up; 64-bit so that long waits do not overflow.

@@ -2,9 +2,9 @@
 //!
 //! The driver pushes an event for every finding, delay, refusal, isolation and recovery; the
 //! application pops them ([`crate::Driver::pop_event`]) when it likes (a main loop, a
-//! lower-priority task). When the queue is full the event is dropped and *counted*: the next
-//! event that fits is preceded by an [`EventKind::Lost`] with the number dropped, and
-//! [`EventQueue::lost`] keeps the total. So `events popped (Lost excluded) + Σ Lost.count +
+//! lower-priority task). When the queue is full the event is dropped and *counted*: the first
+//! pop after a loss puts an [`EventKind::Lost`] with the number dropped at the end of the queue
+//! (where the dropped events would have been), and [`EventQueue::lost`] keeps the total. So `events popped (Lost excluded) + Σ Lost.count +
 //! pending loss = events emitted`, always ([`EventQueue::emitted`]).
 
 use coilwise::diagnosis::{Finding, Verdict};
@@ -138,6 +138,8 @@ pub struct EventQueue<const E: usize> {
     pending_lost: u32,
     lost: u32,
     emitted: u32,
+    /// Time and channel of the latest event dropped.
+    last: (Instant, u8),
 }
 
 impl<const E: usize> Default for EventQueue<E> {
@@ -160,6 +162,7 @@ impl<const E: usize> EventQueue<E> {
             pending_lost: 0,
             lost: 0,
             emitted: 0,
+            last: (Instant(0), 0),
         }
     }
 
@@ -190,26 +193,14 @@ impl<const E: usize> EventQueue<E> {
         self.len += 1;
     }
 
-    /// Queues `e`, or counts it as lost when there is no room (a loss marker needs a slot of its
-    /// own first). Never blocks, never panics.
+    /// Queues `e`, or counts it as lost when the queue is full. Never blocks, never panics.
     pub fn push(&mut self, e: Event) {
         self.emitted = self.emitted.wrapping_add(1);
-        let free = E - self.len as usize;
-        let need = if self.pending_lost > 0 { 2 } else { 1 };
-        if free < need {
+        if self.len as usize >= E {
             self.pending_lost = self.pending_lost.saturating_add(1);
             self.lost = self.lost.saturating_add(1);
+            self.last = (e.at, e.channel);
             return;
-        }
-        if self.pending_lost > 0 {
-            self.put(Event {
-                at: e.at,
-                channel: e.channel,
-                kind: EventKind::Lost {
-                    count: self.pending_lost,
-                },
-            });
-            self.pending_lost = 0;
         }
         self.put(e);
     }
@@ -222,10 +213,24 @@ impl<const E: usize> EventQueue<E> {
         let e = self.items[self.head as usize].take();
         self.head = ((self.head as usize + 1) % E) as u8;
         self.len -= 1;
+        // Everything dropped came after everything still queued: the marker goes last, in the
+        // slot just freed, at the time and channel of the last event dropped.
+        if self.pending_lost > 0 {
+            let (at, channel) = self.last;
+            self.put(Event {
+                at,
+                channel,
+                kind: EventKind::Lost {
+                    count: self.pending_lost,
+                },
+            });
+            self.pending_lost = 0;
+        }
         e
     }
 
-    /// Events dropped that no [`EventKind::Lost`] in the queue reports yet.
+    /// Events dropped that no [`EventKind::Lost`] in the queue reports yet (non-zero only while
+    /// the queue is full).
     pub const fn unreported_loss(&self) -> u32 {
         self.pending_lost
     }
@@ -252,14 +257,17 @@ mod tests {
         assert_eq!(q.lost(), 2);
         assert_eq!(q.unreported_loss(), 2);
         assert_eq!(q.pop().map(|e| e.at), Some(Instant(0)));
-        assert_eq!(q.pop().map(|e| e.at), Some(Instant(1)));
-        // Room for the marker and one more.
-        q.push(ev(9));
+        // The marker took the freed slot: still full.
         assert_eq!(q.unreported_loss(), 0);
+        q.push(ev(9));
+        assert_eq!(q.lost(), 3);
+        assert_eq!(q.pop().map(|e| e.at), Some(Instant(1)));
         assert_eq!(q.pop().map(|e| e.at), Some(Instant(2)));
         assert_eq!(q.pop().map(|e| e.kind), Some(EventKind::Lost { count: 2 }));
-        assert_eq!(q.pop().map(|e| e.at), Some(Instant(9)));
+        assert_eq!(q.pop().map(|e| e.kind), Some(EventKind::Lost { count: 1 }));
         assert_eq!(q.pop(), None);
-        assert_eq!(q.emitted(), 6);
+        q.push(ev(10));
+        assert_eq!(q.pop().map(|e| e.at), Some(Instant(10)));
+        assert_eq!(q.emitted(), 7);
     }
 }
