@@ -36,6 +36,8 @@ use hal::gpio::{DynPinId, FunctionPwm, OutputOverride, Pin, PullDown};
 use hal::pac::{self, interrupt};
 use hal::pwm::{FreeRunning, Pwm1, Pwm2, Slice};
 
+use coilwise_rp2040_arith::gate::{self, Gate, Pad};
+
 use crate::capture::Engine;
 use crate::comparator::Comparators;
 use crate::seam::{Capture, Crossing, CurrentSense, SenseErrorKind, SensePlan, SenseScale};
@@ -55,14 +57,6 @@ pub struct GateSlices {
     pub ch1: Slice<Pwm2, FreeRunning>,
 }
 
-/// What one channel's gate does now.
-#[derive(Clone, Copy, Debug, PartialEq, Eq)]
-enum Gate {
-    Off,
-    Full,
-    Hold(u16),
-}
-
 struct Drive {
     pin: GatePin,
     switch_on: bool,
@@ -71,11 +65,7 @@ struct Drive {
 
 impl Drive {
     fn gate(&self) -> Gate {
-        match (self.duty, self.switch_on) {
-            (0, false) => Gate::Off,
-            (0, true) => Gate::Full,
-            (d, _) => Gate::Hold(d),
-        }
+        Gate::of(self.switch_on, self.duty)
     }
 }
 
@@ -152,48 +142,34 @@ impl Board {
         }
     }
 
-    /// Applies a switch or duty change to channel `ch`'s gate; an off → on change starts the
-    /// armed capture and comparator (see the module doc).
+    /// Applies a switch or duty change to channel `ch`'s gate in the order of
+    /// [`gate::step`]; an off → on change starts the armed capture and comparator (see the
+    /// module doc).
     fn drive(&mut self, ch: usize, switch_on: bool, duty: u16) {
         let Some(d) = self.drive.get_mut(ch) else {
             return;
         };
         let before = d.gate();
         d.switch_on = switch_on;
-        d.duty = duty.min(HOLD_TOP + 1);
-        let after = d.gate();
-        if before == after {
+        d.duty = duty;
+        let Some(st) = gate::step(before, d.gate()) else {
             return;
+        };
+        if st.compare_first {
+            self.set_compare(ch, st.compare, st.restart_counter);
         }
-        let was_off = before == Gate::Off;
-        match after {
-            Gate::Off => {
-                self.drive[ch]
-                    .pin
-                    .set_output_override(OutputOverride::AlwaysLow);
-                self.set_compare(ch, 0, false);
-            }
-            Gate::Full => {
-                if was_off {
-                    self.engine.start(ch);
-                }
-                self.drive[ch]
-                    .pin
-                    .set_output_override(OutputOverride::AlwaysHigh);
-                // Latched at the next wrap, while the override holds the gate high.
-                self.set_compare(ch, HOLD_TOP + 1, false);
-            }
-            Gate::Hold(duty) => {
-                self.set_compare(ch, duty, was_off);
-                if was_off {
-                    self.engine.start(ch);
-                }
-                self.drive[ch]
-                    .pin
-                    .set_output_override(OutputOverride::DontInvert);
-            }
+        if st.switch_on_edge {
+            self.engine.start(ch);
         }
-        if was_off {
+        self.drive[ch].pin.set_output_override(match st.pad {
+            Pad::Low => OutputOverride::AlwaysLow,
+            Pad::High => OutputOverride::AlwaysHigh,
+            Pad::Pwm => OutputOverride::DontInvert,
+        });
+        if !st.compare_first {
+            self.set_compare(ch, st.compare, st.restart_counter);
+        }
+        if st.switch_on_edge {
             let on = timer_now();
             self.comparators.start(ch, on);
         }

@@ -11,7 +11,7 @@
 //! rail must be the same 3.3 V for the two scales to agree (the bring-up checklist measures
 //! both).
 //!
-//! Settling: [`SETTLE_TICKS`] = 1.5 ms brings a full-scale step within a quarter count (checked
+//! Settling: [`SETTLE_TICKS`](coilwise_rp2040_arith::reference::SETTLE_TICKS) = 1.5 ms brings a full-scale step within a quarter count (checked
 //! in the arithmetic crate against the ladder's exact two-pole step response). A switch-on edge
 //! sooner than that after a level change gets no comparator reading: `crossing` answers `Busy`
 //! for that pulse rather than a time against a moving threshold. The driver treats every sense
@@ -25,44 +25,28 @@
 //! 125 MHz with nothing of higher priority running) and rounds down to whole µs.
 
 use coilwise::{Instant, Ticks};
+use embedded_hal::pwm::SetDutyCycle;
 use rp2040_hal as hal;
 
-use embedded_hal::pwm::SetDutyCycle;
+use coilwise_rp2040_arith::watch::Threshold;
 use hal::gpio::{DynPinId, FunctionSioInput, Interrupt, Pin, PullNone};
 use hal::pwm::{FreeRunning, Pwm3, Slice};
 
 use crate::seam::SenseErrorKind;
 
-pub use coilwise_rp2040_arith::reference::{compare_for, REF_STEPS, SETTLE_TICKS};
+pub use coilwise_rp2040_arith::reference::{compare_for, REF_STEPS};
 
 /// A comparator output wired to a GPIO input.
 pub type ComparatorPin = Pin<DynPinId, FunctionSioInput, PullNone>;
 
-/// What one channel's comparator is doing.
-#[derive(Clone, Copy, Debug, PartialEq, Eq)]
-enum Watch {
-    /// No trip level armed for this pulse.
-    Off,
-    /// Armed: watch from the next switch-on edge.
-    Armed,
-    /// The reference had not settled at the edge: no reading for this pulse.
-    Unsettled,
-    /// Watching since the edge at `on`.
-    Since { on: Instant },
-    /// Tripped this many ticks after the edge.
-    Tripped(Ticks),
-}
-
 struct Cmp {
     pin: ComparatorPin,
-    level: Option<u16>,
-    /// The reference is settled from this instant on.
-    ready_at: Instant,
-    watch: Watch,
+    state: Threshold,
 }
 
 /// The comparators of both channels and their reference PWM (slice 3: A → channel 0,
-/// B → channel 1).
+/// B → channel 1). The state of each across a pulse is [`Threshold`]; this type moves the
+/// registers.
 pub struct Comparators {
     reference: Slice<Pwm3, FreeRunning>,
     cmp: [Cmp; 2],
@@ -82,12 +66,19 @@ impl Comparators {
             pin.set_interrupt_enabled(Interrupt::LevelHigh, false);
             Cmp {
                 pin,
-                level: None,
-                ready_at: now,
-                watch: Watch::Off,
+                state: Threshold::new(now),
             }
         });
         Self { reference, cmp }
+    }
+
+    fn write_reference(&mut self, ch: usize, compare: Option<u16>) {
+        if let Some(c) = compare {
+            let _ = match ch {
+                0 => self.reference.channel_a.set_duty_cycle(c),
+                _ => self.reference.channel_b.set_duty_cycle(c),
+            };
+        }
     }
 
     /// Arms channel `ch`'s comparator at `level` counts for the next switch-on edge (`None`:
@@ -100,20 +91,8 @@ impl Comparators {
     ) -> Result<(), SenseErrorKind> {
         let c = self.cmp.get_mut(ch).ok_or(SenseErrorKind::Other)?;
         c.pin.set_interrupt_enabled(Interrupt::LevelHigh, false);
-        let Some(level) = level else {
-            c.watch = Watch::Off;
-            return Ok(());
-        };
-        let compare = compare_for(level)?;
-        if c.level != Some(level) {
-            let _ = match ch {
-                0 => self.reference.channel_a.set_duty_cycle(compare),
-                _ => self.reference.channel_b.set_duty_cycle(compare),
-            };
-            c.level = Some(level);
-            c.ready_at = now.after(Ticks(SETTLE_TICKS));
-        }
-        c.watch = Watch::Armed;
+        let write = c.state.arm(level, now)?;
+        self.write_reference(ch, write);
         Ok(())
     }
 
@@ -121,40 +100,26 @@ impl Comparators {
     /// it (e.g. the trip level the driver chose at commissioning), so that the first of them
     /// finds it settled. Arms nothing.
     pub fn preset(&mut self, ch: usize, level: u16, now: Instant) -> Result<(), SenseErrorKind> {
-        let watch = self.cmp.get(ch).ok_or(SenseErrorKind::Other)?.watch;
-        self.arm(ch, Some(level), now)?;
-        self.cmp[ch].watch = watch;
+        let c = self.cmp.get_mut(ch).ok_or(SenseErrorKind::Other)?;
+        let write = c.state.preset(level, now)?;
+        self.write_reference(ch, write);
         Ok(())
     }
 
     /// Channel `ch` switched on at `on` (inside the drive's critical section).
     pub fn start(&mut self, ch: usize, on: Instant) {
-        let Some(c) = self.cmp.get_mut(ch) else {
-            return;
-        };
-        match c.watch {
-            Watch::Armed if on.is_at_or_after(c.ready_at) => {
-                c.watch = Watch::Since { on };
-                c.pin.set_interrupt_enabled(Interrupt::LevelHigh, true);
-            }
-            Watch::Armed => c.watch = Watch::Unsettled,
-            // A new pulse without a new plan: the old reading is not this pulse's.
-            Watch::Tripped(_) | Watch::Since { .. } | Watch::Unsettled => {
-                c.pin.set_interrupt_enabled(Interrupt::LevelHigh, false);
-                c.watch = Watch::Off;
-            }
-            Watch::Off => {}
+        if let Some(c) = self.cmp.get_mut(ch) {
+            let watch = c.state.edge(on);
+            c.pin.set_interrupt_enabled(Interrupt::LevelHigh, watch);
         }
     }
 
     /// The `IO_IRQ_BANK0` work: timestamps every watching comparator whose output is high.
     pub fn on_interrupt(&mut self, now: Instant) {
         for c in self.cmp.iter_mut() {
-            if let Watch::Since { on } = c.watch {
-                if c.pin.interrupt_status(Interrupt::LevelHigh) {
-                    c.pin.set_interrupt_enabled(Interrupt::LevelHigh, false);
-                    c.watch = Watch::Tripped(Ticks(now.since(on).max(0) as u32));
-                }
+            if c.state.watching() && c.pin.interrupt_status(Interrupt::LevelHigh) {
+                c.state.trip(now);
+                c.pin.set_interrupt_enabled(Interrupt::LevelHigh, false);
             }
         }
     }
@@ -163,11 +128,10 @@ impl Comparators {
     /// `Ok(None)` not (yet) or no level armed; `Busy` when the reference was still settling at
     /// the edge.
     pub fn reading(&self, ch: usize) -> Result<Option<Ticks>, SenseErrorKind> {
-        match self.cmp.get(ch).map(|c| c.watch) {
-            Some(Watch::Tripped(t)) => Ok(Some(t)),
-            Some(Watch::Unsettled) => Err(SenseErrorKind::Busy),
-            Some(_) => Ok(None),
-            None => Err(SenseErrorKind::Other),
-        }
+        self.cmp
+            .get(ch)
+            .ok_or(SenseErrorKind::Other)?
+            .state
+            .reading()
     }
 }
