@@ -126,12 +126,7 @@ fn start(hw: Hardware) -> Result<(), StartError> {
         handles,
         mut clock,
         mut alarm,
-        adc_first_result,
     } = hw;
-    match adc_first_result {
-        Some(t) => defmt::info!("ADC: first result {=u32} us after start (100 us period)", t),
-        None => defmt::warn!("ADC: no result within 1 ms of start: clk_adc not running?"),
-    }
     let hw = handles.map(|(sw, hold, sense)| ChannelHw::new(sw, hold, sense));
     let drv = Drv::new(configs()?, hw, clock.rate(), clock.now(), 1).map_err(|e| {
         defmt::error!("driver set-up: {}", e);

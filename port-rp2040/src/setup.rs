@@ -15,6 +15,7 @@ use crate::capture::{self, Engine, CAPACITY};
 use crate::clock::TimerClock;
 use crate::comparator::{Comparators, REF_STEPS};
 use crate::design;
+use coilwise_rp2040_arith::adc::{pacing_ok, PACING_SAMPLES, PACING_TOLERANCE};
 
 /// Crystal on the board, Hz.
 const XTAL_HZ: u32 = 12_000_000;
@@ -32,6 +33,8 @@ pub enum StartError {
     Pins,
     /// The board was installed twice.
     Board,
+    /// The ADC's start or pacing is not what the capture timing assumes (see the log).
+    Adc,
     /// A channel design or its limits are invalid.
     Design,
     /// The driver refused to start (its error is logged).
@@ -46,8 +49,6 @@ pub struct Hardware {
     pub clock: TimerClock,
     /// TIMER alarm 0, for the service interrupt.
     pub alarm: hal::timer::Alarm0,
-    /// Measured delay from ADC start to its first result, µs (`None`: no result in 1 ms).
-    pub adc_first_result: Option<u32>,
 }
 
 /// The operator's re-enable push button (GPIO15 to ground, internal pull-up).
@@ -55,8 +56,9 @@ pub type Button =
     hal::gpio::Pin<hal::gpio::DynPinId, hal::gpio::FunctionSioInput, hal::gpio::PullUp>;
 
 /// Clocks (125 MHz system, 48 MHz ADC/USB, 1 MHz TIMER tick), gate PWM slices, comparator
-/// references and inputs, ADC + DMA; the board installed and its interrupts unmasked; the ADC
-/// start lead measured. The re-enable button comes back separately, for the main loop.
+/// references and inputs, ADC + DMA; the ADC's start lead measured and its pacing checked
+/// (a failed check stops here, before any gate is driven); the board installed and its
+/// interrupts unmasked. The re-enable button comes back separately, for the main loop.
 pub fn setup() -> Result<(Hardware, Button), StartError> {
     let mut pac = pac::Peripherals::take().ok_or(StartError::Clocks)?;
     let mut watchdog = hal::Watchdog::new(pac.WATCHDOG);
@@ -124,6 +126,24 @@ pub fn setup() -> Result<(Hardware, Button), StartError> {
     let buf1 = cortex_m::singleton!(: [u16; CAPACITY] = [0; CAPACITY]).ok_or(StartError::Pins)?;
     let mut engine = Engine::new(adc, dma.ch0, [sense0, sense1], [buf0, buf1]);
     let adc_first_result = engine.measure_lead(|| board::timer_now().0);
+    let adc_pacing = engine.measure_pacing(|| board::timer_now().0);
+    match adc_first_result {
+        Some(t) => defmt::info!("ADC: first result {=u32} us after start (100 us period)", t),
+        None => defmt::error!("ADC: no result within 1 ms of start: clk_adc not running?"),
+    }
+    match adc_pacing {
+        Some(t) => defmt::info!(
+            "ADC: {=u32} conversions at 2 us took {=u32} us (want {=u32} +/- {=u32})",
+            PACING_SAMPLES,
+            t,
+            PACING_SAMPLES * capture::MIN_PERIOD,
+            PACING_TOLERANCE
+        ),
+        None => defmt::error!("ADC: pacing not measurable (FIFO overflow or no results)"),
+    }
+    if adc_first_result.is_none() || !adc_pacing.is_some_and(pacing_ok) {
+        return Err(StartError::Adc);
+    }
 
     let clock = TimerClock::new(timer).ok_or(StartError::Clocks)?;
     let comparators = Comparators::new(s3, cmp_pins, board::timer_now());
@@ -147,7 +167,6 @@ pub fn setup() -> Result<(Hardware, Button), StartError> {
         handles,
         clock,
         alarm,
-        adc_first_result,
     };
     Ok((hw, button))
 }

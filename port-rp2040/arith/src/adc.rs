@@ -57,6 +57,21 @@ pub const fn lead_from_delay(delay: u32, period: u32) -> u32 {
     }
 }
 
+/// Samples timed by the start-up pacing check ([`pacing_ok`]).
+pub const PACING_SAMPLES: u32 = 400;
+/// Largest deviation the pacing check accepts, ticks: two TIMER readings of ±1 tick each plus
+/// one of polling latency, 0.375 % of the 800 µs measured.
+pub const PACING_TOLERANCE: u32 = 3;
+
+/// Whether [`PACING_SAMPLES`] conversions at the shortest period ([`MIN_PERIOD`], 96 ADC
+/// clocks) took the expected `PACING_SAMPLES · MIN_PERIOD` = 800 µs within
+/// [`PACING_TOLERANCE`]. A converter that needs even one clock more per conversion (97 of
+/// 48 MHz: +1 %, 808.3 µs) fails, so the capture's time axis is known to 0.4 % before a coil
+/// is driven.
+pub const fn pacing_ok(elapsed: u32) -> bool {
+    elapsed.abs_diff(PACING_SAMPLES * MIN_PERIOD) <= PACING_TOLERANCE
+}
+
 /// A FIFO word as a 12-bit reading; `Other` when the word carries the conversion-error flag.
 pub const fn decode(word: u16) -> Result<u16, SenseErrorKind> {
     if word & FIFO_ERR != 0 {
@@ -201,6 +216,21 @@ mod tests {
         assert_eq!((t.skip, t.first), (0, Ticks(120)));
         let t = Timing::plan(Ticks(120), Ticks(120), 64, 0).unwrap();
         assert_eq!((t.skip, t.first), (1, Ticks(120)));
+    }
+
+    /// 500 kS/s (RP2040 datasheet, from memory): 400 conversions take 800 µs.
+    #[test]
+    fn pacing_check() {
+        assert_eq!(PACING_SAMPLES * MIN_PERIOD, 800);
+        for e in 797..=803 {
+            assert!(pacing_ok(e), "{e}");
+        }
+        assert!(!pacing_ok(796) && !pacing_ok(804));
+        // One ADC clock more per conversion: 400 · 97 / 48 MHz = 808.3 µs.
+        let slow = (PACING_SAMPLES * (CONVERSION_CLOCKS + 1)).div_ceil(ADC_CLOCKS_PER_TICK);
+        assert_eq!(slow, 809);
+        assert!(!pacing_ok(slow) && !pacing_ok(slow - 1));
+        assert!(!pacing_ok(0) && !pacing_ok(u32::MAX));
     }
 
     #[test]
