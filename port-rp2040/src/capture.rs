@@ -32,9 +32,7 @@ use hal::gpio::{DynPinId, FunctionNull, Pin, PullNone};
 use crate::seam::SenseErrorKind;
 
 use coilwise_rp2040_arith::adc::{decode, div_int, lead_from_delay, PACING_SAMPLES};
-pub use coilwise_rp2040_arith::adc::{
-    Timing, ADC_CLOCKS_PER_TICK, ADC_HZ, CAPACITY, MAX_SAMPLES, MIN_PERIOD,
-};
+pub use coilwise_rp2040_arith::adc::{Timing, ADC_HZ, CAPACITY, MAX_SAMPLES, MIN_PERIOD};
 
 /// A sense input of the ADC (GPIO26…29 with its digital input and output disabled).
 pub type SensePin = AdcPin<Pin<DynPinId, FunctionNull, PullNone>>;
@@ -47,9 +45,10 @@ pub struct Window {
     len: usize,
 }
 
-// SAFETY: the address and count handed to the DMA lie inside `buf` (`len ≤ CAPACITY` is checked
-// in `Engine::prepare`), `buf` is a `'static` exclusive borrow, and the window owns it for as long
-// as the transfer holds the window: no one else can touch the memory while the DMA writes it.
+// SAFETY: the address and count handed to the DMA lie inside `buf` (the count is clamped to
+// CAPACITY, the buffer's length), `buf` is a `'static` exclusive borrow, and the window owns it
+// for as long as the transfer holds the window: no one else can touch the memory while the DMA
+// writes it.
 unsafe impl WriteTarget for Window {
     type TransmittedWord = u16;
 
@@ -58,7 +57,7 @@ unsafe impl WriteTarget for Window {
     }
 
     fn tx_address_count(&mut self) -> (u32, u32) {
-        (self.buf.as_mut_ptr() as u32, self.len as u32)
+        (self.buf.as_mut_ptr() as u32, self.len.min(CAPACITY) as u32)
     }
 
     fn tx_increment(&self) -> bool {
@@ -125,10 +124,11 @@ impl<const N: usize> Engine<N> {
     /// (`None` if no result came within 1 ms: the ADC clock is not running, and the lead stays
     /// the conservative 1).
     pub fn measure_lead(&mut self, now: impl Fn() -> u32) -> Option<u32> {
+        let int = div_int(Ticks(100)).ok()?;
         let adc = self.adc.take()?;
         let mut fifo = adc
             .build_fifo()
-            .clock_divider((100 * ADC_CLOCKS_PER_TICK - 1) as u16, 0)
+            .clock_divider(int, 0)
             .set_channel(&mut self.pins[0])
             .start_paused();
         fifo.clear();
