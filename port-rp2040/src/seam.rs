@@ -1,0 +1,5 @@
+//! The driver library's hardware seam, as this port implements it.
+
+pub use coilwise_driver::{
+    Capture, Crossing, CurrentSense, SenseErrorKind, SensePlan, SenseScale, TickSource,
+};
