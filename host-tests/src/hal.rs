@@ -14,7 +14,8 @@ use embedded_hal::delay::DelayNs;
 use embedded_hal::digital::{ErrorType, OutputPin, StatefulOutputPin};
 use embedded_hal::pwm::SetDutyCycle;
 
-use crate::bench::{Bench, SensePoint};
+use crate::bench::Bench;
+use crate::observe::SensePoint;
 use crate::params::{check, SimError};
 use crate::sense::{AdcConfig, Prng};
 

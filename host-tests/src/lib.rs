@@ -98,18 +98,22 @@
 
 mod bench;
 pub mod demo;
+mod energy;
 mod hal;
+mod node;
+mod observe;
 mod params;
 mod plant;
 #[cfg(feature = "std")]
 pub mod record;
 mod sense;
 
-pub use bench::{
-    ArmatureState, Bench, ChannelStats, Comparator, Energy, Event, EventKind, Probe, SensePoint,
-    SolverCounters, SupplyEnergy,
-};
+pub use bench::Bench;
+pub use energy::{Energy, SupplyEnergy};
 pub use hal::{GatePin, PwmGate, Rig, SenseAdc, VirtualClock};
+pub use observe::{
+    ArmatureState, ChannelStats, Comparator, Event, EventKind, Probe, SensePoint, SolverCounters,
+};
 pub use params::{
     Armature, ChannelParams, Clamp, Coil, DiodeLaw, Fault, Mechanics, SimError, Snubber,
     SolverSettings, Stepping, Supply, Switch, Topology, THERMAL_VOLTS_25C,

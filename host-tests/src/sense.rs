@@ -1,7 +1,7 @@
 //! Current sensing as firmware sees it: ADC counts with quantisation and
 //! deterministic noise.
 
-use crate::bench::SensePoint;
+use crate::observe::SensePoint;
 use crate::params::{check, finite_ge0, finite_gt0, SimError};
 
 /// Small deterministic pseudo-random generator (SplitMix64 output function
