@@ -10,8 +10,13 @@
 pub struct Energy {
     /// Delivered by the rail into this channel (`∫ V+·i_switch dt`).
     pub from_rail: f64,
-    /// Heat in the winding resistance.
+    /// Heat in the winding resistance (all its turns, a shorted section's
+    /// included).
     pub winding: f64,
+    /// Heat in the insulation-fault bridge of a shorted section.
+    pub bridge: f64,
+    /// Heat in the eddy-current loop.
+    pub eddy: f64,
     /// Heat in wiring and added series resistance.
     pub wiring: f64,
     /// Heat in the sense resistor.
@@ -33,7 +38,8 @@ pub struct Energy {
     /// Removed by discrete events: faults that change the coil, the
     /// current floor, and end-stop projection corrections.
     pub removed_by_events: f64,
-    /// Stored in the magnetic field now, `½·L(x)·i²`.
+    /// Stored in the magnetic field now: `½·L(x)·i²` for a linear coil,
+    /// `iᵀλ − W'` with coupled loops or saturation ([`crate::magnetics`]).
     pub magnetic_stored: f64,
     /// Stored in the snubber capacitor now, `½·C·vc²`.
     pub capacitor_stored: f64,
@@ -47,6 +53,8 @@ impl Energy {
     /// Sum of all sinks (J).
     pub fn dissipated(&self) -> f64 {
         self.winding
+            + self.bridge
+            + self.eddy
             + self.wiring
             + self.sense
             + self.switch_conduction

@@ -1,7 +1,7 @@
 //! What the bench reports: armature state, sense points, comparator, events,
 //! per-channel running statistics, instantaneous probes and solver counters.
 
-use crate::params::Fault;
+use crate::fault::Fault;
 
 /// Position of the armature relative to its stops.
 #[derive(Debug, Clone, Copy, PartialEq, Eq, Default)]
@@ -69,6 +69,10 @@ pub enum EventKind {
     FaultsCleared,
     /// The supply voltage was changed (new volts).
     SupplyChanged(f64),
+    /// The coil's magnetic extras were changed ([`crate::Bench::set_magnetics`]).
+    MagneticsChanged,
+    /// The coil current was set ([`crate::Bench::set_current`]; amperes).
+    CurrentSet(f64),
 }
 
 /// A timestamped event.
@@ -168,8 +172,13 @@ pub struct Probe {
     pub position: f64,
     /// Armature velocity, m/s.
     pub velocity_m_per_s: f64,
-    /// Present inductance, H.
+    /// Inductance of the winding's position law `L(x)` now, H (before any
+    /// shorted section, eddy loop or saturation).
     pub inductance_henries: f64,
+    /// Current in the bridged section of shorted turns, A (0 without one).
+    pub section_amps: f64,
+    /// Current in the eddy-current loop, A (0 without one).
+    pub eddy_amps: f64,
     /// Magnetic force on the armature, N.
     pub magnetic_force_newtons: f64,
     /// Whether the switch is on.

@@ -1,8 +1,11 @@
 //! The per-channel circuit and armature equations (right-hand side of the ODE).
 //!
-//! State per channel: flux linkage `λ` (Wb), armature position `p` (m),
-//! velocity `u` (m/s), snubber capacitor voltage `vc` (V), and energy
-//! integrals (J). The coil current follows from `i = λ / L(x)`.
+//! State per channel: flux linkage `λ` (Wb) of the winding, armature
+//! position `p` (m), velocity `u` (m/s), snubber capacitor voltage `vc` (V),
+//! flux linkages of the secondary loops (shorted section, eddy path; Wb), and
+//! energy integrals (J). For a linear coil with no secondary loop the coil
+//! current is `i = λ / L(x)`; otherwise the loop currents follow from the
+//! flux linkages as in [`crate::magnetics`].
 //!
 //! Electrical loop (low-side form; see [`crate::Topology`] for the high side):
 //!
@@ -20,52 +23,35 @@
 //! `i = i_switch(w) + i_clamp(w − V+) + i_snubber(w − V+ − vc)`.
 //! The node voltage `w` is algebraic (solved in `node.rs`).
 
+use crate::fault::FaultSet;
+use crate::magnetics::{Loops, Magnetics, EDDY, SECT, WIND};
 use crate::node::{solve_node, Node};
-use crate::params::{Armature, ChannelParams, Fault, Mechanics};
+use crate::params::{Armature, ChannelParams, Mechanics};
 
 /// Number of state slots per channel.
-pub(crate) const K: usize = 14;
+pub(crate) const K: usize = 18;
 pub(crate) const LAM: usize = 0;
 pub(crate) const POS: usize = 1;
 pub(crate) const VEL: usize = 2;
 pub(crate) const VC: usize = 3;
-pub(crate) const E_RAIL: usize = 4;
-pub(crate) const E_WIND: usize = 5;
-pub(crate) const E_WIRE: usize = 6;
-pub(crate) const E_SENSE: usize = 7;
-pub(crate) const E_SWC: usize = 8;
-pub(crate) const E_SWA: usize = 9;
-pub(crate) const E_CLAMP: usize = 10;
-pub(crate) const E_SNUB: usize = 11;
-pub(crate) const E_MECH: usize = 12;
-pub(crate) const E_DAMP: usize = 13;
+/// Flux linkage of the shorted section's loop.
+pub(crate) const LAM_S: usize = 4;
+/// Flux linkage of the eddy-current loop.
+pub(crate) const LAM_E: usize = 5;
+pub(crate) const E_RAIL: usize = 6;
+pub(crate) const E_WIND: usize = 7;
+pub(crate) const E_WIRE: usize = 8;
+pub(crate) const E_SENSE: usize = 9;
+pub(crate) const E_SWC: usize = 10;
+pub(crate) const E_SWA: usize = 11;
+pub(crate) const E_CLAMP: usize = 12;
+pub(crate) const E_SNUB: usize = 13;
+pub(crate) const E_MECH: usize = 14;
+pub(crate) const E_DAMP: usize = 15;
+pub(crate) const E_BRIDGE: usize = 16;
+pub(crate) const E_EDDY: usize = 17;
 /// Number of dynamic (error-controlled) slots; the rest are energy integrals.
-pub(crate) const DYN: usize = 4;
-
-/// Active faults of one channel.
-#[derive(Debug, Clone, Copy, PartialEq, Default)]
-pub(crate) struct FaultSet {
-    pub open: bool,
-    pub short: Option<(f64, f64)>,
-    pub shorted_fraction: f64,
-    pub extra_ohms: f64,
-    pub stuck: bool,
-}
-
-impl FaultSet {
-    pub(crate) fn apply(&mut self, f: Fault) {
-        match f {
-            Fault::Open => self.open = true,
-            Fault::Short {
-                residual_ohms,
-                residual_henries,
-            } => self.short = Some((residual_ohms, residual_henries)),
-            Fault::ShortedTurns { fraction } => self.shorted_fraction = fraction,
-            Fault::SeriesResistance { ohms } => self.extra_ohms = ohms,
-            Fault::StuckArmature => self.stuck = true,
-        }
-    }
-}
+pub(crate) const DYN: usize = 6;
 
 /// Effective (fault-adjusted) channel constants, cached for the RHS.
 #[derive(Debug, Clone, Copy, PartialEq)]
@@ -83,10 +69,15 @@ pub(crate) struct Eff {
     /// Whether the armature can move now.
     pub moving: bool,
     pub arm: Armature,
+    /// Linear coil with no secondary loop and no saturation: the plain
+    /// `i = λ/L(x)` path (kept arithmetic-for-arithmetic).
+    pub simple: bool,
+    /// The coupled-loop model (used when not `simple`).
+    pub loops: Loops,
 }
 
 impl Eff {
-    pub(crate) fn new(p: &ChannelParams, f: &FaultSet) -> Eff {
+    pub(crate) fn new(p: &ChannelParams, f: &FaultSet, mag: &Magnetics) -> Eff {
         let scale_r = 1.0 - f.shorted_fraction;
         let scale_l = scale_r * scale_r;
         let (r_coil, l_op, k) = match f.short {
@@ -112,16 +103,77 @@ impl Eff {
             ),
             Mechanics::Moving(a) => (a.stroke_m, !f.stuck, a),
         };
+        let coil = &p.coil;
+        let loops = match f.short {
+            Some(_) => Loops::new(l_op, r_coil, 1.0, l_op, None, &Magnetics::LINEAR),
+            None => Loops::new(
+                l_op,
+                r_coil,
+                coil.inductance_operated_henries / coil.inductance_released_henries,
+                coil.inductance_operated_henries,
+                f.section,
+                mag,
+            ),
+        };
+        let simple = !loops.active[SECT] && !loops.active[EDDY] && loops.sat.is_none();
         Eff {
             open: f.open,
-            r_coil,
+            r_coil: loops.r[WIND],
             r_wire: p.coil.wiring_ohms + f.extra_ohms,
             l_op,
             k,
             stroke,
             moving,
             arm,
+            simple,
+            loops,
         }
+    }
+
+    /// Flux linkages of the three loops in a state.
+    #[inline]
+    pub(crate) fn lams(y: &[f64; K]) -> [f64; 3] {
+        [y[LAM], y[LAM_S], y[LAM_E]]
+    }
+
+    /// Loop currents (A) in state `y`; `terminal_off`: the terminal loop
+    /// carries no current (open, or clamp blocking).
+    pub(crate) fn currents(&self, y: &[f64; K], terminal_off: bool) -> [f64; 3] {
+        let (l, _) = self.inductance(y[POS] / self.stroke);
+        if self.simple {
+            let i = if terminal_off { 0.0 } else { y[LAM] / l };
+            return [i, 0.0, 0.0];
+        }
+        self.loops
+            .currents(&Self::lams(y), l / self.l_op, terminal_off)
+    }
+
+    /// Stored magnetic energy (J) in state `y` (see [`Eff::currents`]).
+    pub(crate) fn stored(&self, y: &[f64; K], terminal_off: bool) -> f64 {
+        let (l, _) = self.inductance(y[POS] / self.stroke);
+        if self.simple {
+            let i = if terminal_off { 0.0 } else { y[LAM] / l };
+            return 0.5 * l * i * i;
+        }
+        let i = self
+            .loops
+            .currents(&Self::lams(y), l / self.l_op, terminal_off);
+        self.loops.stored(&Self::lams(y), &i, l / self.l_op)
+    }
+
+    /// Set the flux linkages of `y` from loop currents `i` (A).
+    pub(crate) fn set_currents(&self, y: &mut [f64; K], i: &[f64; 3]) {
+        let (l, _) = self.inductance(y[POS] / self.stroke);
+        if self.simple {
+            y[LAM] = l * i[WIND];
+            y[LAM_S] = 0.0;
+            y[LAM_E] = 0.0;
+            return;
+        }
+        let lam = self.loops.fluxes(i, l / self.l_op);
+        y[LAM] = lam[WIND];
+        y[LAM_S] = lam[SECT];
+        y[LAM_E] = lam[EDDY];
     }
 
     /// `(L, dL/dx)` at normalised position `x` (clamped to [0, 1]).
@@ -145,7 +197,12 @@ pub(crate) struct Op {
     pub x: f64,
     pub l: f64,
     pub dldx: f64,
+    /// Terminal (winding) current, A.
     pub i: f64,
+    /// Loop currents (winding, shorted section, eddy), A.
+    pub il: [f64; 3],
+    /// The terminal loop carries no current (open or clamp blocking).
+    pub terminal_off: bool,
     pub node: Node,
     /// Magnetic force along the stroke (N).
     pub force: f64,
@@ -166,13 +223,21 @@ pub(crate) fn operate(
     let vel = y[VEL];
     let x = pos / e.stroke;
     let (l, dldx) = e.inductance(x);
-    let i = if e.open { 0.0 } else { y[LAM] / l };
+    let terminal_off = e.open || (blocked && p.snubber.is_none() && !gate);
+    let (i, il, force) = if e.simple {
+        let i = if e.open { 0.0 } else { y[LAM] / l };
+        (i, [i, 0.0, 0.0], 0.5 * i * i * dldx / e.stroke)
+    } else {
+        let il = e.loops.currents(&Eff::lams(y), l / e.l_op, terminal_off);
+        // F = ∂W'/∂p at fixed currents = (dL/dx / L_op)·(W'/P) / stroke.
+        let f = dldx / e.l_op * e.loops.coenergy_unit(&il) / e.stroke;
+        (il[WIND], il, f)
+    };
     let node = if e.open {
         solve_node(p, gate, 0.0, vp, y[VC], p.snubber.is_none())
     } else {
         solve_node(p, gate, i, vp, y[VC], blocked)
     };
-    let force = 0.5 * i * i * dldx / e.stroke;
     let a = &e.arm;
     let net =
         force - (a.preload_newtons + a.spring_newtons_per_m * pos) - a.damping_newton_s_per_m * vel;
@@ -184,6 +249,8 @@ pub(crate) fn operate(
         l,
         dldx,
         i,
+        il,
+        terminal_off,
         node,
         force,
         net_force: net,
@@ -207,10 +274,29 @@ pub(crate) fn derive(
     let i = op.i;
     let n = op.node;
     let r_series = e.r_coil + e.r_wire;
-    out[LAM] = if e.open || (blocked && p.snubber.is_none() && !gate) {
-        0.0
+    let lp = &e.loops;
+    // Bridge current (terminal loop minus section loop) with a shorted section.
+    let i_bridge = if lp.active[SECT] {
+        i - op.il[SECT]
     } else {
+        0.0
+    };
+    out[LAM] = if op.terminal_off {
+        0.0
+    } else if e.simple {
         vp - n.w - r_series * i
+    } else {
+        vp - n.w - r_series * i - lp.bridge * i_bridge
+    };
+    out[LAM_S] = if lp.active[SECT] {
+        lp.bridge * i_bridge - lp.r[SECT] * op.il[SECT]
+    } else {
+        0.0
+    };
+    out[LAM_E] = if lp.active[EDDY] {
+        -lp.r[EDDY] * op.il[EDDY]
+    } else {
+        0.0
     };
     let vel = y[VEL];
     if op.pinned {
@@ -227,7 +313,13 @@ pub(crate) fn derive(
     let rs = p.sense_ohms;
     let v_sw = n.w - n.i_sw * rs;
     out[E_RAIL] = vp * n.i_sw;
-    out[E_WIND] = e.r_coil * i * i;
+    out[E_WIND] = if lp.active[SECT] {
+        e.r_coil * i * i + lp.r[SECT] * op.il[SECT] * op.il[SECT]
+    } else {
+        e.r_coil * i * i
+    };
+    out[E_BRIDGE] = lp.bridge * i_bridge * i_bridge;
+    out[E_EDDY] = lp.r[EDDY] * op.il[EDDY] * op.il[EDDY];
     out[E_WIRE] = e.r_wire * i * i;
     out[E_SENSE] = rs * n.i_sw * n.i_sw;
     let p_sw = v_sw * n.i_sw;
@@ -255,7 +347,7 @@ mod tests {
     #[test]
     fn reluctance_law_end_points() {
         let p = crate::demo::valve_24v();
-        let e = Eff::new(&p, &FaultSet::default());
+        let e = Eff::new(&p, &FaultSet::default(), &Magnetics::LINEAR);
         let (l0, _) = e.inductance(0.0);
         let (l1, d1) = e.inductance(1.0);
         assert!((l0 - 0.35).abs() < 1e-15 && (l1 - 0.70).abs() < 1e-15);

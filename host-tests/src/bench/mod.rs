@@ -5,15 +5,19 @@
 //! [`readout`] reports probes and energy.
 
 mod drive;
+mod inject;
 mod readout;
 mod step;
 mod watch;
 
+use crate::fault::FaultSet;
+use crate::magnetics::Magnetics;
 use crate::observe::{
     ArmatureState, ChannelStats, Comparator, EventKind, SensePoint, SolverCounters,
 };
-use crate::params::{ChannelParams, Fault, Mechanics, SimError, SolverSettings, Stepping, Supply};
-use crate::plant::{self, Eff, FaultSet, Op, K};
+use crate::params::{ChannelParams, Mechanics, SimError, Supply};
+use crate::plant::{self, Eff, Op, K};
+use crate::settings::{SolverSettings, Stepping};
 use drive::Drive;
 
 /// Tolerated overshoot past an end stop, as a fraction of the stroke.
@@ -50,13 +54,14 @@ struct Status {
 /// [`Bench::set_gate`] / [`Bench::set_pwm`] (or [`crate::GatePin`] /
 /// [`crate::PwmGate`]).
 ///
-/// Memory: about `(14·N + 3)·8` bytes per state copy; a step keeps seven
-/// copies on the stack (≈ 0.9 KiB for N = 1).
+/// Memory: about `(18·N + 3)·8` bytes per state copy; a step keeps seven
+/// copies on the stack (≈ 1.2 KiB for N = 1).
 #[derive(Debug, Clone)]
 pub struct Bench<const N: usize> {
     supply: Supply,
     params: [ChannelParams; N],
     faults: [FaultSet; N],
+    mag: [Magnetics; N],
     eff: [Eff; N],
     settings: SolverSettings,
     y: State<N>,
@@ -100,7 +105,8 @@ impl<const N: usize> Bench<N> {
             p.validate()?;
         }
         let faults = [FaultSet::default(); N];
-        let eff: [Eff; N] = core::array::from_fn(|c| Eff::new(&params[c], &faults[c]));
+        let mag = [Magnetics::LINEAR; N];
+        let eff: [Eff; N] = core::array::from_fn(|c| Eff::new(&params[c], &faults[c], &mag[c]));
         let blocked: [bool; N] = core::array::from_fn(|c| params[c].snubber.is_none());
         let mut y = State::<N>::ZERO;
         let mut st = [Status {
@@ -132,6 +138,7 @@ impl<const N: usize> Bench<N> {
             supply,
             params,
             faults,
+            mag,
             eff,
             settings,
             y,
@@ -326,6 +333,13 @@ impl<const N: usize> Bench<N> {
             self.gate[c] = g;
             self.k1_valid = false;
             if g {
+                if self.blocked[c] && !self.eff[c].simple {
+                    // The winding's flux linkage was not integrated while the
+                    // clamp blocked: make it consistent with zero current.
+                    let e = &self.eff[c];
+                    let i = e.currents(&self.y.ch[c], true);
+                    e.set_currents(&mut self.y.ch[c], &i);
+                }
                 self.blocked[c] = false;
             }
         }
@@ -347,64 +361,6 @@ impl<const N: usize> Bench<N> {
             }
             None => 0.0,
         }
-    }
-
-    /// Inject a fault into a channel now. The coil current is kept
-    /// continuous (flux is re-scaled); any change of stored magnetic energy
-    /// is booked as [`Energy::removed_by_events`].
-    pub fn inject(&mut self, ch: usize, fault: Fault) -> Result<(), SimError> {
-        self.check_ch(ch)?;
-        match fault {
-            Fault::Open | Fault::StuckArmature => {}
-            Fault::Short {
-                residual_ohms,
-                residual_henries,
-            } => {
-                crate::params::finite_ge0(residual_ohms, "fault.residual_ohms")?;
-                crate::params::finite_gt0(residual_henries, "fault.residual_henries")?;
-            }
-            Fault::ShortedTurns { fraction } => crate::params::check(
-                fraction.is_finite() && (0.0..1.0).contains(&fraction),
-                "fault.fraction",
-            )?,
-            Fault::SeriesResistance { ohms } => crate::params::finite_ge0(ohms, "fault.ohms")?,
-        }
-        let mut f = self.faults[ch];
-        f.apply(fault);
-        self.change_faults(ch, f);
-        self.emit(ch, EventKind::FaultInjected(fault), self.now_ns);
-        Ok(())
-    }
-
-    /// Remove all faults of a channel (same energy rule as [`Bench::inject`]).
-    pub fn clear_faults(&mut self, ch: usize) -> Result<(), SimError> {
-        self.check_ch(ch)?;
-        self.change_faults(ch, FaultSet::default());
-        self.emit(ch, EventKind::FaultsCleared, self.now_ns);
-        Ok(())
-    }
-
-    fn change_faults(&mut self, c: usize, f: FaultSet) {
-        let old = self.op(c);
-        let was_open = self.eff[c].open;
-        self.faults[c] = f;
-        self.eff[c] = Eff::new(&self.params[c], &f);
-        let e = self.eff[c];
-        let y = &mut self.y.ch[c];
-        let (l_new, _) = e.inductance(y[plant::POS] / e.stroke);
-        let i_new = if e.open || was_open { 0.0 } else { old.i };
-        y[plant::LAM] = l_new * i_new;
-        let w_old = 0.5 * old.l * old.i * old.i;
-        let w_new = 0.5 * l_new * i_new * i_new;
-        self.st[c].removed += w_old - w_new;
-        if !e.moving {
-            if let Mechanics::Moving(a) = self.params[c].mechanics {
-                let v = y[plant::VEL];
-                self.st[c].removed += 0.5 * a.mass_kg * v * v;
-            }
-            y[plant::VEL] = 0.0;
-        }
-        self.k1_valid = false;
     }
 
     /// Change the (open-circuit) supply voltage now, e.g. a supply sag.

@@ -34,6 +34,8 @@ impl<const N: usize> Bench<N> {
             position: op.x,
             velocity_m_per_s: self.y.ch[c][plant::VEL],
             inductance_henries: op.l,
+            section_amps: op.il[crate::magnetics::SECT],
+            eddy_amps: op.il[crate::magnetics::EDDY],
             magnetic_force_newtons: op.force,
             gate_on: self.gate[c],
             armature: self.st[c].armature,
@@ -61,6 +63,8 @@ impl<const N: usize> Bench<N> {
         Ok(Energy {
             from_rail: y[plant::E_RAIL],
             winding: y[plant::E_WIND],
+            bridge: y[plant::E_BRIDGE],
+            eddy: y[plant::E_EDDY],
             wiring: y[plant::E_WIRE],
             sense: y[plant::E_SENSE],
             switch_conduction: y[plant::E_SWC],
@@ -71,7 +75,11 @@ impl<const N: usize> Bench<N> {
             damping: y[plant::E_DAMP],
             impact: self.st[c].impact,
             removed_by_events: self.st[c].removed,
-            magnetic_stored: 0.5 * op.l * op.i * op.i,
+            magnetic_stored: if e.simple {
+                0.5 * op.l * op.i * op.i
+            } else {
+                e.stored(y, op.terminal_off)
+            },
             capacitor_stored: cap,
             kinetic: kin,
             spring,
@@ -85,6 +93,8 @@ impl<const N: usize> Bench<N> {
             if let Ok(e) = self.energy(c) {
                 t.from_rail += e.from_rail;
                 t.winding += e.winding;
+                t.bridge += e.bridge;
+                t.eddy += e.eddy;
                 t.wiring += e.wiring;
                 t.sense += e.sense;
                 t.switch_conduction += e.switch_conduction;

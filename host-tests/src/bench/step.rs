@@ -2,8 +2,8 @@
 //! end stops and on current zero.
 
 use super::{Bench, State, R_V, STOP_TOL};
-use crate::params::Stepping;
 use crate::plant::{self, DYN, K};
+use crate::settings::Stepping;
 
 /// Smallest step the adaptive controller will try, seconds.
 const H_MIN: f64 = 1e-15;
@@ -71,7 +71,15 @@ impl<const N: usize> Bench<N> {
         for c in 0..N {
             let e = &self.eff[c];
             let (l, _) = e.inductance(y0.ch[c][plant::POS] / e.stroke);
-            let atol = [atol_i * l, 1e-7 * e.stroke, 1e-4 * e.stroke, 1e-6];
+            let sc = &e.loops.scale;
+            let atol = [
+                atol_i * l,
+                1e-7 * e.stroke,
+                1e-4 * e.stroke,
+                1e-6,
+                atol_i * sc[crate::magnetics::SECT],
+                atol_i * sc[crate::magnetics::EDDY],
+            ];
             for (j, at) in atol.iter().enumerate().take(DYN) {
                 let err = h
                     * (E[0] * k[0].ch[c][j]
@@ -127,10 +135,16 @@ impl<const N: usize> Bench<N> {
                 }
             }
             if !self.gate[c] && !self.blocked[c] && !e.open && self.params[c].snubber.is_none() {
-                let (l0, _) = e.inductance(self.y.ch[c][plant::POS] / e.stroke);
-                let (l1, _) = e.inductance(y1.ch[c][plant::POS] / e.stroke);
-                let i0 = self.y.ch[c][plant::LAM] / l0;
-                let i1 = y1.ch[c][plant::LAM] / l1;
+                let (i0, i1) = if e.simple {
+                    let (l0, _) = e.inductance(self.y.ch[c][plant::POS] / e.stroke);
+                    let (l1, _) = e.inductance(y1.ch[c][plant::POS] / e.stroke);
+                    (self.y.ch[c][plant::LAM] / l0, y1.ch[c][plant::LAM] / l1)
+                } else {
+                    (
+                        e.currents(&self.y.ch[c], false)[0],
+                        e.currents(&y1.ch[c], false)[0],
+                    )
+                };
                 let floor = self.settings.current_floor_amps;
                 if i1 < -floor && i0 > 0.0 {
                     take(i0 / (i0 - i1));

@@ -15,7 +15,9 @@ impl<const N: usize> Bench<N> {
         let t_u = libm::round(t_ns) as u64;
         let floor = self.settings.current_floor_amps;
         for c in 0..N {
-            let e = self.eff[c];
+            let e = &self.eff[c];
+            let no_snubber = self.params[c].snubber.is_none();
+            let off = e.open || (self.blocked[c] && no_snubber && !self.gate[c]);
             // End stops.
             if e.moving {
                 let y = &mut self.y.ch[c];
@@ -29,11 +31,17 @@ impl<const N: usize> Bench<N> {
                     (None, false)
                 };
                 if let Some(pt) = target {
-                    let (l_old, _) = e.inductance(p / e.stroke);
-                    let (l_new, _) = e.inductance(pt / e.stroke);
-                    let lam = y[plant::LAM];
-                    let mag_old = 0.5 * lam * lam / l_old;
-                    let mag_new = 0.5 * lam * lam / l_new;
+                    let (mag_old, mag_new) = if e.simple {
+                        let (l_old, _) = e.inductance(p / e.stroke);
+                        let (l_new, _) = e.inductance(pt / e.stroke);
+                        let lam = y[plant::LAM];
+                        (0.5 * lam * lam / l_old, 0.5 * lam * lam / l_new)
+                    } else {
+                        // Flux linkages are kept across the projection.
+                        let w_old = e.stored(y, off);
+                        y[plant::POS] = pt;
+                        (w_old, e.stored(y, off))
+                    };
                     let mut v_new = if into { -e.arm.restitution * v } else { v };
                     if v_new.abs() < REST_SPEED {
                         v_new = 0.0;
@@ -49,12 +57,26 @@ impl<const N: usize> Bench<N> {
                 }
             }
             // Current floor: the clamp stops conducting.
-            if !self.gate[c] && !self.blocked[c] && self.params[c].snubber.is_none() && !e.open {
-                let (l, _) = e.inductance(self.y.ch[c][plant::POS] / e.stroke);
-                let i = self.y.ch[c][plant::LAM] / l;
+            if !self.gate[c] && !self.blocked[c] && no_snubber && !e.open {
+                let y = &mut self.y.ch[c];
+                let (l, _) = e.inductance(y[plant::POS] / e.stroke);
+                let i = if e.simple {
+                    y[plant::LAM] / l
+                } else {
+                    e.currents(y, false)[0]
+                };
                 if i <= floor {
-                    self.st[c].removed += 0.5 * l * i * i;
-                    self.y.ch[c][plant::LAM] = 0.0;
+                    if e.simple {
+                        self.st[c].removed += 0.5 * l * i * i;
+                        y[plant::LAM] = 0.0;
+                    } else {
+                        // The terminal loop opens; the secondary loops keep
+                        // their flux linkages.
+                        let w_old = e.stored(y, false);
+                        let il = e.currents(y, true);
+                        e.set_currents(y, &il);
+                        self.st[c].removed += w_old - e.stored(y, true);
+                    }
                     self.blocked[c] = true;
                     self.k1_valid = false;
                     if self.st[c].stats.current_zero_ns.is_none() {
