@@ -133,6 +133,9 @@ pub(crate) const SECT: usize = 1;
 pub(crate) const EDDY: usize = 2;
 
 /// The coupled-loop model of one channel (referred to the operated position).
+///
+/// Kept small (it lives in every bench, also in firmware RAM): `L̂⁻¹` is
+/// formed when currents are needed, not stored.
 #[derive(Debug, Clone, Copy, PartialEq)]
 pub(crate) struct Loops {
     /// Which loops exist.
@@ -145,15 +148,8 @@ pub(crate) struct Loops {
     pub leak: [f64; 3],
     /// Core coupling vector `v`, √H.
     pub v: [f64; 3],
-    /// `L̂⁻¹` (inactive loops padded as identity), with `w = L̂⁻¹·v`, `c = vᵀw`;
-    /// index 0: all loops; index 1: the terminal loop carrying no current.
-    pub inv: [[[f64; 3]; 3]; 2],
-    pub w: [[f64; 3]; 2],
-    pub c: [f64; 2],
-    /// Saturation `(d, z_s)`.
-    pub sat: Option<(f64, f64)>,
-    /// Self inductance of each loop (error-control scale), henries.
-    pub scale: [f64; 3],
+    /// Saturation `(d, z_s)`; `d = 0` for none.
+    pub sat: [f64; 2],
 }
 
 /// `Ψ(z)` and `Ψ'(z)` of the saturation law.
@@ -214,6 +210,7 @@ impl Loops {
     /// `l_op`, `r`: the winding's operated inductance and resistance (after
     /// lumped faults); `l_rel_ratio = L_op/L_rel`; `l_intact`: the intact
     /// winding's operated inductance (reference of the saturation knee).
+    #[inline(always)]
     pub(crate) fn new(
         l_op: f64,
         r: f64,
@@ -253,62 +250,69 @@ impl Loops {
                 v[j] = k[j] * libm::sqrt(self_l[j]);
             }
         }
-        let build = |terminal: bool| {
-            let mut m = [[0.0; 3]; 3];
-            for rr in 0..3 {
-                for cc in 0..3 {
-                    let on = |j: usize| active[j] && (terminal || j != WIND);
-                    m[rr][cc] = if on(rr) && on(cc) {
-                        v[rr] * v[cc] + if rr == cc { leak[rr] } else { 0.0 }
-                    } else if rr == cc {
-                        1.0
-                    } else {
-                        0.0
-                    };
-                }
-            }
-            let inv = inverse3(&m);
-            let mut vv = v;
-            if !terminal {
-                vv[WIND] = 0.0;
-            }
-            let w = mat_vec(&inv, &vv);
-            (inv, w, dot(&vv, &w))
+        let sat = match mag.saturation {
+            Some(s) if s.drop > 0.0 => [s.drop, libm::sqrt(l_intact) * s.knee_amps],
+            _ => [0.0, 1.0],
         };
-        let (inv0, w0, c0) = build(true);
-        let (inv1, w1, c1) = build(false);
         Loops {
             active,
             r: res,
             bridge,
             leak,
             v,
-            inv: [inv0, inv1],
-            w: [w0, w1],
-            c: [c0, c1],
-            sat: mag
-                .saturation
-                .filter(|s| s.drop > 0.0)
-                .map(|s| (s.drop, libm::sqrt(l_intact) * s.knee_amps)),
-            scale: self_l,
+            sat,
         }
+    }
+
+    /// Whether the core branch saturates.
+    #[inline]
+    pub(crate) fn saturates(&self) -> bool {
+        self.sat[0] > 0.0
+    }
+
+    /// Self inductance of loop `j` at the operated position, H (1 for an
+    /// absent loop): the scale of its flux linkage for error control.
+    pub(crate) fn self_henries(&self, j: usize) -> f64 {
+        if self.active[j] {
+            self.leak[j] + self.v[j] * self.v[j]
+        } else {
+            1.0
+        }
+    }
+
+    /// `L̂⁻¹` over the loops that carry current (the others padded as
+    /// identity), the coupling vector restricted to them, and which they are.
+    fn inverse(&self, terminal_off: bool) -> ([[f64; 3]; 3], [f64; 3], [bool; 3]) {
+        let on: [bool; 3] =
+            core::array::from_fn(|j| self.active[j] && (j != WIND || !terminal_off));
+        let v: [f64; 3] = core::array::from_fn(|j| if on[j] { self.v[j] } else { 0.0 });
+        let m: [[f64; 3]; 3] = core::array::from_fn(|r| {
+            core::array::from_fn(|c| {
+                if on[r] && on[c] {
+                    v[r] * v[c] + if r == c { self.leak[r] } else { 0.0 }
+                } else if r == c {
+                    1.0
+                } else {
+                    0.0
+                }
+            })
+        });
+        (inverse3(&m), v, on)
     }
 
     /// Loop currents (A) from flux linkages `lam` (Wb) at permeance ratio `p`.
     /// `terminal_off`: the terminal loop is open (carries no current).
     pub(crate) fn currents(&self, lam: &[f64; 3], p: f64, terminal_off: bool) -> [f64; 3] {
-        let m = usize::from(terminal_off);
-        let mut mu: [f64; 3] =
-            core::array::from_fn(|j| if self.active[j] { lam[j] / p } else { 0.0 });
-        if terminal_off {
-            mu[WIND] = 0.0;
-        }
-        let lin = mat_vec(&self.inv[m], &mu);
-        let Some((d, zs)) = self.sat else {
+        let (inv, v, on) = self.inverse(terminal_off);
+        let mu: [f64; 3] = core::array::from_fn(|j| if on[j] { lam[j] / p } else { 0.0 });
+        let lin = mat_vec(&inv, &mu);
+        if !self.saturates() {
             return lin;
-        };
-        let phi = dot(&self.w[m], &mu);
-        let c = self.c[m];
+        }
+        let [d, zs] = self.sat;
+        let w = mat_vec(&inv, &v);
+        let phi = dot(&w, &mu);
+        let c = dot(&v, &w);
         if phi == 0.0 || c <= 0.0 {
             return lin;
         }
@@ -322,15 +326,16 @@ impl Loops {
         let z = if phi < 0.0 { -z } else { z };
         let (ps, _) = psi(z, d, zs);
         let corr = ps - z;
-        core::array::from_fn(|j| lin[j] - self.w[m][j] * corr)
+        core::array::from_fn(|j| lin[j] - w[j] * corr)
     }
 
     /// Flux linkages (Wb) from loop currents at permeance ratio `p`.
     pub(crate) fn fluxes(&self, i: &[f64; 3], p: f64) -> [f64; 3] {
         let z = dot(&self.v, i);
-        let ps = match self.sat {
-            Some((d, zs)) => psi(z, d, zs).0,
-            None => z,
+        let ps = if self.saturates() {
+            psi(z, self.sat[0], self.sat[1]).0
+        } else {
+            z
         };
         core::array::from_fn(|j| {
             if self.active[j] {
@@ -344,9 +349,10 @@ impl Loops {
     /// Co-energy per unit permeance ratio, `W'/P` (J), at loop currents `i`.
     pub(crate) fn coenergy_unit(&self, i: &[f64; 3]) -> f64 {
         let z = dot(&self.v, i);
-        let core = match self.sat {
-            Some((d, zs)) => psi_integral(z, d, zs),
-            None => 0.5 * z * z,
+        let core = if self.saturates() {
+            psi_integral(z, self.sat[0], self.sat[1])
+        } else {
+            0.5 * z * z
         };
         0.5 * (self.leak[0] * i[0] * i[0] + self.leak[1] * i[1] * i[1] + self.leak[2] * i[2] * i[2])
             + core
