@@ -322,7 +322,10 @@ impl Loops {
             let (ps, dps) = psi(z, d, zs);
             ((1.0 - c) * z + c * ps - a, (1.0 - c) + c * dps)
         };
-        let z = crate::node::solve_increasing(f, a, a / (1.0 - c * d), a);
+        // Start from the fixed point z = |φ|/(1 − c·d·s(|φ|/z_s)), inside the bracket.
+        let u = a / zs;
+        let z0 = a / (1.0 - c * d * u * u / (1.0 + u * u));
+        let z = crate::node::solve_increasing(f, a, a / (1.0 - c * d), z0);
         let z = if phi < 0.0 { -z } else { z };
         let (ps, _) = psi(z, d, zs);
         let corr = ps - z;
@@ -361,5 +364,139 @@ impl Loops {
     /// Stored magnetic energy `W = iᵀλ − W'` (J).
     pub(crate) fn stored(&self, lam: &[f64; 3], i: &[f64; 3], p: f64) -> f64 {
         dot(lam, i) - p * self.coenergy_unit(i)
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::fault::Section;
+    use crate::sense::Prng;
+
+    fn random_loops(r: &mut Prng) -> Loops {
+        let l = 0.05 + r.uniform();
+        let section = (r.uniform() < 0.6).then(|| Section {
+            fraction: 0.05 + 0.9 * r.uniform(),
+            coupling: 0.5 + 0.49 * r.uniform(),
+            bridge_ohms: r.uniform(),
+        });
+        let mag = Magnetics {
+            eddy: (r.uniform() < 0.6).then(|| CoupledLoop {
+                ohms: 1.0,
+                henries: l * (0.01 + 0.2 * r.uniform()),
+                coupling: 0.95 * r.uniform(),
+            }),
+            saturation: (r.uniform() < 0.6).then(|| Saturation {
+                drop: 0.8 * r.uniform(),
+                knee_amps: 0.05 + r.uniform(),
+            }),
+        };
+        Loops::new(l, 100.0, 1.0 + r.uniform(), l, section, &mag)
+    }
+
+    fn random_currents(r: &mut Prng, lp: &Loops) -> [f64; 3] {
+        core::array::from_fn(|j| {
+            if lp.active[j] {
+                2.0 * r.uniform() - 0.5
+            } else {
+                0.0
+            }
+        })
+    }
+
+    /// Currents recovered from flux linkages are the currents that made them
+    /// (the inversion of the flux law), with the terminal loop on and off.
+    #[test]
+    fn currents_invert_fluxes() {
+        let mut r = Prng::new(7);
+        for _ in 0..2000 {
+            let lp = random_loops(&mut r);
+            let p = 0.3 + r.uniform();
+            let mut i = random_currents(&mut r, &lp);
+            let lam = lp.fluxes(&i, p);
+            let got = lp.currents(&lam, p, false);
+            for j in 0..3 {
+                assert!(
+                    (got[j] - i[j]).abs() < 1e-9 * (1.0 + i[j].abs()),
+                    "{lp:?} {i:?} {got:?}"
+                );
+            }
+            i[WIND] = 0.0;
+            let lam = lp.fluxes(&i, p);
+            let got = lp.currents(&lam, p, true);
+            for j in 0..3 {
+                assert!((got[j] - i[j]).abs() < 1e-9 * (1.0 + i[j].abs()));
+            }
+        }
+    }
+
+    /// The stored energy `iᵀλ − W'` equals the work `∫ iᵀ dλ` done by the
+    /// sources to build the field along a straight path in current space
+    /// (definition of magnetic energy; trapezoid rule, 4000 steps), and the
+    /// force `∂W'/∂x` at fixed currents equals `−∂W/∂x` at fixed flux
+    /// linkages (virtual work, textbook, from memory; central difference).
+    #[test]
+    fn energy_is_the_work_of_the_sources_and_force_is_virtual_work() {
+        let mut r = Prng::new(8);
+        for _ in 0..200 {
+            let lp = random_loops(&mut r);
+            let p = 0.3 + r.uniform();
+            let i1 = random_currents(&mut r, &lp);
+            let n = 4000;
+            let mut work = 0.0;
+            let mut prev_i = [0.0; 3];
+            let mut prev_l = [0.0; 3];
+            for k in 1..=n {
+                let s = k as f64 / n as f64;
+                let i: [f64; 3] = core::array::from_fn(|j| s * i1[j]);
+                let l = lp.fluxes(&i, p);
+                for j in 0..3 {
+                    work += 0.5 * (i[j] + prev_i[j]) * (l[j] - prev_l[j]);
+                }
+                prev_i = i;
+                prev_l = l;
+            }
+            let lam = lp.fluxes(&i1, p);
+            let w = lp.stored(&lam, &i1, p);
+            assert!((w - work).abs() < 1e-6 * w.abs().max(1e-9), "{w} vs {work}");
+            // Virtual work: W(λ, P) at fixed λ, force along P.
+            let h = 1e-6 * p;
+            let w_at = |pp: f64| {
+                let i = lp.currents(&lam, pp, false);
+                lp.stored(&lam, &i, pp)
+            };
+            let dw_dp = (w_at(p + h) - w_at(p - h)) / (2.0 * h);
+            let f = lp.coenergy_unit(&i1);
+            assert!(
+                (f + dw_dp).abs() < 1e-5 * f.abs().max(1e-9),
+                "{f} vs {dw_dp}"
+            );
+        }
+    }
+
+    /// The saturation law's secant inductance: 1 at zero current, `1 − d/2`
+    /// at the knee, towards `1 − d` at large current.
+    #[test]
+    fn saturation_law_end_points() {
+        let s = Saturation::dropping(0.2, 0.5);
+        assert_eq!(s.inductance_ratio(0.0), 1.0);
+        assert!((s.inductance_ratio(0.5) - 0.8).abs() < 1e-15);
+        assert!((s.inductance_ratio(500.0) - 0.6).abs() < 1e-6);
+        // Lone winding: λ = L·i·ratio(i) through the common-flux form.
+        let lp = Loops::new(
+            0.3,
+            10.0,
+            1.0,
+            0.3,
+            None,
+            &Magnetics {
+                eddy: None,
+                saturation: Some(s),
+            },
+        );
+        for i in [0.1, 0.5, 1.3] {
+            let lam = lp.fluxes(&[i, 0.0, 0.0], 1.0);
+            assert!((lam[0] - 0.3 * i * s.inductance_ratio(i)).abs() < 1e-14);
+        }
     }
 }
