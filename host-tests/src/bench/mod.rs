@@ -54,8 +54,8 @@ struct Status {
 /// [`Bench::set_gate`] / [`Bench::set_pwm`] (or [`crate::GatePin`] /
 /// [`crate::PwmGate`]).
 ///
-/// Memory: about `(18·N + 3)·8` bytes per state copy; a step keeps seven
-/// copies on the stack (≈ 1.2 KiB for N = 1).
+/// Memory: about `(18·N + 3)·8` bytes per state copy; a step keeps four
+/// copies on the stack (≈ 0.7 KiB for N = 1) besides the bench's own two.
 #[derive(Debug, Clone)]
 pub struct Bench<const N: usize> {
     supply: Supply,
@@ -333,7 +333,7 @@ impl<const N: usize> Bench<N> {
             self.gate[c] = g;
             self.k1_valid = false;
             if g {
-                if self.blocked[c] && !self.eff[c].simple {
+                if self.blocked[c] && !self.eff[c].plain() {
                     // The winding's flux linkage was not integrated while the
                     // clamp blocked: make it consistent with zero current.
                     let e = &self.eff[c];

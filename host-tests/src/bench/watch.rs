@@ -31,7 +31,7 @@ impl<const N: usize> Bench<N> {
                     (None, false)
                 };
                 if let Some(pt) = target {
-                    let (mag_old, mag_new) = if e.simple {
+                    let (mag_old, mag_new) = if e.plain() {
                         let (l_old, _) = e.inductance(p / e.stroke);
                         let (l_new, _) = e.inductance(pt / e.stroke);
                         let lam = y[plant::LAM];
@@ -60,13 +60,13 @@ impl<const N: usize> Bench<N> {
             if !self.gate[c] && !self.blocked[c] && no_snubber && !e.open {
                 let y = &mut self.y.ch[c];
                 let (l, _) = e.inductance(y[plant::POS] / e.stroke);
-                let i = if e.simple {
+                let i = if e.plain() {
                     y[plant::LAM] / l
                 } else {
                     e.currents(y, false)[0]
                 };
                 if i <= floor {
-                    if e.simple {
+                    if e.plain() {
                         self.st[c].removed += 0.5 * l * i * i;
                         y[plant::LAM] = 0.0;
                     } else {
