@@ -48,7 +48,9 @@
 //! * Energy bookkeeping per channel ([`Energy`]) that closes to the
 //!   integration tolerance (winding, bridge and eddy losses included).
 //!
-//! Not modelled: hysteresis, eddy currents beyond one lumped loop, diode
+//! Not modelled: hysteresis, eddy currents beyond one lumped loop, a
+//! saturation knee that moves with the armature (the knee is in ampere-turns
+//! of the core branch, the same at every position), diode
 //! reverse recovery, switching transients of the transistor (gate charge),
 //! node capacitance, temperature rise during a run. After the clamp blocks,
 //! secondary loops decay on their own (their induced voltage does not
