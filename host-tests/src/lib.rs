@@ -44,7 +44,8 @@
 //!   supply changes.
 //! * Converter ([`AdcConfig`]): quantisation, offset of either sign with
 //!   clipping at zero and full scale, gain error, seeded Gaussian noise,
-//!   sampling-start latency and jitter.
+//!   sampling-start latency and jitter; comparator offset and propagation
+//!   delay ([`ComparatorErrors`]).
 //! * Energy bookkeeping per channel ([`Energy`]) that closes to the
 //!   integration tolerance (winding, bridge and eddy losses included).
 //!
@@ -186,5 +187,5 @@ pub use params::{
     Armature, ChannelParams, Clamp, Coil, DiodeLaw, Mechanics, SimError, Snubber, Supply, Switch,
     Topology, THERMAL_VOLTS_25C,
 };
-pub use sense::{AdcConfig, Prng};
+pub use sense::{AdcConfig, ComparatorErrors, Prng};
 pub use settings::{SolverSettings, Stepping};

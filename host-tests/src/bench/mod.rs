@@ -17,6 +17,7 @@ use crate::observe::{
 };
 use crate::params::{ChannelParams, Mechanics, SimError, Supply};
 use crate::plant::{self, Eff, Op, K};
+use crate::sense::ComparatorErrors;
 use crate::settings::{SolverSettings, Stepping};
 use drive::Drive;
 
@@ -42,6 +43,7 @@ struct Status {
     removed: f64,
     impact: f64,
     comparator: Option<Comparator>,
+    cmp_errors: ComparatorErrors,
     armed: bool,
     prev_sense: f64,
     prev_t_ns: f64,
@@ -115,6 +117,7 @@ impl<const N: usize> Bench<N> {
             removed: 0.0,
             impact: 0.0,
             comparator: None,
+            cmp_errors: ComparatorErrors::NONE,
             armed: false,
             prev_sense: 0.0,
             prev_t_ns: 0.0,
@@ -247,6 +250,22 @@ impl<const N: usize> Bench<N> {
         s.comparator = cmp;
         s.armed = false;
         s.stats.comparator_trip_ns = None;
+        Ok(())
+    }
+
+    /// Give a channel's comparator an input offset and a propagation delay
+    /// ([`ComparatorErrors`]); kept when the comparator is replaced.
+    ///
+    /// Errors: [`SimError::NoSuchChannel`];
+    /// [`SimError::InvalidParameter`]`("comparator.offset_amps")` if not finite.
+    pub fn set_comparator_errors(
+        &mut self,
+        ch: usize,
+        errors: ComparatorErrors,
+    ) -> Result<(), SimError> {
+        self.check_ch(ch)?;
+        crate::params::check(errors.offset_amps.is_finite(), "comparator.offset_amps")?;
+        self.st[ch].cmp_errors = errors;
         Ok(())
     }
 

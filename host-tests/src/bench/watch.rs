@@ -176,10 +176,16 @@ impl<const N: usize> Bench<N> {
             SensePoint::Coil => op.i,
         };
         let s = self.st[c];
-        if s.armed && s.prev_sense < cmp.threshold_amps && q >= cmp.threshold_amps {
-            let th = (cmp.threshold_amps - s.prev_sense) / (q - s.prev_sense);
+        let errs = s.cmp_errors;
+        let level = if errs.offset_amps != 0.0 {
+            cmp.threshold_amps + errs.offset_amps
+        } else {
+            cmp.threshold_amps
+        };
+        if s.armed && s.prev_sense < level && q >= level {
+            let th = (level - s.prev_sense) / (q - s.prev_sense);
             let tc = s.prev_t_ns + th * (t_ns - s.prev_t_ns);
-            let tu = libm::round(tc) as u64;
+            let tu = (libm::round(tc) as u64).saturating_add(errs.delay_ns);
             self.st[c].stats.comparator_trip_ns = Some(tu);
             self.st[c].armed = false;
             self.emit(c, EventKind::ComparatorTrip, tu);
