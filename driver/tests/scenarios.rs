@@ -90,7 +90,7 @@ fn commissioning_isolates_an_open_wire_before_it_is_driven() {
 fn shorted_turns_isolate_the_channel_at_its_next_rise() {
     let (plant, mut clock, mut drv) = rig(&[(
         150,
-        Happening::Fault(A, Fault::ShortedTurns { fraction: 0.3 }),
+        Happening::Fault(A, Fault::ShortedTurnsLumped { fraction: 0.3 }),
     )]);
     drv.commission_blocking(&mut clock).unwrap();
     let mut log = Vec::new();
