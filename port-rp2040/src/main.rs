@@ -168,21 +168,19 @@ fn commission(drv: &mut Drv, clock: &mut TimerClock) -> Result<(), StartError> {
     Ok(())
 }
 
-/// Builds and commissions the driver (its configurations and state claimed once into static
+/// Builds and commissions the driver in `state` (its configurations claimed once into static
 /// memory), sets the comparator references, hands the driver to the service interrupt.
-fn start(hw: Hardware) -> Result<(), StartError> {
+fn start(hw: Hardware, state: &'static mut State) -> Result<(), StartError> {
     let Hardware {
         handles,
         mut clock,
         mut alarm,
     } = hw;
+    // Built at run time (the designs' arithmetic is not const), then moved into a static the
+    // driver borrows; the claim succeeds once only.
     let cfgs = configs()?;
     let configs: &'static [ChannelConfig; CHANNELS] =
         cortex_m::singleton!(: [ChannelConfig; CHANNELS] = cfgs).ok_or(StartError::Driver)?;
-    // `State::new` is const and the optimiser writes it into the static's zeroed `.bss` place;
-    // the claim can succeed once only.
-    let state: &'static mut State =
-        cortex_m::singleton!(: State = State::new()).ok_or(StartError::Driver)?;
     let hw = handles.map(|(sw, hold, sense)| ChannelHw::new(sw, hold, sense));
     let mut drv = Drv::new(configs, state, hw, clock.rate(), clock.now(), 1).map_err(|e| {
         defmt::error!("driver set-up: {}", e);
@@ -309,9 +307,13 @@ fn programme(mut clock: TimerClock, mut button: setup::Button) -> ! {
 
 #[cortex_m_rt::entry]
 fn main() -> ! {
+    // The driver's working state, initialised at load time (`State::new` is const) and never
+    // built on the stack: cortex-m-rt hands a `static mut` declared here to `main` as a
+    // `&'static mut`, safely, because `main` runs once and nothing else can name it.
+    static mut STATE: State = State::new();
     let started = setup::setup().and_then(|(hw, button)| {
         let clock = hw.clock;
-        start(hw).map(|()| (clock, button))
+        start(hw, STATE).map(|()| (clock, button))
     });
     match started {
         Ok((clock, button)) => programme(clock, button),
