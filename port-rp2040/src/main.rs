@@ -2,9 +2,9 @@
 //! 12 V dosing-pump relay) on the board of [`board`], driven by `coilwise-driver`.
 //!
 //! 1. [`setup::setup`] starts the clocks and peripherals and installs the board.
-//! 2. The channels are built from their designs ([`configs`]); they and the driver's working
-//!    state ([`DriverState`]) are claimed once into static memory, which the driver borrows for
-//!    the life of the program. The driver commissions the channels ([`commission`]:
+//! 2. The channels are built from their designs ([`configs`]) and claimed once into static
+//!    memory; the driver's working state ([`DriverState`]) is a static of `main`, initialised
+//!    at load time. The driver borrows both for the life of the program. The driver commissions the channels ([`commission`]:
 //!    self-check vectors, converter zeros, one diagnostic pulse per channel, every event logged
 //!    as it comes) and the comparator references are set to the trip levels it chose.
 //! 3. The driver moves into the TIMER alarm 0 interrupt, which calls `service(now)` and sets
