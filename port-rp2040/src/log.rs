@@ -1,5 +1,6 @@
 //! The defmt log of the port (read over RTT with the debug probe on the bench).
 
+use coilwise::diagnosis::Verdict;
 use coilwise_driver::selfcheck::Vector;
 use coilwise_driver::{words, Event, EventKind};
 
@@ -18,27 +19,38 @@ pub fn vectors(v: &[Vector]) {
     }
 }
 
-/// One driver event, with findings, delays and refusals in words.
-pub fn event(e: &Event) {
+/// One driver event, with findings, delays and refusals in words. `last` is the channel's
+/// latest verdict ([`coilwise_driver::Driver::last_verdict`]): a `Judged` event carries the
+/// finding alone, its estimates are taken from `last` when it holds the same finding (else
+/// they are logged as not kept).
+pub fn event(e: &Event, last: Option<&Verdict>) {
     let (t, ch) = (e.at.0, e.channel);
     match &e.kind {
         EventKind::Judged {
             source,
-            verdict,
+            finding,
             comparator,
             ..
         } => {
-            let est = &verdict.estimates;
-            defmt::info!(
-                "t={=u32} us ch{=u8} {} judged: {=str} (R {=?} ohm, L {=?} H, tau {=?} s)",
-                t,
-                ch,
-                source,
-                words::finding(&verdict.finding),
-                est.resistance.map(|r| r.value()),
-                est.inductance.map(|l| l.value()),
-                est.tau.map(|x| x.value())
-            );
+            match last.filter(|v| v.finding == *finding) {
+                Some(v) => defmt::info!(
+                    "t={=u32} us ch{=u8} {} judged: {=str} (R {=?} ohm, L {=?} H, tau {=?} s)",
+                    t,
+                    ch,
+                    source,
+                    words::finding(finding),
+                    v.estimates.resistance.map(|r| r.value()),
+                    v.estimates.inductance.map(|l| l.value()),
+                    v.estimates.tau.map(|x| x.value())
+                ),
+                None => defmt::info!(
+                    "t={=u32} us ch{=u8} {} judged: {=str} (estimates not kept)",
+                    t,
+                    ch,
+                    source,
+                    words::finding(finding)
+                ),
+            }
             if let Some(c) = comparator {
                 defmt::info!(
                     "t={=u32} us ch{=u8} comparator {}: {=str}",

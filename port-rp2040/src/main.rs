@@ -2,9 +2,11 @@
 //! 12 V dosing-pump relay) on the board of [`board`], driven by `coilwise-driver`.
 //!
 //! 1. [`setup::setup`] starts the clocks and peripherals and installs the board.
-//! 2. The channels are built from their designs ([`configs`]), the driver commissions them with
-//!    its blocking helper (self-check vectors, converter zeros, one diagnostic pulse per
-//!    channel) and the comparator references are set to the trip levels it chose.
+//! 2. The channels are built from their designs ([`configs`]) and claimed once into static
+//!    memory; the driver's working state ([`DriverState`]) is a static of `main`, initialised
+//!    at load time. The driver borrows both for the life of the program. The driver commissions the channels ([`commission`]:
+//!    self-check vectors, converter zeros, one diagnostic pulse per channel, every event logged
+//!    as it comes) and the comparator references are set to the trip levels it chose.
 //! 3. The driver moves into the TIMER alarm 0 interrupt, which calls `service(now)` and sets
 //!    the alarm to the instant it returns; requests from the main loop reach it through a small
 //!    queue and a pended interrupt. The board's DMA and GPIO interrupts run at a higher
@@ -29,7 +31,9 @@ use core::cell::RefCell;
 
 use coilwise::schedule::HoldPlan;
 use coilwise::{Amps, Hertz, Ticks};
-use coilwise_driver::{ChannelConfig, ChannelHw, ChannelOptions, Driver, Pulse, SAMPLES};
+use coilwise_driver::{
+    selfcheck, ChannelConfig, ChannelHw, ChannelOptions, Driver, DriverState, Phase, Pulse, SAMPLES,
+};
 use critical_section::Mutex;
 use defmt_rtt as _;
 use embedded_hal::delay::DelayNs as _;
@@ -52,8 +56,16 @@ use crate::setup::{Hardware, StartError};
 #[used]
 pub static BOOT2: [u8; 256] = rp2040_boot2::BOOT_LOADER_W25Q080;
 
-/// The driver as this board instantiates it: 2 channels, 8 pulses queued, 16 events.
-type Drv = Driver<board::Switch, board::Hold, board::Sense, CHANNELS, 8, 16>;
+/// Pulses pending or in flight the driver keeps.
+const QUEUE: usize = 8;
+/// Events the driver queues between two drains (one per `service` call here).
+const EVENTS: usize = 16;
+
+/// The driver as this board instantiates it: 2 channels, [`QUEUE`] pulses, [`EVENTS`] events,
+/// borrowing its configurations and state from static memory.
+type Drv = Driver<'static, board::Switch, board::Hold, board::Sense, CHANNELS, QUEUE, EVENTS>;
+/// The driver's working state (channels, scheduler, event queue, capture buffer).
+type State = DriverState<CHANNELS, QUEUE, EVENTS>;
 
 /// Rise capture sample period of each channel, µs: 64 samples span about two time constants
 /// of the valve (τ ≈ 4.1 ms nominal) and of the relay (τ ≈ 0.6 ms nominal).
@@ -79,7 +91,7 @@ static HANDOFF: Mutex<RefCell<Option<Service>>> = Mutex::new(RefCell::new(None))
 
 /// What the service interrupt owns.
 struct Service {
-    drv: &'static mut Drv,
+    drv: Drv,
     alarm: hal::timer::Alarm0,
     clock: TimerClock,
 }
@@ -119,30 +131,62 @@ fn configs() -> Result<[ChannelConfig; CHANNELS], StartError> {
     Ok(cfgs)
 }
 
-/// Builds and commissions the driver, sets the comparator references, hands the driver to the
-/// service interrupt.
-fn start(hw: Hardware) -> Result<(), StartError> {
+/// Logs every queued event of the driver, a verdict's estimates beside its finding. Called
+/// after every `commission` / `service` call, so a channel's [`Drv::last_verdict`] is the
+/// verdict of the `Judged` event just popped (one service call judges at most one
+/// measurement per channel).
+fn drain(drv: &mut Drv) {
+    while let Some(e) = drv.pop_event() {
+        log::event(&e, drv.last_verdict(usize::from(e.channel)));
+    }
+}
+
+/// Commissions the driver at start-up (blocking: one diagnostic pulse per channel, 1.4 ms on
+/// the valve and 0.18 ms on the relay, plus the minimum off-times the driver waits for): the self-check vectors logged (the same deterministic values the
+/// driver checks), `commission(now)`, then `service` at every instant it asks for until every
+/// diagnostic pulse has been judged, waiting on the TIMER in between.
+fn commission(drv: &mut Drv, clock: &mut TimerClock) -> Result<(), StartError> {
+    log::vectors(&selfcheck::compute());
+    let r = drv.commission(clock.now());
+    drain(drv);
+    if let Err(e) = r {
+        defmt::error!("commissioning: {}", e);
+        return Err(StartError::Driver);
+    }
+    while drv.phase() == Phase::Running {
+        let r = drv.service(clock.now());
+        drain(drv);
+        let next = r.map_err(|e| {
+            defmt::error!("commissioning: {}", e);
+            StartError::Driver
+        })?;
+        let wait = next.since(clock.now());
+        if wait > 0 && drv.phase() == Phase::Running {
+            clock.delay_us(wait as u32);
+        }
+    }
+    Ok(())
+}
+
+/// Builds and commissions the driver in `state` (its configurations claimed once into static
+/// memory), sets the comparator references, hands the driver to the service interrupt.
+fn start(hw: Hardware, state: &'static mut State) -> Result<(), StartError> {
     let Hardware {
         handles,
         mut clock,
         mut alarm,
     } = hw;
+    // Built at run time (the designs' arithmetic is not const), then moved into a static the
+    // driver borrows; the claim succeeds once only.
+    let cfgs = configs()?;
+    let configs: &'static [ChannelConfig; CHANNELS] =
+        cortex_m::singleton!(: [ChannelConfig; CHANNELS] = cfgs).ok_or(StartError::Driver)?;
     let hw = handles.map(|(sw, hold, sense)| ChannelHw::new(sw, hold, sense));
-    let drv = Drv::new(configs()?, hw, clock.rate(), clock.now(), 1).map_err(|e| {
+    let mut drv = Drv::new(configs, state, hw, clock.rate(), clock.now(), 1).map_err(|e| {
         defmt::error!("driver set-up: {}", e);
         StartError::Driver
     })?;
-    let drv: &'static mut Drv = cortex_m::singleton!(: Drv = drv).ok_or(StartError::Driver)?;
-    match drv.commission_blocking(&mut clock) {
-        Ok(vectors) => log::vectors(&vectors),
-        Err(e) => {
-            defmt::error!("commissioning: {}", e);
-            return Err(StartError::Driver);
-        }
-    }
-    while let Some(e) = drv.pop_event() {
-        log::event(&e);
-    }
+    commission(&mut drv, &mut clock)?;
     for ch in 0..CHANNELS {
         if let Some(s) = drv.sense_setup(ch) {
             defmt::info!(
@@ -204,6 +248,7 @@ fn TIMER_IRQ_0() {
                 Err(e) => defmt::info!("ch{=usize}: not re-enabled: {}", ch, e),
             },
         }
+        drain(&mut s.drv);
     }
     let now = s.clock.now();
     let next = match s.drv.service(now) {
@@ -213,9 +258,7 @@ fn TIMER_IRQ_0() {
             now.after(Ticks(1_000))
         }
     };
-    while let Some(e) = s.drv.pop_event() {
-        log::event(&e);
-    }
+    drain(&mut s.drv);
     let wait = next.since(s.clock.now()).max(0) as u32;
     if s.alarm.schedule(MicrosDurationU32::micros(wait)).is_err() {
         defmt::error!("alarm not set: service stops");
@@ -264,9 +307,13 @@ fn programme(mut clock: TimerClock, mut button: setup::Button) -> ! {
 
 #[cortex_m_rt::entry]
 fn main() -> ! {
+    // The driver's working state, initialised at load time (`State::new` is const) and never
+    // built on the stack: cortex-m-rt hands a `static mut` declared here to `main` as a
+    // `&'static mut`, safely, because `main` runs once and nothing else can name it.
+    static mut STATE: State = State::new();
     let started = setup::setup().and_then(|(hw, button)| {
         let clock = hw.clock;
-        start(hw).map(|()| (clock, button))
+        start(hw, STATE).map(|()| (clock, button))
     });
     match started {
         Ok((clock, button)) => programme(clock, button),
