@@ -163,7 +163,10 @@ impl DriverDesign {
             final_current,
             tau_on: rise.tau(),
             pull_in_time,
-            pull_in_margin: final_current.value() / c.coil().pull_in_current().value() - 1.0,
+            pull_in_margin: crate::physics::circuit::pull_in_margin_of(
+                final_current,
+                c.coil().pull_in_current(),
+            )?,
             tau_off: release.tau(),
             release_time,
             time_to_zero,

@@ -65,15 +65,22 @@ pub struct Sampling {
 }
 
 impl Sampling {
-    /// Samples every `period` (s, finite, positive) scaled by `amps_per_count` (A per count,
-    /// finite, positive; 1.0 for samples already in amperes). Defaults: first sample at switch-on (t = 0), zero
-    /// at count 0, no saturation level, no noise beyond quantisation.
+    /// Longest sample period and latest first sample the model takes, s (1000 s). A coil rise
+    /// sampled slower than this is no rise; the bound keeps every sample time
+    /// `first + k·period` finite in f32 for any index a slice can hold (k < 2⁶⁴).
+    pub const MAX_TIME: Seconds = Seconds::new(1.0e3);
+
+    /// Samples every `period` (s, finite, 0 < period ≤ [`Sampling::MAX_TIME`]) scaled by
+    /// `amps_per_count` (A per count, finite, positive; 1.0 for samples already in amperes).
+    /// Defaults: first sample at switch-on (t = 0), zero at count 0, no saturation level, no noise
+    /// beyond quantisation.
     ///
     /// # Errors
-    /// [`Error::Invalid`]: [`Param::Time`] for the period, [`Param::Current`] for the scale.
+    /// [`Error::Invalid`]: [`Param::Time`] for the period ([`Why::OutOfRange`] above
+    /// [`Sampling::MAX_TIME`]), [`Param::Current`] for the scale.
     pub fn new(period: Seconds, amps_per_count: f32) -> Result<Self, Error> {
         Ok(Self {
-            period: positive(period.value(), Param::Time)?,
+            period: at_most_max_time(positive(period.value(), Param::Time)?)?,
             first: 0.0,
             amps_per_count: positive(amps_per_count, Param::Current)?,
             zero: 0.0,
@@ -98,9 +105,10 @@ impl Sampling {
         Ok(s)
     }
 
-    /// The same sampling with the first sample `first` seconds after switch-on (finite, ≥ 0).
+    /// The same sampling with the first sample `first` seconds after switch-on (finite,
+    /// 0 ≤ first ≤ [`Sampling::MAX_TIME`]).
     pub fn with_first_sample(mut self, first: Seconds) -> Result<Self, Error> {
-        self.first = non_negative(first.value(), Param::Time)?;
+        self.first = at_most_max_time(non_negative(first.value(), Param::Time)?)?;
         Ok(self)
     }
 
@@ -161,7 +169,8 @@ impl Sampling {
         libm::sqrtf(self.noise * self.noise + 1.0 / 12.0)
     }
 
-    /// Time of sample `k`: `t_k = first + k·period`, s (f32; exact to rounding for k < 2²⁴).
+    /// Time of sample `k`: `t_k = first + k·period`, s (f32; exact to rounding for k < 2²⁴;
+    /// finite and ≥ 0 for every `k`, by the bounds on `first` and `period`).
     pub fn time_of(&self, k: usize) -> Seconds {
         Seconds::new(self.first + k as f32 * self.period)
     }
@@ -170,6 +179,14 @@ impl Sampling {
     pub fn amps(&self, raw: f32) -> f32 {
         (raw - self.zero) * self.amps_per_count
     }
+}
+
+/// `Ok(t)` for a time within [`Sampling::MAX_TIME`], else [`Param::Time`] / [`Why::OutOfRange`].
+fn at_most_max_time(t: f32) -> Result<f32, Error> {
+    if t > Sampling::MAX_TIME.value() {
+        return Err(Error::invalid(Param::Time, Why::OutOfRange));
+    }
+    Ok(t)
 }
 
 /// A fixed-capacity trace buffer of `N` samples (no heap), filled in time order.

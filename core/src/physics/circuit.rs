@@ -312,7 +312,9 @@ impl Circuit {
     /// `V_drive = V_supply − V_CE(sat)`.
     ///
     /// # Errors
-    /// Invalid supply, temperature or factor; [`Limit::NoHeadroom`] when V_drive ≤ 0.
+    /// Invalid supply, temperature or factor; [`Limit::NoHeadroom`] when V_drive ≤ 0;
+    /// [`Limit::Overflow`] when a resolved resistance, inductance or the final current
+    /// `V_drive/R_on` does not fit a positive finite f32 (extreme factors or supplies).
     pub fn resolve(&self, op: &OperatingPoint) -> Result<Resolved, Error> {
         let supply = positive(op.supply.value(), Param::Supply)?;
         let k_r = positive(op.resistance_factor, Param::Tolerance)?;
@@ -324,14 +326,17 @@ impl Circuit {
         if drive <= 0.0 {
             return Err(Error::OutsideModel(Limit::NoHeadroom));
         }
+        let on_loop = fits(winding + self.wiring + self.sense * k_s + r_switch)?;
+        // I∞ = V_drive/R_on: every figure of the circuit scales with it.
+        fits(drive / on_loop)?;
         Ok(Resolved {
-            winding: Ohms::new(winding),
-            on_loop: Ohms::new(winding + self.wiring + self.sense * k_s + r_switch),
-            off_loop: Ohms::new(winding + self.wiring),
+            winding: Ohms::new(fits(winding)?),
+            on_loop: Ohms::new(on_loop),
+            off_loop: Ohms::new(fits(winding + self.wiring)?),
             drive: Volts::new(drive),
             supply: Volts::new(supply),
-            inductance_released: self.coil.inductance(Armature::Released).value() * k_l,
-            inductance_operated: self.coil.inductance(Armature::Operated).value() * k_l,
+            inductance_released: fits(self.coil.inductance(Armature::Released).value() * k_l)?,
+            inductance_operated: fits(self.coil.inductance(Armature::Operated).value() * k_l)?,
         })
     }
 
@@ -386,8 +391,26 @@ impl Circuit {
 
     /// Pull-in margin: `I∞ / I_pull − 1` (0.25 = 25 % more current than needed). Negative means the
     /// coil does not pull in.
+    ///
+    /// # Errors
+    /// As [`Circuit::resolve`]; [`Limit::Overflow`] when the ratio does not fit an f32.
     pub fn pull_in_margin(&self, op: &OperatingPoint) -> Result<f32, Error> {
-        Ok(self.final_current(op)?.value() / self.coil.pull_in_current().value() - 1.0)
+        pull_in_margin_of(self.final_current(op)?, self.coil.pull_in_current())
+    }
+}
+
+/// `I∞ / I_pull − 1`, checked: [`Limit::Overflow`] when it does not fit an f32.
+pub(crate) fn pull_in_margin_of(final_current: Amps, pull_in: Amps) -> Result<f32, Error> {
+    crate::error::result(final_current.value() / pull_in.value() - 1.0)
+}
+
+/// `Ok(x)` for a finite, strictly positive resolved quantity; [`Limit::Overflow`] for one that
+/// overflowed to ∞ or underflowed to 0 (the model cannot represent it in f32).
+fn fits(x: f32) -> Result<f32, Error> {
+    if x.is_finite() && x > 0.0 {
+        Ok(x)
+    } else {
+        Err(Error::OutsideModel(Limit::Overflow))
     }
 }
 
@@ -476,5 +499,73 @@ pub(crate) mod tests {
         );
         assert!(SupplyRange::with_tolerance(Volts::new(24.0), 1.5).is_err());
         assert!(TemperatureRange::new(Celsius::new(85.0), Celsius::new(-40.0)).is_err());
+    }
+
+    /// Issue 11 item 12: a must-operate voltage near the smallest positive f32 made the pull-in
+    /// current 0 and the margin ∞; a supply near f32::MAX against a small loop resistance made
+    /// I∞ = ∞. Both are errors now (refused coil, or overflow), never a non-finite `Ok`.
+    #[test]
+    fn extreme_inputs_give_errors_not_infinities() {
+        let tiny = Coil::new(
+            Ohms::new(180.0),
+            Celsius::new(20.0),
+            Henries::new(0.3),
+            Henries::new(0.45),
+            Volts::new(1.0e-44),
+            Volts::new(1.0e-45),
+        );
+        match tiny {
+            Err(e) => assert_eq!(
+                e,
+                Error::invalid(Param::MustReleaseVoltage, Why::OutOfRange)
+            ),
+            Ok(coil) => {
+                let c = Circuit::new(
+                    coil,
+                    Switch::Mosfet {
+                        on_resistance: Ohms::new(0.1),
+                        breakdown: Volts::new(60.0),
+                    },
+                    Topology::LowSide,
+                    Ohms::new(0.5),
+                    Ohms::new(0.4),
+                    Clamp::diode(Volts::new(0.8)).unwrap(),
+                )
+                .unwrap();
+                let op = OperatingPoint::new(Volts::new(24.0), Celsius::new(20.0));
+                let m = c.pull_in_margin(&op);
+                assert!(m.map_or(true, f32::is_finite), "{m:?}");
+            }
+        }
+        let mut c = valve(Clamp::diode(Volts::new(0.8)).unwrap());
+        let full = c;
+        c.sense = 0.0;
+        c.wiring = 0.0;
+        c.switch = Switch::Bipolar {
+            saturation: Volts::new(0.0),
+            breakdown: Volts::new(f32::MAX),
+        };
+        let huge = OperatingPoint {
+            resistance_factor: 1.0e-30,
+            ..OperatingPoint::new(Volts::new(f32::MAX), Celsius::new(20.0))
+        };
+        assert_eq!(
+            c.final_current(&huge),
+            Err(Error::OutsideModel(Limit::Overflow))
+        );
+        assert_eq!(
+            c.pull_in_margin(&huge),
+            Err(Error::OutsideModel(Limit::Overflow))
+        );
+        let near_max = OperatingPoint::new(Volts::new(f32::MAX), Celsius::new(20.0));
+        let i = full.final_current(&near_max);
+        assert!(i.map_or(true, |i| i.value().is_finite()), "{i:?}");
+        // A resistance factor so small that the winding underflows to 0 Ω.
+        let zero_winding = OperatingPoint {
+            resistance_factor: 1.0e-45,
+            ..OperatingPoint::new(Volts::new(24.0), Celsius::new(20.0))
+        };
+        let r = c.resolve(&zero_winding);
+        assert!(r.map_or(true, |r| r.winding.value() > 0.0), "{r:?}");
     }
 }

@@ -48,7 +48,8 @@ impl Coil {
     /// [`Error::Invalid`] naming the parameter: any value non-finite; R, L or must-operate not
     /// positive; must-release not positive or not below must-operate; reference temperature outside
     /// [`MIN_WINDING_TEMPERATURE`]..[`MAX_WINDING_TEMPERATURE`]; a must-operate voltage so large
-    /// against R that `V_op/R` overflows f32 ([`Why::OutOfRange`]).
+    /// against R that `V_op/R` overflows f32, or a must-release voltage so small against R that
+    /// `V_rel/R` is below the smallest normal f32 ([`Why::OutOfRange`]).
     pub fn new(
         resistance: Ohms,
         reference_temperature: Celsius,
@@ -69,9 +70,14 @@ impl Coil {
                 Why::ReleaseAboveOperate,
             ));
         }
-        // The pull-in current V_op/R (the larger of the two ratios) must be finite.
+        // The pull-in current V_op/R (the larger of the two ratios) must be finite, and the
+        // drop-out current V_rel/R (the smaller) a normal f32: a ratio that underflows to 0 or
+        // a subnormal would make every margin and ratio against it overflow.
         if !(v_op / resistance).is_finite() {
             return Err(Error::invalid(Param::MustOperateVoltage, Why::OutOfRange));
+        }
+        if v_rel / resistance < f32::MIN_POSITIVE {
+            return Err(Error::invalid(Param::MustReleaseVoltage, Why::OutOfRange));
         }
         Ok(Self {
             resistance,
