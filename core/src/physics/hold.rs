@@ -61,7 +61,10 @@ impl Circuit {
     /// # Errors
     /// [`Error::Unreachable`] when `I_h ≥ I_on = V_drive/R_on` (the coil cannot be held there even
     /// at 100 %); [`Limit::NotFirstOrder`] for the RC snubber; [`Limit::DiscontinuousConduction`]
-    /// when the current would reach zero in the off phase (PWM too slow); invalid inputs.
+    /// when the current would reach zero in the off phase (PWM too slow); [`Limit::Resolution`]
+    /// when the duty rounds to 0 or 1 in f32 (a clamp so strong that the off fraction is below
+    /// rounding) or the ripple is below rounding against the current; invalid inputs. An `Ok`
+    /// always has 0 < D < 1, ripple ≥ 0 and every figure finite.
     pub fn hold(
         &self,
         op: &OperatingPoint,
@@ -89,6 +92,11 @@ impl Circuit {
         let r_on = 1.0 / tau_on; // ∝ R_on
         let r_off = 1.0 / tau_off; // ∝ R_off
         let duty = result(r_off * (a + ih) / (r_on * (i_on - ih) + r_off * (a + ih)))?;
+        // D < 1 exactly when I_h < I_on, but a clamp that stops the current almost at once (huge
+        // V/R_off) leaves an off fraction 1 − D below f32 rounding: D rounds to 1.
+        if !(duty > 0.0 && duty < 1.0) {
+            return Err(Error::OutsideModel(Limit::Resolution));
+        }
         let period = result(1.0 / f)?;
         let x_on = duty * period / tau_on;
         let x_off = (1.0 - duty) * period / tau_off;
@@ -103,6 +111,10 @@ impl Circuit {
             return Err(Error::OutsideModel(Limit::DiscontinuousConduction));
         }
         let ripple = (i_on - valley) * m_on;
+        if !(ripple >= 0.0) {
+            // valley ≤ I_on in exact arithmetic; above it only by rounding of a vanishing ripple.
+            return Err(Error::OutsideModel(Limit::Resolution));
+        }
         let peak = valley + ripple;
         let mean_on = valley + (i_on - valley) * mean_fraction(x_on);
         let mean_off = peak - (peak + a) * mean_fraction(x_off);
@@ -307,5 +319,67 @@ mod tests {
         }
         assert!((mean_fraction(0.1) as f64 - direct(0.1)).abs() < 1e-7);
         assert!((mean_fraction(3.0) as f64 - direct(3.0)).abs() < 1e-6);
+    }
+
+    /// Checks the documented contract of one hold: 0 < D < 1, every figure finite, ripple ≥ 0,
+    /// 0 ≤ valley ≤ peak, the average between them, powers ≥ 0.
+    fn assert_contract(h: &Hold, what: &str) {
+        assert!(h.duty > 0.0 && h.duty < 1.0, "{what}: {h:?}");
+        for x in [
+            h.frequency.value(),
+            h.valley.value(),
+            h.peak.value(),
+            h.ripple.value(),
+            h.average.value(),
+            h.winding_power.value(),
+            h.clamp_power.value(),
+        ] {
+            assert!(x.is_finite(), "{what}: {h:?}");
+        }
+        assert!(h.ripple.value() >= 0.0, "{what}: {h:?}");
+        assert!(h.valley.value() >= 0.0 && h.valley <= h.peak, "{what}: {h:?}");
+        // The mean lies between valley and peak, to f32 rounding of the three sums (a few ulp).
+        let ulps = 4.0 * f32::EPSILON * h.peak.value();
+        assert!(h.valley.value() - ulps <= h.average.value(), "{what}: {h:?}");
+        assert!(h.average.value() <= h.peak.value() + ulps, "{what}: {h:?}");
+        assert!(h.winding_power.value() >= 0.0 && h.clamp_power.value() >= 0.0);
+    }
+
+    /// Issue 11 item 13: extreme clamp values gave duty = 1.0 and a negative ripple inside `Ok`.
+    #[test]
+    fn extreme_clamps_keep_the_duty_and_ripple_contract() {
+        let mut clamps = std::vec::Vec::new();
+        for v in (0..39).map(|k| libm::powf(10.0, k as f32)).chain([3.0e38, f32::MAX]) {
+            clamps.push(Clamp::diode_zener(Volts::new(0.8), Volts::new(v)).unwrap());
+            clamps.push(Clamp::diode_resistor(Volts::new(0.8), Ohms::new(v)).unwrap());
+            clamps.push(Clamp::diode(Volts::new(v)).unwrap());
+            clamps.push(Clamp::AcrossSwitch {
+                clamp_voltage: Volts::new(v),
+            });
+            clamps.push(Clamp::Unclamped);
+        }
+        for (k, clamp) in clamps.into_iter().enumerate() {
+            // The unclamped switch avalanches at its breakdown: sweep it with the clamp values.
+            let breakdown = libm::fmaxf(60.0, libm::powf(10.0, (k / 5).min(38) as f32));
+            let c = Circuit::new(
+                *valve(clamp).coil(),
+                crate::physics::circuit::Switch::Mosfet {
+                    on_resistance: Ohms::new(0.1),
+                    breakdown: Volts::new(breakdown),
+                },
+                crate::physics::circuit::Topology::LowSide,
+                Ohms::new(0.5),
+                Ohms::new(0.4),
+                clamp,
+            )
+            .unwrap();
+            for f in (-10..39).map(|k| libm::powf(10.0, k as f32)) {
+                for ih in [1.0e-40f32, 1.0e-30, 1.0e-12, 1.0e-6, 0.01, 0.05, 0.1, 0.13, 0.1325] {
+                    if let Ok(h) = c.hold(&op(), Amps::new(ih), Hertz::new(f)) {
+                        assert_contract(&h, &std::format!("{clamp:?} {f} Hz {ih} A"));
+                    }
+                }
+            }
+        }
     }
 }
