@@ -133,12 +133,39 @@ impl DriverDesign {
         })
     }
 
+    /// Checks the design's own fields, the one validation that [`DriverDesign::figures`],
+    /// [`DriverDesign::budget`], [`DriverDesign::tick_budget`] and
+    /// [`DriverDesign::hold_at_corners`] share: tolerances (see [`Tolerances::validate`]);
+    /// mechanical allowances and residual current finite and ≥ 0; a planned duty with
+    /// `t_on ≥ 0`, `f ≥ 0` (finite) and `t_on·f ≤ 1`; a clamp rating finite and > 0.
+    ///
+    /// # Errors
+    /// [`Error::Invalid`] naming the field: [`crate::Param::Tolerance`], [`crate::Param::Time`],
+    /// [`crate::Param::Current`], [`crate::Param::Frequency`], [`crate::Param::Duty`],
+    /// [`crate::Param::PowerRating`].
+    pub fn validate(&self) -> Result<(), Error> {
+        use crate::error::{non_negative, positive, Param};
+        self.tolerances.validate()?;
+        non_negative(self.operate_allowance.value(), Param::Time)?;
+        non_negative(self.release_allowance.value(), Param::Time)?;
+        non_negative(self.residual_current.value(), Param::Current)?;
+        if let Some((on, f)) = self.duty {
+            let on = non_negative(on.value(), Param::Time)?;
+            let f = non_negative(f.value(), Param::Frequency)?;
+            crate::physics::drive::duty_fraction(on * f)?;
+        }
+        if let Some(p) = self.clamp_rating {
+            positive(p.value(), Param::PowerRating)?;
+        }
+        Ok(())
+    }
+
     /// Every figure at one operating point, the coil switched off from its final current.
     ///
     /// # Errors
-    /// Invalid tolerances or inputs; a planned duty `t_on·f` above 1 ([`crate::Param::Duty`]).
+    /// As [`DriverDesign::validate`]; invalid inputs; a figure that overflows f32.
     pub fn figures(&self, op: &OperatingPoint) -> Result<Figures, Error> {
-        self.tolerances.validate()?;
+        self.validate()?;
         let c = &self.circuit;
         let resolved = c.resolve(op)?;
         let rise = c.energize_resolved(&resolved, Armature::Released, Amps::new(0.0))?;
@@ -248,7 +275,7 @@ impl DriverDesign {
         if self.circuit.clamp().kind() == crate::physics::clamp::ClampKind::RcSnubber {
             return self.budget().map(|b| b.ticks);
         }
-        self.tolerances.validate()?;
+        self.validate()?;
         let c = &self.circuit;
         let t_pull = c
             .energize(&self.pull_in_corner(), Armature::Released, Amps::new(0.0))?
@@ -256,7 +283,12 @@ impl DriverDesign {
         let resolved = c.resolve(&self.release_corner())?;
         let i0 = Amps::new(resolved.drive.value() / resolved.on_loop.value());
         let release = c.release_resolved(&resolved, i0)?;
-        let (release_time, _, _, off) = self.release_figures(&release)?;
+        let (release_time, _, energy, off) = self.release_figures(&release)?;
+        // The budget's clamp power at the planned rate: refused here when it overflows there
+        // (the release corner carries the largest clamp energy of the budget's three points).
+        if let Some((_, f)) = self.duty {
+            clamp_average_power(energy.clamp, f)?;
+        }
         Ok(self.ticks_from(t_pull, off.required, release_time)?.1)
     }
 
@@ -299,11 +331,16 @@ impl DriverDesign {
     /// The hold PWM for `hold_current` at `frequency` at the nominal point, the pull-in corner
     /// (hot, low supply: the highest duty) and the release corner (cold, high supply: the lowest
     /// duty), in that order. See [`Circuit::hold`].
+    ///
+    /// # Errors
+    /// As [`DriverDesign::validate`] (the corners are built from the tolerances) and
+    /// [`Circuit::hold`].
     pub fn hold_at_corners(
         &self,
         hold_current: Amps,
         frequency: Hertz,
     ) -> Result<[Hold; 3], Error> {
+        self.validate()?;
         let c = &self.circuit;
         Ok([
             c.hold(&self.nominal_point(), hold_current, frequency)?,

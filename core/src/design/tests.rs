@@ -205,3 +205,66 @@ fn duty_gives_coil_power_and_hold_is_optional() {
     d.duty = None;
     assert_eq!(d.coil_power(&f.point), Ok(None));
 }
+
+/// Issue 11 item 13: `tick_budget()` accepted what `budget()` refused — a negative or NaN
+/// repetition rate, a zero, negative, NaN or huge clamp rating. Both share one validation now.
+#[test]
+fn tick_budget_refuses_exactly_what_budget_refuses() {
+    let on = Seconds::from_millis(50.0);
+    let bad_duties = [
+        Some((on, Hertz::new(-1.0))),
+        Some((on, Hertz::new(f32::NAN))),
+        Some((on, Hertz::new(f32::INFINITY))),
+        Some((Seconds::new(-1.0), Hertz::new(2.0))),
+        Some((Seconds::new(f32::NAN), Hertz::new(2.0))),
+        Some((on, Hertz::new(f32::MAX))),
+        Some((on, Hertz::new(2.0))),
+        None,
+    ];
+    let ratings = [
+        None,
+        Some(Watts::new(0.0)),
+        Some(Watts::new(-1.0)),
+        Some(Watts::new(f32::NAN)),
+        Some(Watts::new(f32::INFINITY)),
+        Some(Watts::new(f32::MAX)),
+        Some(Watts::new(1.0e-45)),
+        Some(Watts::new(0.25)),
+    ];
+    let mut refused = 0;
+    for clamp in every_clamp() {
+        for duty in bad_duties {
+            for rating in ratings {
+                let mut d = design(clamp);
+                d.duty = duty;
+                d.clamp_rating = rating;
+                let (full, ticks) = (d.budget(), d.tick_budget());
+                match (&full, &ticks) {
+                    (Ok(b), Ok(t)) => assert_eq!(&b.ticks, t, "{clamp:?} {duty:?} {rating:?}"),
+                    (Err(a), Err(b)) => {
+                        assert_eq!(a, b, "{clamp:?} {duty:?} {rating:?}");
+                        refused += 1;
+                    }
+                    _ => panic!("{clamp:?} {duty:?} {rating:?}: {full:?} vs {ticks:?}"),
+                }
+            }
+        }
+    }
+    assert!(refused > 0);
+}
+
+/// Issue 11 item 13: `hold_at_corners()` did not validate the tolerances.
+#[test]
+fn hold_at_corners_validates_the_tolerances() {
+    for bad in [-0.1f32, 0.95, f32::NAN, f32::INFINITY] {
+        let mut d = design(every_clamp()[0]);
+        d.tolerances.resistance = bad;
+        assert_eq!(
+            d.hold_at_corners(Amps::new(0.05), Hertz::new(20_000.0))
+                .map(|_| ()),
+            d.tolerances.validate(),
+            "{bad}"
+        );
+        assert!(d.tolerances.validate().is_err());
+    }
+}

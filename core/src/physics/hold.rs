@@ -111,7 +111,7 @@ impl Circuit {
             return Err(Error::OutsideModel(Limit::DiscontinuousConduction));
         }
         let ripple = (i_on - valley) * m_on;
-        if !(ripple >= 0.0) {
+        if ripple.is_nan() || ripple < 0.0 {
             // valley ≤ I_on in exact arithmetic; above it only by rounding of a vanishing ripple.
             return Err(Error::OutsideModel(Limit::Resolution));
         }
@@ -337,10 +337,16 @@ mod tests {
             assert!(x.is_finite(), "{what}: {h:?}");
         }
         assert!(h.ripple.value() >= 0.0, "{what}: {h:?}");
-        assert!(h.valley.value() >= 0.0 && h.valley <= h.peak, "{what}: {h:?}");
+        assert!(
+            h.valley.value() >= 0.0 && h.valley <= h.peak,
+            "{what}: {h:?}"
+        );
         // The mean lies between valley and peak, to f32 rounding of the three sums (a few ulp).
         let ulps = 4.0 * f32::EPSILON * h.peak.value();
-        assert!(h.valley.value() - ulps <= h.average.value(), "{what}: {h:?}");
+        assert!(
+            h.valley.value() - ulps <= h.average.value(),
+            "{what}: {h:?}"
+        );
         assert!(h.average.value() <= h.peak.value() + ulps, "{what}: {h:?}");
         assert!(h.winding_power.value() >= 0.0 && h.clamp_power.value() >= 0.0);
     }
@@ -349,7 +355,10 @@ mod tests {
     #[test]
     fn extreme_clamps_keep_the_duty_and_ripple_contract() {
         let mut clamps = std::vec::Vec::new();
-        for v in (0..39).map(|k| libm::powf(10.0, k as f32)).chain([3.0e38, f32::MAX]) {
+        for v in (0..39)
+            .map(|k| libm::powf(10.0, k as f32))
+            .chain([3.0e38, f32::MAX])
+        {
             clamps.push(Clamp::diode_zener(Volts::new(0.8), Volts::new(v)).unwrap());
             clamps.push(Clamp::diode_resistor(Volts::new(0.8), Ohms::new(v)).unwrap());
             clamps.push(Clamp::diode(Volts::new(v)).unwrap());
@@ -374,7 +383,9 @@ mod tests {
             )
             .unwrap();
             for f in (-10..39).map(|k| libm::powf(10.0, k as f32)) {
-                for ih in [1.0e-40f32, 1.0e-30, 1.0e-12, 1.0e-6, 0.01, 0.05, 0.1, 0.13, 0.1325] {
+                for ih in [
+                    1.0e-40f32, 1.0e-30, 1.0e-12, 1.0e-6, 0.01, 0.05, 0.1, 0.13, 0.1325,
+                ] {
                     if let Ok(h) = c.hold(&op(), Amps::new(ih), Hertz::new(f)) {
                         assert_contract(&h, &std::format!("{clamp:?} {f} Hz {ih} A"));
                     }
