@@ -304,13 +304,16 @@ impl Expected {
                 max: Volts::new(drive.max),
             },
             movement_by,
-            pull_in_reading: Amps::new(i_pull * (1.0 + design.tolerances.sense)),
+            pull_in_reading: Amps::new(crate::error::result(
+                i_pull * (1.0 + design.tolerances.sense),
+            )?),
             operate_allowance: Seconds::new(operate),
             supply_measured: conditions.supply.is_some(),
             supply_below_design: d.supply.max().value() < design.supply.min().value(),
             coil: *c.coil(),
             external: c.wiring().value() + nominal_sense + switch_r,
-            drive_mid: 0.5 * (drive.min + drive.max),
+            // Halves first: the sum of two drives near f32::MAX overflows.
+            drive_mid: 0.5 * drive.min + 0.5 * drive.max,
         })
     }
 

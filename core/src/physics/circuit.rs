@@ -2,7 +2,7 @@
 //! operating point (supply, winding temperature, part tolerances) it is evaluated at.
 
 use super::clamp::Clamp;
-use super::coil::{temperature_in_range_as, Armature, Coil};
+use super::coil::{resistance_in_range, temperature_in_range_as, Armature, Coil};
 use super::first_order::FirstOrder;
 use crate::error::{finite, non_negative, positive, Error, Limit, Param, Why};
 use crate::units::{Amps, Celsius, Ohms, Seconds, Volts};
@@ -44,7 +44,8 @@ impl Switch {
         }
     }
 
-    /// Checks every field: finite, drops ≥ 0, breakdown > 0.
+    /// Checks every field: finite, drops ≥ 0, breakdown > 0, on-resistance at most
+    /// [`super::coil::MAX_RESISTANCE`].
     pub fn validate(&self) -> Result<(), Error> {
         match *self {
             Switch::Bipolar {
@@ -58,7 +59,10 @@ impl Switch {
                 on_resistance,
                 breakdown,
             } => {
-                non_negative(on_resistance.value(), Param::OnResistance)?;
+                resistance_in_range(
+                    non_negative(on_resistance.value(), Param::OnResistance)?,
+                    Param::OnResistance,
+                )?;
                 positive(breakdown.value(), Param::BreakdownVoltage)?;
             }
         }
@@ -248,7 +252,7 @@ pub struct Resolved {
 }
 
 impl Circuit {
-    /// A drive circuit. `sense` and `wiring` are series resistances (≥ 0 Ω); the sense resistor sits
+    /// A drive circuit. `sense` and `wiring` are series resistances (0 … [`super::coil::MAX_RESISTANCE`]); the sense resistor sits
     /// in the switch path, outside the freewheel loop, and the wiring inside it (clamp at the driver).
     ///
     /// # Errors
@@ -264,7 +268,9 @@ impl Circuit {
         switch.validate()?;
         clamp.validate()?;
         let sense = non_negative(sense.value(), Param::SenseResistance)?;
+        let sense = resistance_in_range(sense, Param::SenseResistance)?;
         let wiring = non_negative(wiring.value(), Param::WiringResistance)?;
+        let wiring = resistance_in_range(wiring, Param::WiringResistance)?;
         Ok(Self {
             coil,
             switch,

@@ -115,7 +115,8 @@ impl Clamp {
         c.validate().map(|()| c)
     }
 
-    /// Checks the clamp's own values (finite, positive, clamp voltage above diode drop). Whether a
+    /// Checks the clamp's own values (finite, positive, clamp voltage above diode drop, resistors
+    /// at most [`super::coil::MAX_RESISTANCE`]). Whether a
     /// clamp across the switch sits above the supply is checked at release, where the supply is known.
     pub fn validate(&self) -> Result<(), Error> {
         match *self {
@@ -137,7 +138,8 @@ impl Clamp {
                 resistance,
             } => {
                 positive(forward.value(), Param::DiodeDrop)?;
-                positive(resistance.value(), Param::ClampResistance)?;
+                let r = positive(resistance.value(), Param::ClampResistance)?;
+                super::coil::resistance_in_range(r, Param::ClampResistance)?;
             }
             Clamp::AcrossSwitch { clamp_voltage } => {
                 positive(clamp_voltage.value(), Param::ClampVoltage)?;
@@ -147,7 +149,8 @@ impl Clamp {
                 resistance,
                 capacitance,
             } => {
-                positive(resistance.value(), Param::ClampResistance)?;
+                let r = positive(resistance.value(), Param::ClampResistance)?;
+                super::coil::resistance_in_range(r, Param::ClampResistance)?;
                 positive(capacitance.value(), Param::Capacitance)?;
             }
         }

@@ -14,6 +14,15 @@ pub const MIN_WINDING_TEMPERATURE: Celsius = Celsius::new(-100.0);
 /// class; magnet wire class 220 is the top of IEC 60085).
 pub const MAX_WINDING_TEMPERATURE: Celsius = Celsius::new(250.0);
 
+/// Largest resistance the model takes for any part of the drive loop (winding, switch, sense,
+/// wiring, clamp resistor), Ω (1 GΩ). Together with [`MIN_INDUCTANCE`] it keeps every time
+/// constant `L/R` a normal f32 at every corner, so a figure cannot underflow to 0 at one corner
+/// and not at another.
+pub const MAX_RESISTANCE: Ohms = Ohms::new(1.0e9);
+
+/// Smallest inductance the model takes, H (1 nH: far below any relay or valve coil).
+pub const MIN_INDUCTANCE: Henries = Henries::new(1.0e-9);
+
 /// Which mechanical state the armature is in; it sets the inductance.
 #[derive(Clone, Copy, Debug, PartialEq, Eq)]
 #[cfg_attr(feature = "defmt", derive(defmt::Format))]
@@ -46,7 +55,7 @@ impl Coil {
     ///
     /// # Errors
     /// [`Error::Invalid`] naming the parameter: any value non-finite; R, L or must-operate not
-    /// positive; must-release not positive or not below must-operate; reference temperature outside
+    /// positive; R above [`MAX_RESISTANCE`] or L below [`MIN_INDUCTANCE`] ([`Why::OutOfRange`]); must-release not positive or not below must-operate; reference temperature outside
     /// [`MIN_WINDING_TEMPERATURE`]..[`MAX_WINDING_TEMPERATURE`]; a must-operate voltage so large
     /// against R that `V_op/R` overflows f32, or a must-release voltage so small against R that
     /// `V_rel/R` is below the smallest normal f32 ([`Why::OutOfRange`]).
@@ -58,10 +67,13 @@ impl Coil {
         must_operate: crate::units::Volts,
         must_release: crate::units::Volts,
     ) -> Result<Self, Error> {
-        let resistance = positive(resistance.value(), Param::WindingResistance)?;
+        let resistance = resistance_in_range(
+            positive(resistance.value(), Param::WindingResistance)?,
+            Param::WindingResistance,
+        )?;
         let t_ref = temperature_in_range(reference_temperature)?;
-        let l_rel = positive(inductance_released.value(), Param::InductanceReleased)?;
-        let l_op = positive(inductance_operated.value(), Param::InductanceOperated)?;
+        let l_rel = inductance_in_range(inductance_released, Param::InductanceReleased)?;
+        let l_op = inductance_in_range(inductance_operated, Param::InductanceOperated)?;
         let v_op = positive(must_operate.value(), Param::MustOperateVoltage)?;
         let v_rel = positive(must_release.value(), Param::MustReleaseVoltage)?;
         if v_rel >= v_op {
@@ -142,11 +154,15 @@ impl Coil {
     /// Domain: T within [`MIN_WINDING_TEMPERATURE`]..[`MAX_WINDING_TEMPERATURE`]. Accuracy: the
     /// linear copper law is within about 1 % of measured copper resistivity from −100 °C to
     /// +250 °C; the result carries f32 rounding only.
+    ///
+    /// # Errors
+    /// Temperature outside the range; [`crate::Limit::Overflow`] when `R(T)` overflows f32 (an
+    /// `R_ref` near f32::MAX, warmed).
     pub fn resistance_at(&self, temperature: Celsius) -> Result<Ohms, Error> {
         let t = temperature_in_range(temperature)?;
         let scale = 1.0 + self.alpha * (t - self.reference_temperature);
         positive(scale, Param::Temperature)?;
-        Ok(Ohms::new(self.resistance * scale))
+        crate::error::result(self.resistance * scale).map(Ohms::new)
     }
 
     /// Winding temperature from a measured resistance: `T = T_ref + (R/R_ref − 1)/α`, °C.
@@ -172,6 +188,23 @@ impl Coil {
     pub fn drop_out_current(&self) -> Amps {
         Amps::new(self.must_release / self.resistance)
     }
+}
+
+/// `Ok(r)` for a resistance (already checked finite and ≥ 0) up to [`MAX_RESISTANCE`], else
+/// `param` / [`Why::OutOfRange`].
+pub(crate) fn resistance_in_range(r: f32, param: Param) -> Result<f32, Error> {
+    if r > MAX_RESISTANCE.value() {
+        return Err(Error::invalid(param, Why::OutOfRange));
+    }
+    Ok(r)
+}
+
+fn inductance_in_range(l: Henries, param: Param) -> Result<f32, Error> {
+    let l = positive(l.value(), param)?;
+    if l < MIN_INDUCTANCE.value() {
+        return Err(Error::invalid(param, Why::OutOfRange));
+    }
+    Ok(l)
 }
 
 /// `Ok(t)` when the winding temperature `t` is finite and within the copper model's range

@@ -127,7 +127,9 @@ impl Circuit {
             peak: Amps::new(peak),
             ripple: Amps::new(ripple),
             average: Amps::new(average),
-            winding_power: Watts::new(winding * (average * average + ripple * ripple / 12.0)),
+            winding_power: Watts::new(result(
+                winding * (average * average + ripple * ripple / 12.0),
+            )?),
             clamp_power: Watts::new(result(
                 (1.0 - duty) * release.clamp_power_at(mean_off, ripple),
             )?),
@@ -360,7 +362,8 @@ mod tests {
             .chain([3.0e38, f32::MAX])
         {
             clamps.push(Clamp::diode_zener(Volts::new(0.8), Volts::new(v)).unwrap());
-            clamps.push(Clamp::diode_resistor(Volts::new(0.8), Ohms::new(v)).unwrap());
+            // Clamp resistors above the model's 1 GΩ are refused.
+            clamps.extend(Clamp::diode_resistor(Volts::new(0.8), Ohms::new(v)).ok());
             clamps.push(Clamp::diode(Volts::new(v)).unwrap());
             clamps.push(Clamp::AcrossSwitch {
                 clamp_voltage: Volts::new(v),
