@@ -149,7 +149,9 @@ impl SnubberRelease {
 
     /// Damping ratio `ζ = (R + R_s)/2·√(C/L)` (≥ 1 here; 1 = critical).
     pub fn damping_ratio(&self) -> f32 {
-        self.alpha / libm::sqrtf(self.omega2())
+        // As (R + R_s)/2·√C/√L: α/ω₀ overflows when L·C does (ω₀² → 0).
+        0.5 * (self.loop_resistance + self.snubber_resistance) * libm::sqrtf(self.capacitance)
+            / libm::sqrtf(self.inductance)
     }
 
     /// `ω₀² = 1/(L·C)`, 1/s².
