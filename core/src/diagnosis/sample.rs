@@ -70,19 +70,36 @@ impl Sampling {
     /// `first + k·period` finite in f32 for any index a slice can hold (k < 2⁶⁴).
     pub const MAX_TIME: Seconds = Seconds::new(1.0e3);
 
-    /// Samples every `period` (s, finite, 0 < period ≤ [`Sampling::MAX_TIME`]) scaled by
-    /// `amps_per_count` (A per count, finite, positive; 1.0 for samples already in amperes).
+    /// Shortest sample period the model takes, s (1 ps, far below any converter): a shorter one
+    /// makes sample times and the fitted τ underflow.
+    pub const MIN_PERIOD: Seconds = Seconds::new(1.0e-12);
+
+    /// Range of `amps_per_count` the model takes, A per raw unit (10⁻¹⁵ … 10¹⁵): beyond it the
+    /// currents and their squares leave f32's normal range.
+    pub const SCALE_RANGE: (f32, f32) = (1.0e-15, 1.0e15);
+
+    /// Samples every `period` (s, [`Sampling::MIN_PERIOD`] ≤ period ≤ [`Sampling::MAX_TIME`])
+    /// scaled by `amps_per_count` (A per count, within [`Sampling::SCALE_RANGE`]; 1.0 for samples
+    /// already in amperes).
     /// Defaults: first sample at switch-on (t = 0), zero at count 0, no saturation level, no noise
     /// beyond quantisation.
     ///
     /// # Errors
-    /// [`Error::Invalid`]: [`Param::Time`] for the period ([`Why::OutOfRange`] above
-    /// [`Sampling::MAX_TIME`]), [`Param::Current`] for the scale.
+    /// [`Error::Invalid`]: [`Param::Time`] for the period, [`Param::Current`] for the scale
+    /// ([`Why::OutOfRange`] outside the ranges above).
     pub fn new(period: Seconds, amps_per_count: f32) -> Result<Self, Error> {
+        let period = at_most_max_time(positive(period.value(), Param::Time)?)?;
+        if period < Self::MIN_PERIOD.value() {
+            return Err(Error::invalid(Param::Time, Why::OutOfRange));
+        }
+        let apc = positive(amps_per_count, Param::Current)?;
+        if !(Self::SCALE_RANGE.0..=Self::SCALE_RANGE.1).contains(&apc) {
+            return Err(Error::invalid(Param::Current, Why::OutOfRange));
+        }
         Ok(Self {
-            period: at_most_max_time(positive(period.value(), Param::Time)?)?,
+            period,
             first: 0.0,
-            amps_per_count: positive(amps_per_count, Param::Current)?,
+            amps_per_count: apc,
             zero: 0.0,
             full_scale: f32::INFINITY,
             noise: 0.0,
@@ -270,6 +287,21 @@ mod tests {
             .is_err());
         assert!(s.with_noise(-0.1).is_err());
         assert!((s.time_of(10).value() - 5e-4).abs() < 1e-9);
+    }
+
+    /// Found by fuzzing `fit_trace` (issue 11 item 14): a subnormal period (1.4e-45 s) and a
+    /// scale of 2e-38 A/count gave a fit with τ = 0 inside `Ok`. Such samplings are refused.
+    #[test]
+    fn periods_and_scales_outside_the_model_are_refused() {
+        let out = Err(Error::invalid(Param::Time, Why::OutOfRange));
+        assert_eq!(Sampling::new(Seconds::new(1.4e-45), 1.0), out);
+        assert_eq!(Sampling::new(Seconds::new(1.0e-13), 1.0), out);
+        assert_eq!(Sampling::new(Seconds::new(1.0e4), 1.0), out);
+        let out = Err(Error::invalid(Param::Current, Why::OutOfRange));
+        assert_eq!(Sampling::new(Seconds::new(1e-4), 2.0e-38), out);
+        assert_eq!(Sampling::new(Seconds::new(1e-4), 1.0e16), out);
+        assert!(Sampling::new(Sampling::MIN_PERIOD, Sampling::SCALE_RANGE.0).is_ok());
+        assert!(Sampling::new(Sampling::MAX_TIME, Sampling::SCALE_RANGE.1).is_ok());
     }
 
     #[test]
