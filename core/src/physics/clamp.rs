@@ -463,8 +463,9 @@ impl Release {
     /// `stored = ½·L·I₀²`, `winding = R_loop·S`, `clamp = V_element·Q + R_clamp·S`,
     /// `supply = V_supply_in_loop·Q`, with Q and S from the module formulas.
     ///
-    /// For a switch that avalanches (no clamp) this is the single-pulse unclamped inductive
-    /// switching energy: as R → 0 it tends to `½·L·I₀²·V_BR/(V_BR − V_supply)`.
+    /// For a switch that avalanches (no clamp) this is the avalanche energy: as R → 0 it tends to
+    /// `E_AS = ½·L·I₀²·V_BR/(V_BR − V_supply)` (single-pulse unclamped inductive switching, JEDEC JESD24 family;
+    /// from memory).
     ///
     /// RC snubber: `clamp` is the snubber resistor's share and `capacitor` the pre-charge given up,
     /// see [`SnubberRelease::energy`].
@@ -645,8 +646,9 @@ mod tests {
 
     #[test]
     fn avalanche_tends_to_the_unclamped_inductive_switching_formula() {
-        // JEDEC JESD24 / AEC-Q101 single-pulse UIS method: E_AS = ½·L·I²·V_BR/(V_BR − V_DD),
-        // derived for a lossless inductor. With R small against (V_BR − V_DD)/I it is approached.
+        // E_AS = ½·L·I²·V_BR/(V_BR − V_DD) for a lossless inductor (single-pulse unclamped
+        // inductive switching, JEDEC JESD24 family; from memory). With R small against (V_BR −
+        // V_DD)/I it is approached.
         let c = valve(Clamp::Unclamped);
         let rel = c.release(&op(), Amps::new(0.13)).unwrap();
         let e = rel.energy().unwrap();

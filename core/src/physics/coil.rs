@@ -5,7 +5,7 @@ use crate::error::{finite, positive, Error, Param, Why};
 use crate::units::{Amps, Celsius, Henries, Ohms, PerKelvin};
 
 /// Temperature coefficient of resistance of annealed copper at 20 °C: 0.003 93 /K
-/// (the international annealed copper standard, IEC 60028).
+/// (IEC 60028 annealed copper: α20 = 0.003 93 /K, zero-resistance point −234.5 °C).
 pub const COPPER_ALPHA_20C: PerKelvin = PerKelvin::new(0.003_93);
 
 /// Lowest winding temperature the linear copper model is used for, °C.
@@ -102,8 +102,8 @@ impl Coil {
         })
     }
 
-    /// The same coil with another temperature coefficient (1/K, finite, 0 ≤ α ≤ 0.01; aluminium
-    /// wire is ≈ 0.0040 /K).
+    /// The same coil with another temperature coefficient (1/K, finite, 0 ≤ α ≤ 0.01;
+    /// aluminium ≈ 0.0040 /K (handbook value, from memory)).
     pub fn with_temperature_coefficient(mut self, alpha: PerKelvin) -> Result<Self, Error> {
         let a = finite(alpha.value(), Param::TemperatureCoefficient)?;
         if !(0.0..=0.01).contains(&a) {
@@ -242,8 +242,8 @@ mod tests {
 
     #[test]
     fn copper_coefficient_matches_the_annealed_copper_standard() {
-        // IEC 60028 (annealed copper standard): α20 = 0.00393 /K; equivalently copper's
-        // resistance extrapolates to zero at −234.5 °C: 1/(234.5 + 20) = 0.003929 /K.
+        // IEC 60028 annealed copper: α20 = 0.003 93 /K, zero-resistance point −234.5 °C:
+        // 1/(234.5 + 20) = 0.003929 /K.
         assert!((COPPER_ALPHA_20C.value() - 1.0 / 254.5).abs() < 2e-6);
         // Handbook rule of thumb (common practice, no source): copper gains ≈ 25 % from 20 to 85 °C.
         let c = valve();

@@ -25,8 +25,8 @@ use super::drive::duty_fraction;
 use crate::error::{finite, non_negative, positive, result, Error, Limit, Param};
 use crate::units::{Amps, Celsius, KelvinPerWatt, Ohms, Watts};
 
-/// Temperature at which copper's resistance extrapolates to zero on the linear law, °C
-/// (−234.5 °C; the reciprocal of the annealed-copper α at 20 °C, 1/(234.5 + 20) = 0.003 93 /K).
+/// Temperature at which copper's resistance extrapolates to zero on the linear law, °C (−234.5 °C =
+/// 20 °C − 1/α20; IEC 60028 annealed copper: α20 = 0.003 93 /K, zero-resistance point −234.5 °C).
 pub const COPPER_ZERO_RESISTANCE: Celsius = Celsius::new(-234.5);
 
 /// Iteration cap of the equilibrium solver.
@@ -178,10 +178,10 @@ mod tests {
 
     #[test]
     fn resistance_method_matches_the_copper_law() {
-        // Common practice, no source: the resistance method of winding temperature with copper's
-        // inferred zero-resistance point at −234.5 °C.
-        // 180 Ω at 20 °C reading 225.9 Ω hot: (225.9/180)·254.5 − 234.5 = 84.9 °C; the coil's own
-        // α-law inverse gives the same within rounding (α20 = 1/254.5).
+        // The resistance method of winding temperature (common practice, no source) with copper's
+        // zero-resistance point (IEC 60028 annealed copper: α20 = 0.003 93 /K, zero-resistance
+        // point −234.5 °C). 180 Ω at 20 °C reading 225.9 Ω hot: (225.9/180)·254.5 − 234.5 = 84.9
+        // °C; the coil's own α-law inverse gives the same within rounding (α20 = 1/254.5).
         let t = temperature_by_resistance(Ohms::new(180.0), Celsius::new(20.0), Ohms::new(225.9))
             .unwrap()
             .value();

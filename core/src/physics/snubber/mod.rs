@@ -175,7 +175,8 @@ impl SnubberRelease {
         Seconds::new(-1.0 / self.slow)
     }
 
-    /// Fast time constant `−1/s₂`, s (tends to `L/(R + R_s)` for a large capacitor).
+    /// Fast time constant `−1/s₂`, s (tends to `L/(R + R_s)` as C → ∞: the resistor clamp;
+    /// derived by hand from the series RLC loop, textbook second-order circuit, from memory).
     pub fn fast_time_constant(&self) -> Seconds {
         Seconds::new(-1.0 / self.fast())
     }

@@ -27,7 +27,10 @@ fn two_exp(l: f64, r: f64, c: f64, i0: f64, v0: f64, t: f64) -> f64 {
 }
 
 #[test]
-fn matches_the_textbook_two_exponential_form() {
+fn matches_the_two_exponential_form_in_f64() {
+    // i(t) = A·e^(s₁t) + B·e^(s₂t), s₁,₂ the roots of L·s² + (R + R_s)·s + 1/C = 0 (derived by hand
+    // from the series RLC loop, textbook second-order circuit, from memory), evaluated in f64 on
+    // invented values.
     let i0 = 0.1326;
     for (rs, c) in [(1000.0, 10.0e-6), (5000.0, 0.2e-6), (300.0, 100.0e-6)] {
         let s = snub(rs, c, i0, i0 * 181.0).unwrap();
@@ -53,7 +56,8 @@ fn matches_the_textbook_two_exponential_form() {
 
 #[test]
 fn critical_damping_is_the_limit_of_the_overdamped_form() {
-    // (R + R_s)² = 4L/C  ⇔  C = 4L/(R + R_s)²; textbook critical case i = (I₀ + k·t)·e^(−αt).
+    // (R + R_s)² = 4L/C  ⇔  C = 4L/(R + R_s)²; critical case i = (I₀ + k·t)·e^(−αt)
+    // (derived by hand from the series RLC loop, textbook second-order circuit, from memory).
     let rs = 1019.0f32;
     let c = 4.0 * 0.45 / (1200.0f32 * 1200.0);
     let s = snub(rs, c, 0.13, 0.13 * 181.0).unwrap();
@@ -110,7 +114,9 @@ fn times_invert_the_current() {
 
 #[test]
 fn reverse_lobe_when_r_times_rs_is_below_l_over_c() {
-    // R·R_s = 181·5000 = 9.05e5 < L/C = 2.25e6: the current swings through zero.
+    // Reverse lobe exactly when R·R_s < L/C for a settled pre-charge (derived by hand from the
+    // series RLC loop, textbook second-order circuit, from memory): R·R_s = 181·5000 = 9.05e5 < L/C
+    // = 2.25e6, so the current swings through zero.
     let s = snub(5000.0, 0.2e-6, 0.13, 0.13 * 181.0).unwrap();
     let t0 = s.time_to_current(Amps::new(0.0)).unwrap();
     assert!(s.current_at(t0).unwrap().value().abs() < 1e-6);
@@ -193,7 +199,8 @@ fn energy_balances_and_splits_by_resistance() {
 
 #[test]
 fn big_capacitor_starts_like_a_resistor_clamp() {
-    // C → ∞: the fast root tends to −(R + R_s)/L.
+    // C → ∞: the fast root tends to −(R + R_s)/L, the resistor clamp (derived by hand from the
+    // series RLC loop, textbook second-order circuit, from memory).
     let s = snub(1000.0, 0.1, 0.13, 0.0).unwrap();
     let fast = s.fast_time_constant().value();
     assert!((fast - 0.45 / 1181.0).abs() < 1e-3 * fast);
