@@ -712,7 +712,27 @@ fn trace(g: &mut Gen, n: usize, top: f32) -> Vec<f32> {
         .collect()
 }
 
-fn sampling(g: &mut Gen) -> Result<Sampling, Error> {
+/// A sampling from random settings: `Ok(None)` when refused, `Err` for an accepted one with a
+/// non-finite field (full scale may be +∞: "no saturation"; the period must be > 0).
+fn sampling(g: &mut Gen) -> Result<Option<Sampling>, String> {
+    let Ok(s) = try_sampling(g) else {
+        return Ok(None);
+    };
+    let fields = [
+        s.period().value(),
+        s.first().value(),
+        s.amps_per_count(),
+        s.zero(),
+        s.noise(),
+    ];
+    if fields.iter().any(|x| !x.is_finite()) || s.full_scale().is_nan() || s.period().value() <= 0.0
+    {
+        return Err(format!("Sampling accepted a non-finite field: {s:?}"));
+    }
+    Ok(Some(s))
+}
+
+fn try_sampling(g: &mut Gen) -> Result<Sampling, Error> {
     let period = g.secs(1e-4);
     let mut s = if g.rng.chance(0.5) {
         let bits = g.rng.below(27) as u8;
@@ -743,17 +763,6 @@ fn sampling(g: &mut Gen) -> Result<Sampling, Error> {
         let n = g.val(1.0);
         g.log("Sampling::with_noise", &n);
         s = s.with_noise(n)?;
-    }
-    // Every field finite (full scale may be +∞: "no saturation"), period > 0.
-    let fields = [
-        s.period().value(),
-        s.first().value(),
-        s.amps_per_count(),
-        s.zero(),
-        s.noise(),
-    ];
-    if fields.iter().any(|x| !x.is_finite()) || s.full_scale().is_nan() {
-        return Err(Error::OutsideModel(Limit::Overflow)); // reported by the caller as a violation
     }
     Ok(s)
 }
@@ -786,11 +795,9 @@ fn fam_diagnosis(g: &mut Gen) -> Result<(), String> {
     g.log("Probe::new", &fraction);
     let probe = Probe::new(&d, fraction);
     ok("Probe::new", &probe)?;
-    let s = sampling(g);
-    if let Err(Error::OutsideModel(Limit::Overflow)) = s {
-        return Err("Sampling accepted a non-finite field".to_string());
-    }
-    let Ok(s) = s else { return Ok(()) };
+    let Some(s) = sampling(g)? else {
+        return Ok(());
+    };
     let n = [0usize, 1, 2, 3, 8, 40, 200][g.rng.below(7) as usize];
     let raw = trace(g, n, 4000.0);
     let counts: Vec<u16> = raw.iter().map(|&x| x as u16).collect();
