@@ -332,17 +332,30 @@ impl Circuit {
         if drive <= 0.0 {
             return Err(Error::OutsideModel(Limit::NoHeadroom));
         }
-        let on_loop = fits(winding + self.wiring + self.sense * k_s + r_switch)?;
-        // I∞ = V_drive/R_on: every figure of the circuit scales with it.
-        fits(drive / on_loop)?;
+        let off_loop = winding + self.wiring;
+        let on_loop = off_loop + self.sense * k_s + r_switch;
+        let l_rel = self.coil.inductance(Armature::Released).value() * k_l;
+        let l_op = self.coil.inductance(Armature::Operated).value() * k_l;
+        // I∞ = V_drive/R_on: every figure of the circuit scales with it. One test for all (the
+        // budget's hot path): each resolved figure a positive finite f32. The loops are at least
+        // the winding and at most the on loop, so checking those bounds them too.
+        let i_inf = drive / on_loop;
+        let fit = positive_finite(winding)
+            & positive_finite(on_loop)
+            & positive_finite(l_rel)
+            & positive_finite(l_op)
+            & positive_finite(i_inf);
+        if !fit {
+            return Err(Error::OutsideModel(Limit::Overflow));
+        }
         Ok(Resolved {
-            winding: Ohms::new(fits(winding)?),
+            winding: Ohms::new(winding),
             on_loop: Ohms::new(on_loop),
-            off_loop: Ohms::new(fits(winding + self.wiring)?),
+            off_loop: Ohms::new(off_loop),
             drive: Volts::new(drive),
             supply: Volts::new(supply),
-            inductance_released: fits(self.coil.inductance(Armature::Released).value() * k_l)?,
-            inductance_operated: fits(self.coil.inductance(Armature::Operated).value() * k_l)?,
+            inductance_released: l_rel,
+            inductance_operated: l_op,
         })
     }
 
@@ -405,20 +418,18 @@ impl Circuit {
     }
 }
 
+/// Whether `x` is a positive finite f32 (0 < x < ∞; NaN, ±0 and negatives fail), read from its
+/// bits: integer compares, cheap on a core without an FPU.
+const fn positive_finite(x: f32) -> bool {
+    let bits = x.to_bits();
+    bits != 0 && bits < 0x7F80_0000
+}
+
 /// `I∞ / I_pull − 1`, checked: [`Limit::Overflow`] when it does not fit an f32.
 pub(crate) fn pull_in_margin_of(final_current: Amps, pull_in: Amps) -> Result<f32, Error> {
     crate::error::result(final_current.value() / pull_in.value() - 1.0)
 }
 
-/// `Ok(x)` for a finite, strictly positive resolved quantity; [`Limit::Overflow`] for one that
-/// overflowed to ∞ or underflowed to 0 (the model cannot represent it in f32).
-fn fits(x: f32) -> Result<f32, Error> {
-    if x.is_finite() && x > 0.0 {
-        Ok(x)
-    } else {
-        Err(Error::OutsideModel(Limit::Overflow))
-    }
-}
 
 #[cfg(test)]
 pub(crate) mod tests {
