@@ -430,7 +430,6 @@ pub(crate) fn pull_in_margin_of(final_current: Amps, pull_in: Amps) -> Result<f3
     crate::error::result(final_current.value() / pull_in.value() - 1.0)
 }
 
-
 #[cfg(test)]
 pub(crate) mod tests {
     use super::*;
