@@ -166,6 +166,11 @@ impl DriverDesign {
     /// As [`DriverDesign::validate`]; invalid inputs; a figure that overflows f32.
     pub fn figures(&self, op: &OperatingPoint) -> Result<Figures, Error> {
         self.validate()?;
+        self.figures_of_valid(op)
+    }
+
+    /// [`DriverDesign::figures`] of a design already validated (the budget validates once).
+    fn figures_of_valid(&self, op: &OperatingPoint) -> Result<Figures, Error> {
         let c = &self.circuit;
         let resolved = c.resolve(op)?;
         let rise = c.energize_resolved(&resolved, Armature::Released, Amps::new(0.0))?;
@@ -301,7 +306,7 @@ impl DriverDesign {
         let mut rel = Seconds::new(0.0);
         let mut k = 0;
         while let Some(op) = self.corner(k) {
-            let f = self.figures(&op)?;
+            let f = self.figures_of_valid(&op)?;
             if f.off_time.required > off {
                 off = f.off_time.required;
             }
@@ -368,9 +373,10 @@ impl DriverDesign {
     /// rely on such a design); [`Error::TickOverflow`] when a time does not fit the timer; any
     /// invalid input.
     pub fn budget(&self) -> Result<TimingBudget, Error> {
-        let nominal = self.figures(&self.nominal_point())?;
-        let pull_in = self.figures(&self.pull_in_corner())?;
-        let release = self.figures(&self.release_corner())?;
+        self.validate()?;
+        let nominal = self.figures_of_valid(&self.nominal_point())?;
+        let pull_in = self.figures_of_valid(&self.pull_in_corner())?;
+        let release = self.figures_of_valid(&self.release_corner())?;
         let Some(t_pull) = pull_in.pull_in_time else {
             return Err(Error::Unreachable {
                 target: self.circuit.coil().pull_in_current().value(),
