@@ -245,7 +245,8 @@ mod tests {
         let s = c
             .self_heating(&op(), Celsius::new(40.0), KelvinPerWatt::new(30.0), 1.0)
             .unwrap();
-        // Constant voltage: hot coil draws less, so the rise is below the cold-resistance estimate.
+        // Constant voltage: hot coil draws less, so the rise is below the cold-resistance estimate
+        // (P = V²/R falls as R rises: Joule heating, textbook, from memory).
         let cold = c
             .coil_dissipation(
                 &OperatingPoint::new(Volts::new(24.0), Celsius::new(40.0)),

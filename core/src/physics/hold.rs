@@ -263,6 +263,8 @@ mod tests {
 
     #[test]
     fn exact_ripple_matches_stepping_the_segments() {
+        // Reference: brute-force stepping of the two exact segments from zero until the period
+        // repeats ([`simulate`]), independent of the periodic closed form.
         for clamp in [
             Clamp::diode(Volts::new(0.8)).unwrap(),
             Clamp::diode_zener(Volts::new(0.8), Volts::new(20.0)).unwrap(),

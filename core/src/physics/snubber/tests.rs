@@ -146,6 +146,8 @@ fn reverse_lobe_when_r_times_rs_is_below_l_over_c() {
 
 #[test]
 fn peak_reverse_voltage_is_the_sampled_maximum() {
+    // Reference: the maximum of the closed form sampled densely (independent of the extremum
+    // solver it checks).
     for (rs, c) in [
         (1000.0, 10.0e-6),
         (5000.0, 0.2e-6),
