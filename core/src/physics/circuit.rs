@@ -2,7 +2,8 @@
 //! operating point (supply, winding temperature, part tolerances) it is evaluated at.
 
 use super::clamp::Clamp;
-use super::coil::{resistance_in_range, temperature_in_range_as, Armature, Coil};
+use super::coil::{temperature_in_range_as, Armature, Coil};
+use super::domain::{part_factor, resistance_in_range};
 use super::first_order::FirstOrder;
 use crate::error::{finite, non_negative, positive, Error, Limit, Param, Why};
 use crate::units::{Amps, Celsius, Ohms, Seconds, Volts};
@@ -45,7 +46,7 @@ impl Switch {
     }
 
     /// Checks every field: finite, drops ≥ 0, breakdown > 0, on-resistance at most
-    /// [`super::coil::MAX_RESISTANCE`].
+    /// [`super::domain::MAX_RESISTANCE`].
     pub fn validate(&self) -> Result<(), Error> {
         match *self {
             Switch::Bipolar {
@@ -190,7 +191,7 @@ pub(crate) fn tolerance_fraction(x: f32) -> Result<f32, Error> {
 }
 
 /// One operating condition: supply voltage, winding temperature, and where each part sits within
-/// its tolerance (1.0 = nominal, 1.1 = 10 % high).
+/// its tolerance (1.0 = nominal, 1.1 = 10 % high; within [`super::domain::PART_FACTOR_RANGE`]).
 #[derive(Clone, Copy, Debug, PartialEq)]
 #[cfg_attr(feature = "defmt", derive(defmt::Format))]
 pub struct OperatingPoint {
@@ -252,7 +253,7 @@ pub struct Resolved {
 }
 
 impl Circuit {
-    /// A drive circuit. `sense` and `wiring` are series resistances (0 … [`super::coil::MAX_RESISTANCE`]); the sense resistor sits
+    /// A drive circuit. `sense` and `wiring` are series resistances (0 … [`super::domain::MAX_RESISTANCE`]); the sense resistor sits
     /// in the switch path, outside the freewheel loop, and the wiring inside it (clamp at the driver).
     ///
     /// # Errors
@@ -318,14 +319,15 @@ impl Circuit {
     /// `V_drive = V_supply − V_CE(sat)`.
     ///
     /// # Errors
-    /// Invalid supply, temperature or factor; [`Limit::NoHeadroom`] when V_drive ≤ 0;
+    /// Invalid supply or temperature; a part factor outside [`super::domain::PART_FACTOR_RANGE`]
+    /// ([`Param::Tolerance`]); [`Limit::NoHeadroom`] when V_drive ≤ 0;
     /// [`Limit::Overflow`] when a resolved resistance, inductance or the final current
     /// `V_drive/R_on` does not fit a positive finite f32 (extreme factors or supplies).
     pub fn resolve(&self, op: &OperatingPoint) -> Result<Resolved, Error> {
         let supply = positive(op.supply.value(), Param::Supply)?;
-        let k_r = positive(op.resistance_factor, Param::Tolerance)?;
-        let k_l = positive(op.inductance_factor, Param::Tolerance)?;
-        let k_s = positive(op.sense_factor, Param::Tolerance)?;
+        let k_r = part_factor(op.resistance_factor)?;
+        let k_l = part_factor(op.inductance_factor)?;
+        let k_s = part_factor(op.sense_factor)?;
         let winding = self.coil.resistance_at(op.temperature)?.value() * k_r;
         let (drop, r_switch) = self.switch.on_state();
         let drive = supply - drop;
@@ -561,8 +563,18 @@ pub(crate) mod tests {
             saturation: Volts::new(0.0),
             breakdown: Volts::new(f32::MAX),
         };
+        // A supply near f32::MAX on a 1.8 mΩ loop: I∞ = V/R overflows.
+        c.coil = Coil::new(
+            Ohms::new(0.18),
+            Celsius::new(20.0),
+            Henries::new(0.3),
+            Henries::new(0.45),
+            Volts::new(0.0168),
+            Volts::new(0.0024),
+        )
+        .unwrap();
         let huge = OperatingPoint {
-            resistance_factor: 1.0e-30,
+            resistance_factor: 0.01,
             ..OperatingPoint::new(Volts::new(f32::MAX), Celsius::new(20.0))
         };
         assert_eq!(
@@ -576,12 +588,18 @@ pub(crate) mod tests {
         let near_max = OperatingPoint::new(Volts::new(f32::MAX), Celsius::new(20.0));
         let i = full.final_current(&near_max);
         assert!(i.map_or(true, |i| i.value().is_finite()), "{i:?}");
-        // A resistance factor so small that the winding underflows to 0 Ω.
-        let zero_winding = OperatingPoint {
-            resistance_factor: 1.0e-45,
-            ..OperatingPoint::new(Volts::new(24.0), Celsius::new(20.0))
-        };
-        let r = c.resolve(&zero_winding);
-        assert!(r.map_or(true, |r| r.winding.value() > 0.0), "{r:?}");
+        // Part factors beyond two decades of nominal (a winding factor of 1e-45 underflowed to
+        // 0 Ω before) are refused.
+        for k in [1.0e-45f32, 1.0e-30, 0.009, 101.0, 1.0e16] {
+            let op = OperatingPoint {
+                resistance_factor: k,
+                ..OperatingPoint::new(Volts::new(24.0), Celsius::new(20.0))
+            };
+            assert_eq!(
+                c.resolve(&op),
+                Err(Error::invalid(Param::Tolerance, Why::OutOfRange)),
+                "{k}"
+            );
+        }
     }
 }

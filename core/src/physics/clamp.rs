@@ -15,6 +15,7 @@
 //! answers the same questions for both.
 
 use super::circuit::{Circuit, OperatingPoint, Resolved, Topology};
+use super::domain::clamp_voltage_in_range;
 use super::first_order::FirstOrder;
 use super::snubber::SnubberRelease;
 use crate::error::{positive, result, Error, Param, Why};
@@ -115,20 +116,21 @@ impl Clamp {
         c.validate().map(|()| c)
     }
 
-    /// Checks the clamp's own values (finite, positive, clamp voltage above diode drop, resistors
-    /// at most [`super::coil::MAX_RESISTANCE`]). Whether a
+    /// Checks the clamp's own values (finite, voltages within
+    /// [`super::domain::CLAMP_VOLTAGE_RANGE`], clamp voltage above diode drop, resistors at most
+    /// [`super::domain::MAX_RESISTANCE`]). Whether a
     /// clamp across the switch sits above the supply is checked at release, where the supply is known.
     pub fn validate(&self) -> Result<(), Error> {
         match *self {
             Clamp::Diode { forward } => {
-                positive(forward.value(), Param::DiodeDrop)?;
+                clamp_voltage_in_range(forward, Param::DiodeDrop)?;
             }
             Clamp::DiodeZener {
                 forward,
                 clamp_voltage,
             } => {
-                let vf = positive(forward.value(), Param::DiodeDrop)?;
-                let vc = positive(clamp_voltage.value(), Param::ClampVoltage)?;
+                let vf = clamp_voltage_in_range(forward, Param::DiodeDrop)?;
+                let vc = clamp_voltage_in_range(clamp_voltage, Param::ClampVoltage)?;
                 if vc <= vf {
                     return Err(Error::invalid(Param::ClampVoltage, Why::BelowDiodeDrop));
                 }
@@ -137,12 +139,12 @@ impl Clamp {
                 forward,
                 resistance,
             } => {
-                positive(forward.value(), Param::DiodeDrop)?;
+                clamp_voltage_in_range(forward, Param::DiodeDrop)?;
                 let r = positive(resistance.value(), Param::ClampResistance)?;
-                super::coil::resistance_in_range(r, Param::ClampResistance)?;
+                super::domain::resistance_in_range(r, Param::ClampResistance)?;
             }
             Clamp::AcrossSwitch { clamp_voltage } => {
-                positive(clamp_voltage.value(), Param::ClampVoltage)?;
+                clamp_voltage_in_range(clamp_voltage, Param::ClampVoltage)?;
             }
             Clamp::Unclamped => {}
             Clamp::RcSnubber {
@@ -150,7 +152,7 @@ impl Clamp {
                 capacitance,
             } => {
                 let r = positive(resistance.value(), Param::ClampResistance)?;
-                super::coil::resistance_in_range(r, Param::ClampResistance)?;
+                super::domain::resistance_in_range(r, Param::ClampResistance)?;
                 positive(capacitance.value(), Param::Capacitance)?;
             }
         }

@@ -1,6 +1,7 @@
 //! The coil: winding resistance with its copper temperature coefficient, inductance per armature
 //! position, and the must-operate / must-release ratings that fix pull-in and drop-out currents.
 
+use super::domain::{inductance_in_range, resistance_in_range};
 use crate::error::{finite, positive, Error, Param, Why};
 use crate::units::{Amps, Celsius, Henries, Ohms, PerKelvin};
 
@@ -13,15 +14,6 @@ pub const MIN_WINDING_TEMPERATURE: Celsius = Celsius::new(-100.0);
 /// Highest winding temperature the linear copper model is used for, °C (beyond every insulation
 /// class; magnet wire class 220 is the top of IEC 60085).
 pub const MAX_WINDING_TEMPERATURE: Celsius = Celsius::new(250.0);
-
-/// Largest resistance the model takes for any part of the drive loop (winding, switch, sense,
-/// wiring, clamp resistor), Ω (1 GΩ). Together with [`MIN_INDUCTANCE`] it keeps every time
-/// constant `L/R` a normal f32 at every corner, so a figure cannot underflow to 0 at one corner
-/// and not at another.
-pub const MAX_RESISTANCE: Ohms = Ohms::new(1.0e9);
-
-/// Smallest inductance the model takes, H (1 nH: far below any relay or valve coil).
-pub const MIN_INDUCTANCE: Henries = Henries::new(1.0e-9);
 
 /// Which mechanical state the armature is in; it sets the inductance.
 #[derive(Clone, Copy, Debug, PartialEq, Eq)]
@@ -55,7 +47,7 @@ impl Coil {
     ///
     /// # Errors
     /// [`Error::Invalid`] naming the parameter: any value non-finite; R, L or must-operate not
-    /// positive; R above [`MAX_RESISTANCE`] or L below [`MIN_INDUCTANCE`] ([`Why::OutOfRange`]); must-release not positive or not below must-operate; reference temperature outside
+    /// positive; R above [`super::domain::MAX_RESISTANCE`] or L below [`super::domain::MIN_INDUCTANCE`] ([`Why::OutOfRange`]); must-release not positive or not below must-operate; reference temperature outside
     /// [`MIN_WINDING_TEMPERATURE`]..[`MAX_WINDING_TEMPERATURE`]; a must-operate voltage so large
     /// against R that `V_op/R` overflows f32, or a must-release voltage so small against R that
     /// `V_rel/R` is below the smallest normal f32 ([`Why::OutOfRange`]).
@@ -188,23 +180,6 @@ impl Coil {
     pub fn drop_out_current(&self) -> Amps {
         Amps::new(self.must_release / self.resistance)
     }
-}
-
-/// `Ok(r)` for a resistance (already checked finite and ≥ 0) up to [`MAX_RESISTANCE`], else
-/// `param` / [`Why::OutOfRange`].
-pub(crate) fn resistance_in_range(r: f32, param: Param) -> Result<f32, Error> {
-    if r > MAX_RESISTANCE.value() {
-        return Err(Error::invalid(param, Why::OutOfRange));
-    }
-    Ok(r)
-}
-
-fn inductance_in_range(l: Henries, param: Param) -> Result<f32, Error> {
-    let l = positive(l.value(), param)?;
-    if l < MIN_INDUCTANCE.value() {
-        return Err(Error::invalid(param, Why::OutOfRange));
-    }
-    Ok(l)
 }
 
 /// `Ok(t)` when the winding temperature `t` is finite and within the copper model's range

@@ -363,13 +363,14 @@ mod tests {
             .map(|k| libm::powf(10.0, k as f32))
             .chain([3.0e38, f32::MAX])
         {
-            clamps.push(Clamp::diode_zener(Volts::new(0.8), Volts::new(v)).unwrap());
-            // Clamp resistors above the model's 1 GΩ are refused.
+            // Clamp voltages above 100 kV and resistors above 1 GΩ are outside the model.
+            clamps.extend(Clamp::diode_zener(Volts::new(0.8), Volts::new(v)).ok());
             clamps.extend(Clamp::diode_resistor(Volts::new(0.8), Ohms::new(v)).ok());
-            clamps.push(Clamp::diode(Volts::new(v)).unwrap());
-            clamps.push(Clamp::AcrossSwitch {
+            clamps.extend(Clamp::diode(Volts::new(v)).ok());
+            let across = Clamp::AcrossSwitch {
                 clamp_voltage: Volts::new(v),
-            });
+            };
+            clamps.extend(across.validate().ok().map(|()| across));
             clamps.push(Clamp::Unclamped);
         }
         for (k, clamp) in clamps.into_iter().enumerate() {

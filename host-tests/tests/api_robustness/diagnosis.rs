@@ -154,8 +154,20 @@ pub(crate) fn fam_schedule(g: &mut Gen) -> Result<(), String> {
         if let (true, Ok(d)) = (g.rng.chance(0.3), duty) {
             let after = Ticks(g.u32_any() % 5000);
             g.log("HoldPhase::new/with_hold", &(after, d));
-            if let Ok(h) = HoldPhase::new(after, d) {
+            let ceiling = HoldDuty(g.u32_any() as u16);
+            g.log("HoldPhase::with_ceiling", &ceiling);
+            let phase = HoldPhase::new(after, d).and_then(|h| h.with_ceiling(ceiling).or(Ok(h)));
+            if let Ok(h) = phase {
                 c = c.with_hold(h).unwrap_or(c);
+            }
+        }
+        if g.rng.chance(0.3) {
+            let (cap, tau) = (g.u32_any(), Ticks(g.u32_any()));
+            g.log("ThermalBucket::new/with_coil_heat", &(cap, tau));
+            if let Ok(b) = ThermalBucket::new(cap, tau) {
+                let on = EnergyRate::from_uj_per_tick(g.u32_any() as u16);
+                let b = b.with_rates(on, on.scaled_by(HoldDuty(g.u32_any() as u16)));
+                c = c.with_coil_heat(b).unwrap_or(c);
             }
         }
         if let (true, Ok(b)) = (g.rng.chance(0.3), bucket) {
@@ -204,6 +216,10 @@ pub(crate) fn fam_schedule(g: &mut Gen) -> Result<(), String> {
                     let _ = s.set_hold_duty(ch, d);
                 }
                 let _ = (s.heat(ch), s.pending(), s.now());
+                if g.rng.chance(0.2) {
+                    g.log("Scheduler::resync", &now);
+                    s.resync(now);
+                }
             }
         }
     }

@@ -146,7 +146,25 @@ pub(crate) fn fam_circuit(g: &mut Gen) -> Result<(), String> {
         ok("Release::settle_time", &rel.settle_time(target))?;
         g.log("Release::time_to_zero/energy", &());
         ok("Release::time_to_zero", &rel.time_to_zero())?;
-        ok("Release::energy", &rel.energy())?;
+        let energy = rel.energy();
+        ok("Release::energy", &energy)?;
+        if let Ok(e) = energy {
+            // The books close: the imbalance is rounding of the stored energy and what the supply
+            // and capacitor add (conservation of energy, textbook, from memory), relative 1e-3.
+            // Known limit, reported and not fixed here (the first-order energy split in
+            // physics/clamp.rs evaluates τ·a·x²-sized shape terms that underflow): for a switch-off
+            // current far below the clamp's scale a = V/R (x = I₀/a < 1e-9) or far above it
+            // (x > 1e9) the clamp or winding share reads 0. Checked for 1e-9 ≤ x ≤ 1e9 and
+            // stored energies from 1e-20 J (realistic releases have x ≈ 0.01 … 100).
+            let a = -rel.curve().asymptote();
+            let x = rel.curve().initial() / a;
+            let in_range = rel.snubber().is_some() || (1e-9..=1e9).contains(&x);
+            let moved = e.stored.value() + e.supply.value() + e.capacitor.value();
+            let off = e.imbalance().value().abs();
+            ensure(off <= 1e-3 * moved || moved < 1e-20 || !in_range, || {
+                format!("energy imbalance {off} of {moved}: {e:?}")
+            })?;
+        }
         scan(
             "Release::peak",
             &(rel.peak_switch_voltage(), rel.peak_node_voltage()),
@@ -197,6 +215,11 @@ pub(crate) fn fam_circuit(g: &mut Gen) -> Result<(), String> {
         }
     }
     let (ih, f) = (g.amps(0.05), Hertz::new(g.val(20_000.0)));
+    let other = clamp(g);
+    if let Ok(cl) = other {
+        g.log("Circuit::with_clamp", &cl);
+        ok("Circuit::with_clamp", &c.with_clamp(cl))?;
+    }
     g.log("Circuit::hold", &(op, ih, f));
     if let Ok(h) = c.hold(&op, ih, f) {
         hold_contract("Circuit::hold", &h)?;
