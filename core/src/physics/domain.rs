@@ -53,12 +53,25 @@ pub(crate) fn clamp_voltage_in_range(v: Volts, param: Param) -> Result<f32, Erro
 }
 
 /// `Ok(k)` for a part factor finite and within [`PART_FACTOR_RANGE`] ([`Param::Tolerance`]).
+///
+/// On the budget's hot path: one integer range test of the bits (positive finite floats order as
+/// their bits; NaN, negatives and ±0 fall outside), the reason worked out only on failure.
+#[inline]
 pub(crate) fn part_factor(k: f32) -> Result<f32, Error> {
-    let k = positive(k, Param::Tolerance)?;
-    if !(PART_FACTOR_RANGE.0..=PART_FACTOR_RANGE.1).contains(&k) {
-        return Err(Error::invalid(Param::Tolerance, Why::OutOfRange));
+    const LO: u32 = PART_FACTOR_RANGE.0.to_bits();
+    const HI: u32 = PART_FACTOR_RANGE.1.to_bits();
+    if (LO..=HI).contains(&k.to_bits()) {
+        return Ok(k);
     }
-    Ok(k)
+    Err(part_factor_error(k))
+}
+
+#[cold]
+fn part_factor_error(k: f32) -> Error {
+    match positive(k, Param::Tolerance) {
+        Err(e) => e,
+        Ok(_) => Error::invalid(Param::Tolerance, Why::OutOfRange),
+    }
 }
 
 #[cfg(test)]
