@@ -120,6 +120,9 @@ pub enum Limit {
     DiscontinuousConduction,
     /// The winding would settle above the copper model's temperature range: it overheats.
     Overtemperature,
+    /// The answer hangs on a difference below f32 rounding (a PWM off fraction `1 − D` or a
+    /// ripple too small against the current to resolve).
+    Resolution,
 }
 
 /// Error returned by every fallible function of the crate.
@@ -222,6 +225,7 @@ impl fmt::Display for Limit {
                 "PWM too slow: the coil current falls to zero every period"
             }
             Limit::Overtemperature => "winding would settle above the model's temperature range",
+            Limit::Resolution => "the answer is below f32 rounding (duty off fraction or ripple)",
         };
         f.write_str(s)
     }

@@ -309,9 +309,7 @@ mod tests {
         }
     }
 
-    /// Kirchhoff's current law at the switched node (textbook) holds for
-    /// every clamp / switch / snubber combination over random states.
-    /// Kirchhoff's current law at the switched node (textbook) holds for
+    /// Kirchhoff's current law at the switched node (textbook, from memory) holds for
     /// every clamp / switch / snubber combination over random states.
     #[test]
     fn node_solution_satisfies_kcl() {

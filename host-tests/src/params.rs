@@ -150,7 +150,7 @@ pub enum Clamp {
     },
     /// Bidirectional TVS (or any constant-voltage clamp) rated above the
     /// supply: `v = Vbr + Rd·i` for `i > 0`, open below `Vbr`. With `Rd = 0`
-    /// this is the ideal constant-voltage clamp of the textbooks.
+    /// this is the ideal constant-voltage clamp (textbook, from memory).
     Tvs {
         /// Clamping voltage `Vbr` in volts (≥ 0).
         breakdown_volts: f64,
@@ -573,7 +573,7 @@ mod tests {
         assert!(st.validate().is_err());
     }
 
-    /// Thermal voltage at 25 °C ≈ 25.69 mV (kT/q, textbook value).
+    /// Thermal voltage at 25 °C ≈ 25.69 mV (kT/q, textbook value, from memory).
     #[test]
     fn thermal_voltage() {
         assert!((THERMAL_VOLTS_25C - 0.025693).abs() < 1e-6);

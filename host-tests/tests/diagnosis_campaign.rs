@@ -11,10 +11,10 @@
 //! the winding temperature (a board reading up to ±4 K off, used as a ±5 K window). Section 2: full actuations with a moving or a
 //! stuck armature, 160 samples.
 //!
-//! Fault models (textbook, from memory): shorted turns remove a fraction f of the turns, so
-//! R × (1 − f) and, inductance going with turns squared, L × (1 − f)²; a resistive connector adds
-//! x·R_ref in series; an open circuit leaves a 1 MΩ leak (24 µA, one count); a dead short bypasses the winding with
-//! 0.2 Ω and 2 µH of leads.
+//! Fault models: shorted turns remove a fraction f of the turns, so R × (1 − f) and L × (1 − f)²
+//! (inductance goes with turns squared, L = N²/ℜ; textbook, from memory); a resistive connector
+//! adds x·R_ref in series; an open circuit leaves a 1 MΩ leak (24 µA, one count); a dead short
+//! bypasses the winding with 0.2 Ω and 2 µH of leads.
 
 mod common;
 
@@ -33,7 +33,7 @@ use common::{adc, Mechanics, Plant, Rng};
 const R_REF: f64 = 180.0;
 const L_REL: f64 = 0.30;
 const L_OP: f64 = 0.45;
-const ALPHA: f64 = 0.00393; // IEC 60028 annealed copper, 20 °C
+const ALPHA: f64 = 0.00393; // IEC 60028 annealed copper: α20 = 0.003 93 /K
 const WIRING: f64 = 0.4;
 const SENSE: f64 = 0.5;
 const RDS: f64 = 0.1;

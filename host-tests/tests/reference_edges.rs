@@ -1,6 +1,6 @@
-//! Edge cases: tiny and huge time constants, thresholds at the final current, ±∞ and NaN. Every
-//! one must give an error or a finite answer; none may panic or return NaN. (The rule is the
-//! core's own contract; the expected "unreachable" cases follow from i∞ = V/R, textbook.)
+//! Edge cases: tiny and huge time constants, thresholds at the final current, ±∞ and NaN. Every one
+//! must give an error or a finite answer; none may panic or return NaN. (The rule is the core's own
+//! contract; the expected "unreachable" cases follow from i∞ = V/R, textbook, from memory.)
 
 use coilwise::physics::drive::{base_current, conduction_loss};
 use coilwise::physics::rc_node::{inrush_peak, slew_rate, slew_time};
@@ -232,7 +232,7 @@ fn a_whole_budget_with_odd_inputs_is_finite_or_an_error() {
 #[test]
 fn extreme_but_finite_levels_give_finite_answers_or_errors() {
     // Levels and time constants at the ends of f32: every answer finite or an error (the core's
-    // own contract; the step-response form is textbook).
+    // own contract; the step-response form is textbook, from memory).
     let big = f32::MAX / 2.0;
     for (a, b) in [
         (-big, big),
@@ -294,7 +294,7 @@ fn extreme_rc_nodes_give_finite_times_or_errors() {
 #[test]
 fn huge_switch_off_currents_give_finite_stress_or_errors() {
     // ½·L·I² and V + I·R_clamp must not overflow silently (the core's own contract; formulas
-    // textbook).
+    // textbook, from memory).
     let op = OperatingPoint::new(Volts::new(12.0), Celsius::new(20.0));
     for clamp in all_clamps() {
         let c = circuit(100.0, 0.1, clamp).unwrap();
@@ -323,7 +323,7 @@ fn huge_switch_off_currents_give_finite_stress_or_errors() {
 
 #[test]
 fn extreme_coils_have_finite_pull_in_and_drop_out_currents_or_are_refused() {
-    // I = V/R (Ohm's law, textbook) must not overflow silently for any accepted coil.
+    // I = V/R (Ohm's law, textbook, from memory) must not overflow silently for any accepted coil.
     for (r, v_op) in [
         (1e-30f32, 1e30f32),
         (f32::MIN_POSITIVE, 1.0),

@@ -1,5 +1,5 @@
-//! Checks against published standards, textbook results and facts of the trade. The source is
-//! named beside each check.
+//! Checks against published standards, textbook results (from memory) and facts of the trade. The
+//! source is named beside each check.
 
 use coilwise::physics::coil::COPPER_ALPHA_20C;
 use coilwise::physics::drive::recommended_base_resistor;
@@ -43,8 +43,8 @@ fn op(v: f32) -> OperatingPoint {
 
 #[test]
 fn copper_temperature_coefficient_is_the_annealed_copper_standard() {
-    // IEC 60028 (international standard of resistance for annealed copper): α at 20 °C is
-    // 0.003 93 /K, i.e. 1/(234.5 + 20): resistance extrapolates to zero at −234.5 °C.
+    // IEC 60028 annealed copper: α20 = 0.003 93 /K, zero-resistance point −234.5 °C
+    // (α20 = 1/(234.5 + 20) /K).
     assert!((COPPER_ALPHA_20C.value() - 0.003_93).abs() < 1e-9);
     assert!((1.0 / (234.5f64 + 20.0) - 0.003_93).abs() < 1e-6);
     assert_eq!(COPPER_ZERO_RESISTANCE.value(), -234.5);
@@ -67,7 +67,7 @@ fn copper_temperature_coefficient_is_the_annealed_copper_standard() {
 
 #[test]
 fn avalanche_energy_tends_to_the_single_pulse_uis_formula() {
-    // Single-pulse unclamped inductive switching test (JEDEC JESD24 family; AEC-Q101 UIS):
+    // Single-pulse unclamped inductive switching, JEDEC JESD24 family; from memory:
     // E_AS = ½·L·I²·V_BR/(V_BR − V_DD) and avalanche time t_AV = L·I/(V_BR − V_DD), both for a
     // loss-free inductor. With a winding resistance R the switch takes less, by a fraction below
     // R·I/(V_BR − V_DD) (the share the resistance takes at the start of the pulse).

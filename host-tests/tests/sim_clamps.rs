@@ -46,7 +46,7 @@ fn zener_clamp_is_faster_and_higher_than_plain_diode() {
         "{p_z}"
     );
     assert!(t_z < 0.5 * t_d);
-    // Upper bound for the zener case: ignoring R, t ≤ L·I0/Vz (textbook).
+    // Upper bound for the zener case: ignoring R, t ≤ L·I0/Vz (textbook, from memory).
     assert!(t_z < LCOIL * i0 / 33.0);
 }
 

@@ -88,11 +88,10 @@ fn switch_off_energy_equals_half_l_i_squared_for_every_clamp() {
     }
 }
 
-/// Single-pulse unclamped inductive switching: with the switch at a
-/// constant breakdown voltage Vbr, `E_av = Vbr·(τ·I0 − (Va/R)·t_av)` with
-/// `Va = Vbr − V`, `t_av = τ·ln(1 + R·I0/Va)` (first-order closed form,
-/// textbook, from memory); for small `R·I0/Va` it tends to the usual UIS
-/// rating formula `E = ½·L·I0²·Vbr/(Vbr − V)` (common practice, no source).
+/// Avalanche of an unclamped switch: with the switch at a constant breakdown voltage Vbr,
+/// `E_av = Vbr·(τ·I0 − (Va/R)·t_av)` with `Va = Vbr − V`, `t_av = τ·ln(1 + R·I0/Va)` (first-order
+/// closed form, textbook, from memory); for small `R·I0/Va` it tends to the UIS rating formula
+/// `E = ½·L·I0²·Vbr/(Vbr − V)` (single-pulse unclamped inductive switching, JEDEC JESD24 family; from memory).
 #[test]
 fn avalanche_energy_matches_uis_formula() {
     // Invented low-resistance test inductor: 0.1 Ω, 5 mH.
@@ -122,7 +121,7 @@ fn avalanche_energy_matches_uis_formula() {
 
 /// RC snubber: the energy balance closes with the capacitor state, the
 /// lightly damped loop rings (current reverses: series RLC with ζ < 1,
-/// textbook), and the capacitor never holds more than the energy that was
+/// textbook, from memory), and the capacitor never holds more than the energy that was
 /// available (conservation).
 #[test]
 fn snubber_energy_balance_and_ringing() {
@@ -163,7 +162,7 @@ fn snubber_energy_balance_and_ringing() {
 
 /// With a moving armature the electrical balance includes the mechanical
 /// work `∫F·v dt`, and that work equals kinetic + spring energy + damping and
-/// impact losses (conservation of energy, textbook).
+/// impact losses (conservation of energy, textbook, from memory).
 #[test]
 fn moving_armature_energy_balance() {
     let mut b = Bench::single(

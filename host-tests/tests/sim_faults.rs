@@ -28,9 +28,9 @@ fn rise_with(fault: Option<Fault>, ith: f64) -> (f64, Option<u64>) {
     )
 }
 
-/// Lumped shorted turns: R·(1 − f), L·(1 − f)² ⇒ higher `I∞ = V/R_total` (Ohm's
-/// law) and a faster rise to a fixed threshold (τ = L/R shrinks) (textbook,
-/// from memory).
+/// Lumped shorted turns: R·(1 − f), L·(1 − f)² (inductance goes with turns squared, L = N²/ℜ;
+/// textbook, from memory) ⇒ higher `I∞ = V/R_total` (Ohm's law, textbook, from memory) and a
+/// faster rise to a fixed threshold (τ = L/R shrinks).
 #[test]
 fn lumped_shorted_turns_rise_faster_to_higher_current() {
     let (i_ok, t_ok) = rise_with(None, 0.08);

@@ -28,7 +28,7 @@ fn rl_step_response_matches_closed_form() {
     assert!(n > 1000);
     eprintln!("RL step: worst |error|/I∞ = {worst:e} over {n} samples");
     assert!(worst < 1e-6, "worst relative error {worst:e}");
-    // Switch voltage in the on-state is I·(Ron) (Ohm's law, textbook).
+    // Switch voltage in the on-state is I·(Ron) (Ohm's law, textbook, from memory).
     let p = b.probe(0).unwrap();
     assert!((p.switch_volts - p.coil_amps * RON).abs() < 1e-9);
 }
@@ -151,7 +151,7 @@ fn constant_voltage_clamp_decay_matches_closed_form() {
         rel(e_clamp, expect_clamp) < 1e-5,
         "{e_clamp} vs {expect_clamp}"
     );
-    // Peak switch voltage: supply + clamp (textbook).
+    // Peak switch voltage: supply + clamp (textbook, from memory).
     assert!((b.stats(0).unwrap().peak_switch_volts - (24.0 + vc)).abs() < 1e-6);
 }
 

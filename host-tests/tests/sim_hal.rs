@@ -145,7 +145,7 @@ fn pwm_hold_current_and_ripple() {
 }
 
 /// Three valves switched on together sag a supply with source resistance:
-/// at steady state the rail is `V/(1 + n·Rs/R_ch)` (Ohm's law, textbook).
+/// at steady state the rail is `V/(1 + n·Rs/R_ch)` (Ohm's law, textbook, from memory).
 #[test]
 fn simultaneous_turn_on_sags_shared_rail() {
     let supply = demo::supply_24v();

@@ -182,7 +182,7 @@ must_release = "1 V""#;
 
 #[test]
 fn unclamped_switch_energy_approaches_the_uis_formula() {
-    // single-pulse unclamped inductive switching (UIS) energy, JEDEC JESD24 / AEC-Q101 (from memory): a lossless inductor
+    // E_AS (single-pulse unclamped inductive switching, JEDEC JESD24 family; from memory): a lossless inductor
     // switched off from I into a switch that avalanches at V_BR from a supply V_DD delivers
     // E = ½·L·I²·V_BR/(V_BR − V_DD). Here 0.1 H, 1 A, V_BR = 100 V, V_DD = 2 V: 51.02 mJ. The
     // 2 Ω winding takes about R·I/(2·(V_BR − V_DD)) ≈ 1 % of it (first-order estimate from the

@@ -1,6 +1,6 @@
 //! Fuzz the bands and the comparator / steady-current verdicts: any supply reading, temperature
 //! window, threshold, times (as f32 and as wrapping u32 instants) and currents. Invariant: no
-//! panic, no non-finite figure out, bands ordered.
+//! panic; every field of the bands, probe, reading and verdicts finite; bands ordered.
 #![no_main]
 
 use coilwise::diagnosis::verdict::{judge_steady, judge_threshold};
@@ -11,7 +11,7 @@ use coilwise::{Amps, Celsius, Instant, Seconds, TemperatureRange, TickRate, Volt
 use libfuzzer_sys::fuzz_target;
 
 mod common;
-use common::{check, design, Bytes};
+use common::{all_finite, check, design, Bytes};
 
 fuzz_target!(|data: &[u8]| {
     let mut b = Bytes(data);
@@ -23,8 +23,7 @@ fuzz_target!(|data: &[u8]| {
     if mode & 2 != 0 {
         let lo = b.mostly(20.0) - 60.0;
         let hi = lo + b.mostly(10.0);
-        cond.winding_temperature =
-            TemperatureRange::new(Celsius::new(lo), Celsius::new(hi)).ok();
+        cond.winding_temperature = TemperatureRange::new(Celsius::new(lo), Celsius::new(hi)).ok();
     }
     let mut d = design();
     if mode & 4 != 0 {
@@ -36,9 +35,17 @@ fuzz_target!(|data: &[u8]| {
     let Ok(expected) = Expected::new(&d, &cond) else {
         return;
     };
+    all_finite("expected", &expected);
     assert!(expected.final_current.min.value() <= expected.final_current.max.value());
     assert!(expected.tau.min.value() <= expected.tau.max.value());
-    let _ = Probe::new(&d, b.mostly(0.5));
+    assert!(expected.slope.min <= expected.slope.max);
+    assert!(expected.loop_resistance.min <= expected.loop_resistance.max);
+    assert!(expected.inductance.min <= expected.inductance.max);
+    assert!(expected.sensed_drive.min <= expected.sensed_drive.max);
+    if let Ok(p) = Probe::new(&d, b.mostly(0.5)) {
+        all_finite("probe", &p);
+        assert!(p.length.get() > 0 && p.duration.value() > 0.0, "{p:?}");
+    }
     let criteria = Criteria::default();
     let steady = if mode & 8 != 0 {
         Some(Amps::new(b.mostly(0.13)))
@@ -49,13 +56,18 @@ fuzz_target!(|data: &[u8]| {
     let Ok(band) = ThresholdBand::new(&d, &cond, Amps::new(b.mostly(0.05))) else {
         return;
     };
+    all_finite("band", &band);
     assert!(band.time.min.value() <= band.time.max.value());
+    assert!(band.time.min.value() >= 0.0);
     let reading = if mode & 16 != 0 {
         let rate = TickRate::new(b.u32().max(1)).unwrap();
         let on = Instant(b.u32());
         let crossing = (mode & 32 != 0).then(|| Instant(b.u32()));
         match ThresholdReading::from_instants(rate, on, crossing, Instant(b.u32())) {
-            Ok(r) => r,
+            Ok(r) => {
+                all_finite("reading", &r);
+                r
+            }
             Err(_) => return,
         }
     } else if mode & 32 != 0 {
@@ -65,5 +77,7 @@ fuzz_target!(|data: &[u8]| {
             waited: Seconds::new(b.mostly(1e-2)),
         }
     };
-    check(&judge_threshold(reading, &band, steady, &expected, &criteria));
+    check(&judge_threshold(
+        reading, &band, steady, &expected, &criteria,
+    ));
 });

@@ -1,10 +1,12 @@
 //! Shared pieces of the fuzz targets: a byte reader and the invariants every verdict must keep.
+#![allow(dead_code)] // each target uses a part of this module
 
-use coilwise::diagnosis::Verdict;
+use coilwise::diagnosis::{Movement, RiseFit, Verdict};
 use coilwise::{
     Celsius, Circuit, Clamp, Coil, DriverDesign, Henries, Ohms, Seconds, SupplyRange, Switch,
     TemperatureRange, TickRate, Tolerances, Topology, Volts,
 };
+use std::fmt::Debug;
 
 pub struct Bytes<'a>(pub &'a [u8]);
 
@@ -35,7 +37,60 @@ impl Bytes<'_> {
     }
 }
 
+/// Every field of an output, found through its Debug text (so a field added later is covered
+/// too): no NaN, no ±∞, no negative time (`Seconds(-x)`) or energy (`Joules(-x)`); −0.0 counts
+/// as zero.
+pub fn all_finite(what: &str, v: &dyn Debug) {
+    let s = format!("{v:?}");
+    let b = s.as_bytes();
+    for pat in ["NaN", "inf"] {
+        for (i, _) in s.match_indices(pat) {
+            let before = i == 0 || !b[i - 1].is_ascii_alphanumeric();
+            let end = i + pat.len();
+            let after = end >= b.len() || !b[end].is_ascii_alphanumeric();
+            assert!(!(before && after), "{what}: non-finite field in {s}");
+        }
+    }
+    for pat in ["Seconds(-", "Joules(-"] {
+        for (i, _) in s.match_indices(pat) {
+            assert!(
+                s[i + pat.len()..].starts_with("0.0)"),
+                "{what}: negative time or energy in {s}"
+            );
+        }
+    }
+}
+
+/// The movement estimate: every field finite, times ≥ 0, the valley after the peak, depth ≥ 0.
+pub fn check_movement(m: &Movement) {
+    all_finite("movement", m);
+    match *m {
+        Movement::Moved {
+            at,
+            seated,
+            peak,
+            depth,
+        } => {
+            assert!(at.value() >= 0.0 && seated >= at, "{m:?}");
+            assert!(depth.value() >= 0.0 && peak.value().is_finite(), "{m:?}");
+        }
+        Movement::NotSeen { by } => assert!(by.value() >= 0.0, "{m:?}"),
+    }
+}
+
+/// The fit: every field finite, τ > 0, `I∞ = s·τ` to f32 rounding, relative errors ≥ 0.
+pub fn check_fit(f: &RiseFit) {
+    all_finite("fit", f);
+    assert!(f.tau.value() > 0.0, "{f:?}");
+    let q = f.quality;
+    for x in [q.noise_ratio, q.rel_sd_slope, q.rel_sd_tau, q.rel_sd_final] {
+        assert!(x >= 0.0, "{f:?}");
+    }
+    assert!((-1.0..=1.0).contains(&q.correlation), "{f:?}");
+}
+
 pub fn check(v: &Verdict) {
+    all_finite("verdict", v);
     let e = &v.estimates;
     for x in [
         e.final_current.map(|a| a.value()),

@@ -1,8 +1,9 @@
 //! Fuzz the estimator and the trace verdicts: any sampling settings, any samples (u16 counts or
-//! raw f32 bit patterns). Invariant: no panic, no non-finite figure out.
+//! raw f32 bit patterns). Invariant: no panic; every field of the fit, the movement estimate and
+//! the verdicts finite, times and depths ≥ 0 (see `common.rs`).
 #![no_main]
 
-use coilwise::diagnosis::verdict::{judge_actuation, judge_trace};
+use coilwise::diagnosis::verdict::{judge_actuation, judge_rise, judge_trace};
 use coilwise::diagnosis::{
     detect_movement, fit_rise, Conditions, Criteria, Expected, FitOptions, MovementCriteria, Probe,
     Sampling,
@@ -11,7 +12,7 @@ use coilwise::Seconds;
 use libfuzzer_sys::fuzz_target;
 
 mod common;
-use common::{check, design, Bytes};
+use common::{check, check_fit, check_movement, design, Bytes};
 
 fuzz_target!(|data: &[u8]| {
     let mut b = Bytes(data);
@@ -72,22 +73,14 @@ fn run<S: coilwise::diagnosis::Sample>(
     options: &FitOptions,
 ) {
     if let Ok(f) = fit_rise(samples, sampling, options) {
-        let q = f.quality;
-        for x in [
-            f.slope,
-            f.tau.value(),
-            f.final_current.value(),
-            q.noise_ratio,
-            q.rel_sd_slope,
-            q.rel_sd_tau,
-            q.rel_sd_final,
-            q.correlation,
-            q.rise_covered,
-        ] {
-            assert!(x.is_finite(), "non-finite fit {f:?}");
-        }
+        check_fit(&f);
+        check(&judge_rise(&f, expected, criteria));
     }
-    let _ = detect_movement(samples, sampling, &MovementCriteria::default());
+    if let Ok(m) = detect_movement(samples, sampling, &MovementCriteria::default()) {
+        check_movement(&m);
+    }
     check(&judge_trace(samples, sampling, expected, criteria, options));
-    check(&judge_actuation(samples, sampling, expected, criteria, options));
+    check(&judge_actuation(
+        samples, sampling, expected, criteria, options,
+    ));
 }

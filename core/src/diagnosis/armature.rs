@@ -58,10 +58,13 @@ pub enum Movement {
 /// quantisation) confirms a dip; the valley is the lowest sample after the peak until the current
 /// climbs back by the same amount or the trace ends. Samples at or above saturation end the scan.
 ///
-/// O(1) memory; never panics.
+/// O(1) memory; never panics. Every field of the result is finite; times ≥ 0, `seated ≥ at`,
+/// `depth ≥ 0`.
 ///
 /// # Errors
-/// [`TraceFault::NotFinite`] for a NaN/∞ sample; [`TraceFault::TooFewSamples`] for an empty trace.
+/// [`TraceFault::NotFinite`] for a NaN/∞ sample, and for a finite sample whose current
+/// `(raw − zero)·amps_per_count` — or the dip's depth in amperes — overflows f32 (index of that
+/// sample: no converter reads such a value); [`TraceFault::TooFewSamples`] for an empty trace.
 pub fn detect_movement<S: Sample>(
     samples: &[S],
     sampling: &Sampling,
@@ -94,6 +97,9 @@ pub fn detect_movement<S: Sample>(
         }
         last = Some(k);
         let c = x - sampling.zero();
+        if !(c * sampling.amps_per_count()).is_finite() {
+            return Err(TraceFault::NotFinite { index: k as u32 });
+        }
         match dip {
             None => {
                 if c > peak {
@@ -122,12 +128,19 @@ pub fn detect_movement<S: Sample>(
     };
     let apc = sampling.amps_per_count();
     Ok(match dip {
-        Some((pk, pv, valley, vk)) => Movement::Moved {
-            at: sampling.time_of(pk),
-            seated: sampling.time_of(vk),
-            peak: Amps::new(pv * apc),
-            depth: Amps::new((pv - valley) * apc),
-        },
+        Some((pk, pv, valley, vk)) => {
+            // Peak and valley are finite in amperes (checked above); their difference need not be.
+            let depth = (pv - valley) * apc;
+            if !depth.is_finite() {
+                return Err(TraceFault::NotFinite { index: vk as u32 });
+            }
+            Movement::Moved {
+                at: sampling.time_of(pk),
+                seated: sampling.time_of(vk),
+                peak: Amps::new(pv * apc),
+                depth: Amps::new(depth),
+            }
+        }
         None => Movement::NotSeen {
             by: sampling.time_of(last),
         },
@@ -188,5 +201,54 @@ mod tests {
             detect_movement(&[0.0, f32::NAN], &f, &MovementCriteria::default()),
             Err(TraceFault::NotFinite { index: 1 })
         );
+    }
+
+    /// Issue 11 item 12: a huge sample period or scale gave `by`, `at`, `seated`, `peak` and
+    /// `depth` = ∞ inside `Ok`. Every field of an `Ok` is finite now, the times ≥ 0 and the
+    /// currents' depth ≥ 0; what cannot be represented is refused.
+    #[test]
+    fn huge_period_or_scale_gives_finite_fields_or_an_error() {
+        let dip = trace_with_dip();
+        let plain: Vec<u16> = (0..100).map(|k| (k * 30) as u16).collect();
+        let floats: Vec<f32> = [f32::MAX, -f32::MAX, f32::MAX, 0.0, f32::MAX].to_vec();
+        for (period, scale) in [
+            (1.0e38f32, 1.0f32),
+            (f32::MAX, 1.0),
+            (1.0e-4, 1.0e38),
+            (1.0e-4, f32::MAX),
+            (1.0e36, 1.0e36),
+        ] {
+            let Ok(s) = Sampling::new(Seconds::new(period), scale) else {
+                continue;
+            };
+            let c = MovementCriteria::default();
+            let all = [
+                detect_movement(&dip, &s, &c),
+                detect_movement(&plain, &s, &c),
+                detect_movement(&floats, &s, &c),
+            ];
+            for m in all {
+                match m {
+                    Ok(Movement::Moved {
+                        at,
+                        seated,
+                        peak,
+                        depth,
+                    }) => {
+                        for x in [at.value(), seated.value(), peak.value(), depth.value()] {
+                            assert!(x.is_finite(), "{period} {scale}: {m:?}");
+                        }
+                        assert!(at.value() >= 0.0 && seated >= at && depth.value() >= 0.0);
+                    }
+                    Ok(Movement::NotSeen { by }) => {
+                        assert!(by.value().is_finite() && by.value() >= 0.0, "{m:?}")
+                    }
+                    Err(_) => {}
+                }
+            }
+        }
+        assert!(Sampling::new(Seconds::new(1.0e38), 1.0).is_err());
+        let s = Sampling::new(Seconds::new(1.0e-4), 1.0).unwrap();
+        assert!(s.with_first_sample(Seconds::new(f32::MAX)).is_err());
     }
 }

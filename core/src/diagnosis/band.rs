@@ -304,13 +304,16 @@ impl Expected {
                 max: Volts::new(drive.max),
             },
             movement_by,
-            pull_in_reading: Amps::new(i_pull * (1.0 + design.tolerances.sense)),
+            pull_in_reading: Amps::new(crate::error::result(
+                i_pull * (1.0 + design.tolerances.sense),
+            )?),
             operate_allowance: Seconds::new(operate),
             supply_measured: conditions.supply.is_some(),
             supply_below_design: d.supply.max().value() < design.supply.min().value(),
             coil: *c.coil(),
             external: c.wiring().value() + nominal_sense + switch_r,
-            drive_mid: 0.5 * (drive.min + drive.max),
+            // Halves first: the sum of two drives near f32::MAX overflows.
+            drive_mid: 0.5 * drive.min + 0.5 * drive.max,
         })
     }
 
@@ -469,7 +472,7 @@ pub(crate) mod tests {
 
     #[test]
     fn bands_match_hand_worked_corners() {
-        // Worked by hand from Ohm's law and τ = L/R (textbook RL circuit):
+        // Worked by hand from Ohm's law and τ = L/R (RL circuit, textbook, from memory):
         // slowest corner: R_w = 180·1.1·(1 + 0.00393·65) = 248.58 Ω, R_on = 248.58 + 0.4 + 0.505
         // + 0.1 = 249.585 Ω, L = 0.27 H → τ_min = 1.0818 ms; cold corner R_w = 180·0.9·(1 −
         // 0.00393·60) = 123.80 Ω, R_on = 124.795 Ω (sense −1 %), L = 0.33 → τ_max = 2.6443 ms.

@@ -65,17 +65,41 @@ pub struct Sampling {
 }
 
 impl Sampling {
-    /// Samples every `period` (s, finite, positive) scaled by `amps_per_count` (A per count,
-    /// finite, positive; 1.0 for samples already in amperes). Defaults: first sample at switch-on (t = 0), zero
-    /// at count 0, no saturation level, no noise beyond quantisation.
+    /// Longest sample period and latest first sample the model takes, s (1000 s). A coil rise
+    /// sampled slower than this is no rise; the bound keeps every sample time
+    /// `first + k·period` finite in f32 for any index a slice can hold (k < 2⁶⁴).
+    pub const MAX_TIME: Seconds = Seconds::new(1.0e3);
+
+    /// Shortest sample period the model takes, s (1 ps, far below any converter): a shorter one
+    /// makes sample times and the fitted τ underflow.
+    pub const MIN_PERIOD: Seconds = Seconds::new(1.0e-12);
+
+    /// Range of `amps_per_count` the model takes, A per raw unit (10⁻¹⁵ … 10¹⁵): beyond it the
+    /// currents and their squares leave f32's normal range.
+    pub const SCALE_RANGE: (f32, f32) = (1.0e-15, 1.0e15);
+
+    /// Samples every `period` (s, [`Sampling::MIN_PERIOD`] ≤ period ≤ [`Sampling::MAX_TIME`])
+    /// scaled by `amps_per_count` (A per count, within [`Sampling::SCALE_RANGE`]; 1.0 for samples
+    /// already in amperes).
+    /// Defaults: first sample at switch-on (t = 0), zero at count 0, no saturation level, no noise
+    /// beyond quantisation.
     ///
     /// # Errors
-    /// [`Error::Invalid`]: [`Param::Time`] for the period, [`Param::Current`] for the scale.
+    /// [`Error::Invalid`]: [`Param::Time`] for the period, [`Param::Current`] for the scale
+    /// ([`Why::OutOfRange`] outside the ranges above).
     pub fn new(period: Seconds, amps_per_count: f32) -> Result<Self, Error> {
+        let period = at_most_max_time(positive(period.value(), Param::Time)?)?;
+        if period < Self::MIN_PERIOD.value() {
+            return Err(Error::invalid(Param::Time, Why::OutOfRange));
+        }
+        let apc = positive(amps_per_count, Param::Current)?;
+        if !(Self::SCALE_RANGE.0..=Self::SCALE_RANGE.1).contains(&apc) {
+            return Err(Error::invalid(Param::Current, Why::OutOfRange));
+        }
         Ok(Self {
-            period: positive(period.value(), Param::Time)?,
+            period,
             first: 0.0,
-            amps_per_count: positive(amps_per_count, Param::Current)?,
+            amps_per_count: apc,
             zero: 0.0,
             full_scale: f32::INFINITY,
             noise: 0.0,
@@ -98,9 +122,10 @@ impl Sampling {
         Ok(s)
     }
 
-    /// The same sampling with the first sample `first` seconds after switch-on (finite, ≥ 0).
+    /// The same sampling with the first sample `first` seconds after switch-on (finite,
+    /// 0 ≤ first ≤ [`Sampling::MAX_TIME`]).
     pub fn with_first_sample(mut self, first: Seconds) -> Result<Self, Error> {
-        self.first = non_negative(first.value(), Param::Time)?;
+        self.first = at_most_max_time(non_negative(first.value(), Param::Time)?)?;
         Ok(self)
     }
 
@@ -161,7 +186,8 @@ impl Sampling {
         libm::sqrtf(self.noise * self.noise + 1.0 / 12.0)
     }
 
-    /// Time of sample `k`: `t_k = first + k·period`, s (f32; exact to rounding for k < 2²⁴).
+    /// Time of sample `k`: `t_k = first + k·period`, s (f32; exact to rounding for k < 2²⁴;
+    /// finite and ≥ 0 for every `k`, by the bounds on `first` and `period`).
     pub fn time_of(&self, k: usize) -> Seconds {
         Seconds::new(self.first + k as f32 * self.period)
     }
@@ -170,6 +196,14 @@ impl Sampling {
     pub fn amps(&self, raw: f32) -> f32 {
         (raw - self.zero) * self.amps_per_count
     }
+}
+
+/// `Ok(t)` for a time within [`Sampling::MAX_TIME`], else [`Param::Time`] / [`Why::OutOfRange`].
+fn at_most_max_time(t: f32) -> Result<f32, Error> {
+    if t > Sampling::MAX_TIME.value() {
+        return Err(Error::invalid(Param::Time, Why::OutOfRange));
+    }
+    Ok(t)
 }
 
 /// A fixed-capacity trace buffer of `N` samples (no heap), filled in time order.
@@ -253,6 +287,21 @@ mod tests {
             .is_err());
         assert!(s.with_noise(-0.1).is_err());
         assert!((s.time_of(10).value() - 5e-4).abs() < 1e-9);
+    }
+
+    /// Found by fuzzing `fit_trace` (issue 11 item 14): a subnormal period (1.4e-45 s) and a
+    /// scale of 2e-38 A/count gave a fit with τ = 0 inside `Ok`. Such samplings are refused.
+    #[test]
+    fn periods_and_scales_outside_the_model_are_refused() {
+        let out = Err(Error::invalid(Param::Time, Why::OutOfRange));
+        assert_eq!(Sampling::new(Seconds::new(1.4e-45), 1.0), out);
+        assert_eq!(Sampling::new(Seconds::new(1.0e-13), 1.0), out);
+        assert_eq!(Sampling::new(Seconds::new(1.0e4), 1.0), out);
+        let out = Err(Error::invalid(Param::Current, Why::OutOfRange));
+        assert_eq!(Sampling::new(Seconds::new(1e-4), 2.0e-38), out);
+        assert_eq!(Sampling::new(Seconds::new(1e-4), 1.0e16), out);
+        assert!(Sampling::new(Sampling::MIN_PERIOD, Sampling::SCALE_RANGE.0).is_ok());
+        assert!(Sampling::new(Sampling::MAX_TIME, Sampling::SCALE_RANGE.1).is_ok());
     }
 
     #[test]

@@ -3,6 +3,7 @@
 
 use super::clamp::Clamp;
 use super::coil::{temperature_in_range_as, Armature, Coil};
+use super::domain::{part_factor, resistance_in_range};
 use super::first_order::FirstOrder;
 use crate::error::{finite, non_negative, positive, Error, Limit, Param, Why};
 use crate::units::{Amps, Celsius, Ohms, Seconds, Volts};
@@ -44,7 +45,8 @@ impl Switch {
         }
     }
 
-    /// Checks every field: finite, drops ≥ 0, breakdown > 0.
+    /// Checks every field: finite, drops ≥ 0, breakdown > 0, on-resistance at most
+    /// [`super::domain::MAX_RESISTANCE`].
     pub fn validate(&self) -> Result<(), Error> {
         match *self {
             Switch::Bipolar {
@@ -58,7 +60,10 @@ impl Switch {
                 on_resistance,
                 breakdown,
             } => {
-                non_negative(on_resistance.value(), Param::OnResistance)?;
+                resistance_in_range(
+                    non_negative(on_resistance.value(), Param::OnResistance)?,
+                    Param::OnResistance,
+                )?;
                 positive(breakdown.value(), Param::BreakdownVoltage)?;
             }
         }
@@ -186,7 +191,7 @@ pub(crate) fn tolerance_fraction(x: f32) -> Result<f32, Error> {
 }
 
 /// One operating condition: supply voltage, winding temperature, and where each part sits within
-/// its tolerance (1.0 = nominal, 1.1 = 10 % high).
+/// its tolerance (1.0 = nominal, 1.1 = 10 % high; within [`super::domain::PART_FACTOR_RANGE`]).
 #[derive(Clone, Copy, Debug, PartialEq)]
 #[cfg_attr(feature = "defmt", derive(defmt::Format))]
 pub struct OperatingPoint {
@@ -248,7 +253,7 @@ pub struct Resolved {
 }
 
 impl Circuit {
-    /// A drive circuit. `sense` and `wiring` are series resistances (≥ 0 Ω); the sense resistor sits
+    /// A drive circuit. `sense` and `wiring` are series resistances (0 … [`super::domain::MAX_RESISTANCE`]); the sense resistor sits
     /// in the switch path, outside the freewheel loop, and the wiring inside it (clamp at the driver).
     ///
     /// # Errors
@@ -264,7 +269,9 @@ impl Circuit {
         switch.validate()?;
         clamp.validate()?;
         let sense = non_negative(sense.value(), Param::SenseResistance)?;
+        let sense = resistance_in_range(sense, Param::SenseResistance)?;
         let wiring = non_negative(wiring.value(), Param::WiringResistance)?;
+        let wiring = resistance_in_range(wiring, Param::WiringResistance)?;
         Ok(Self {
             coil,
             switch,
@@ -312,26 +319,45 @@ impl Circuit {
     /// `V_drive = V_supply − V_CE(sat)`.
     ///
     /// # Errors
-    /// Invalid supply, temperature or factor; [`Limit::NoHeadroom`] when V_drive ≤ 0.
+    /// Invalid supply or temperature; a part factor outside [`super::domain::PART_FACTOR_RANGE`]
+    /// ([`Param::Tolerance`]); [`Limit::NoHeadroom`] when V_drive ≤ 0;
+    /// [`Limit::Overflow`] when a resolved resistance, inductance or the final current
+    /// `V_drive/R_on` does not fit a positive finite f32 (extreme factors or supplies).
     pub fn resolve(&self, op: &OperatingPoint) -> Result<Resolved, Error> {
         let supply = positive(op.supply.value(), Param::Supply)?;
-        let k_r = positive(op.resistance_factor, Param::Tolerance)?;
-        let k_l = positive(op.inductance_factor, Param::Tolerance)?;
-        let k_s = positive(op.sense_factor, Param::Tolerance)?;
+        let k_r = part_factor(op.resistance_factor)?;
+        let k_l = part_factor(op.inductance_factor)?;
+        let k_s = part_factor(op.sense_factor)?;
         let winding = self.coil.resistance_at(op.temperature)?.value() * k_r;
         let (drop, r_switch) = self.switch.on_state();
         let drive = supply - drop;
         if drive <= 0.0 {
             return Err(Error::OutsideModel(Limit::NoHeadroom));
         }
+        let off_loop = winding + self.wiring;
+        let on_loop = off_loop + self.sense * k_s + r_switch;
+        let l_rel = self.coil.inductance(Armature::Released).value() * k_l;
+        let l_op = self.coil.inductance(Armature::Operated).value() * k_l;
+        // I∞ = V_drive/R_on: every figure of the circuit scales with it. One test for all (the
+        // budget's hot path): each resolved figure a positive finite f32. The loops are at least
+        // the winding and at most the on loop, so checking those bounds them too.
+        let i_inf = drive / on_loop;
+        let fit = positive_finite(winding)
+            & positive_finite(on_loop)
+            & positive_finite(l_rel)
+            & positive_finite(l_op)
+            & positive_finite(i_inf);
+        if !fit {
+            return Err(Error::OutsideModel(Limit::Overflow));
+        }
         Ok(Resolved {
             winding: Ohms::new(winding),
-            on_loop: Ohms::new(winding + self.wiring + self.sense * k_s + r_switch),
-            off_loop: Ohms::new(winding + self.wiring),
+            on_loop: Ohms::new(on_loop),
+            off_loop: Ohms::new(off_loop),
             drive: Volts::new(drive),
             supply: Volts::new(supply),
-            inductance_released: self.coil.inductance(Armature::Released).value() * k_l,
-            inductance_operated: self.coil.inductance(Armature::Operated).value() * k_l,
+            inductance_released: l_rel,
+            inductance_operated: l_op,
         })
     }
 
@@ -386,9 +412,24 @@ impl Circuit {
 
     /// Pull-in margin: `I∞ / I_pull − 1` (0.25 = 25 % more current than needed). Negative means the
     /// coil does not pull in.
+    ///
+    /// # Errors
+    /// As [`Circuit::resolve`]; [`Limit::Overflow`] when the ratio does not fit an f32.
     pub fn pull_in_margin(&self, op: &OperatingPoint) -> Result<f32, Error> {
-        Ok(self.final_current(op)?.value() / self.coil.pull_in_current().value() - 1.0)
+        pull_in_margin_of(self.final_current(op)?, self.coil.pull_in_current())
     }
+}
+
+/// Whether `x` is a positive finite f32 (0 < x < ∞; NaN, ±0 and negatives fail), read from its
+/// bits: integer compares, cheap on a core without an FPU.
+const fn positive_finite(x: f32) -> bool {
+    let bits = x.to_bits();
+    bits != 0 && bits < 0x7F80_0000
+}
+
+/// `I∞ / I_pull − 1`, checked: [`Limit::Overflow`] when it does not fit an f32.
+pub(crate) fn pull_in_margin_of(final_current: Amps, pull_in: Amps) -> Result<f32, Error> {
+    crate::error::result(final_current.value() / pull_in.value() - 1.0)
 }
 
 #[cfg(test)]
@@ -476,5 +517,89 @@ pub(crate) mod tests {
         );
         assert!(SupplyRange::with_tolerance(Volts::new(24.0), 1.5).is_err());
         assert!(TemperatureRange::new(Celsius::new(85.0), Celsius::new(-40.0)).is_err());
+    }
+
+    /// Issue 11 item 12: a must-operate voltage near the smallest positive f32 made the pull-in
+    /// current 0 and the margin ∞; a supply near f32::MAX against a small loop resistance made
+    /// I∞ = ∞. Both are errors now (refused coil, or overflow), never a non-finite `Ok`.
+    #[test]
+    fn extreme_inputs_give_errors_not_infinities() {
+        let tiny = Coil::new(
+            Ohms::new(180.0),
+            Celsius::new(20.0),
+            Henries::new(0.3),
+            Henries::new(0.45),
+            Volts::new(1.0e-44),
+            Volts::new(1.0e-45),
+        );
+        match tiny {
+            Err(e) => assert_eq!(
+                e,
+                Error::invalid(Param::MustReleaseVoltage, Why::OutOfRange)
+            ),
+            Ok(coil) => {
+                let c = Circuit::new(
+                    coil,
+                    Switch::Mosfet {
+                        on_resistance: Ohms::new(0.1),
+                        breakdown: Volts::new(60.0),
+                    },
+                    Topology::LowSide,
+                    Ohms::new(0.5),
+                    Ohms::new(0.4),
+                    Clamp::diode(Volts::new(0.8)).unwrap(),
+                )
+                .unwrap();
+                let op = OperatingPoint::new(Volts::new(24.0), Celsius::new(20.0));
+                let m = c.pull_in_margin(&op);
+                assert!(m.map_or(true, f32::is_finite), "{m:?}");
+            }
+        }
+        let mut c = valve(Clamp::diode(Volts::new(0.8)).unwrap());
+        let full = c;
+        c.sense = 0.0;
+        c.wiring = 0.0;
+        c.switch = Switch::Bipolar {
+            saturation: Volts::new(0.0),
+            breakdown: Volts::new(f32::MAX),
+        };
+        // A supply near f32::MAX on a 1.8 mΩ loop: I∞ = V/R overflows.
+        c.coil = Coil::new(
+            Ohms::new(0.18),
+            Celsius::new(20.0),
+            Henries::new(0.3),
+            Henries::new(0.45),
+            Volts::new(0.0168),
+            Volts::new(0.0024),
+        )
+        .unwrap();
+        let huge = OperatingPoint {
+            resistance_factor: 0.01,
+            ..OperatingPoint::new(Volts::new(f32::MAX), Celsius::new(20.0))
+        };
+        assert_eq!(
+            c.final_current(&huge),
+            Err(Error::OutsideModel(Limit::Overflow))
+        );
+        assert_eq!(
+            c.pull_in_margin(&huge),
+            Err(Error::OutsideModel(Limit::Overflow))
+        );
+        let near_max = OperatingPoint::new(Volts::new(f32::MAX), Celsius::new(20.0));
+        let i = full.final_current(&near_max);
+        assert!(i.map_or(true, |i| i.value().is_finite()), "{i:?}");
+        // Part factors beyond two decades of nominal (a winding factor of 1e-45 underflowed to
+        // 0 Ω before) are refused.
+        for k in [1.0e-45f32, 1.0e-30, 0.009, 101.0, 1.0e16] {
+            let op = OperatingPoint {
+                resistance_factor: k,
+                ..OperatingPoint::new(Volts::new(24.0), Celsius::new(20.0))
+            };
+            assert_eq!(
+                c.resolve(&op),
+                Err(Error::invalid(Param::Tolerance, Why::OutOfRange)),
+                "{k}"
+            );
+        }
     }
 }

@@ -2,6 +2,7 @@
 //! clamp's own values. The release waveform, energy split and switch stress each clamp produces
 //! live in [`super::release`] (re-exported here as [`Release`] and [`EnergySplit`]).
 
+use super::domain::clamp_voltage_in_range;
 pub use super::release::{EnergySplit, Release};
 use crate::error::{positive, Error, Param, Why};
 use crate::units::{Farads, Ohms, Volts};
@@ -125,21 +126,22 @@ impl Clamp {
         c.validate().map(|()| c)
     }
 
-    /// Checks the clamp's own values (finite, positive, clamp voltage above diode drop, TVS standoff
-    /// below its clamping voltage). Whether a clamp across the switch sits above the supply, and
+    /// Checks the clamp's own values (finite, voltages within
+    /// [`super::domain::CLAMP_VOLTAGE_RANGE`], clamp voltage above diode drop, TVS standoff below its
+    /// clamping voltage, resistors at most [`super::domain::MAX_RESISTANCE`]). Whether a clamp across the switch sits above the supply, and
     /// whether a TVS across the coil stays below its standoff while the switch is on, is checked at
     /// release, where the supply is known.
     pub fn validate(&self) -> Result<(), Error> {
         match *self {
             Clamp::Diode { forward } => {
-                positive(forward.value(), Param::DiodeDrop)?;
+                clamp_voltage_in_range(forward, Param::DiodeDrop)?;
             }
             Clamp::DiodeZener {
                 forward,
                 clamp_voltage,
             } => {
-                let vf = positive(forward.value(), Param::DiodeDrop)?;
-                let vc = positive(clamp_voltage.value(), Param::ClampVoltage)?;
+                let vf = clamp_voltage_in_range(forward, Param::DiodeDrop)?;
+                let vc = clamp_voltage_in_range(clamp_voltage, Param::ClampVoltage)?;
                 if vc <= vf {
                     return Err(Error::invalid(Param::ClampVoltage, Why::BelowDiodeDrop));
                 }
@@ -148,19 +150,20 @@ impl Clamp {
                 forward,
                 resistance,
             } => {
-                positive(forward.value(), Param::DiodeDrop)?;
-                positive(resistance.value(), Param::ClampResistance)?;
+                clamp_voltage_in_range(forward, Param::DiodeDrop)?;
+                let r = positive(resistance.value(), Param::ClampResistance)?;
+                super::domain::resistance_in_range(r, Param::ClampResistance)?;
             }
             Clamp::AcrossSwitch { clamp_voltage } => {
-                positive(clamp_voltage.value(), Param::ClampVoltage)?;
+                clamp_voltage_in_range(clamp_voltage, Param::ClampVoltage)?;
             }
             Clamp::Unclamped => {}
             Clamp::TvsAcrossCoil {
                 clamp_voltage,
                 standoff,
             } => {
-                let vc = positive(clamp_voltage.value(), Param::ClampVoltage)?;
-                let vs = positive(standoff.value(), Param::StandoffVoltage)?;
+                let vc = clamp_voltage_in_range(clamp_voltage, Param::ClampVoltage)?;
+                let vs = clamp_voltage_in_range(standoff, Param::StandoffVoltage)?;
                 if vs >= vc {
                     return Err(Error::invalid(Param::StandoffVoltage, Why::Inverted));
                 }
@@ -169,7 +172,8 @@ impl Clamp {
                 resistance,
                 capacitance,
             } => {
-                positive(resistance.value(), Param::ClampResistance)?;
+                let r = positive(resistance.value(), Param::ClampResistance)?;
+                super::domain::resistance_in_range(r, Param::ClampResistance)?;
                 positive(capacitance.value(), Param::Capacitance)?;
             }
         }

@@ -1,11 +1,12 @@
 //! The coil: winding resistance with its copper temperature coefficient, inductance per armature
 //! position, and the must-operate / must-release ratings that fix pull-in and drop-out currents.
 
+use super::domain::{inductance_in_range, resistance_in_range};
 use crate::error::{finite, positive, Error, Param, Why};
 use crate::units::{Amps, Celsius, Henries, Ohms, PerKelvin};
 
 /// Temperature coefficient of resistance of annealed copper at 20 °C: 0.003 93 /K
-/// (the international annealed copper standard, IEC 60028).
+/// (IEC 60028 annealed copper: α20 = 0.003 93 /K, zero-resistance point −234.5 °C).
 pub const COPPER_ALPHA_20C: PerKelvin = PerKelvin::new(0.003_93);
 
 /// Lowest winding temperature the linear copper model is used for, °C.
@@ -46,9 +47,10 @@ impl Coil {
     ///
     /// # Errors
     /// [`Error::Invalid`] naming the parameter: any value non-finite; R, L or must-operate not
-    /// positive; must-release not positive or not below must-operate; reference temperature outside
+    /// positive; R above [`super::domain::MAX_RESISTANCE`] or L below [`super::domain::MIN_INDUCTANCE`] ([`Why::OutOfRange`]); must-release not positive or not below must-operate; reference temperature outside
     /// [`MIN_WINDING_TEMPERATURE`]..[`MAX_WINDING_TEMPERATURE`]; a must-operate voltage so large
-    /// against R that `V_op/R` overflows f32 ([`Why::OutOfRange`]).
+    /// against R that `V_op/R` overflows f32, or a must-release voltage so small against R that
+    /// `V_rel/R` is below the smallest normal f32 ([`Why::OutOfRange`]).
     pub fn new(
         resistance: Ohms,
         reference_temperature: Celsius,
@@ -57,10 +59,13 @@ impl Coil {
         must_operate: crate::units::Volts,
         must_release: crate::units::Volts,
     ) -> Result<Self, Error> {
-        let resistance = positive(resistance.value(), Param::WindingResistance)?;
+        let resistance = resistance_in_range(
+            positive(resistance.value(), Param::WindingResistance)?,
+            Param::WindingResistance,
+        )?;
         let t_ref = temperature_in_range(reference_temperature)?;
-        let l_rel = positive(inductance_released.value(), Param::InductanceReleased)?;
-        let l_op = positive(inductance_operated.value(), Param::InductanceOperated)?;
+        let l_rel = inductance_in_range(inductance_released, Param::InductanceReleased)?;
+        let l_op = inductance_in_range(inductance_operated, Param::InductanceOperated)?;
         let v_op = positive(must_operate.value(), Param::MustOperateVoltage)?;
         let v_rel = positive(must_release.value(), Param::MustReleaseVoltage)?;
         if v_rel >= v_op {
@@ -69,9 +74,14 @@ impl Coil {
                 Why::ReleaseAboveOperate,
             ));
         }
-        // The pull-in current V_op/R (the larger of the two ratios) must be finite.
+        // The pull-in current V_op/R (the larger of the two ratios) must be finite, and the
+        // drop-out current V_rel/R (the smaller) a normal f32: a ratio that underflows to 0 or
+        // a subnormal would make every margin and ratio against it overflow.
         if !(v_op / resistance).is_finite() {
             return Err(Error::invalid(Param::MustOperateVoltage, Why::OutOfRange));
+        }
+        if v_rel / resistance < f32::MIN_POSITIVE {
+            return Err(Error::invalid(Param::MustReleaseVoltage, Why::OutOfRange));
         }
         Ok(Self {
             resistance,
@@ -84,8 +94,8 @@ impl Coil {
         })
     }
 
-    /// The same coil with another temperature coefficient (1/K, finite, 0 ≤ α ≤ 0.01; aluminium
-    /// wire is ≈ 0.0040 /K).
+    /// The same coil with another temperature coefficient (1/K, finite, 0 ≤ α ≤ 0.01;
+    /// aluminium ≈ 0.0040 /K (handbook value, from memory)).
     pub fn with_temperature_coefficient(mut self, alpha: PerKelvin) -> Result<Self, Error> {
         let a = finite(alpha.value(), Param::TemperatureCoefficient)?;
         if !(0.0..=0.01).contains(&a) {
@@ -136,11 +146,15 @@ impl Coil {
     /// Domain: T within [`MIN_WINDING_TEMPERATURE`]..[`MAX_WINDING_TEMPERATURE`]. Accuracy: the
     /// linear copper law is within about 1 % of measured copper resistivity from −100 °C to
     /// +250 °C; the result carries f32 rounding only.
+    ///
+    /// # Errors
+    /// Temperature outside the range; [`crate::Limit::Overflow`] when `R(T)` overflows f32 (an
+    /// `R_ref` near f32::MAX, warmed).
     pub fn resistance_at(&self, temperature: Celsius) -> Result<Ohms, Error> {
         let t = temperature_in_range(temperature)?;
         let scale = 1.0 + self.alpha * (t - self.reference_temperature);
         positive(scale, Param::Temperature)?;
-        Ok(Ohms::new(self.resistance * scale))
+        crate::error::result(self.resistance * scale).map(Ohms::new)
     }
 
     /// Winding temperature from a measured resistance: `T = T_ref + (R/R_ref − 1)/α`, °C.
@@ -203,8 +217,8 @@ mod tests {
 
     #[test]
     fn copper_coefficient_matches_the_annealed_copper_standard() {
-        // IEC 60028 (annealed copper standard): α20 = 0.00393 /K; equivalently copper's
-        // resistance extrapolates to zero at −234.5 °C: 1/(234.5 + 20) = 0.003929 /K.
+        // IEC 60028 annealed copper: α20 = 0.003 93 /K, zero-resistance point −234.5 °C:
+        // 1/(234.5 + 20) = 0.003929 /K.
         assert!((COPPER_ALPHA_20C.value() - 1.0 / 254.5).abs() < 2e-6);
         // Handbook rule of thumb (common practice, no source): copper gains ≈ 25 % from 20 to 85 °C.
         let c = valve();

@@ -172,7 +172,7 @@ pub fn check_mosfet(current: Amps, duty: f32, gate: &GateDrive) -> Result<Mosfet
     let rated = positive(gate.rated_gate_voltage.value(), Param::Voltage)?;
     Ok(MosfetCheck {
         conduction_loss: conduction_loss(current, gate.on_resistance, duty)?,
-        gate_margin: Volts::new(vgs - rated),
+        gate_margin: Volts::new(result(vgs - rated)?),
         enhanced: vgs >= rated,
     })
 }

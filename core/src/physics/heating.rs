@@ -25,8 +25,8 @@ use super::drive::duty_fraction;
 use crate::error::{finite, non_negative, positive, result, Error, Limit, Param};
 use crate::units::{Amps, Celsius, KelvinPerWatt, Ohms, Watts};
 
-/// Temperature at which copper's resistance extrapolates to zero on the linear law, °C
-/// (−234.5 °C; the reciprocal of the annealed-copper α at 20 °C, 1/(234.5 + 20) = 0.003 93 /K).
+/// Temperature at which copper's resistance extrapolates to zero on the linear law, °C (−234.5 °C =
+/// 20 °C − 1/α20; IEC 60028 annealed copper: α20 = 0.003 93 /K, zero-resistance point −234.5 °C).
 pub const COPPER_ZERO_RESISTANCE: Celsius = Celsius::new(-234.5);
 
 /// Iteration cap of the equilibrium solver.
@@ -90,7 +90,8 @@ impl Circuit {
     ///
     /// # Errors
     /// [`Limit::Overtemperature`] when the equilibrium lies above
-    /// [`MAX_WINDING_TEMPERATURE`]; invalid inputs.
+    /// [`MAX_WINDING_TEMPERATURE`]; [`Limit::Overflow`] when a figure does not fit an f32;
+    /// invalid inputs.
     pub fn self_heating(
         &self,
         op: &OperatingPoint,
@@ -113,10 +114,12 @@ impl Circuit {
         let r_x = r.on_loop.value() - r.winding.value();
         let v = r.drive.value();
         let winding_at = |t: f32| r_ref * (1.0 + alpha * (t - t_ref));
+        // P = D·i²·R_w with i = V/(R_w + R_x): the current first, so that neither V² nor
+        // (R_w + R_x)² can overflow on their own (∞/∞ was a NaN for extreme supplies and loops).
         let power_at = |t: f32| {
             let rw = winding_at(t);
-            let total = rw + r_x;
-            d * v * v * rw / (total * total)
+            let i = v / (rw + r_x);
+            d * i * i * rw
         };
         let h = |t: f32| t - t_amb - r_th * power_at(t);
         // Bracket: P never exceeds its value at ambient when R_w ≥ R_x there, else D·V²/(4·R_x).
@@ -124,7 +127,9 @@ impl Circuit {
         let p_max = if rw_amb >= r_x {
             power_at(t_amb)
         } else {
-            d * v * v / (4.0 * r_x)
+            // D·V²/(4·R_x), as D·(V/(2R_x))²·R_x for the same reason.
+            let i = 0.5 * (v / r_x);
+            d * i * i * r_x
         };
         let t_hi = result(t_amb + r_th * p_max)?;
         let t = if t_hi <= t_amb || h(t_amb) >= 0.0 {
@@ -141,9 +146,9 @@ impl Circuit {
         positive(rw, Param::Temperature)?;
         Ok(SelfHeating {
             temperature: Celsius::new(t),
-            winding: Ohms::new(rw),
-            current: Amps::new(v / (rw + r_x)),
-            power: Watts::new(power_at(t)),
+            winding: Ohms::new(result(rw)?),
+            current: Amps::new(result(v / (rw + r_x))?),
+            power: Watts::new(result(power_at(t))?),
         })
     }
 }
@@ -173,10 +178,10 @@ mod tests {
 
     #[test]
     fn resistance_method_matches_the_copper_law() {
-        // Common practice, no source: the resistance method of winding temperature with copper's
-        // inferred zero-resistance point at −234.5 °C.
-        // 180 Ω at 20 °C reading 225.9 Ω hot: (225.9/180)·254.5 − 234.5 = 84.9 °C; the coil's own
-        // α-law inverse gives the same within rounding (α20 = 1/254.5).
+        // The resistance method of winding temperature (common practice, no source) with copper's
+        // zero-resistance point (IEC 60028 annealed copper: α20 = 0.003 93 /K, zero-resistance
+        // point −234.5 °C). 180 Ω at 20 °C reading 225.9 Ω hot: (225.9/180)·254.5 − 234.5 = 84.9
+        // °C; the coil's own α-law inverse gives the same within rounding (α20 = 1/254.5).
         let t = temperature_by_resistance(Ohms::new(180.0), Celsius::new(20.0), Ohms::new(225.9))
             .unwrap()
             .value();
@@ -240,7 +245,8 @@ mod tests {
         let s = c
             .self_heating(&op(), Celsius::new(40.0), KelvinPerWatt::new(30.0), 1.0)
             .unwrap();
-        // Constant voltage: hot coil draws less, so the rise is below the cold-resistance estimate.
+        // Constant voltage: hot coil draws less, so the rise is below the cold-resistance estimate
+        // (P = V²/R falls as R rises: Joule heating, textbook, from memory).
         let cold = c
             .coil_dissipation(
                 &OperatingPoint::new(Volts::new(24.0), Celsius::new(40.0)),
@@ -297,5 +303,50 @@ mod tests {
             .unwrap();
         let back = 25.0 + 2000.0 * s.power.value();
         assert!((back - s.temperature.value()).abs() < 0.01, "{s:?}");
+    }
+
+    /// Issue 11 item 12: a supply of 1e19 V against an on-resistance of 1e30 Ω made `V²·R_w` and
+    /// `(R_w + R_x)²` both overflow, and the reported power was ∞/∞ = NaN.
+    #[test]
+    fn extreme_on_resistance_gives_a_finite_power_or_an_error() {
+        let coil = *valve(Clamp::diode(Volts::new(0.8)).unwrap()).coil();
+        for (v, r_on) in [
+            (1.0e19f32, 1.0e30f32),
+            (1.0e20, 1.0e30),
+            (1.0e19, f32::MAX),
+            (1.0e19, 1.0e9),
+            (3.0e38, 1.0e9),
+        ] {
+            // On-resistances above the model's 1 GΩ are refused outright.
+            let c = Circuit::new(
+                coil,
+                Switch::Mosfet {
+                    on_resistance: Ohms::new(r_on),
+                    breakdown: Volts::new(f32::MAX),
+                },
+                Topology::LowSide,
+                Ohms::new(0.0),
+                Ohms::new(0.0),
+                Clamp::diode(Volts::new(0.8)).unwrap(),
+            );
+            let Ok(c) = c else {
+                assert!(r_on > 1.0e9, "{c:?}");
+                continue;
+            };
+            let op = OperatingPoint::new(Volts::new(v), Celsius::new(20.0));
+            if let Ok(s) = c.self_heating(&op, Celsius::new(25.0), KelvinPerWatt::new(40.0), 1.0) {
+                for x in [
+                    s.temperature.value(),
+                    s.winding.value(),
+                    s.current.value(),
+                    s.power.value(),
+                ] {
+                    assert!(x.is_finite() && x >= 0.0, "{r_on}: {s:?}");
+                }
+                // Joule heating, P = I²·R (textbook, from memory).
+                let p = s.current.value() * s.current.value() * s.winding.value();
+                assert!((s.power.value() - p).abs() <= 1e-5 * p, "{s:?}");
+            }
+        }
     }
 }

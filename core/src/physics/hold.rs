@@ -61,9 +61,10 @@ impl Circuit {
     /// # Errors
     /// [`Error::Unreachable`] when `I_h ≥ I_on = V_drive/R_on` (the coil cannot be held there even
     /// at 100 %); [`Limit::NotFirstOrder`] for the RC snubber; [`Limit::DiscontinuousConduction`]
-    /// when the current would reach zero in the off phase (PWM too slow); [`Limit::Overflow`] when
-    /// the clamp's opposing voltage is so far above the drive that the duty rounds to 1 in f32;
-    /// invalid inputs.
+    /// when the current would reach zero in the off phase (PWM too slow); [`Limit::Resolution`]
+    /// when the duty rounds to 0 or 1 in f32 (a clamp so strong that the off fraction is below
+    /// rounding) or the ripple is below rounding against the current; invalid inputs. An `Ok`
+    /// always has 0 < D < 1, ripple ≥ 0 and every figure finite.
     pub fn hold(
         &self,
         op: &OperatingPoint,
@@ -93,11 +94,12 @@ impl Circuit {
         let den = r_on * (i_on - ih) + r_off * (a + ih);
         let duty = result(r_off * (a + ih) / den)?;
         // The off fraction from its own expression, not 1 − D: with a clamp voltage far above the
-        // supply 1 − D is tiny and `1.0 - duty` would keep none of its digits. Where D itself
-        // rounds to 1 in f32 the contract 0 < D < 1 cannot be met: refuse.
+        // supply 1 − D is tiny and `1.0 - duty` would keep none of its digits. D < 1 exactly when
+        // I_h < I_on, but a clamp that stops the current almost at once (huge V/R_off) leaves an
+        // off fraction below f32 rounding: D rounds to 1 and the contract 0 < D < 1 cannot be met.
         let off = result(r_on * (i_on - ih) / den)?;
-        if !(duty < 1.0 && off > 0.0) {
-            return Err(Error::OutsideModel(Limit::Overflow));
+        if !(duty > 0.0 && duty < 1.0 && off > 0.0) {
+            return Err(Error::OutsideModel(Limit::Resolution));
         }
         let period = result(1.0 / f)?;
         let x_on = duty * period / tau_on;
@@ -113,6 +115,10 @@ impl Circuit {
             return Err(Error::OutsideModel(Limit::DiscontinuousConduction));
         }
         let ripple = (i_on - valley) * m_on;
+        if ripple.is_nan() || ripple < 0.0 {
+            // valley ≤ I_on in exact arithmetic; above it only by rounding of a vanishing ripple.
+            return Err(Error::OutsideModel(Limit::Resolution));
+        }
         let peak = valley + ripple;
         let mean_on = valley + (i_on - valley) * mean_fraction(x_on);
         let mean_off = peak - (peak + a) * mean_fraction(x_off);
@@ -125,7 +131,9 @@ impl Circuit {
             peak: Amps::new(peak),
             ripple: Amps::new(ripple),
             average: Amps::new(average),
-            winding_power: Watts::new(winding * (average * average + ripple * ripple / 12.0)),
+            winding_power: Watts::new(result(
+                winding * (average * average + ripple * ripple / 12.0),
+            )?),
             clamp_power: Watts::new(result(off * release.clamp_power_at(mean_off, ripple))?),
         })
     }
@@ -257,6 +265,8 @@ mod tests {
 
     #[test]
     fn exact_ripple_matches_stepping_the_segments() {
+        // Reference: brute-force stepping of the two exact segments from zero until the period
+        // repeats ([`simulate`]), independent of the periodic closed form.
         for clamp in [
             Clamp::diode(Volts::new(0.8)).unwrap(),
             Clamp::diode_zener(Volts::new(0.8), Volts::new(20.0)).unwrap(),
@@ -336,12 +346,16 @@ mod tests {
         let got = h.ripple.value() as f64;
         assert!((got - ripple).abs() < 1e-3 * ripple, "{got} vs {ripple}");
         assert!((h.valley.value() as f64 - valley).abs() < 1e-5 * valley);
-        // So far above the supply that the duty rounds to 1 in f32: refused, never D = 1.
-        let huge = valve(Clamp::diode_zener(Volts::new(0.8), Volts::new(1.0e9)).unwrap());
-        assert_eq!(
-            huge.hold(&op(), Amps::new(0.06), Hertz::new(20e3)),
-            Err(Error::OutsideModel(Limit::Overflow))
-        );
+        // At the largest clamp voltage the model accepts (100 kV) the off interval is tiny: an
+        // Ok keeps 0 < D < 1 with a positive ripple, or the duty is refused; never D = 1.
+        let huge = valve(Clamp::diode_zener(Volts::new(0.8), Volts::new(1.0e5)).unwrap());
+        match huge.hold(&op(), Amps::new(0.06), Hertz::new(20e3)) {
+            Ok(h) => assert!(
+                h.duty > 0.0 && h.duty < 1.0 && h.ripple.value() >= 0.0,
+                "{h:?}"
+            ),
+            Err(e) => assert_eq!(e, Error::OutsideModel(Limit::Resolution)),
+        }
     }
 
     #[test]
@@ -353,5 +367,80 @@ mod tests {
         }
         assert!((mean_fraction(0.1) as f64 - direct(0.1)).abs() < 1e-7);
         assert!((mean_fraction(3.0) as f64 - direct(3.0)).abs() < 1e-6);
+    }
+
+    /// Checks the documented contract of one hold: 0 < D < 1, every figure finite, ripple ≥ 0,
+    /// 0 ≤ valley ≤ peak, the average between them, powers ≥ 0.
+    fn assert_contract(h: &Hold, what: &str) {
+        assert!(h.duty > 0.0 && h.duty < 1.0, "{what}: {h:?}");
+        for x in [
+            h.frequency.value(),
+            h.valley.value(),
+            h.peak.value(),
+            h.ripple.value(),
+            h.average.value(),
+            h.winding_power.value(),
+            h.clamp_power.value(),
+        ] {
+            assert!(x.is_finite(), "{what}: {h:?}");
+        }
+        assert!(h.ripple.value() >= 0.0, "{what}: {h:?}");
+        assert!(
+            h.valley.value() >= 0.0 && h.valley <= h.peak,
+            "{what}: {h:?}"
+        );
+        // The mean lies between valley and peak, to f32 rounding of the three sums (a few ulp).
+        let ulps = 4.0 * f32::EPSILON * h.peak.value();
+        assert!(
+            h.valley.value() - ulps <= h.average.value(),
+            "{what}: {h:?}"
+        );
+        assert!(h.average.value() <= h.peak.value() + ulps, "{what}: {h:?}");
+        assert!(h.winding_power.value() >= 0.0 && h.clamp_power.value() >= 0.0);
+    }
+
+    /// Issue 11 item 13: extreme clamp values gave duty = 1.0 and a negative ripple inside `Ok`.
+    #[test]
+    fn extreme_clamps_keep_the_duty_and_ripple_contract() {
+        let mut clamps = std::vec::Vec::new();
+        for v in (0..39)
+            .map(|k| libm::powf(10.0, k as f32))
+            .chain([3.0e38, f32::MAX])
+        {
+            // Clamp voltages above 100 kV and resistors above 1 GΩ are outside the model.
+            clamps.extend(Clamp::diode_zener(Volts::new(0.8), Volts::new(v)).ok());
+            clamps.extend(Clamp::diode_resistor(Volts::new(0.8), Ohms::new(v)).ok());
+            clamps.extend(Clamp::diode(Volts::new(v)).ok());
+            let across = Clamp::AcrossSwitch {
+                clamp_voltage: Volts::new(v),
+            };
+            clamps.extend(across.validate().ok().map(|()| across));
+            clamps.push(Clamp::Unclamped);
+        }
+        for (k, clamp) in clamps.into_iter().enumerate() {
+            // The unclamped switch avalanches at its breakdown: sweep it with the clamp values.
+            let breakdown = libm::fmaxf(60.0, libm::powf(10.0, (k / 5).min(38) as f32));
+            let c = Circuit::new(
+                *valve(clamp).coil(),
+                crate::physics::circuit::Switch::Mosfet {
+                    on_resistance: Ohms::new(0.1),
+                    breakdown: Volts::new(breakdown),
+                },
+                crate::physics::circuit::Topology::LowSide,
+                Ohms::new(0.5),
+                Ohms::new(0.4),
+                clamp,
+            )
+            .unwrap();
+            for f in (-10..39).map(|k| libm::powf(10.0, k as f32)) {
+                for ih in [
+                    1.0e-40f32, 1.0e-30, 1.0e-12, 1.0e-6, 0.01, 0.05, 0.1, 0.13, 0.1325,
+                ] {
+                    if let Ok(h) = c.hold(&op(), Amps::new(ih), Hertz::new(f)) {
+                        assert_contract(&h, &std::format!("{clamp:?} {f} Hz {ih} A"));
+                    }
+                }
+            }
+        }
     }
 }

@@ -5,6 +5,7 @@
 pub mod circuit;
 pub mod clamp;
 pub mod coil;
+pub mod domain;
 pub mod drive;
 pub mod first_order;
 pub mod heating;

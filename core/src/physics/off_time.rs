@@ -54,6 +54,9 @@ pub struct OffTime {
 ///
 /// The mechanical allowance is added to the electrical release (the armature only starts to move
 /// once the current is below drop-out), which is longer than taking the larger of the two.
+///
+/// # Errors
+/// Invalid needs; [`crate::Limit::Overflow`] when the sum overflows f32.
 pub fn min_off_time(
     release: &Release,
     drop_out: Amps,
@@ -87,7 +90,7 @@ pub(crate) fn off_time_from_parts(
             libm::fmaxf(period - on, 0.0)
         }
     };
-    let release_total = electrical + mech;
+    let release_total = crate::error::result(electrical + mech)?;
     let (required, limit) = if release_total >= residual && release_total >= thermal {
         (release_total, OffTimeLimit::Release)
     } else if residual >= thermal {

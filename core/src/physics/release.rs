@@ -542,7 +542,7 @@ mod tests {
 
     #[test]
     fn avalanche_tends_to_the_unclamped_inductive_switching_formula() {
-        // single-pulse unclamped inductive switching (UIS) energy, JEDEC JESD24 / AEC-Q101 (from memory):
+        // E_AS (single-pulse unclamped inductive switching, JEDEC JESD24 family; from memory):
         // E_AS = ½·L·I²·V_BR/(V_BR − V_DD), derived for a lossless inductor. With R small against (V_BR − V_DD)/I it is approached.
         let c = valve(Clamp::Unclamped);
         let rel = c.release(&op(), Amps::new(0.13)).unwrap();

@@ -14,7 +14,11 @@ pub fn clamp_average_power(energy_per_pulse: Joules, rate: Hertz) -> Result<Watt
 
 /// Highest repetition rate a clamp rated `rating` can take: `f_max = P_rating / E_pulse`, Hz.
 /// An energy of 0 J gives +∞ Hz (no thermal limit) — the one place an infinity is meaningful, so
-/// it is returned as `None`.
+/// it is returned as `None`; so is a rate beyond f32's range (a rating so large against the
+/// pulse energy that the clamp sets no thermal limit).
+///
+/// # Errors
+/// Energy not finite or negative; rating not finite or ≤ 0 ([`Param::PowerRating`]).
 pub fn max_repetition_rate(
     energy_per_pulse: Joules,
     rating: Watts,
@@ -24,7 +28,8 @@ pub fn max_repetition_rate(
     if e == 0.0 {
         return Ok(None);
     }
-    result(p / e).map(|f| Some(Hertz::new(f)))
+    let f = p / e;
+    Ok(f.is_finite().then_some(Hertz::new(f)))
 }
 
 /// Shortest period between pulses for the clamp rating: `T_min = E_pulse / P_rating`, s.
@@ -53,6 +58,11 @@ mod tests {
             Ok(None)
         );
         assert!(max_repetition_rate(e, Watts::new(0.0)).is_err());
+        // A rate beyond f32 is no limit, like a pulse of 0 J.
+        assert_eq!(
+            max_repetition_rate(Joules::new(1.0e-30), Watts::new(f32::MAX)),
+            Ok(None)
+        );
         assert!(clamp_average_power(Joules::new(f32::NAN), Hertz::new(1.0)).is_err());
     }
 }

@@ -154,7 +154,7 @@ mod checks {
     use super::*;
 
     #[test]
-    fn plant_matches_the_textbook_rl_step_when_the_armature_is_held() {
+    fn plant_matches_the_rl_step_when_the_armature_is_held() {
         // Textbook RL step (from memory): i(t) = V/R·(1 − e^(−tR/L)); RK4 at 1/50 τ is far more
         // accurate than the f32 estimator needs.
         let p = Plant {

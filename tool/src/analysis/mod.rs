@@ -269,7 +269,7 @@ impl<'a> Analysis<'a> {
                         coilwise::Error::OutsideModel(Limit::NotFirstOrder) => {
                             HoldProblem::NotFirstOrder
                         }
-                        coilwise::Error::OutsideModel(Limit::Overflow) => {
+                        coilwise::Error::OutsideModel(Limit::Resolution) => {
                             HoldProblem::OffIntervalTooShort
                         }
                         other => HoldProblem::Other(other),

@@ -133,12 +133,44 @@ impl DriverDesign {
         })
     }
 
+    /// Checks the design's own fields, the one validation that [`DriverDesign::figures`],
+    /// [`DriverDesign::budget`], [`DriverDesign::tick_budget`] and
+    /// [`DriverDesign::hold_at_corners`] share: tolerances (see [`Tolerances::validate`]);
+    /// mechanical allowances and residual current finite and ≥ 0; a planned duty with
+    /// `t_on ≥ 0`, `f ≥ 0` (finite) and `t_on·f ≤ 1`; a clamp rating finite and > 0.
+    ///
+    /// # Errors
+    /// [`Error::Invalid`] naming the field: [`crate::Param::Tolerance`], [`crate::Param::Time`],
+    /// [`crate::Param::Current`], [`crate::Param::Frequency`], [`crate::Param::Duty`],
+    /// [`crate::Param::PowerRating`].
+    pub fn validate(&self) -> Result<(), Error> {
+        use crate::error::{non_negative, positive, Param};
+        self.tolerances.validate()?;
+        non_negative(self.operate_allowance.value(), Param::Time)?;
+        non_negative(self.release_allowance.value(), Param::Time)?;
+        non_negative(self.residual_current.value(), Param::Current)?;
+        if let Some((on, f)) = self.duty {
+            let on = non_negative(on.value(), Param::Time)?;
+            let f = non_negative(f.value(), Param::Frequency)?;
+            crate::physics::drive::duty_fraction(on * f)?;
+        }
+        if let Some(p) = self.clamp_rating {
+            positive(p.value(), Param::PowerRating)?;
+        }
+        Ok(())
+    }
+
     /// Every figure at one operating point, the coil switched off from its final current.
     ///
     /// # Errors
-    /// Invalid tolerances or inputs; a planned duty `t_on·f` above 1 ([`crate::Param::Duty`]).
+    /// As [`DriverDesign::validate`]; invalid inputs; a figure that overflows f32.
     pub fn figures(&self, op: &OperatingPoint) -> Result<Figures, Error> {
-        self.tolerances.validate()?;
+        self.validate()?;
+        self.figures_of_valid(op)
+    }
+
+    /// [`DriverDesign::figures`] of a design already validated (the budget validates once).
+    fn figures_of_valid(&self, op: &OperatingPoint) -> Result<Figures, Error> {
         let c = &self.circuit;
         let resolved = c.resolve(op)?;
         let rise = c.energize_resolved(&resolved, Armature::Released, Amps::new(0.0))?;
@@ -163,7 +195,10 @@ impl DriverDesign {
             final_current,
             tau_on: rise.tau(),
             pull_in_time,
-            pull_in_margin: final_current.value() / c.coil().pull_in_current().value() - 1.0,
+            pull_in_margin: crate::physics::circuit::pull_in_margin_of(
+                final_current,
+                c.coil().pull_in_current(),
+            )?,
             tau_off: release.tau(),
             release_time,
             time_to_zero,
@@ -245,7 +280,7 @@ impl DriverDesign {
         if self.circuit.clamp().kind() == crate::physics::clamp::ClampKind::RcSnubber {
             return self.budget().map(|b| b.ticks);
         }
-        self.tolerances.validate()?;
+        self.validate()?;
         let c = &self.circuit;
         let t_pull = c
             .energize(&self.pull_in_corner(), Armature::Released, Amps::new(0.0))?
@@ -253,7 +288,12 @@ impl DriverDesign {
         let resolved = c.resolve(&self.release_corner())?;
         let i0 = Amps::new(resolved.drive.value() / resolved.on_loop.value());
         let release = c.release_resolved(&resolved, i0)?;
-        let (release_time, _, _, off) = self.release_figures(&release)?;
+        let (release_time, _, energy, off) = self.release_figures(&release)?;
+        // The budget's clamp power at the planned rate: refused here when it overflows there
+        // (the release corner carries the largest clamp energy of the budget's three points).
+        if let Some((_, f)) = self.duty {
+            clamp_average_power(energy.clamp, f)?;
+        }
         Ok(self.ticks_from(t_pull, off.required, release_time)?.1)
     }
 
@@ -266,7 +306,7 @@ impl DriverDesign {
         let mut rel = Seconds::new(0.0);
         let mut k = 0;
         while let Some(op) = self.corner(k) {
-            let f = self.figures(&op)?;
+            let f = self.figures_of_valid(&op)?;
             if f.off_time.required > off {
                 off = f.off_time.required;
             }
@@ -296,11 +336,16 @@ impl DriverDesign {
     /// The hold PWM for `hold_current` at `frequency` at the nominal point, the pull-in corner
     /// (hot, low supply: the highest duty) and the release corner (cold, high supply: the lowest
     /// duty), in that order. See [`Circuit::hold`].
+    ///
+    /// # Errors
+    /// As [`DriverDesign::validate`] (the corners are built from the tolerances) and
+    /// [`Circuit::hold`].
     pub fn hold_at_corners(
         &self,
         hold_current: Amps,
         frequency: Hertz,
     ) -> Result<[Hold; 3], Error> {
+        self.validate()?;
         let c = &self.circuit;
         Ok([
             c.hold(&self.nominal_point(), hold_current, frequency)?,
@@ -328,9 +373,10 @@ impl DriverDesign {
     /// rely on such a design); [`Error::TickOverflow`] when a time does not fit the timer; any
     /// invalid input.
     pub fn budget(&self) -> Result<TimingBudget, Error> {
-        let nominal = self.figures(&self.nominal_point())?;
-        let pull_in = self.figures(&self.pull_in_corner())?;
-        let release = self.figures(&self.release_corner())?;
+        self.validate()?;
+        let nominal = self.figures_of_valid(&self.nominal_point())?;
+        let pull_in = self.figures_of_valid(&self.pull_in_corner())?;
+        let release = self.figures_of_valid(&self.release_corner())?;
         let Some(t_pull) = pull_in.pull_in_time else {
             return Err(Error::Unreachable {
                 target: self.circuit.coil().pull_in_current().value(),
@@ -442,210 +488,4 @@ pub struct TimingBudget {
 }
 
 #[cfg(test)]
-mod tests {
-    use super::*;
-    use crate::physics::circuit::tests::valve;
-    use crate::physics::clamp::Clamp;
-    use crate::physics::off_time::min_off_time;
-    use crate::units::{Celsius, Farads, Ohms};
-
-    fn every_clamp() -> [Clamp; 6] {
-        [
-            Clamp::diode(Volts::new(0.8)).unwrap(),
-            Clamp::diode_zener(Volts::new(0.8), Volts::new(34.0)).unwrap(),
-            Clamp::diode_resistor(Volts::new(0.8), Ohms::new(220.0)).unwrap(),
-            Clamp::AcrossSwitch {
-                clamp_voltage: Volts::new(47.0),
-            },
-            Clamp::Unclamped,
-            Clamp::rc_snubber(Ohms::new(1000.0), Farads::from_micro(10.0)).unwrap(),
-        ]
-    }
-
-    /// Invented demo design: the 24 V greenhouse valve, 21.6…26.4 V, −25…+60 °C winding, ±5 % R,
-    /// ±20 % L, ±1 % sense, 1 MHz timer, 8 ms / 5 ms mechanical allowances.
-    fn design(clamp: Clamp) -> DriverDesign {
-        let mut d = DriverDesign::new(
-            valve(clamp),
-            SupplyRange::new(Volts::new(21.6), Volts::new(24.0), Volts::new(26.4)).unwrap(),
-            TemperatureRange::new(Celsius::new(-25.0), Celsius::new(60.0)).unwrap(),
-            TickRate::new(1_000_000).unwrap(),
-        );
-        d.tolerances = Tolerances {
-            resistance: 0.05,
-            inductance: 0.2,
-            sense: 0.01,
-        };
-        d.operate_allowance = Seconds::from_millis(8.0);
-        d.release_allowance = Seconds::from_millis(5.0);
-        d
-    }
-
-    fn corners(d: &DriverDesign) -> impl Iterator<Item = OperatingPoint> + '_ {
-        (0..).map_while(|k| d.corner(k))
-    }
-
-    #[test]
-    fn tick_budget_equals_the_full_budget() {
-        for clamp in every_clamp() {
-            for (residual, duty) in [
-                (0.0, None),
-                (0.002, None),
-                (0.0, Some((Seconds::from_millis(50.0), Hertz::new(2.0)))),
-            ] {
-                let mut d = design(clamp);
-                d.residual_current = Amps::new(residual);
-                d.duty = duty;
-                d.clamp_rating = duty.map(|_| Watts::new(0.004));
-                assert_eq!(
-                    d.tick_budget().unwrap(),
-                    d.budget().unwrap().ticks,
-                    "{clamp:?}"
-                );
-            }
-        }
-        let mut hopeless = design(every_clamp()[0]);
-        hopeless.supply =
-            SupplyRange::new(Volts::new(9.0), Volts::new(10.0), Volts::new(11.0)).unwrap();
-        assert!(matches!(
-            hopeless.tick_budget(),
-            Err(Error::Unreachable { .. })
-        ));
-        assert!(matches!(hopeless.budget(), Err(Error::Unreachable { .. })));
-    }
-
-    #[test]
-    fn the_two_chosen_corners_are_the_worst_of_all_32() {
-        // Common practice, no source: pull-in is slowest for a hot coil on a low supply, and
-        // release, clamp energy and switch voltage are worst for a cold coil on a high supply.
-        // Brute force over every combination of supply, temperature, R, L and sense extremes
-        // (16 supply/temperature/R/L corners, each with both sense extremes).
-        for clamp in every_clamp() {
-            let mut d = design(clamp);
-            d.duty = Some((Seconds::from_millis(50.0), Hertz::new(2.0)));
-            d.clamp_rating = Some(Watts::new(0.25));
-            let b = d.budget().unwrap();
-            let p = &b.pull_in_corner;
-            let r = &b.release_corner;
-            let close = |worst: f32, any: f32| any <= worst * (1.0 + 2e-5) + 1e-9;
-            let snubber = clamp.kind() == crate::physics::clamp::ClampKind::RcSnubber;
-            assert_eq!(corners(&d).count(), 32);
-            let mut longest = 0.0f32;
-            for op in corners(&d) {
-                let f = d.figures(&op).unwrap();
-                let pull = f.pull_in_time.unwrap().value();
-                longest = longest.max(f.release_time.value());
-                assert!(
-                    close(p.pull_in_time.unwrap().value(), pull),
-                    "{clamp:?} pull-in {op:?}"
-                );
-                assert!(
-                    close(b.release_time.value(), f.release_time.value()),
-                    "{clamp:?} release {op:?}"
-                );
-                if !snubber {
-                    // First-order clamps: the release corner itself is the slowest.
-                    assert!(close(r.release_time.value(), f.release_time.value()));
-                    assert!(close(r.time_to_zero.value(), f.time_to_zero.value()));
-                }
-                assert!(
-                    close(r.peak_switch_voltage.value(), f.peak_switch_voltage.value()),
-                    "{clamp:?} peak {op:?}"
-                );
-                assert!(
-                    close(r.energy.clamp.value(), f.energy.clamp.value()),
-                    "{clamp:?} energy {op:?}"
-                );
-                assert!(
-                    close(r.energy.stored.value(), f.energy.stored.value()),
-                    "{clamp:?} stored"
-                );
-                assert!(
-                    close(b.min_off_time.value(), f.off_time.required.value()),
-                    "{clamp:?} off-time {op:?}"
-                );
-            }
-            // The budget's release time is one of the corners' (not an overestimate either).
-            assert!((b.release_time.value() - longest).abs() <= 1e-6 * longest);
-        }
-    }
-
-    #[test]
-    fn budget_is_pull_in_plus_allowance_and_rounds_up() {
-        for clamp in every_clamp() {
-            let d = design(clamp);
-            let b = d.budget().unwrap();
-            let t_pull = b.pull_in_corner.pull_in_time.unwrap().value();
-            // Common practice, no source: minimum on-time = worst electrical pull-in + mechanical
-            // operate allowance, and timing limits round up to whole ticks.
-            assert!((b.min_on_time.value() - (t_pull + 0.008)).abs() < 1e-7);
-            let rate = 1.0e6f64;
-            for (ticks, s) in [
-                (b.ticks.min_on, b.min_on_time),
-                (b.ticks.min_off, b.min_off_time),
-                (b.ticks.pull_in, b.pull_in_corner.pull_in_time.unwrap()),
-                (b.ticks.release, b.release_time),
-            ] {
-                assert!(ticks.get() as f64 / rate >= s.value() as f64);
-                assert!((ticks.get() as f64 - 1.0) / rate < s.value() as f64);
-            }
-            assert!(b.min_off_time >= b.nominal.off_time.required);
-        }
-    }
-
-    #[test]
-    fn the_fast_path_off_time_equals_the_public_one() {
-        for clamp in every_clamp() {
-            let mut d = design(clamp);
-            d.duty = Some((Seconds::from_millis(50.0), Hertz::new(2.0)));
-            d.clamp_rating = Some(Watts::new(0.05));
-            for op in [d.nominal_point(), d.release_corner(), d.pull_in_corner()] {
-                let f = d.figures(&op).unwrap();
-                let rel = d.circuit.release(&op, f.final_current).unwrap();
-                let needs = OffTimeNeeds {
-                    residual_current: d.residual_current,
-                    mechanical_release: d.release_allowance,
-                    clamp_thermal: Some((Watts::new(0.05), Seconds::from_millis(50.0))),
-                };
-                let slow = min_off_time(&rel, d.circuit.coil().drop_out_current(), &needs).unwrap();
-                assert_eq!(slow, f.off_time, "{clamp:?}");
-            }
-        }
-    }
-
-    #[test]
-    fn a_coil_that_cannot_pull_in_at_the_corner_fails_the_budget() {
-        let mut d = design(every_clamp()[0]);
-        d.supply = SupplyRange::new(Volts::new(14.0), Volts::new(24.0), Volts::new(28.0)).unwrap();
-        assert!(matches!(d.budget(), Err(Error::Unreachable { .. })));
-        assert!(d
-            .figures(&d.pull_in_corner())
-            .unwrap()
-            .pull_in_time
-            .is_none());
-    }
-
-    #[test]
-    fn duty_gives_coil_power_and_hold_is_optional() {
-        let mut d = design(every_clamp()[0]);
-        d.duty = Some((Seconds::from_millis(100.0), Hertz::new(5.0)));
-        let b = d.budget().unwrap();
-        let f = &b.nominal;
-        let r = d.circuit.resolve(&f.point).unwrap().winding.value();
-        let i = f.final_current.value();
-        let p = d.coil_power(&f.point).unwrap().unwrap().value();
-        // Textbook, from memory: Joule heating, P = I²·R·D.
-        assert!((p - i * i * r * 0.5).abs() < 1e-6);
-        let [h, hot, cold] = d
-            .hold_at_corners(Amps::new(0.05), Hertz::new(20_000.0))
-            .unwrap();
-        assert!(h.duty > 0.0 && h.duty < 1.0);
-        // Common practice, no source: hold duty is highest at the hot, low-supply corner, lowest
-        // at the cold, high one.
-        assert!(hot.duty > h.duty && cold.duty < h.duty);
-        d.duty = Some((Seconds::new(1.0), Hertz::new(5.0)));
-        assert!(d.coil_power(&f.point).is_err());
-        d.duty = None;
-        assert_eq!(d.coil_power(&f.point), Ok(None));
-    }
-}
+mod tests;
