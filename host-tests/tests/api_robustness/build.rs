@@ -34,7 +34,7 @@ pub(crate) fn switch(g: &mut Gen) -> Switch {
 
 pub(crate) fn clamp(g: &mut Gen) -> Result<Clamp, Error> {
     let vf = g.volts(0.8);
-    match g.rng.below(6) {
+    match g.rng.below(7) {
         0 => {
             g.log("Clamp::diode", &vf);
             Clamp::diode(vf)
@@ -60,6 +60,11 @@ pub(crate) fn clamp(g: &mut Gen) -> Result<Clamp, Error> {
             };
             g.log("Clamp::validate", &c);
             c.validate().map(|()| c)
+        }
+        5 => {
+            let (vc, vs) = (g.volts(36.0), g.volts(30.0));
+            g.log("Clamp::tvs_across_coil", &(vc, vs));
+            Clamp::tvs_across_coil(vc, vs)
         }
         _ => Ok(Clamp::Unclamped),
     }
