@@ -260,3 +260,56 @@ fn a_list_holds_at_most_64_values() {
     let (err, o) = report_on(&text);
     assert!(o.status.success(), "{err}");
 }
+
+/// The linear copper law `R(T) = R_ref·(1 + α·(T − T_ref))` (IEC 60028 annealed copper,
+/// α = 0.00393 /K at 20 °C) reaches zero at `T_ref − 1/α`, 254.5 K below the reference
+/// temperature. A reference temperature written 235 °C puts that zero above a −20 °C coldest
+/// winding: this was refused at `temperature.max` ("at the release corner: temperature must be
+/// greater than zero", the wrong key and the wrong reason), and the same with an ambient below
+/// the zero was an unexplained INFO.
+#[test]
+fn a_winding_resistance_extrapolated_below_zero_names_the_temperature_and_the_reference() {
+    let v = example("greenhouse-valve.toml");
+    let text = edit(
+        &v,
+        "reference_temperature = \"20 degC\"",
+        "reference_temperature = \"235 degC\"",
+    );
+    let err = refused(
+        &text,
+        "impossible",
+        line_of(&v, "min = \"-20 degC\""),
+        &[
+            "temperature.min",
+            "coil.reference_temperature",
+            "235 °C",
+            "-19.5 °C",
+        ],
+    );
+    assert!(!err.contains("must be greater than zero"), "{err}");
+    // 200 °C reference: zero at -54.5 °C, above an ambient of -60 °C (the winding range holds).
+    let text = edit(
+        &v,
+        "reference_temperature = \"20 degC\"",
+        "reference_temperature = \"200 degC\"",
+    );
+    let text = edit(&text, "ambient = \"50 degC\"", "ambient = \"-60 degC\"");
+    refused(
+        &text,
+        "impossible",
+        line_of(&v, "ambient = \"50 degC\""),
+        &[
+            "temperature.ambient",
+            "coil.reference_temperature",
+            "-54.5 °C",
+        ],
+    );
+    // 234 °C: the zero (-20.5 °C) is just below the coldest winding, so the design still reads.
+    let text = edit(
+        &v,
+        "reference_temperature = \"20 degC\"",
+        "reference_temperature = \"234 degC\"",
+    );
+    let (err, o) = report_on(&text);
+    assert!(o.status.success(), "{err}");
+}
