@@ -313,3 +313,35 @@ fn a_winding_resistance_extrapolated_below_zero_names_the_temperature_and_the_re
     let (err, o) = report_on(&text);
     assert!(o.status.success(), "{err}");
 }
+
+/// The core takes a temperature coefficient from 0 to 0.01 /K. The error said only "outside
+/// the range the model covers" with a hint to docs/design-file.md, which gave no range.
+#[test]
+fn a_temperature_coefficient_out_of_range_says_the_range() {
+    let v = example("greenhouse-valve.toml");
+    let docs = std::fs::read_to_string(common::root().join("docs/design-file.md")).unwrap();
+    assert!(
+        docs.contains("0 to 0.01 1/K"),
+        "docs/design-file.md gives the range"
+    );
+    let with = |alpha: &str| {
+        edit(
+            &v,
+            "reference_temperature = \"20 degC\"",
+            &format!("reference_temperature = \"20 degC\"\ntemperature_coefficient = \"{alpha}\""),
+        )
+    };
+    let at = line_of(&v, "reference_temperature = \"20 degC\"") + 1;
+    for bad in ["-0.001 1/K", "0.0125 1/K", "12500 ppm/K"] {
+        refused(
+            with(bad),
+            "impossible",
+            at,
+            &["coil.temperature_coefficient", "0 to 0.01 1/K"],
+        );
+    }
+    for ok in ["0 1/K", "0.01 1/K", "4030 ppm/K"] {
+        let (err, o) = report_on(with(ok));
+        assert!(o.status.success(), "{ok}: {err}");
+    }
+}
