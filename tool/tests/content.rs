@@ -357,3 +357,40 @@ fn the_no_clamp_energy_is_labelled_as_the_switchs() {
         .unwrap();
     assert!(note.contains("highest L"), "{note}");
 }
+
+/// The TVS straight across the coil sees the drive voltage while the switch is on: the highest
+/// supply minus the bipolar saturation voltage (Kirchhoff's voltage law, textbook, from memory).
+/// For the pump relay (13.2 V highest supply, 0.25 V saturation) that is 12.95 V. The refusal
+/// said "must be above the supply voltage" and its hint "up to 13.20 V" (the supply), though a
+/// 13 V standoff, below the supply, is accepted and right.
+#[test]
+fn the_tvs_standoff_refusal_gives_the_drive_voltage_it_was_checked_against() {
+    let relay = "examples/greenhouse-pump-relay.toml";
+    let tvs = |standoff: &str| {
+        run(&[
+            "report",
+            relay,
+            "--set",
+            "clamp.kind=tvs-across-coil",
+            "--set",
+            "clamp.diode_drop=",
+            "--set",
+            "clamp.zener=20 V",
+            "--set",
+            &format!("clamp.standoff={standoff}"),
+        ])
+    };
+    let o = tvs("12.9 V");
+    let err = stderr(&o);
+    assert_eq!(o.status.code(), Some(1), "{err}");
+    assert!(err.contains("clamp.standoff"), "{err}");
+    assert!(err.contains("12.95 V"), "the drive voltage: {err}");
+    assert!(!err.contains("must be above the supply voltage"), "{err}");
+    let o = tvs("13 V");
+    assert!(o.status.success(), "{}", stderr(&o));
+    // The MOSFET valve: no saturation drop, the drive is the highest supply, 26.4 V.
+    let mut args = with(&["report", VALVE], &TVS);
+    args.extend(["--set".to_string(), "clamp.standoff=26 V".to_string()]);
+    let err = stderr(&run_s(&args));
+    assert!(err.contains("26.40 V"), "{err}");
+}

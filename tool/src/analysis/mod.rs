@@ -134,13 +134,39 @@ pub(crate) fn figures_error(spec: &Spec, err: coilwise::Error, corner: &str) -> 
             .error(k, ErrorClass::Impossible, message)
             .hint("the snubber must be at least critically damped, (R_winding + R_s)^2 >= 4 L / C: use a larger capacitor or resistor")
         }
-        Some(k @ "clamp.standoff") => spec
-            .inputs
-            .error(k, ErrorClass::Impossible, message)
-            .hint(format!(
-                "a TVS straight across the coil sees the drive voltage (supply minus switch saturation, up to {}) while the switch is on; at or above its standoff it conducts: choose a TVS with a higher standoff, or a zener behind a diode (clamp.kind = \"zener\")",
-                eng(wide(spec.design.supply.max().value()), "V")
-            )),
+        Some(k @ "clamp.standoff") => {
+            // What the core compared the standoff with: the coil voltage at switch-on at the
+            // highest supply, V_supply - V_CE(sat) (no current yet, so no resistive drop).
+            let supply = wide(spec.design.supply.max().value());
+            let saturation = match spec.design.circuit.switch() {
+                coilwise::Switch::Bipolar { saturation, .. } => wide(saturation.value()),
+                coilwise::Switch::Mosfet { .. } => 0.0,
+            };
+            let standoff = match spec.design.circuit.clamp() {
+                coilwise::Clamp::TvsAcrossCoil { standoff, .. } => wide(standoff.value()),
+                _ => f64::NAN,
+            };
+            let drive = if saturation > 0.0 {
+                format!(
+                    "{} (highest supply {} minus saturation {})",
+                    eng(supply - saturation, "V"),
+                    eng(supply, "V"),
+                    eng(saturation, "V")
+                )
+            } else {
+                format!("{} (the highest supply)", eng(supply, "V"))
+            };
+            spec.inputs
+                .error(
+                    k,
+                    ErrorClass::Impossible,
+                    format!(
+                        "at the {corner}: the TVS across the coil sees {drive} while the switch is on, at or above its standoff {}: it conducts then",
+                        eng(standoff, "V")
+                    ),
+                )
+                .hint("choose a TVS whose standoff is above that voltage, or a zener behind a diode (clamp.kind = \"zener\")")
+        }
         Some(k) => spec.inputs.error(k, ErrorClass::Impossible, message),
         // No single key to blame: name the file.
         None => ToolError::new(ErrorClass::Impossible, message).at(
