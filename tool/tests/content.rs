@@ -394,3 +394,20 @@ fn the_tvs_standoff_refusal_gives_the_drive_voltage_it_was_checked_against() {
     let err = stderr(&run_s(&args));
     assert!(err.contains("26.40 V"), "{err}");
 }
+
+/// A TVS's standoff V_RWM lies below its clamping voltage on every datasheet (common practice,
+/// no source). A standoff at or above `clamp.zener` was refused as "TVS standoff voltage has its
+/// bounds the wrong way round", with a hint to docs that give no range.
+#[test]
+fn a_tvs_standoff_at_or_above_its_clamping_voltage_says_so() {
+    for standoff in ["33 V", "40 V"] {
+        let mut args = with(&["report", VALVE], &TVS);
+        args.extend(["--set".to_string(), format!("clamp.standoff={standoff}")]);
+        let o = run_s(&args);
+        let err = stderr(&o);
+        assert_eq!(o.status.code(), Some(1), "{err}");
+        assert!(err.contains("clamp.standoff"), "{err}");
+        assert!(err.contains("below clamp.zener (33.00 V)"), "{err}");
+        assert!(!err.contains("wrong way round"), "{err}");
+    }
+}

@@ -115,6 +115,23 @@ pub(super) fn clamp(i: &Inputs, supply: &SupplyRange) -> Result<ClampParts, Tool
         _ => Ok(Clamp::Unclamped),
     }
     .map_err(|e| {
+        if let coilwise::Error::Invalid {
+            param: coilwise::Param::StandoffVoltage,
+            why: coilwise::Why::Inverted,
+        } = e
+        {
+            return i
+                .error(
+                    "clamp.standoff",
+                    ErrorClass::Impossible,
+                    format!(
+                        "the TVS standoff ({}) must be below clamp.zener ({}), its clamping voltage",
+                        eng(standoff.unwrap_or(0.0), "V"),
+                        eng(zener.unwrap_or(0.0), "V")
+                    ),
+                )
+                .hint("take both from the TVS datasheet: V_RWM for clamp.standoff, the clamping voltage at the coil current for clamp.zener");
+        }
         let key = match e {
             coilwise::Error::Invalid {
                 param: coilwise::Param::ClampVoltage,
