@@ -411,3 +411,43 @@ fn a_tvs_standoff_at_or_above_its_clamping_voltage_says_so() {
         assert!(!err.contains("wrong way round"), "{err}");
     }
 }
+
+/// The report's "maximum repetition rate" is the lower of the shortest legal cycle's
+/// 1 / (t_on,min + t_off,min) and the clamp rating's P / E; JSON only had `max_repetition_hz`,
+/// the clamp-rating limit (71.5 Hz for the valve, against a cycle limit of 23.3 Hz), and null
+/// without a rating: a program reading it would pulse faster than the coil can release.
+#[test]
+fn json_carries_the_repetition_limit_the_report_shows() {
+    let j = |extra: &[&str]| -> serde_json::Value {
+        let o = run_s(&with(&["report", VALVE, "--json"], extra));
+        assert!(o.status.success(), "{}", stderr(&o));
+        serde_json::from_slice(&o.stdout).unwrap()
+    };
+    let v = j(&[]);
+    let w = &v["worst"];
+    let cycle =
+        1.0 / (v["min_on_time_s"].as_f64().unwrap() + w["min_off_time_s"].as_f64().unwrap());
+    let limit = w["repetition_limit_hz"].as_f64().unwrap();
+    assert!((limit - cycle).abs() <= 1e-6 * cycle, "{limit} vs {cycle}");
+    assert_eq!(w["repetition_limit_by"], "cycle");
+    assert!(limit < w["max_repetition_hz"].as_f64().unwrap());
+    // The text report's row shows the same figure.
+    let text = stdout(&run(&["report", VALVE]));
+    let row = text
+        .lines()
+        .find(|l| l.starts_with("maximum repetition rate"))
+        .unwrap();
+    assert!(row.contains("23.26 Hz"), "{row}");
+    assert!((limit - 23.26).abs() < 0.005, "{limit}");
+    // Without a clamp rating the cycle still limits.
+    let v = j(&["--set", "clamp.power_rating="]);
+    assert!(v["worst"]["max_repetition_hz"].is_null());
+    assert!((v["worst"]["repetition_limit_hz"].as_f64().unwrap() - limit).abs() < 1e-6 * limit);
+    // A tiny clamp rating sets it instead: 1 mW over 6.99 mJ is 0.143 Hz.
+    let v = j(&["--set", "clamp.power_rating=1 mW"]);
+    assert_eq!(v["worst"]["repetition_limit_by"], "clamp_rating");
+    assert_eq!(
+        v["worst"]["repetition_limit_hz"],
+        v["worst"]["max_repetition_hz"]
+    );
+}
