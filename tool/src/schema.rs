@@ -208,7 +208,7 @@ pub const KEYS: &[KeySpec] = &[
     key("clamp.capacitance", Quantity(Capacitance), false, None, "snubber capacitor in series with clamp.resistance")
     .eg("10 uF")
     .when("clamp.kind = \"snubber\""),
-    key("clamp.power_rating", Quantity(Power), false, None, "average power rating of the clamp element, for the repetition check")
+    key("clamp.power_rating", Quantity(Power), false, None, "average power rating of the clamp element, for the repetition check (not with clamp.kind = \"none\")")
     .eg("0.5 W"),
     key("timing.tick_rate", Quantity(Frequency), true, None, "firmware timer tick rate")
     .eg("1 MHz"),

@@ -451,3 +451,29 @@ fn json_carries_the_repetition_limit_the_report_shows() {
         v["worst"]["max_repetition_hz"]
     );
 }
+
+/// Without a clamp there is no clamp element to rate: `clamp.power_rating` with
+/// `clamp.kind = "none"` was silently ignored (no check, no repetition limit from it), though
+/// docs/design-file.md says a key that does not apply to the chosen kind is refused.
+#[test]
+fn a_clamp_power_rating_without_a_clamp_is_refused() {
+    let o = run(&[
+        "report",
+        VALVE,
+        "--set",
+        "clamp.kind=none",
+        "--set",
+        "clamp.diode_drop=",
+        "--set",
+        "clamp.zener=",
+    ]);
+    let err = stderr(&o);
+    assert_eq!(o.status.code(), Some(1), "{err}");
+    assert!(err.contains("clamp.power_rating"), "{err}");
+    assert!(
+        err.contains("does not apply to clamp.kind = \"none\""),
+        "{err}"
+    );
+    let o = run_s(&with(&["report", VALVE], &NO_CLAMP));
+    assert!(o.status.success(), "{}", stderr(&o));
+}

@@ -153,6 +153,10 @@ pub(super) fn clamp(i: &Inputs, supply: &SupplyRange) -> Result<ClampParts, Tool
         };
         core_error(i, key, e)
     })?;
+    if clamp_kind == "none" {
+        // No clamp element to rate; the switch's own rating is switch.avalanche_energy.
+        only_clamp(i, "clamp.power_rating", clamp_kind)?;
+    }
     let clamp_rating = i.quantity("clamp.power_rating")?;
     if let Some(p) = clamp_rating {
         if p <= 0.0 {
