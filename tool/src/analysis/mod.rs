@@ -180,6 +180,43 @@ pub(crate) fn figures_error(spec: &Spec, err: coilwise::Error, corner: &str) -> 
     }
 }
 
+/// The core's figures at `point`, an error placed at its key. An overflow that goes away without
+/// the clamp rating is the rating's own figure, `P_rating / E_clamp` (the highest repetition
+/// rate): a clamp energy per switch-off so small (a coil current of 1e-21 A) that the ratio
+/// leaves f32. Blamed on `clamp.power_rating` (it was placed at the file's first line, no key).
+fn figures_at(
+    spec: &Spec,
+    point: &coilwise::OperatingPoint,
+    corner: &str,
+) -> Result<coilwise::Figures, ToolError> {
+    let d = &spec.design;
+    let err = match d.figures(point) {
+        Ok(f) => return Ok(f),
+        Err(e) => e,
+    };
+    if let (coilwise::Error::OutsideModel(coilwise::Limit::Overflow), Some(rating)) =
+        (err, d.clamp_rating)
+    {
+        let mut unrated = *d;
+        unrated.clamp_rating = None;
+        if let Ok(f) = unrated.figures(point) {
+            return Err(spec
+                .inputs
+                .error(
+                    "clamp.power_rating",
+                    ErrorClass::Impossible,
+                    format!(
+                        "at the {corner}: the clamp takes {} per switch-off, so little that the highest repetition rate the rating allows ({} / energy) leaves the 32-bit range",
+                        eng(wide(f.energy.clamp.value()), "J"),
+                        eng(wide(rating.value()), "W")
+                    ),
+                )
+                .hint("the coil current is vanishingly small at this point: check supply and coil.resistance, or leave out clamp.power_rating"));
+        }
+    }
+    Err(figures_error(spec, err, corner))
+}
+
 impl<'a> Analysis<'a> {
     /// Computes everything for `spec`.
     ///
@@ -188,15 +225,9 @@ impl<'a> Analysis<'a> {
     /// time that does not fit the 32-bit tick counter.
     pub fn new(spec: &'a Spec) -> Result<Self, ToolError> {
         let d = &spec.design;
-        let nominal = d
-            .figures(&d.nominal_point())
-            .map_err(|e| figures_error(spec, e, "nominal point"))?;
-        let pull_in = d
-            .figures(&d.pull_in_corner())
-            .map_err(|e| figures_error(spec, e, "pull-in corner"))?;
-        let release = d
-            .figures(&d.release_corner())
-            .map_err(|e| figures_error(spec, e, "release corner"))?;
+        let nominal = figures_at(spec, &d.nominal_point(), "nominal point")?;
+        let pull_in = figures_at(spec, &d.pull_in_corner(), "pull-in corner")?;
+        let release = figures_at(spec, &d.release_corner(), "release corner")?;
 
         let operate = wide(d.operate_allowance.value());
         let mut tau_on_max = wide(pull_in.tau_on.value()).max(wide(nominal.tau_on.value()));
