@@ -477,3 +477,57 @@ fn a_clamp_power_rating_without_a_clamp_is_refused() {
     let o = run_s(&with(&["report", VALVE], &NO_CLAMP));
     assert!(o.status.success(), "{}", stderr(&o));
 }
+
+/// Keys that come in pairs or as alternatives were listed by `keys` as plain "optional"
+/// (`coil.inductance` and `coil.inductance_released` both "optional", as if a coil needed no
+/// inductance), where docs/design-file.md says "one of the two forms" / "with ...". Their need
+/// column now says when they are required.
+#[test]
+fn keys_says_when_paired_and_alternative_keys_are_required() {
+    let o = run(&["keys"]);
+    assert!(o.status.success(), "{}", stderr(&o));
+    let text = stdout(&o);
+    let row = |key: &str| -> String {
+        text.lines()
+            .find(|l| l.split_whitespace().next() == Some(key))
+            .unwrap_or_else(|| panic!("no row for {key}"))
+            .to_string()
+    };
+    for (key, needs) in [
+        (
+            "coil.inductance",
+            "required unless coil.inductance_released",
+        ),
+        (
+            "coil.inductance_released",
+            "required unless coil.inductance",
+        ),
+        (
+            "coil.inductance_operated",
+            "required unless coil.inductance",
+        ),
+        ("supply.min", "required unless supply.tolerance"),
+        ("supply.max", "required unless supply.tolerance"),
+        ("supply.tolerance", "required unless supply.min"),
+        (
+            "coil.thermal_resistance",
+            "required if temperature.ambient is given",
+        ),
+        (
+            "temperature.ambient",
+            "required if coil.thermal_resistance is given",
+        ),
+        (
+            "switch.rated_gate_voltage",
+            "required if switch.gate_voltage is given",
+        ),
+        (
+            "switch.gate_voltage",
+            "required if switch.rated_gate_voltage is given",
+        ),
+    ] {
+        let r = row(key);
+        assert!(r.contains(needs), "{key}: {r}");
+        assert!(!r.contains(" optional "), "{key}: {r}");
+    }
+}
