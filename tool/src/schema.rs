@@ -185,13 +185,16 @@ pub const KEYS: &[KeySpec] = &[
     key("switch.avalanche_energy", Quantity(Energy), false, None, "single-pulse avalanche energy rating EAS, checked when clamp.kind = \"none\"")
     .eg("20 mJ"),
     key("switch.drive_voltage", Quantity(Voltage), false, None, "bipolar: voltage driving the base resistor (the GPIO high level)")
-    .eg("3.3 V"),
+    .eg("3.3 V")
+    .when("switch.base_resistor or switch.min_gain is given"),
     key("switch.base_resistor", Quantity(Resistance), false, None, "bipolar: base resistor")
-    .eg("1 kohm"),
+    .eg("1 kohm")
+    .when("switch.drive_voltage or switch.min_gain is given"),
     key("switch.base_emitter", Quantity(Voltage), false, Some("0.7 V"), "bipolar: base-emitter voltage in saturation")
     .eg("0.7 V"),
     key("switch.min_gain", Quantity(Number), false, None, "bipolar: minimum DC current gain hFE at the coil current")
-    .eg("100"),
+    .eg("100")
+    .when("switch.drive_voltage or switch.base_resistor is given"),
     key("switch.gate_voltage", Quantity(Voltage), false, None, "MOSFET: gate-source voltage the driver applies")
     .eg("5 V")
     .when("switch.rated_gate_voltage is given"),

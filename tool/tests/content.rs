@@ -525,6 +525,19 @@ fn keys_says_when_paired_and_alternative_keys_are_required() {
             "switch.gate_voltage",
             "required if switch.rated_gate_voltage is given",
         ),
+        // The base-drive check takes all three (docs/design-file.md, [switch]).
+        (
+            "switch.drive_voltage",
+            "required if switch.base_resistor or switch.min_gain",
+        ),
+        (
+            "switch.base_resistor",
+            "required if switch.drive_voltage or switch.min_gain",
+        ),
+        (
+            "switch.min_gain",
+            "required if switch.drive_voltage or switch.base_resistor",
+        ),
     ] {
         let r = row(key);
         assert!(r.contains(needs), "{key}: {r}");
