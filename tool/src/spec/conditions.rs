@@ -125,8 +125,9 @@ pub(super) fn self_heating(i: &Inputs, t_max: f64) -> Result<Option<SelfHeatingS
 /// Checks that the winding resistance law `R(T) = R_ref·(1 + α·(T − T_ref))` stays positive at
 /// the coldest temperatures the tool evaluates: `temperature.min` and, for the self-heating
 /// solve, `temperature.ambient`. The linear law reaches zero at `T_ref − 1/α` (−234.5 °C for
-/// annealed copper specified at 20 °C, IEC 60028); a reference temperature written far too high (or a coefficient
-/// referred to another temperature) moves that zero into the range. The check is the core's own
+/// annealed copper specified at 20 °C, IEC 60028); a reference temperature written far too
+/// high (or a coefficient referred to another temperature) moves that zero into the range. The
+/// check is the core's own
 /// ([`Coil::resistance_at`]), so it refuses exactly what the analysis could not evaluate.
 ///
 /// # Errors
