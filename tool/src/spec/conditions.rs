@@ -127,8 +127,8 @@ pub(super) fn self_heating(i: &Inputs, t_max: f64) -> Result<Option<SelfHeatingS
 /// solve, `temperature.ambient`. The linear law reaches zero at `T_ref − 1/α` (−234.5 °C for
 /// annealed copper specified at 20 °C, IEC 60028); a reference temperature written far too
 /// high (or a coefficient referred to another temperature) moves that zero into the range. The
-/// check is the core's own
-/// ([`Coil::resistance_at`]), so it refuses exactly what the analysis could not evaluate.
+/// check is the core's own ([`Coil::resistance_at`]), so it refuses exactly what the analysis
+/// could not evaluate.
 ///
 /// # Errors
 /// [`ErrorClass::Impossible`] at the colder key, naming the reference temperature and the zero.
