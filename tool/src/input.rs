@@ -115,6 +115,28 @@ impl Inputs {
             let section = name.get_ref().to_string();
             let shown = echo(&section, ECHO_MAX);
             let DeValue::Table(inner) = value.get_ref() else {
+                if schema::sections().contains(&section.as_str()) {
+                    // A section name, but not written as one table.
+                    let found = match value.get_ref() {
+                        DeValue::Array(items)
+                            if !items.is_empty()
+                                && items
+                                    .iter()
+                                    .all(|v| matches!(v.get_ref(), DeValue::Table(_))) =>
+                        {
+                            "an array of tables ([[...]])".to_string()
+                        }
+                        other => format!("a TOML {}", other.type_str()),
+                    };
+                    return Err(ToolError::new(
+                        ErrorClass::BadValue,
+                        format!("[{shown}] must be a section (one table), found {found}"),
+                    )
+                    .hint(format!(
+                        "write the section once as [{shown}] with its keys under it"
+                    ))
+                    .at(file(name.span()), Some(&shown)));
+                }
                 return Err(ToolError::new(
                     ErrorClass::UnknownKey,
                     format!(

@@ -373,3 +373,32 @@ fn a_repetition_rate_that_overflows_is_blamed_on_the_clamp_rating() {
     let (err, o) = report_on(&text);
     assert!(o.status.success(), "{err}");
 }
+
+/// A section of the schema written as something other than a table (`[[design]]`, an array of
+/// tables; `coil = 5`) was refused as "top-level key `design` is not part of the design file;
+/// keys belong in a section such as [coil]" — wrong about the name, silent about the fault.
+#[test]
+fn a_section_written_as_a_value_or_an_array_of_tables_says_so() {
+    refused(
+        "[[design]]\nname = \"x\"\n",
+        "bad-value",
+        1,
+        &["[design]", "a section", "array of tables"],
+    );
+    let err = refused(
+        "[design]\nname = \"x\"\ncoil = 5\n",
+        "unknown-key",
+        3,
+        &["design.coil"],
+    );
+    assert!(!err.contains("top-level"), "{err}");
+    let err = refused(
+        "coil = 5\n",
+        "bad-value",
+        1,
+        &["[coil]", "a section", "integer"],
+    );
+    assert!(!err.contains("not part of the design file"), "{err}");
+    // A name that is no section still gets the top-level message.
+    refused("colour = 5\n", "unknown-key", 1, &["`colour`", "not part"]);
+}
