@@ -179,3 +179,28 @@ fn the_text_report_and_error_echo_escape_bidi_controls_and_line_separators() {
         "{err}"
     );
 }
+
+/// A file name with a line feed or an escape sequence reached standard error raw in every
+/// message that names the file: "cannot read `no<LF>such<ESC>[31m.toml`", the `FILE:LINE:COL`
+/// of a value error, and a `-o` path that cannot be written. Every error message is now
+/// escaped as it is printed.
+#[test]
+fn paths_in_error_messages_are_escaped() {
+    let dir = tempfile::tempdir().unwrap();
+    let odd = dir.path().join("no\nsuch\u{1b}[31m.toml");
+    let check = |o: std::process::Output| {
+        let err = stderr(&o);
+        assert_eq!(o.status.code(), Some(1), "{err}");
+        assert!(!err.contains('\u{1b}'), "raw ESC: {err:?}");
+        // One message line and its hint line at most: the file name adds none.
+        assert!(err.lines().count() <= 2, "{err:?}");
+        assert!(err.contains("no\\nsuch\\u{1b}[31m.toml"), "{err:?}");
+    };
+    check(run(&["report", odd.to_str().unwrap()]));
+    let mut design = std::fs::read_to_string(common::root().join(VALVE)).unwrap();
+    design = design.replace("\"160 ohm\"", "\"160 V\"");
+    std::fs::write(&odd, design).unwrap();
+    check(run(&["report", odd.to_str().unwrap()]));
+    let out = dir.path().join("no\nsuch\u{1b}[31m.toml").join("x.txt");
+    check(run(&["report", VALVE, "-o", out.to_str().unwrap()]));
+}
