@@ -278,8 +278,8 @@ impl Inputs {
         &self.path
     }
 
-    /// Where the value of `key` is written; failing that, the header of its section; failing that,
-    /// the file.
+    /// Where the value of `key` is written; failing that, the header of its section, or the
+    /// `--set` argument that wrote a key of a section the file lacks; failing that, the file.
     pub fn place(&self, key: &str) -> Option<Place> {
         if let Some(e) = self.entries.get(key) {
             return e.value_place.clone().or_else(|| e.place.clone());
@@ -287,6 +287,16 @@ impl Inputs {
         let section = key.split('.').next().unwrap_or(key);
         if let Some(p) = self.sections.get(section) {
             return Some(p.clone());
+        }
+        // A section only `--set` wrote: where one of its keys came from.
+        let prefix = format!("{section}.");
+        if let Some(p) = self
+            .entries
+            .iter()
+            .find(|(k, _)| k.starts_with(&prefix))
+            .and_then(|(_, e)| e.place.clone())
+        {
+            return Some(p);
         }
         Some(Place::File {
             path: self.path.clone(),

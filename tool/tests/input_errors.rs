@@ -402,3 +402,24 @@ fn a_section_written_as_a_value_or_an_array_of_tables_says_so() {
     // A name that is no section still gets the top-level message.
     refused("colour = 5\n", "unknown-key", 1, &["`colour`", "not part"]);
 }
+
+/// A key added by `--set` to a section the file does not have (`hold.current` on the pump
+/// relay, which has no [hold]) needs its partner; that error was placed at `FILE:1:1`, a line
+/// that has nothing to do with it. It is placed at the `--set` argument that opened the section.
+#[test]
+fn a_missing_partner_of_an_override_is_placed_at_the_override() {
+    let o = run(&[
+        "report",
+        "examples/greenhouse-pump-relay.toml",
+        "--set",
+        "hold.current=20 mA",
+    ]);
+    let err = stderr(&o);
+    assert_eq!(o.status.code(), Some(1), "{err}");
+    assert!(
+        err.starts_with(
+            "error[missing-key]: command line `--set hold.current=20 mA`: hold.pwm_frequency:"
+        ),
+        "{err}"
+    );
+}
