@@ -142,9 +142,12 @@ pub(crate) fn figures_error(spec: &Spec, err: coilwise::Error, corner: &str) -> 
                 coilwise::Switch::Bipolar { saturation, .. } => wide(saturation.value()),
                 coilwise::Switch::Mosfet { .. } => 0.0,
             };
+            // Only a TVS across the coil has a standoff (the core refuses no other at it).
             let standoff = match spec.design.circuit.clamp() {
-                coilwise::Clamp::TvsAcrossCoil { standoff, .. } => wide(standoff.value()),
-                _ => f64::NAN,
+                coilwise::Clamp::TvsAcrossCoil { standoff, .. } => {
+                    format!(" {}", eng(wide(standoff.value()), "V"))
+                }
+                _ => String::new(),
             };
             let drive = if saturation > 0.0 {
                 format!(
@@ -161,8 +164,7 @@ pub(crate) fn figures_error(spec: &Spec, err: coilwise::Error, corner: &str) -> 
                     k,
                     ErrorClass::Impossible,
                     format!(
-                        "at the {corner}: the TVS across the coil sees {drive} while the switch is on, at or above its standoff {}: it conducts then",
-                        eng(standoff, "V")
+                        "at the {corner}: the TVS across the coil sees {drive} while the switch is on, at or above its standoff{standoff}: it conducts then"
                     ),
                 )
                 .hint("choose a TVS whose standoff is above that voltage, or a zener behind a diode (clamp.kind = \"zener\")")
