@@ -121,18 +121,23 @@ impl ToolError {
     }
 }
 
+/// Prints `error[CLASS]: PLACE: KEY: message` and `  hint: …` on the next line. Every part is
+/// escaped as it is printed ([`crate::escape::text_line`]): a file name, a key or a value from
+/// the input holding a line feed or an escape sequence cannot add a line or reach the terminal
+/// raw, wherever the message was put together.
 impl fmt::Display for ToolError {
     fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
+        use crate::escape::text_line;
         write!(f, "error[{}]: ", self.class.tag())?;
         if let Some(p) = &self.place {
-            write!(f, "{p}: ")?;
+            write!(f, "{}: ", text_line(&p.to_string()))?;
         }
         if let Some(k) = &self.key {
-            write!(f, "{k}: ")?;
+            write!(f, "{}: ", text_line(k))?;
         }
-        f.write_str(&self.message)?;
+        f.write_str(&text_line(&self.message))?;
         if let Some(h) = &self.hint {
-            write!(f, "\n  hint: {h}")?;
+            write!(f, "\n  hint: {}", text_line(h))?;
         }
         Ok(())
     }

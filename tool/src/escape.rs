@@ -8,8 +8,8 @@
 //! | Rust identifiers (`--module`) | [`rust_module_name`] | refuses keywords and anything not a lower-case identifier |
 //! | SVG / XML text (`plot`) | [`xml_text`] | replaces what XML 1.0 cannot carry even escaped; the SVG backend escapes `<`, `>`, `&`, `"`, `'` |
 //! | JSON (`--json`) | `serde_json` | its serializer escapes `"`, `\` and every control character (RFC 8259) |
-//! | plain-text report (terminal) | [`text_line`] | escapes controls |
-//! | error messages (terminal) | [`echo`] | escapes controls and shortens long echoes of the input |
+//! | plain-text report (terminal) | [`text_line`] | escapes controls, bidirectional-text controls and line separators |
+//! | error messages (terminal) | [`echo`] | the same, and shortens long echoes of the input |
 
 /// Whether `c` must not appear raw in a Rust comment: a control character (it may end the comment
 /// or confuse a terminal), a Unicode line or paragraph separator, or a bidirectional-text control
@@ -98,19 +98,26 @@ pub fn xml_text(text: &str) -> String {
 }
 
 /// `text` as one line of the plain-text report: control characters escaped (`\n`, `\u{1b}`),
-/// so a name cannot start a line of its own or send terminal control sequences.
+/// and so are bidirectional-text controls and the Unicode line and paragraph separators
+/// (`\u{202e}`), so a name cannot start a line of its own, reorder the line it stands on, or
+/// send terminal control sequences.
 pub fn text_line(text: &str) -> String {
     echo(text, usize::MAX)
 }
 
-/// `text` as echoed in an error message: control characters escaped (`\n`, `\u{1b}`), and at
-/// most `max` characters of it, the rest replaced by `… (N characters)`.
+/// `text` as echoed in an error message: control characters, bidirectional-text controls and
+/// line / paragraph separators escaped (`\n`, `\u{1b}`, `\u{202e}`), and at most `max`
+/// characters of it, the rest replaced by `… (N characters)`.
 pub fn echo(text: &str, max: usize) -> String {
     let count = text.chars().count();
     let mut out = String::new();
     for c in text.chars().take(max) {
         if c.is_control() {
             out.extend(c.escape_debug());
+        } else if unsafe_in_rust_comment(c) {
+            // Bidi controls and line / paragraph separators: not `is_control`, but they move
+            // or break the line on a terminal; `escape_debug` leaves some of them raw.
+            out.extend(c.escape_unicode());
         } else {
             out.push(c);
         }

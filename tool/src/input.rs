@@ -5,13 +5,15 @@ use std::collections::BTreeMap;
 use std::ops::Range;
 
 use toml::de::{DeTable, DeValue};
-use toml::Spanned;
 
 use crate::error::{ErrorClass, Place, ToolError};
 use crate::escape::echo;
 use crate::quantity::{self, Dim, QuantityError};
 use crate::schema::{self, Kind};
 use crate::source::{first_failing_line, Lines};
+
+use crate::raw::convert;
+pub use crate::raw::Raw;
 
 /// The most values a list key (`diagnosis.thresholds`, `compare.zener`, `compare.resistor`) may
 /// hold: every value costs a diagnosis band or a comparison row, and 100 000 of them kept the
@@ -20,33 +22,6 @@ pub const MAX_LIST: usize = 64;
 
 /// The most characters of a key or value an error message echoes.
 const ECHO_MAX: usize = 80;
-
-/// A value as read, before interpretation.
-#[derive(Clone, Debug, PartialEq)]
-pub enum Raw {
-    /// A TOML string.
-    Str(String),
-    /// A TOML integer or float (kept as written, for messages).
-    Number(f64, String),
-    /// A TOML boolean.
-    Bool(bool),
-    /// A TOML array.
-    List(Vec<(Raw, Option<Place>)>),
-    /// Anything else (date, table inside an array), by name.
-    Other(&'static str),
-}
-
-impl Raw {
-    fn type_name(&self) -> &'static str {
-        match self {
-            Raw::Str(_) => "a string",
-            Raw::Number(..) => "a number",
-            Raw::Bool(_) => "a boolean",
-            Raw::List(_) => "an array",
-            Raw::Other(what) => what,
-        }
-    }
-}
 
 /// A value in SI units and where it was written.
 pub type Placed = (f64, Option<Place>);
@@ -115,6 +90,28 @@ impl Inputs {
             let section = name.get_ref().to_string();
             let shown = echo(&section, ECHO_MAX);
             let DeValue::Table(inner) = value.get_ref() else {
+                if schema::sections().contains(&section.as_str()) {
+                    // A section name, but not written as one table.
+                    let found = match value.get_ref() {
+                        DeValue::Array(items)
+                            if !items.is_empty()
+                                && items
+                                    .iter()
+                                    .all(|v| matches!(v.get_ref(), DeValue::Table(_))) =>
+                        {
+                            "an array of tables ([[...]])".to_string()
+                        }
+                        other => format!("a TOML {}", other.type_str()),
+                    };
+                    return Err(ToolError::new(
+                        ErrorClass::BadValue,
+                        format!("[{shown}] must be a section (one table), found {found}"),
+                    )
+                    .hint(format!(
+                        "write the section once as [{shown}] with its keys under it"
+                    ))
+                    .at(file(name.span()), Some(&shown)));
+                }
                 return Err(ToolError::new(
                     ErrorClass::UnknownKey,
                     format!(
@@ -256,8 +253,8 @@ impl Inputs {
         &self.path
     }
 
-    /// Where the value of `key` is written; failing that, the header of its section; failing that,
-    /// the file.
+    /// Where the value of `key` is written; failing that, the header of its section, or the
+    /// `--set` argument that wrote a key of a section the file lacks; failing that, the file.
     pub fn place(&self, key: &str) -> Option<Place> {
         if let Some(e) = self.entries.get(key) {
             return e.value_place.clone().or_else(|| e.place.clone());
@@ -265,6 +262,16 @@ impl Inputs {
         let section = key.split('.').next().unwrap_or(key);
         if let Some(p) = self.sections.get(section) {
             return Some(p.clone());
+        }
+        // A section only `--set` wrote: where one of its keys came from.
+        let prefix = format!("{section}.");
+        if let Some(p) = self
+            .entries
+            .iter()
+            .find(|(k, _)| k.starts_with(&prefix))
+            .and_then(|(_, e)| e.place.clone())
+        {
+            return Some(p);
         }
         Some(Place::File {
             path: self.path.clone(),
@@ -486,37 +493,6 @@ impl Inputs {
                     ),
                 )
             })
-    }
-}
-
-fn number(text: &str, radix: u32) -> f64 {
-    let clean: String = text.chars().filter(|&c| c != '_').collect();
-    let body = clean
-        .strip_prefix("0x")
-        .or_else(|| clean.strip_prefix("0o"))
-        .or_else(|| clean.strip_prefix("0b"))
-        .unwrap_or(&clean);
-    if radix == 10 {
-        body.parse::<f64>().unwrap_or(f64::NAN)
-    } else {
-        i64::from_str_radix(body, radix).map_or(f64::NAN, |v| v as f64)
-    }
-}
-
-fn convert(value: &Spanned<DeValue<'_>>, place: &dyn Fn(Range<usize>) -> Option<Place>) -> Raw {
-    match value.get_ref() {
-        DeValue::String(s) => Raw::Str(s.to_string()),
-        DeValue::Integer(i) => Raw::Number(number(i.as_str(), i.radix()), i.as_str().to_string()),
-        DeValue::Float(f) => Raw::Number(number(f.as_str(), 10), f.as_str().to_string()),
-        DeValue::Boolean(b) => Raw::Bool(*b),
-        DeValue::Datetime(_) => Raw::Other("a date"),
-        DeValue::Table(_) => Raw::Other("a table"),
-        DeValue::Array(items) => Raw::List(
-            items
-                .iter()
-                .map(|item| (convert(item, place), place(item.span())))
-                .collect(),
-        ),
     }
 }
 

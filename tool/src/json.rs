@@ -47,6 +47,12 @@ pub struct FigureSet {
     pub clamp_power_w: Option<f64>,
     /// Highest repetition rate for the clamp rating, Hz; null without a rating.
     pub max_repetition_hz: Option<f64>,
+    /// Highest repetition rate the design allows: the lower of `1 / (t_on,min + t_off,min)` and
+    /// `max_repetition_hz`, Hz; null where neither exists.
+    pub repetition_limit_hz: Option<f64>,
+    /// What sets `repetition_limit_hz`: `"cycle"` (the shortest legal cycle) or
+    /// `"clamp_rating"`; null with it.
+    pub repetition_limit_by: Option<&'static str>,
 }
 
 impl FigureSet {
@@ -67,7 +73,19 @@ impl FigureSet {
             peak_switch_voltage_v: wide(f.peak_switch_voltage.value()),
             clamp_power_w: f.clamp_power.map(|w| wide(w.value())),
             max_repetition_hz: f.max_repetition.map(|h| wide(h.value())),
+            repetition_limit_hz: None,
+            repetition_limit_by: None,
         }
+    }
+
+    /// Sets the repetition limit from [`Analysis::max_repetition`].
+    fn with_limit(mut self, limit: Option<analysis::RepetitionLimit>) -> Self {
+        self.repetition_limit_hz = limit.map(|(hz, _)| hz);
+        self.repetition_limit_by = limit.map(|(_, by)| match by {
+            analysis::RateLimit::Timing => "cycle",
+            analysis::RateLimit::ClampRating => "clamp_rating",
+        });
+        self
     }
 }
 
@@ -328,7 +346,8 @@ pub struct Report {
 /// Builds the JSON document.
 pub fn build(a: &Analysis<'_>) -> Report {
     let n = &a.nominal;
-    let mut worst = FigureSet::from(&a.release, a.min_off_time);
+    let (nominal_limit, worst_limit) = a.max_repetition();
+    let mut worst = FigureSet::from(&a.release, a.min_off_time).with_limit(worst_limit);
     let p = FigureSet::from(&a.pull_in, a.min_off_time);
     worst.tau_on_s = a.tau_on_max;
     worst.pull_in_time_s = p.pull_in_time_s;
@@ -417,7 +436,7 @@ pub fn build(a: &Analysis<'_>) -> Report {
         schema_version: SCHEMA_VERSION,
         name: a.spec.name.clone(),
         design_file: a.spec.inputs.path().to_string(),
-        nominal: FigureSet::from(n, wide(n.off_time.required.value())),
+        nominal: FigureSet::from(n, wide(n.off_time.required.value())).with_limit(nominal_limit),
         worst,
         pull_in_current_a: analysis::pull_in_current(a.spec),
         drop_out_current_a: analysis::drop_out_current(a.spec),

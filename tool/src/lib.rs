@@ -23,6 +23,7 @@ pub mod numbers;
 pub mod output;
 pub mod plot;
 pub mod quantity;
+pub mod raw;
 pub mod report;
 pub mod schema;
 pub mod source;

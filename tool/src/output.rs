@@ -5,7 +5,9 @@
 //!   standard output that was closed when the tool started (`coilwise report X >&-`) is refused
 //!   as well: the Rust runtime puts `/dev/null` (opened read-write) in place of a closed
 //!   descriptor, and the report would vanish with exit status 0. A deliberate `>/dev/null` opens
-//!   it write-only and works as usual.
+//!   it write-only and works as usual; a `/dev/null` opened read-write on purpose (Python's
+//!   `subprocess.DEVNULL`, `1<>/dev/null`) looks exactly like a closed descriptor and is refused
+//!   too (telling them apart would take code before the runtime's start-up, which is unsafe).
 //! - Files: written all-or-nothing, to a temporary file beside the target that is renamed over it,
 //!   so a failed run never leaves a half-written file. An existing file keeps its permissions; a
 //!   read-only file is refused and left as it is; a symbolic link is written through (the file it
@@ -72,7 +74,7 @@ fn write_stdout(contents: &[u8]) -> Result<(), ToolError> {
             ErrorClass::Io,
             "standard output is closed; the output would be lost",
         )
-        .hint("write to a file with -o FILE, or discard it with >/dev/null"));
+        .hint("write to a file with -o FILE, or discard it with >/dev/null (write-only): a /dev/null opened read-write, as Python's subprocess.DEVNULL and `1<>/dev/null` open it, cannot be told from a closed descriptor"));
     }
     let mut out = std::io::stdout().lock();
     out.write_all(contents)

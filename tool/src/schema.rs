@@ -75,10 +75,12 @@ impl KeySpec {
         }
     }
 
-    /// The need column of `keys`: `required`, `required if …`, `default …`, or `optional`.
+    /// The need column of `keys`: `required`, `required if …`, `required unless …`, `default …`,
+    /// or `optional`.
     pub fn need(&self) -> String {
         match (self.required, self.required_when, self.default) {
             (true, _, _) => "required".to_string(),
+            (false, Some(w), _) if w.starts_with("unless ") => format!("required {w}"),
             (false, Some(w), _) => format!("required if {w}"),
             (false, None, Some(d)) => format!("default {d}"),
             (false, None, None) => "optional".to_string(),
@@ -135,11 +137,14 @@ pub const KEYS: &[KeySpec] = &[
     key("coil.temperature_coefficient", Quantity(PerKelvin), false, Some("0.00393 1/K"), "temperature coefficient of the winding resistance (annealed copper by default)")
     .eg("0.00393 1/K"),
     key("coil.inductance", Quantity(Inductance), false, None, "one inductance for both armature positions (instead of the two keys below)")
-    .eg("0.4 H"),
+    .eg("0.4 H")
+    .when("unless coil.inductance_released and coil.inductance_operated are given"),
     key("coil.inductance_released", Quantity(Inductance), false, None, "inductance with the armature released (air gap open): applies while pulling in")
-    .eg("0.35 H"),
+    .eg("0.35 H")
+    .when("unless coil.inductance is given"),
     key("coil.inductance_operated", Quantity(Inductance), false, None, "inductance with the armature operated (air gap closed): applies at switch-off")
-    .eg("0.52 H"),
+    .eg("0.52 H")
+    .when("unless coil.inductance is given"),
     key("coil.inductance_tolerance", Quantity(Percent), false, Some("0 %"), "part-to-part spread of the inductance, ±")
     .eg("15 %"),
     key("coil.must_operate", Quantity(Voltage), true, None, "must-operate (pick-up) voltage at the reference temperature")
@@ -147,21 +152,26 @@ pub const KEYS: &[KeySpec] = &[
     key("coil.must_release", Quantity(Voltage), true, None, "must-release (drop-out) voltage at the reference temperature")
     .eg("2.4 V"),
     key("coil.thermal_resistance", Quantity(ThermalResistance), false, None, "thermal resistance winding to ambient, for the self-heating check (with temperature.ambient)")
-    .eg("12 K/W"),
+    .eg("12 K/W")
+    .when("temperature.ambient is given"),
     key("supply.nominal", Quantity(Voltage), true, None, "nominal supply voltage")
     .eg("24 V"),
     key("supply.min", Quantity(Voltage), false, None, "lowest supply voltage (or give supply.tolerance)")
-    .eg("21.6 V"),
+    .eg("21.6 V")
+    .when("unless supply.tolerance is given"),
     key("supply.max", Quantity(Voltage), false, None, "highest supply voltage (or give supply.tolerance)")
-    .eg("26.4 V"),
+    .eg("26.4 V")
+    .when("unless supply.tolerance is given"),
     key("supply.tolerance", Quantity(Percent), false, None, "symmetric supply tolerance, instead of supply.min and supply.max")
-    .eg("10 %"),
+    .eg("10 %")
+    .when("unless supply.min and supply.max are given"),
     key("temperature.min", Quantity(Temperature), true, None, "coldest winding temperature (cold start)")
     .eg("-20 degC"),
     key("temperature.max", Quantity(Temperature), true, None, "hottest winding temperature (hot ambient plus self-heating)")
     .eg("85 degC"),
     key("temperature.ambient", Quantity(Temperature), false, None, "hottest ambient around the coil, for the self-heating check (with coil.thermal_resistance)")
-    .eg("50 degC"),
+    .eg("50 degC")
+    .when("coil.thermal_resistance is given"),
     key("switch.kind", Choice(SWITCH_KINDS), true, None, "the transistor that switches the coil"),
     key("switch.side", Choice(SWITCH_SIDES), false, Some("low"), "low-side (switch to ground) or high-side (switch to supply)"),
     key("switch.breakdown", Quantity(Voltage), true, None, "breakdown voltage: V(BR)DSS of a MOSFET, VCEO of a bipolar transistor")
@@ -175,17 +185,22 @@ pub const KEYS: &[KeySpec] = &[
     key("switch.avalanche_energy", Quantity(Energy), false, None, "single-pulse avalanche energy rating EAS, checked when clamp.kind = \"none\"")
     .eg("20 mJ"),
     key("switch.drive_voltage", Quantity(Voltage), false, None, "bipolar: voltage driving the base resistor (the GPIO high level)")
-    .eg("3.3 V"),
+    .eg("3.3 V")
+    .when("switch.base_resistor or switch.min_gain is given"),
     key("switch.base_resistor", Quantity(Resistance), false, None, "bipolar: base resistor")
-    .eg("1 kohm"),
+    .eg("1 kohm")
+    .when("switch.drive_voltage or switch.min_gain is given"),
     key("switch.base_emitter", Quantity(Voltage), false, Some("0.7 V"), "bipolar: base-emitter voltage in saturation")
     .eg("0.7 V"),
     key("switch.min_gain", Quantity(Number), false, None, "bipolar: minimum DC current gain hFE at the coil current")
-    .eg("100"),
+    .eg("100")
+    .when("switch.drive_voltage or switch.base_resistor is given"),
     key("switch.gate_voltage", Quantity(Voltage), false, None, "MOSFET: gate-source voltage the driver applies")
-    .eg("5 V"),
+    .eg("5 V")
+    .when("switch.rated_gate_voltage is given"),
     key("switch.rated_gate_voltage", Quantity(Voltage), false, None, "MOSFET: gate-source voltage at which switch.on_resistance is specified")
-    .eg("4.5 V"),
+    .eg("4.5 V")
+    .when("switch.gate_voltage is given"),
     key("wiring.sense", Quantity(Resistance), false, Some("0 ohm"), "current-sense resistor in the switch path (outside the freewheel loop)")
     .eg("0.5 ohm"),
     key("wiring.sense_tolerance", Quantity(Percent), false, Some("0 %"), "tolerance of the sense resistor, ±")
@@ -208,7 +223,7 @@ pub const KEYS: &[KeySpec] = &[
     key("clamp.capacitance", Quantity(Capacitance), false, None, "snubber capacitor in series with clamp.resistance")
     .eg("10 uF")
     .when("clamp.kind = \"snubber\""),
-    key("clamp.power_rating", Quantity(Power), false, None, "average power rating of the clamp element, for the repetition check")
+    key("clamp.power_rating", Quantity(Power), false, None, "average power rating of the clamp element, for the repetition check (not with clamp.kind = \"none\")")
     .eg("0.5 W"),
     key("timing.tick_rate", Quantity(Frequency), true, None, "firmware timer tick rate")
     .eg("1 MHz"),

@@ -158,7 +158,12 @@ fn every_clamp_kind_reports() {
             "clamp.resistance=150 ohm",
             "clamp.capacitance=47 uF",
         ],
-        &["clamp.kind=none", "clamp.diode_drop=", "clamp.zener="],
+        &[
+            "clamp.kind=none",
+            "clamp.diode_drop=",
+            "clamp.zener=",
+            "clamp.power_rating=",
+        ],
     ];
     for sets in kinds {
         let mut args = vec!["report", VALVE];

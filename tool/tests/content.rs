@@ -357,3 +357,190 @@ fn the_no_clamp_energy_is_labelled_as_the_switchs() {
         .unwrap();
     assert!(note.contains("highest L"), "{note}");
 }
+
+/// The TVS straight across the coil sees the drive voltage while the switch is on: the highest
+/// supply minus the bipolar saturation voltage (Kirchhoff's voltage law, textbook, from memory).
+/// For the pump relay (13.2 V highest supply, 0.25 V saturation) that is 12.95 V. The refusal
+/// said "must be above the supply voltage" and its hint "up to 13.20 V" (the supply), though a
+/// 13 V standoff, below the supply, is accepted and right.
+#[test]
+fn the_tvs_standoff_refusal_gives_the_drive_voltage_it_was_checked_against() {
+    let relay = "examples/greenhouse-pump-relay.toml";
+    let tvs = |standoff: &str| {
+        run(&[
+            "report",
+            relay,
+            "--set",
+            "clamp.kind=tvs-across-coil",
+            "--set",
+            "clamp.diode_drop=",
+            "--set",
+            "clamp.zener=20 V",
+            "--set",
+            &format!("clamp.standoff={standoff}"),
+        ])
+    };
+    let o = tvs("12.9 V");
+    let err = stderr(&o);
+    assert_eq!(o.status.code(), Some(1), "{err}");
+    assert!(err.contains("clamp.standoff"), "{err}");
+    assert!(err.contains("12.95 V"), "the drive voltage: {err}");
+    assert!(!err.contains("must be above the supply voltage"), "{err}");
+    let o = tvs("13 V");
+    assert!(o.status.success(), "{}", stderr(&o));
+    // The MOSFET valve: no saturation drop, the drive is the highest supply, 26.4 V.
+    let mut args = with(&["report", VALVE], &TVS);
+    args.extend(["--set".to_string(), "clamp.standoff=26 V".to_string()]);
+    let err = stderr(&run_s(&args));
+    assert!(err.contains("26.40 V"), "{err}");
+}
+
+/// A TVS's standoff V_RWM lies below its clamping voltage on every datasheet (common practice,
+/// no source). A standoff at or above `clamp.zener` was refused as "TVS standoff voltage has its
+/// bounds the wrong way round", with a hint to docs that give no range.
+#[test]
+fn a_tvs_standoff_at_or_above_its_clamping_voltage_says_so() {
+    for standoff in ["33 V", "40 V"] {
+        let mut args = with(&["report", VALVE], &TVS);
+        args.extend(["--set".to_string(), format!("clamp.standoff={standoff}")]);
+        let o = run_s(&args);
+        let err = stderr(&o);
+        assert_eq!(o.status.code(), Some(1), "{err}");
+        assert!(err.contains("clamp.standoff"), "{err}");
+        assert!(err.contains("below clamp.zener (33.00 V)"), "{err}");
+        assert!(!err.contains("wrong way round"), "{err}");
+    }
+}
+
+/// The report's "maximum repetition rate" is the lower of the shortest legal cycle's
+/// 1 / (t_on,min + t_off,min) and the clamp rating's P / E; JSON only had `max_repetition_hz`,
+/// the clamp-rating limit (71.5 Hz for the valve, against a cycle limit of 23.3 Hz), and null
+/// without a rating: a program reading it would pulse faster than the coil can release.
+#[test]
+fn json_carries_the_repetition_limit_the_report_shows() {
+    let j = |extra: &[&str]| -> serde_json::Value {
+        let o = run_s(&with(&["report", VALVE, "--json"], extra));
+        assert!(o.status.success(), "{}", stderr(&o));
+        serde_json::from_slice(&o.stdout).unwrap()
+    };
+    let v = j(&[]);
+    let w = &v["worst"];
+    let cycle =
+        1.0 / (v["min_on_time_s"].as_f64().unwrap() + w["min_off_time_s"].as_f64().unwrap());
+    let limit = w["repetition_limit_hz"].as_f64().unwrap();
+    assert!((limit - cycle).abs() <= 1e-6 * cycle, "{limit} vs {cycle}");
+    assert_eq!(w["repetition_limit_by"], "cycle");
+    assert!(limit < w["max_repetition_hz"].as_f64().unwrap());
+    // The text report's row shows the same figure.
+    let text = stdout(&run(&["report", VALVE]));
+    let row = text
+        .lines()
+        .find(|l| l.starts_with("maximum repetition rate"))
+        .unwrap();
+    assert!(row.contains("23.26 Hz"), "{row}");
+    assert!((limit - 23.26).abs() < 0.005, "{limit}");
+    // Without a clamp rating the cycle still limits.
+    let v = j(&["--set", "clamp.power_rating="]);
+    assert!(v["worst"]["max_repetition_hz"].is_null());
+    assert!((v["worst"]["repetition_limit_hz"].as_f64().unwrap() - limit).abs() < 1e-6 * limit);
+    // A tiny clamp rating sets it instead: 1 mW over 6.99 mJ is 0.143 Hz.
+    let v = j(&["--set", "clamp.power_rating=1 mW"]);
+    assert_eq!(v["worst"]["repetition_limit_by"], "clamp_rating");
+    assert_eq!(
+        v["worst"]["repetition_limit_hz"],
+        v["worst"]["max_repetition_hz"]
+    );
+}
+
+/// Without a clamp there is no clamp element to rate: `clamp.power_rating` with
+/// `clamp.kind = "none"` was silently ignored (no check, no repetition limit from it), though
+/// docs/design-file.md says a key that does not apply to the chosen kind is refused.
+#[test]
+fn a_clamp_power_rating_without_a_clamp_is_refused() {
+    let o = run(&[
+        "report",
+        VALVE,
+        "--set",
+        "clamp.kind=none",
+        "--set",
+        "clamp.diode_drop=",
+        "--set",
+        "clamp.zener=",
+    ]);
+    let err = stderr(&o);
+    assert_eq!(o.status.code(), Some(1), "{err}");
+    assert!(err.contains("clamp.power_rating"), "{err}");
+    assert!(
+        err.contains("does not apply to clamp.kind = \"none\""),
+        "{err}"
+    );
+    let o = run_s(&with(&["report", VALVE], &NO_CLAMP));
+    assert!(o.status.success(), "{}", stderr(&o));
+}
+
+/// Keys that come in pairs or as alternatives were listed by `keys` as plain "optional"
+/// (`coil.inductance` and `coil.inductance_released` both "optional", as if a coil needed no
+/// inductance), where docs/design-file.md says "one of the two forms" / "with ...". Their need
+/// column now says when they are required.
+#[test]
+fn keys_says_when_paired_and_alternative_keys_are_required() {
+    let o = run(&["keys"]);
+    assert!(o.status.success(), "{}", stderr(&o));
+    let text = stdout(&o);
+    let row = |key: &str| -> String {
+        text.lines()
+            .find(|l| l.split_whitespace().next() == Some(key))
+            .unwrap_or_else(|| panic!("no row for {key}"))
+            .to_string()
+    };
+    for (key, needs) in [
+        (
+            "coil.inductance",
+            "required unless coil.inductance_released",
+        ),
+        (
+            "coil.inductance_released",
+            "required unless coil.inductance",
+        ),
+        (
+            "coil.inductance_operated",
+            "required unless coil.inductance",
+        ),
+        ("supply.min", "required unless supply.tolerance"),
+        ("supply.max", "required unless supply.tolerance"),
+        ("supply.tolerance", "required unless supply.min"),
+        (
+            "coil.thermal_resistance",
+            "required if temperature.ambient is given",
+        ),
+        (
+            "temperature.ambient",
+            "required if coil.thermal_resistance is given",
+        ),
+        (
+            "switch.rated_gate_voltage",
+            "required if switch.gate_voltage is given",
+        ),
+        (
+            "switch.gate_voltage",
+            "required if switch.rated_gate_voltage is given",
+        ),
+        // The base-drive check takes all three (docs/design-file.md, [switch]).
+        (
+            "switch.drive_voltage",
+            "required if switch.base_resistor or switch.min_gain",
+        ),
+        (
+            "switch.base_resistor",
+            "required if switch.drive_voltage or switch.min_gain",
+        ),
+        (
+            "switch.min_gain",
+            "required if switch.drive_voltage or switch.base_resistor",
+        ),
+    ] {
+        let r = row(key);
+        assert!(r.contains(needs), "{key}: {r}");
+        assert!(!r.contains(" optional "), "{key}: {r}");
+    }
+}

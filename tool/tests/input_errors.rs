@@ -260,3 +260,166 @@ fn a_list_holds_at_most_64_values() {
     let (err, o) = report_on(&text);
     assert!(o.status.success(), "{err}");
 }
+
+/// The linear copper law `R(T) = R_ref·(1 + α·(T − T_ref))` (IEC 60028 annealed copper,
+/// α = 0.00393 /K at 20 °C) reaches zero at `T_ref − 1/α`, 254.5 K below the reference
+/// temperature. A reference temperature written 235 °C puts that zero above a −20 °C coldest
+/// winding: this was refused at `temperature.max` ("at the release corner: temperature must be
+/// greater than zero", the wrong key and the wrong reason), and the same with an ambient below
+/// the zero was an unexplained INFO.
+#[test]
+fn a_winding_resistance_extrapolated_below_zero_names_the_temperature_and_the_reference() {
+    let v = example("greenhouse-valve.toml");
+    let text = edit(
+        &v,
+        "reference_temperature = \"20 degC\"",
+        "reference_temperature = \"235 degC\"",
+    );
+    let err = refused(
+        &text,
+        "impossible",
+        line_of(&v, "min = \"-20 degC\""),
+        &[
+            "temperature.min",
+            "coil.reference_temperature",
+            "235 °C",
+            "-19.5 °C",
+        ],
+    );
+    assert!(!err.contains("must be greater than zero"), "{err}");
+    // 200 °C reference: zero at -54.5 °C, above an ambient of -60 °C (the winding range holds).
+    let text = edit(
+        &v,
+        "reference_temperature = \"20 degC\"",
+        "reference_temperature = \"200 degC\"",
+    );
+    let text = edit(&text, "ambient = \"50 degC\"", "ambient = \"-60 degC\"");
+    refused(
+        &text,
+        "impossible",
+        line_of(&v, "ambient = \"50 degC\""),
+        &[
+            "temperature.ambient",
+            "coil.reference_temperature",
+            "-54.5 °C",
+        ],
+    );
+    // 234 °C: the zero (-20.5 °C) is just below the coldest winding, so the design still reads.
+    let text = edit(
+        &v,
+        "reference_temperature = \"20 degC\"",
+        "reference_temperature = \"234 degC\"",
+    );
+    let (err, o) = report_on(&text);
+    assert!(o.status.success(), "{err}");
+}
+
+/// The core takes a temperature coefficient from 0 to 0.01 /K. The error said only "outside
+/// the range the model covers" with a hint to docs/design-file.md, which gave no range.
+#[test]
+fn a_temperature_coefficient_out_of_range_says_the_range() {
+    let v = example("greenhouse-valve.toml");
+    let docs = std::fs::read_to_string(common::root().join("docs/design-file.md")).unwrap();
+    assert!(
+        docs.contains("0 to 0.01 1/K"),
+        "docs/design-file.md gives the range"
+    );
+    let with = |alpha: &str| {
+        edit(
+            &v,
+            "reference_temperature = \"20 degC\"",
+            &format!("reference_temperature = \"20 degC\"\ntemperature_coefficient = \"{alpha}\""),
+        )
+    };
+    let at = line_of(&v, "reference_temperature = \"20 degC\"") + 1;
+    for bad in ["-0.001 1/K", "0.0125 1/K", "12500 ppm/K"] {
+        refused(
+            with(bad),
+            "impossible",
+            at,
+            &["coil.temperature_coefficient", "0 to 0.01 1/K"],
+        );
+    }
+    for ok in ["0 1/K", "0.01 1/K", "4030 ppm/K"] {
+        let (err, o) = report_on(with(ok));
+        assert!(o.status.success(), "{ok}: {err}");
+    }
+}
+
+/// With a coil current of about 1e-21 A (1e-15 V across 1 Mohm) the clamp energy per
+/// switch-off is about 1e-43 J, and the clamp rating's P / E, the highest repetition rate,
+/// leaves the f32 range. That was placed at `FILE:1:1` with no key (issue 11, item 8, for the
+/// snubber only); it is the rating's figure, so it is blamed on `clamp.power_rating`.
+#[test]
+fn a_repetition_rate_that_overflows_is_blamed_on_the_clamp_rating() {
+    let v = example("greenhouse-valve.toml");
+    let text = edit(&v, "nominal = \"24 V\"", "nominal = \"1e-15 V\"");
+    let text = edit(&text, "min = \"21.6 V\"", "tolerance = \"10 %\"");
+    let text = edit(&text, "max = \"26.4 V\"\n", "");
+    let text = edit(
+        &text,
+        "resistance = \"160 ohm\"",
+        "resistance = \"1e6 ohm\"",
+    );
+    let err = refused(
+        &text,
+        "impossible",
+        line_of(&text, "power_rating = \"0.5 W\""),
+        &["clamp.power_rating", "repetition rate"],
+    );
+    assert!(!err.contains(":1:1:"), "{err}");
+    // Without the rating the same design reads (and fails its checks in the report).
+    let text = edit(&text, "power_rating = \"0.5 W\"\n", "");
+    let (err, o) = report_on(&text);
+    assert!(o.status.success(), "{err}");
+}
+
+/// A section of the schema written as something other than a table (`[[design]]`, an array of
+/// tables; `coil = 5`) was refused as "top-level key `design` is not part of the design file;
+/// keys belong in a section such as [coil]" — wrong about the name, silent about the fault.
+#[test]
+fn a_section_written_as_a_value_or_an_array_of_tables_says_so() {
+    refused(
+        "[[design]]\nname = \"x\"\n",
+        "bad-value",
+        1,
+        &["[design]", "a section", "array of tables"],
+    );
+    let err = refused(
+        "[design]\nname = \"x\"\ncoil = 5\n",
+        "unknown-key",
+        3,
+        &["design.coil"],
+    );
+    assert!(!err.contains("top-level"), "{err}");
+    let err = refused(
+        "coil = 5\n",
+        "bad-value",
+        1,
+        &["[coil]", "a section", "integer"],
+    );
+    assert!(!err.contains("not part of the design file"), "{err}");
+    // A name that is no section still gets the top-level message.
+    refused("colour = 5\n", "unknown-key", 1, &["`colour`", "not part"]);
+}
+
+/// A key added by `--set` to a section the file does not have (`hold.current` on the pump
+/// relay, which has no [hold]) needs its partner; that error was placed at `FILE:1:1`, a line
+/// that has nothing to do with it. It is placed at the `--set` argument that opened the section.
+#[test]
+fn a_missing_partner_of_an_override_is_placed_at_the_override() {
+    let o = run(&[
+        "report",
+        "examples/greenhouse-pump-relay.toml",
+        "--set",
+        "hold.current=20 mA",
+    ]);
+    let err = stderr(&o);
+    assert_eq!(o.status.code(), Some(1), "{err}");
+    assert!(
+        err.starts_with(
+            "error[missing-key]: command line `--set hold.current=20 mA`: hold.pwm_frequency:"
+        ),
+        "{err}"
+    );
+}

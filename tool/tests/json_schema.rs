@@ -30,6 +30,8 @@ struct Figures {
     peak_switch_voltage_v: f64,
     clamp_power_w: Option<f64>,
     max_repetition_hz: Option<f64>,
+    repetition_limit_hz: Option<f64>,
+    repetition_limit_by: Option<String>,
 }
 
 #[derive(Debug, Serialize, Deserialize)]
@@ -183,6 +185,8 @@ struct Report {
     peak_switch_voltage_v: f64,
     clamp_power_w: Option<f64>,
     max_repetition_hz: Option<f64>,
+    repetition_limit_hz: Option<f64>,
+    repetition_limit_by: Option<String>,
     worst: Figures,
     pull_in_current_a: f64,
     drop_out_current_a: f64,

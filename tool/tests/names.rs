@@ -151,3 +151,56 @@ fn the_text_report_keeps_the_name_on_its_line() {
         );
     }
 }
+
+/// A bidirectional-text override (U+202E) in the name reorders the rest of its line on a
+/// terminal that renders bidi text, and U+2028 / U+2029 are line ends to some viewers; the
+/// constants escape them (rustc lints them in comments) but the text report and the error
+/// echo passed them raw. Now both escape them like control characters.
+#[test]
+fn the_text_report_and_error_echo_escape_bidi_controls_and_line_separators() {
+    let name = "zone\u{202E}evlav\u{2028}two\u{2029}three\u{2066}iso\u{2069}";
+    let set = format!("design.name={name}");
+    for cmd in ["report", "compare"] {
+        let o = run(&[cmd, VALVE, "--set", &set]);
+        assert!(o.status.success(), "{}", stderr(&o));
+        let s = stdout(&o);
+        let first = s.lines().next().unwrap();
+        assert!(first.contains("zone\\u{202e}evlav\\u{2028}two"), "{first}");
+        for c in ['\u{202E}', '\u{2028}', '\u{2029}', '\u{2066}', '\u{2069}'] {
+            assert!(!s.contains(c), "{cmd}: raw U+{:04X}", c as u32);
+        }
+    }
+    let o = run(&["report", VALVE, "--set", &format!("coil.resistance={name}")]);
+    let err = stderr(&o);
+    assert_eq!(o.status.code(), Some(1), "{err}");
+    assert!(err.contains("zone\\u{202e}evlav"), "{err}");
+    assert!(
+        !err.contains('\u{202E}') && !err.contains('\u{2028}'),
+        "{err}"
+    );
+}
+
+/// A file name with a line feed or an escape sequence reached standard error raw in every
+/// message that names the file: "cannot read `no<LF>such<ESC>[31m.toml`", the `FILE:LINE:COL`
+/// of a value error, and a `-o` path that cannot be written. Every error message is now
+/// escaped as it is printed.
+#[test]
+fn paths_in_error_messages_are_escaped() {
+    let dir = tempfile::tempdir().unwrap();
+    let odd = dir.path().join("no\nsuch\u{1b}[31m.toml");
+    let check = |o: std::process::Output| {
+        let err = stderr(&o);
+        assert_eq!(o.status.code(), Some(1), "{err}");
+        assert!(!err.contains('\u{1b}'), "raw ESC: {err:?}");
+        // One message line and its hint line at most: the file name adds none.
+        assert!(err.lines().count() <= 2, "{err:?}");
+        assert!(err.contains("no\\nsuch\\u{1b}[31m.toml"), "{err:?}");
+    };
+    check(run(&["report", odd.to_str().unwrap()]));
+    let mut design = std::fs::read_to_string(common::root().join(VALVE)).unwrap();
+    design = design.replace("\"160 ohm\"", "\"160 V\"");
+    std::fs::write(&odd, design).unwrap();
+    check(run(&["report", odd.to_str().unwrap()]));
+    let out = dir.path().join("no\nsuch\u{1b}[31m.toml").join("x.txt");
+    check(run(&["report", VALVE, "-o", out.to_str().unwrap()]));
+}

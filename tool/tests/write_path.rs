@@ -101,6 +101,40 @@ fn a_closed_stdout_is_an_error_not_exit_0() {
     assert!(std::fs::read_to_string(&out).unwrap().contains("RESULT"));
 }
 
+/// A `/dev/null` opened read-write as standard output (as Python's `subprocess.DEVNULL` and the
+/// shell's `1<>/dev/null` open it) is what the Rust runtime puts in place of a closed descriptor;
+/// the tool cannot tell the two apart and refuses both (docs/tool.md, "Output"). The hint said
+/// "discard it with >/dev/null", which reads as nonsense to a caller who did just that: it now
+/// says why, and that a write-only `/dev/null` works. Opening `/dev/null` read-write here
+/// changes nothing on the machine.
+#[cfg(target_os = "linux")]
+#[test]
+fn a_read_write_dev_null_is_refused_with_a_hint_that_says_why() {
+    let null = std::fs::OpenOptions::new()
+        .read(true)
+        .write(true)
+        .open("/dev/null")
+        .unwrap();
+    let o = coilwise()
+        .args(["report", VALVE])
+        .stdout(null)
+        .stderr(Stdio::piped())
+        .output()
+        .unwrap();
+    let err = stderr(&o);
+    assert_eq!(o.status.code(), Some(1), "{err}");
+    assert!(err.contains("read-write"), "{err}");
+    assert!(err.contains("subprocess.DEVNULL"), "{err}");
+    // Write-only, as `Stdio::null()` and `>/dev/null` open it: works.
+    let o = coilwise()
+        .args(["report", VALVE])
+        .stdout(Stdio::null())
+        .stderr(Stdio::piped())
+        .output()
+        .unwrap();
+    assert!(o.status.success(), "{}", stderr(&o));
+}
+
 #[cfg(target_os = "linux")]
 #[test]
 fn a_full_disk_is_an_error() {

@@ -134,13 +134,41 @@ pub(crate) fn figures_error(spec: &Spec, err: coilwise::Error, corner: &str) -> 
             .error(k, ErrorClass::Impossible, message)
             .hint("the snubber must be at least critically damped, (R_winding + R_s)^2 >= 4 L / C: use a larger capacitor or resistor")
         }
-        Some(k @ "clamp.standoff") => spec
-            .inputs
-            .error(k, ErrorClass::Impossible, message)
-            .hint(format!(
-                "a TVS straight across the coil sees the drive voltage (supply minus switch saturation, up to {}) while the switch is on; at or above its standoff it conducts: choose a TVS with a higher standoff, or a zener behind a diode (clamp.kind = \"zener\")",
-                eng(wide(spec.design.supply.max().value()), "V")
-            )),
+        Some(k @ "clamp.standoff") => {
+            // What the core compared the standoff with: the coil voltage at switch-on at the
+            // highest supply, V_supply - V_CE(sat) (no current yet, so no resistive drop).
+            let supply = wide(spec.design.supply.max().value());
+            let saturation = match spec.design.circuit.switch() {
+                coilwise::Switch::Bipolar { saturation, .. } => wide(saturation.value()),
+                coilwise::Switch::Mosfet { .. } => 0.0,
+            };
+            // Only a TVS across the coil has a standoff (the core refuses no other at it).
+            let standoff = match spec.design.circuit.clamp() {
+                coilwise::Clamp::TvsAcrossCoil { standoff, .. } => {
+                    format!(" {}", eng(wide(standoff.value()), "V"))
+                }
+                _ => String::new(),
+            };
+            let drive = if saturation > 0.0 {
+                format!(
+                    "{} (highest supply {} minus saturation {})",
+                    eng(supply - saturation, "V"),
+                    eng(supply, "V"),
+                    eng(saturation, "V")
+                )
+            } else {
+                format!("{} (the highest supply)", eng(supply, "V"))
+            };
+            spec.inputs
+                .error(
+                    k,
+                    ErrorClass::Impossible,
+                    format!(
+                        "at the {corner}: the TVS across the coil sees {drive} while the switch is on, at or above its standoff{standoff}: it conducts then"
+                    ),
+                )
+                .hint("choose a TVS whose standoff is above that voltage, or a zener behind a diode (clamp.kind = \"zener\")")
+        }
         Some(k) => spec.inputs.error(k, ErrorClass::Impossible, message),
         // No single key to blame: name the file.
         None => ToolError::new(ErrorClass::Impossible, message).at(
@@ -154,6 +182,43 @@ pub(crate) fn figures_error(spec: &Spec, err: coilwise::Error, corner: &str) -> 
     }
 }
 
+/// The core's figures at `point`, an error placed at its key. An overflow that goes away without
+/// the clamp rating is the rating's own figure, `P_rating / E_clamp` (the highest repetition
+/// rate): a clamp energy per switch-off so small (a coil current of 1e-21 A) that the ratio
+/// leaves f32. Blamed on `clamp.power_rating` (it was placed at the file's first line, no key).
+fn figures_at(
+    spec: &Spec,
+    point: &coilwise::OperatingPoint,
+    corner: &str,
+) -> Result<coilwise::Figures, ToolError> {
+    let d = &spec.design;
+    let err = match d.figures(point) {
+        Ok(f) => return Ok(f),
+        Err(e) => e,
+    };
+    if let (coilwise::Error::OutsideModel(coilwise::Limit::Overflow), Some(rating)) =
+        (err, d.clamp_rating)
+    {
+        let mut unrated = *d;
+        unrated.clamp_rating = None;
+        if let Ok(f) = unrated.figures(point) {
+            return Err(spec
+                .inputs
+                .error(
+                    "clamp.power_rating",
+                    ErrorClass::Impossible,
+                    format!(
+                        "at the {corner}: the clamp takes {} per switch-off, so little that the highest repetition rate the rating allows ({} / energy) leaves the 32-bit range",
+                        eng(wide(f.energy.clamp.value()), "J"),
+                        eng(wide(rating.value()), "W")
+                    ),
+                )
+                .hint("the coil current is vanishingly small at this point: check supply and coil.resistance, or leave out clamp.power_rating"));
+        }
+    }
+    Err(figures_error(spec, err, corner))
+}
+
 impl<'a> Analysis<'a> {
     /// Computes everything for `spec`.
     ///
@@ -162,15 +227,9 @@ impl<'a> Analysis<'a> {
     /// time that does not fit the 32-bit tick counter.
     pub fn new(spec: &'a Spec) -> Result<Self, ToolError> {
         let d = &spec.design;
-        let nominal = d
-            .figures(&d.nominal_point())
-            .map_err(|e| figures_error(spec, e, "nominal point"))?;
-        let pull_in = d
-            .figures(&d.pull_in_corner())
-            .map_err(|e| figures_error(spec, e, "pull-in corner"))?;
-        let release = d
-            .figures(&d.release_corner())
-            .map_err(|e| figures_error(spec, e, "release corner"))?;
+        let nominal = figures_at(spec, &d.nominal_point(), "nominal point")?;
+        let pull_in = figures_at(spec, &d.pull_in_corner(), "pull-in corner")?;
+        let release = figures_at(spec, &d.release_corner(), "release corner")?;
 
         let operate = wide(d.operate_allowance.value());
         let mut tau_on_max = wide(pull_in.tau_on.value()).max(wide(nominal.tau_on.value()));

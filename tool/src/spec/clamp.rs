@@ -115,6 +115,23 @@ pub(super) fn clamp(i: &Inputs, supply: &SupplyRange) -> Result<ClampParts, Tool
         _ => Ok(Clamp::Unclamped),
     }
     .map_err(|e| {
+        if let coilwise::Error::Invalid {
+            param: coilwise::Param::StandoffVoltage,
+            why: coilwise::Why::Inverted,
+        } = e
+        {
+            return i
+                .error(
+                    "clamp.standoff",
+                    ErrorClass::Impossible,
+                    format!(
+                        "the TVS standoff ({}) must be below clamp.zener ({}), its clamping voltage",
+                        eng(standoff.unwrap_or(0.0), "V"),
+                        eng(zener.unwrap_or(0.0), "V")
+                    ),
+                )
+                .hint("take both from the TVS datasheet: V_RWM for clamp.standoff, the clamping voltage at the coil current for clamp.zener");
+        }
         let key = match e {
             coilwise::Error::Invalid {
                 param: coilwise::Param::ClampVoltage,
@@ -136,6 +153,10 @@ pub(super) fn clamp(i: &Inputs, supply: &SupplyRange) -> Result<ClampParts, Tool
         };
         core_error(i, key, e)
     })?;
+    if clamp_kind == "none" {
+        // No clamp element to rate; the switch's own rating is switch.avalanche_energy.
+        only_clamp(i, "clamp.power_rating", clamp_kind)?;
+    }
     let clamp_rating = i.quantity("clamp.power_rating")?;
     if let Some(p) = clamp_rating {
         if p <= 0.0 {

@@ -112,7 +112,22 @@ pub(super) fn coil(i: &Inputs) -> Result<Coil, ToolError> {
         let alpha = i.quantity_or_default("coil.temperature_coefficient")?;
         coil = coil
             .with_temperature_coefficient(PerKelvin::new(f(alpha)))
-            .map_err(|e| core_error(i, "coil.temperature_coefficient", e))?;
+            .map_err(|e| match e {
+                coilwise::Error::Invalid {
+                    why: coilwise::Why::OutOfRange,
+                    ..
+                } => i
+                    .error(
+                        "coil.temperature_coefficient",
+                        ErrorClass::Impossible,
+                        format!(
+                            "{} 1/K is outside 0 to 0.01 1/K, the range of the linear resistance model",
+                            f(alpha)
+                        ),
+                    )
+                    .hint("annealed copper is 0.00393 1/K (IEC 60028), aluminium about 0.0040 1/K"),
+                e => core_error(i, "coil.temperature_coefficient", e),
+            })?;
     }
     Ok(coil)
 }

@@ -1,7 +1,7 @@
 //! Operating conditions: the supply range, the winding temperature range, and the self-heating
 //! inputs (hottest ambient and thermal resistance).
 
-use coilwise::{Celsius, SupplyRange, TemperatureRange, Volts};
+use coilwise::{Celsius, Coil, SupplyRange, TemperatureRange, Volts};
 
 use super::{core_error, f, SelfHeatingSpec};
 use crate::error::{ErrorClass, ToolError};
@@ -120,4 +120,50 @@ pub(super) fn self_heating(i: &Inputs, t_max: f64) -> Result<Option<SelfHeatingS
     };
 
     Ok(self_heating)
+}
+
+/// Checks that the winding resistance law `R(T) = R_ref·(1 + α·(T − T_ref))` stays positive at
+/// the coldest temperatures the tool evaluates: `temperature.min` and, for the self-heating
+/// solve, `temperature.ambient`. The linear law reaches zero at `T_ref − 1/α` (−234.5 °C for
+/// annealed copper specified at 20 °C, IEC 60028); a reference temperature written far too
+/// high (or a coefficient referred to another temperature) moves that zero into the range. The
+/// check is the core's own ([`Coil::resistance_at`]), so it refuses exactly what the analysis
+/// could not evaluate.
+///
+/// # Errors
+/// [`ErrorClass::Impossible`] at the colder key, naming the reference temperature and the zero.
+pub(super) fn resistance_stays_positive(
+    i: &Inputs,
+    coil: &Coil,
+    self_heating: Option<&SelfHeatingSpec>,
+) -> Result<(), ToolError> {
+    let t_min = i.required("temperature.min")?;
+    let mut coldest = vec![("temperature.min", t_min)];
+    if let Some(s) = self_heating {
+        coldest.push(("temperature.ambient", s.ambient));
+    }
+    for (key, t) in coldest {
+        if coil.resistance_at(Celsius::new(f(t))).is_ok() {
+            continue;
+        }
+        // Shown at f32's shortest form (the values the core holds); the zero worked in f64.
+        let (t_ref, alpha) = (
+            coil.reference_temperature().value(),
+            coil.temperature_coefficient().value(),
+        );
+        // resistance_at fails on a non-positive scale only, so alpha > 0 here.
+        let zero = f64::from(t_ref) - 1.0 / f64::from(alpha);
+        let round = |x: f64| (x * 10.0).round() / 10.0;
+        return Err(i
+            .error(
+                key,
+                ErrorClass::Impossible,
+                format!(
+                    "at {t} °C the winding resistance, extrapolated from coil.resistance at coil.reference_temperature ({t_ref} °C) with {alpha} /K, is not positive: the linear law reaches zero at {} °C",
+                    round(zero)
+                ),
+            )
+            .hint("coil.reference_temperature is the temperature at which coil.resistance is specified (usually 20 °C), and coil.temperature_coefficient is referred to it: check both"));
+    }
+    Ok(())
 }

@@ -120,6 +120,7 @@ impl Spec {
         let (temperature, t_max) = conditions::temperature(i)?;
         let sw = switch::switch(i, &supply)?;
         let self_heating = conditions::self_heating(i, t_max)?;
+        conditions::resistance_stays_positive(i, &coil, self_heating.as_ref())?;
 
         // Wiring.
         let sense = i.quantity_or_default("wiring.sense")?;
