@@ -41,10 +41,12 @@
 //! 16 per refinement pass, the rest fixed), stack 320 bytes; about 232 000 instructions on a
 //! Cortex-M0 without FPU (soft float), stack 556 bytes.
 
+mod free;
 mod num;
 mod refine;
 mod survey;
 
+pub use free::{fit_response, ResponseFit, Shape};
 pub(crate) use num::sqrt;
 use num::{clamp, finite_or_zero, larger};
 use refine::gn_pass;
@@ -88,6 +90,10 @@ impl Default for FitOptions {
         Self { refinements: 1 }
     }
 }
+
+/// [`fit_response`]: a window whose residual RMS exceeds this many times the expected noise is
+/// fitted again without its first quarter, then half.
+pub const HEAD_RATIO: f32 = 2.0;
 
 impl FitOptions {
     /// The same options with `refinements` passes (see the field).

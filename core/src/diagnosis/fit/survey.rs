@@ -15,6 +15,9 @@ pub(super) struct Survey {
     pub(super) drop: f32,
     /// Σc over the window (raw units above zero).
     pub(super) sum: f32,
+    /// One-pass λ of the free-level model (initial current not assumed zero); 0 when the
+    /// regression is singular.
+    pub(super) free_lambda: f32,
 }
 
 /// Σκ² for κ = k0 + k, k = 0…m−1, in closed form: m·k0² + k0·m(m−1) + (m−1)m(2m−1)/6.
@@ -216,7 +219,24 @@ pub(super) fn survey<S: Sample>(samples: &[S], sampling: &Sampling) -> Result<Su
     } else {
         (scu / suu, 0.0)
     };
+    // The free-level model `c = P − A·e^(−λκ)` obeys `dc/dκ = λ·(P − c)`, so
+    // `c_k = a + λP·κ_k − λ·J_k` with a free intercept a (which also absorbs the unknown first
+    // trapezoid γ): the same regression on (κ, J) with both columns and c centred.
+    let sj = r_sum - 0.5 * s_sum + m * gamma;
+    let (mu, mj) = (su / m, sj / m);
+    let cuu = suu - su * mu;
+    let cuj = suj - su * mj;
+    let cjj = sjj - sj * mj;
+    let ccu = scu - s_sum * mu;
+    let ccj = scj - s_sum * mj;
+    let dc = cuu * cjj - cuj * cuj;
+    let free_lambda = if dc > 1.0e-7 * cuu * cjj && dc.is_finite() {
+        (cuj * ccu - cuu * ccj) / dc
+    } else {
+        0.0
+    };
     Ok(Survey {
+        free_lambda,
         used,
         truncated,
         sigma,

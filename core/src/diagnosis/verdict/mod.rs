@@ -31,12 +31,12 @@ mod rise;
 mod threshold;
 
 pub use actuation::judge_actuation;
-pub use rise::{judge_rise, judge_trace};
+pub use rise::{judge_response, judge_rise, judge_trace};
 pub use threshold::{judge_steady, judge_threshold, ThresholdReading};
 
 use super::armature::{Movement, MovementCriteria};
 use super::band::Expected;
-use super::fit::{FitQuality, TraceFault};
+use super::fit::{FitQuality, Shape, TraceFault};
 use crate::units::{Amps, Celsius, Henries, Ohms, Seconds};
 
 /// Why no coil verdict could be given although the trace looked like a sensor working.
@@ -89,6 +89,12 @@ pub enum Finding {
     SlowRise,
     /// The current passed the point where the armature must move and no dip was seen.
     ArmatureStuck,
+    /// The trace passes every sensor check and is smooth, but its shape is neither a healthy coil
+    /// nor a modelled fault (a plant the model leaves out: strong saturation, a moving armature,
+    /// an unusual coupled loop). Not a sensor fault and not a coil fault by itself: firmware
+    /// should not isolate on it unless another measurement (comparator, steady current)
+    /// confirms a fault. Neither [`Finding::is_coil_fault`] nor a sensor finding.
+    ShapeUnexplained,
     /// The trace cannot come from a coil current: the sensor, its wiring or the converter.
     SensorImplausible(TraceFault),
     /// The measurement is plausible but does not settle the question.
@@ -132,6 +138,8 @@ pub struct Estimates {
     pub temperature: Option<Celsius>,
     /// Fit quality, for sampled traces.
     pub quality: Option<FitQuality>,
+    /// Initial level, fast component and clipping, for traces judged by the free-level fit.
+    pub shape: Option<Shape>,
     /// Armature movement, for full actuation traces.
     pub movement: Option<Movement>,
 }
@@ -178,6 +186,27 @@ pub struct Criteria {
     pub pre_movement_fraction: f32,
     /// Dip detection settings.
     pub movement: MovementCriteria,
+    /// Free-level verdicts ([`judge_response`]): how much higher than the first-order model the
+    /// slope of a healthy coil with an eddy-current path may read (default 0.05). Measured: an
+    /// eddy path with k² = 5 % and τ₂ = 20 % of τ biases the fitted slope by +4.3 % over a
+    /// diagnostic-pulse window (`docs/diagnosis.md`).
+    pub fast_slope: f32,
+    /// The same for τ reading low (default 0.15; measured −13.3 % for that path).
+    pub fast_tau: f32,
+    /// Largest head shortfall below the slow mode a healthy coil may show, as a fraction of the
+    /// final current (default 0.03): beyond it the fast component is a tightly coupled closed
+    /// loop (shorted turns).
+    pub head_fraction: f32,
+    /// Residuals with a Durbin–Watson statistic below this are smooth: a shape, not noise
+    /// (default 1.0; white noise gives ≈ 2).
+    pub smooth_dw: f32,
+    /// Baseline verdicts: relative allowance on top of the standard errors for what changes
+    /// between learning and now besides the coil (default 0.02: a ±1 % supply reading then and
+    /// now).
+    pub baseline_margin: f32,
+    /// Baseline verdicts: how far the winding may be from the board temperature reading, K
+    /// (default 5; at start-up the winding is at ambient).
+    pub board_kelvin: f32,
 }
 
 impl Default for Criteria {
@@ -192,6 +221,12 @@ impl Default for Criteria {
             open_fraction: 0.02,
             pre_movement_fraction: 0.8,
             movement: MovementCriteria::default(),
+            fast_slope: 0.05,
+            fast_tau: 0.15,
+            head_fraction: 0.03,
+            smooth_dw: 1.0,
+            baseline_margin: 0.02,
+            board_kelvin: 5.0,
         }
     }
 }
@@ -232,6 +267,7 @@ pub(super) fn estimates(expected: &Expected, final_current: f32, tau: Option<f32
         },
         temperature,
         quality: None,
+        shape: None,
         movement: None,
     }
 }

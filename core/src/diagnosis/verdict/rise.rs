@@ -3,7 +3,7 @@
 use super::Estimates;
 use super::{at_most, estimates, healthy_or_supply, Criteria, Finding, Undetermined, Verdict};
 use crate::diagnosis::band::Expected;
-use crate::diagnosis::fit::{fit_rise, FitOptions, RiseFit, TraceFault};
+use crate::diagnosis::fit::{fit_response, FitOptions, ResponseFit, RiseFit, TraceFault};
 use crate::diagnosis::sample::{Sample, Sampling};
 
 /// Judges slope and τ with their relative half-widths (already including sigmas and margin).
@@ -16,13 +16,17 @@ pub(super) fn judge_slope_tau(
     tau: f32,
     half_slope: f32,
     half_tau: Option<f32>,
+    fast: (f32, f32),
     expected: &Expected,
     criteria: &Criteria,
 ) -> Finding {
     let ws = 1.0 + half_slope;
+    // A healthy coil's fast component may raise the slope by fast.0 and lower τ by fast.1
+    // (relative): one-sided allowances, on the side the physics biases (see Criteria).
+    let (fs, ft) = (1.0 + fast.0, 1.0 + fast.1);
     // Inductance the slope implies: L = k_s·V_d / s.
     let l_lo = expected.sensed_drive.min.value() / (slope * ws);
-    let l_hi = expected.sensed_drive.max.value() * ws / slope;
+    let l_hi = expected.sensed_drive.max.value() * ws * fs / slope;
     let ell_lo = expected.inductance.min.value();
     let ell_hi = expected.inductance.max.value();
     if l_hi < ell_lo {
@@ -44,7 +48,7 @@ pub(super) fn judge_slope_tau(
     };
     let wt = 1.0 + half_tau;
     // The inductance both the slope and the band allow, over τ: R_on = L/τ.
-    let r_lo = l_lo.max(ell_lo) / (tau * wt);
+    let r_lo = l_lo.max(ell_lo) / (tau * wt * ft);
     let r_hi = l_hi.min(ell_hi) * wt / tau;
     if r_hi < expected.loop_resistance.min.value() {
         Finding::ShortedTurns
@@ -84,9 +88,68 @@ pub fn judge_rise(fit: &RiseFit, expected: &Expected, criteria: &Criteria) -> Ve
         fit.tau.value(),
         k * q.rel_sd_slope + m,
         half_tau,
+        (0.0, 0.0),
         expected,
         criteria,
     );
+    fail(finding)
+}
+
+/// Judges a free-level fit ([`fit_response`]) against the bands: as [`judge_rise`], with three
+/// differences that follow the physics of a real coil.
+///
+/// 1. A residual far above noise is [`Finding::ShapeUnexplained`] when the residuals are smooth
+///    (Durbin–Watson below `criteria.smooth_dw`: a shape the model does not have, from a plant
+///    the model leaves out) and [`Finding::SensorImplausible`]`(PoorFit)` only when they are
+///    noise-like (a noisy or intermittent sensor).
+/// 2. The slope may read up to `fast_slope` high and τ up to `fast_tau` low before the band
+///    counts them (a healthy coil's eddy path; one-sided: the side the physics biases).
+/// 3. A fast early component larger than an eddy path can carry — the left-out head of the window
+///    short of the slow mode by more than `head_fraction` of the final current and by more than
+///    `sigmas` standard errors — is a closed loop tightly coupled to the winding:
+///    [`Finding::ShortedTurns`].
+///
+/// Never panics; the estimates are finite or `None`.
+pub fn judge_response(fit: &ResponseFit, expected: &Expected, criteria: &Criteria) -> Verdict {
+    let r = &fit.rise;
+    let q = r.quality;
+    let sh = fit.shape;
+    let mut est = estimates(expected, r.final_current.value(), Some(r.tau.value()));
+    est.quality = Some(q);
+    est.shape = Some(sh);
+    let fail = |f| Verdict::new(f, est);
+    if !at_most(q.noise_ratio, criteria.max_noise_ratio) {
+        let smooth = matches!(sh.durbin_watson, Some(d) if d < criteria.smooth_dw);
+        return fail(if smooth {
+            Finding::ShapeUnexplained
+        } else {
+            Finding::SensorImplausible(TraceFault::PoorFit)
+        });
+    }
+    if !at_most(q.rel_sd_slope, criteria.max_rel_sd) || !at_most(f32::MIN_POSITIVE, r.slope) {
+        return fail(Finding::CannotTell(Undetermined::TooLittleSignal));
+    }
+    let k = criteria.sigmas;
+    let m = criteria.model_margin;
+    let half_tau = if q.rel_sd_tau <= criteria.max_rel_sd && r.tau.value() > 0.0 {
+        Some(k * q.rel_sd_tau + m)
+    } else {
+        None
+    };
+    let finding = judge_slope_tau(
+        r.slope,
+        r.tau.value(),
+        k * q.rel_sd_slope + m,
+        half_tau,
+        (criteria.fast_slope, criteria.fast_tau),
+        expected,
+        criteria,
+    );
+    let held_back = sh.head_deficit.value() > criteria.head_fraction * r.final_current.value()
+        && sh.head_sigmas > k;
+    if held_back && !finding.is_coil_fault() && !matches!(finding, Finding::CannotTell(_)) {
+        return fail(Finding::ShortedTurns);
+    }
     fail(finding)
 }
 
@@ -133,7 +196,8 @@ pub(super) fn judge_trace_fault(
 }
 
 /// Fits and judges a sampled rise with no armature movement in it (a diagnostic pulse, or a coil
-/// without a moving armature). See [`fit_rise`] and [`judge_rise`].
+/// without a moving armature) with the free-level estimator. See [`fit_response`] and
+/// [`judge_response`].
 ///
 /// Never panics, for any samples.
 pub fn judge_trace<S: Sample>(
@@ -143,8 +207,8 @@ pub fn judge_trace<S: Sample>(
     criteria: &Criteria,
     options: &FitOptions,
 ) -> Verdict {
-    match fit_rise(samples, sampling, options) {
-        Ok(fit) => judge_rise(&fit, expected, criteria),
+    match fit_response(samples, sampling, options) {
+        Ok(fit) => judge_response(&fit, expected, criteria),
         Err(fault) => judge_trace_fault(fault, sampling, expected, criteria),
     }
 }

@@ -114,6 +114,7 @@ pub fn judge_threshold(
                         tau,
                         half_tau + m,
                         Some(half_tau),
+                        (0.0, 0.0),
                         expected,
                         criteria,
                     )
