@@ -98,20 +98,30 @@
 
 mod bench;
 pub mod demo;
+mod energy;
+mod fault;
 mod hal;
+pub mod magnetics;
+mod node;
+mod observe;
 mod params;
 mod plant;
 #[cfg(feature = "std")]
 pub mod record;
 mod sense;
+mod settings;
 
-pub use bench::{
-    ArmatureState, Bench, ChannelStats, Comparator, Energy, Event, EventKind, Probe, SensePoint,
-    SolverCounters, SupplyEnergy,
-};
+pub use bench::Bench;
+pub use energy::{Energy, SupplyEnergy};
+pub use fault::Fault;
 pub use hal::{GatePin, PwmGate, Rig, SenseAdc, VirtualClock};
+pub use magnetics::{CoupledLoop, Magnetics, Saturation};
+pub use observe::{
+    ArmatureState, ChannelStats, Comparator, Event, EventKind, Probe, SensePoint, SolverCounters,
+};
 pub use params::{
-    Armature, ChannelParams, Clamp, Coil, DiodeLaw, Fault, Mechanics, SimError, Snubber,
-    SolverSettings, Stepping, Supply, Switch, Topology, THERMAL_VOLTS_25C,
+    Armature, ChannelParams, Clamp, Coil, DiodeLaw, Mechanics, SimError, Snubber, Supply, Switch,
+    Topology, THERMAL_VOLTS_25C,
 };
 pub use sense::{AdcConfig, Prng};
+pub use settings::{SolverSettings, Stepping};

@@ -98,7 +98,7 @@ fn random_benches_stay_finite_and_balanced() {
                     .inject(
                         ch,
                         match (r.uniform() * 4.0) as u32 {
-                            0 => Fault::ShortedTurns {
+                            0 => Fault::ShortedTurnsLumped {
                                 fraction: 0.5 * r.uniform(),
                             },
                             1 => Fault::SeriesResistance {
