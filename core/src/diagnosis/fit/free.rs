@@ -125,6 +125,7 @@ fn pass3<S: Sample>(win: &[S], zero: f32, q_lvl: f32, b: f32, lambda: f32) -> Su
 }
 
 /// The result of the refinement on one window.
+#[derive(Clone, Copy)]
 struct Fit3 {
     /// Level at mid-window, counts above zero.
     q: f32,

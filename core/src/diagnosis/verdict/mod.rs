@@ -187,11 +187,12 @@ pub struct Criteria {
     /// Dip detection settings.
     pub movement: MovementCriteria,
     /// Free-level verdicts ([`judge_response`]): how much higher than the first-order model the
-    /// slope of a healthy coil with an eddy-current path may read (default 0.05). Measured: an
-    /// eddy path with k² = 5 % and τ₂ = 20 % of τ biases the fitted slope by +4.3 % over a
-    /// diagnostic-pulse window (`docs/diagnosis.md`).
+    /// slope of a healthy coil with an eddy-current path may read (default 0.10). Sized for an
+    /// eddy path whose fast mode takes up to 2 % of the current with a time constant up to 20 %
+    /// of τ: measured +8.2 % on a window covering 30 % of the rise (`docs/diagnosis.md`, §
+    /// eddy currents). A coil with a stronger eddy path needs a larger allowance.
     pub fast_slope: f32,
-    /// The same for τ reading low (default 0.15; measured −13.3 % for that path).
+    /// The same for τ reading low (default 0.25; measured −22.2 % for that path).
     pub fast_tau: f32,
     /// Largest head shortfall below the slow mode a healthy coil may show, as a fraction of the
     /// final current (default 0.03): beyond it the fast component is a tightly coupled closed
@@ -221,8 +222,8 @@ impl Default for Criteria {
             open_fraction: 0.02,
             pre_movement_fraction: 0.8,
             movement: MovementCriteria::default(),
-            fast_slope: 0.05,
-            fast_tau: 0.15,
+            fast_slope: 0.10,
+            fast_tau: 0.25,
             head_fraction: 0.03,
             smooth_dw: 1.0,
             baseline_margin: 0.02,

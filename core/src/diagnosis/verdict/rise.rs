@@ -30,7 +30,13 @@ pub(super) fn judge_slope_tau(
     let ell_lo = expected.inductance.min.value();
     let ell_hi = expected.inductance.max.value();
     if l_hi < ell_lo {
-        return if l_hi < ell_lo * criteria.short_fraction {
+        // Inductance nearly gone *and* a current far beyond the band: the winding is bypassed.
+        // A coupled shorted section also leaves little inductance at first (its leakage), but
+        // the final current stays within a few times the band: shorted turns.
+        let bypassed = slope * tau > criteria.short_current * expected.final_current.max.value()
+            || tau.is_nan()
+            || tau <= 0.0;
+        return if l_hi < ell_lo * criteria.short_fraction && bypassed {
             Finding::ShortCircuit
         } else {
             Finding::ShortedTurns
@@ -145,6 +151,11 @@ pub fn judge_response(fit: &ResponseFit, expected: &Expected, criteria: &Criteri
         expected,
         criteria,
     );
+    // A supply read below the design's range explains a weak rise, and bands and biases are
+    // those of a supply the coil was not designed for: that is the finding.
+    if expected.supply_below_design && finding.is_coil_fault() {
+        return fail(Finding::SupplyLow);
+    }
     let held_back = sh.head_deficit.value() > criteria.head_fraction * r.final_current.value()
         && sh.head_sigmas > k;
     if held_back && !finding.is_coil_fault() && !matches!(finding, Finding::CannotTell(_)) {
