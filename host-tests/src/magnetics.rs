@@ -133,6 +133,9 @@ pub(crate) const SECT: usize = 1;
 pub(crate) const EDDY: usize = 2;
 
 /// The coupled-loop model of one channel (referred to the operated position).
+///
+/// Kept small (it lives in every bench, also in firmware RAM): `L̂⁻¹` is
+/// formed when currents are needed, not stored.
 #[derive(Debug, Clone, Copy, PartialEq)]
 pub(crate) struct Loops {
     /// Which loops exist.
@@ -145,15 +148,8 @@ pub(crate) struct Loops {
     pub leak: [f64; 3],
     /// Core coupling vector `v`, √H.
     pub v: [f64; 3],
-    /// `L̂⁻¹` (inactive loops padded as identity), with `w = L̂⁻¹·v`, `c = vᵀw`;
-    /// index 0: all loops; index 1: the terminal loop carrying no current.
-    pub inv: [[[f64; 3]; 3]; 2],
-    pub w: [[f64; 3]; 2],
-    pub c: [f64; 2],
-    /// Saturation `(d, z_s)`.
-    pub sat: Option<(f64, f64)>,
-    /// Self inductance of each loop (error-control scale), henries.
-    pub scale: [f64; 3],
+    /// Saturation `(d, z_s)`; `d = 0` for none.
+    pub sat: [f64; 2],
 }
 
 /// `Ψ(z)` and `Ψ'(z)` of the saturation law.
@@ -214,6 +210,7 @@ impl Loops {
     /// `l_op`, `r`: the winding's operated inductance and resistance (after
     /// lumped faults); `l_rel_ratio = L_op/L_rel`; `l_intact`: the intact
     /// winding's operated inductance (reference of the saturation knee).
+    #[inline(always)]
     pub(crate) fn new(
         l_op: f64,
         r: f64,
@@ -253,62 +250,69 @@ impl Loops {
                 v[j] = k[j] * libm::sqrt(self_l[j]);
             }
         }
-        let build = |terminal: bool| {
-            let mut m = [[0.0; 3]; 3];
-            for rr in 0..3 {
-                for cc in 0..3 {
-                    let on = |j: usize| active[j] && (terminal || j != WIND);
-                    m[rr][cc] = if on(rr) && on(cc) {
-                        v[rr] * v[cc] + if rr == cc { leak[rr] } else { 0.0 }
-                    } else if rr == cc {
-                        1.0
-                    } else {
-                        0.0
-                    };
-                }
-            }
-            let inv = inverse3(&m);
-            let mut vv = v;
-            if !terminal {
-                vv[WIND] = 0.0;
-            }
-            let w = mat_vec(&inv, &vv);
-            (inv, w, dot(&vv, &w))
+        let sat = match mag.saturation {
+            Some(s) if s.drop > 0.0 => [s.drop, libm::sqrt(l_intact) * s.knee_amps],
+            _ => [0.0, 1.0],
         };
-        let (inv0, w0, c0) = build(true);
-        let (inv1, w1, c1) = build(false);
         Loops {
             active,
             r: res,
             bridge,
             leak,
             v,
-            inv: [inv0, inv1],
-            w: [w0, w1],
-            c: [c0, c1],
-            sat: mag
-                .saturation
-                .filter(|s| s.drop > 0.0)
-                .map(|s| (s.drop, libm::sqrt(l_intact) * s.knee_amps)),
-            scale: self_l,
+            sat,
         }
+    }
+
+    /// Whether the core branch saturates.
+    #[inline]
+    pub(crate) fn saturates(&self) -> bool {
+        self.sat[0] > 0.0
+    }
+
+    /// Self inductance of loop `j` at the operated position, H (1 for an
+    /// absent loop): the scale of its flux linkage for error control.
+    pub(crate) fn self_henries(&self, j: usize) -> f64 {
+        if self.active[j] {
+            self.leak[j] + self.v[j] * self.v[j]
+        } else {
+            1.0
+        }
+    }
+
+    /// `L̂⁻¹` over the loops that carry current (the others padded as
+    /// identity), the coupling vector restricted to them, and which they are.
+    fn inverse(&self, terminal_off: bool) -> ([[f64; 3]; 3], [f64; 3], [bool; 3]) {
+        let on: [bool; 3] =
+            core::array::from_fn(|j| self.active[j] && (j != WIND || !terminal_off));
+        let v: [f64; 3] = core::array::from_fn(|j| if on[j] { self.v[j] } else { 0.0 });
+        let m: [[f64; 3]; 3] = core::array::from_fn(|r| {
+            core::array::from_fn(|c| {
+                if on[r] && on[c] {
+                    v[r] * v[c] + if r == c { self.leak[r] } else { 0.0 }
+                } else if r == c {
+                    1.0
+                } else {
+                    0.0
+                }
+            })
+        });
+        (inverse3(&m), v, on)
     }
 
     /// Loop currents (A) from flux linkages `lam` (Wb) at permeance ratio `p`.
     /// `terminal_off`: the terminal loop is open (carries no current).
     pub(crate) fn currents(&self, lam: &[f64; 3], p: f64, terminal_off: bool) -> [f64; 3] {
-        let m = usize::from(terminal_off);
-        let mut mu: [f64; 3] =
-            core::array::from_fn(|j| if self.active[j] { lam[j] / p } else { 0.0 });
-        if terminal_off {
-            mu[WIND] = 0.0;
-        }
-        let lin = mat_vec(&self.inv[m], &mu);
-        let Some((d, zs)) = self.sat else {
+        let (inv, v, on) = self.inverse(terminal_off);
+        let mu: [f64; 3] = core::array::from_fn(|j| if on[j] { lam[j] / p } else { 0.0 });
+        let lin = mat_vec(&inv, &mu);
+        if !self.saturates() {
             return lin;
-        };
-        let phi = dot(&self.w[m], &mu);
-        let c = self.c[m];
+        }
+        let [d, zs] = self.sat;
+        let w = mat_vec(&inv, &v);
+        let phi = dot(&w, &mu);
+        let c = dot(&v, &w);
         if phi == 0.0 || c <= 0.0 {
             return lin;
         }
@@ -318,19 +322,23 @@ impl Loops {
             let (ps, dps) = psi(z, d, zs);
             ((1.0 - c) * z + c * ps - a, (1.0 - c) + c * dps)
         };
-        let z = crate::node::solve_increasing(f, a, a / (1.0 - c * d), a);
+        // Start from the fixed point z = |φ|/(1 − c·d·s(|φ|/z_s)), inside the bracket.
+        let u = a / zs;
+        let z0 = a / (1.0 - c * d * u * u / (1.0 + u * u));
+        let z = crate::node::solve_increasing(f, a, a / (1.0 - c * d), z0);
         let z = if phi < 0.0 { -z } else { z };
         let (ps, _) = psi(z, d, zs);
         let corr = ps - z;
-        core::array::from_fn(|j| lin[j] - self.w[m][j] * corr)
+        core::array::from_fn(|j| lin[j] - w[j] * corr)
     }
 
     /// Flux linkages (Wb) from loop currents at permeance ratio `p`.
     pub(crate) fn fluxes(&self, i: &[f64; 3], p: f64) -> [f64; 3] {
         let z = dot(&self.v, i);
-        let ps = match self.sat {
-            Some((d, zs)) => psi(z, d, zs).0,
-            None => z,
+        let ps = if self.saturates() {
+            psi(z, self.sat[0], self.sat[1]).0
+        } else {
+            z
         };
         core::array::from_fn(|j| {
             if self.active[j] {
@@ -344,9 +352,10 @@ impl Loops {
     /// Co-energy per unit permeance ratio, `W'/P` (J), at loop currents `i`.
     pub(crate) fn coenergy_unit(&self, i: &[f64; 3]) -> f64 {
         let z = dot(&self.v, i);
-        let core = match self.sat {
-            Some((d, zs)) => psi_integral(z, d, zs),
-            None => 0.5 * z * z,
+        let core = if self.saturates() {
+            psi_integral(z, self.sat[0], self.sat[1])
+        } else {
+            0.5 * z * z
         };
         0.5 * (self.leak[0] * i[0] * i[0] + self.leak[1] * i[1] * i[1] + self.leak[2] * i[2] * i[2])
             + core
@@ -355,5 +364,139 @@ impl Loops {
     /// Stored magnetic energy `W = iᵀλ − W'` (J).
     pub(crate) fn stored(&self, lam: &[f64; 3], i: &[f64; 3], p: f64) -> f64 {
         dot(lam, i) - p * self.coenergy_unit(i)
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::fault::Section;
+    use crate::sense::Prng;
+
+    fn random_loops(r: &mut Prng) -> Loops {
+        let l = 0.05 + r.uniform();
+        let section = (r.uniform() < 0.6).then(|| Section {
+            fraction: 0.05 + 0.9 * r.uniform(),
+            coupling: 0.5 + 0.49 * r.uniform(),
+            bridge_ohms: r.uniform(),
+        });
+        let mag = Magnetics {
+            eddy: (r.uniform() < 0.6).then(|| CoupledLoop {
+                ohms: 1.0,
+                henries: l * (0.01 + 0.2 * r.uniform()),
+                coupling: 0.95 * r.uniform(),
+            }),
+            saturation: (r.uniform() < 0.6).then(|| Saturation {
+                drop: 0.8 * r.uniform(),
+                knee_amps: 0.05 + r.uniform(),
+            }),
+        };
+        Loops::new(l, 100.0, 1.0 + r.uniform(), l, section, &mag)
+    }
+
+    fn random_currents(r: &mut Prng, lp: &Loops) -> [f64; 3] {
+        core::array::from_fn(|j| {
+            if lp.active[j] {
+                2.0 * r.uniform() - 0.5
+            } else {
+                0.0
+            }
+        })
+    }
+
+    /// Currents recovered from flux linkages are the currents that made them
+    /// (the inversion of the flux law), with the terminal loop on and off.
+    #[test]
+    fn currents_invert_fluxes() {
+        let mut r = Prng::new(7);
+        for _ in 0..2000 {
+            let lp = random_loops(&mut r);
+            let p = 0.3 + r.uniform();
+            let mut i = random_currents(&mut r, &lp);
+            let lam = lp.fluxes(&i, p);
+            let got = lp.currents(&lam, p, false);
+            for j in 0..3 {
+                assert!(
+                    (got[j] - i[j]).abs() < 1e-9 * (1.0 + i[j].abs()),
+                    "{lp:?} {i:?} {got:?}"
+                );
+            }
+            i[WIND] = 0.0;
+            let lam = lp.fluxes(&i, p);
+            let got = lp.currents(&lam, p, true);
+            for j in 0..3 {
+                assert!((got[j] - i[j]).abs() < 1e-9 * (1.0 + i[j].abs()));
+            }
+        }
+    }
+
+    /// The stored energy `iᵀλ − W'` equals the work `∫ iᵀ dλ` done by the
+    /// sources to build the field along a straight path in current space
+    /// (definition of magnetic energy; trapezoid rule, 4000 steps), and the
+    /// force `∂W'/∂x` at fixed currents equals `−∂W/∂x` at fixed flux
+    /// linkages (virtual work, textbook, from memory; central difference).
+    #[test]
+    fn energy_is_the_work_of_the_sources_and_force_is_virtual_work() {
+        let mut r = Prng::new(8);
+        for _ in 0..200 {
+            let lp = random_loops(&mut r);
+            let p = 0.3 + r.uniform();
+            let i1 = random_currents(&mut r, &lp);
+            let n = 4000;
+            let mut work = 0.0;
+            let mut prev_i = [0.0; 3];
+            let mut prev_l = [0.0; 3];
+            for k in 1..=n {
+                let s = k as f64 / n as f64;
+                let i: [f64; 3] = core::array::from_fn(|j| s * i1[j]);
+                let l = lp.fluxes(&i, p);
+                for j in 0..3 {
+                    work += 0.5 * (i[j] + prev_i[j]) * (l[j] - prev_l[j]);
+                }
+                prev_i = i;
+                prev_l = l;
+            }
+            let lam = lp.fluxes(&i1, p);
+            let w = lp.stored(&lam, &i1, p);
+            assert!((w - work).abs() < 1e-6 * w.abs().max(1e-9), "{w} vs {work}");
+            // Virtual work: W(λ, P) at fixed λ, force along P.
+            let h = 1e-6 * p;
+            let w_at = |pp: f64| {
+                let i = lp.currents(&lam, pp, false);
+                lp.stored(&lam, &i, pp)
+            };
+            let dw_dp = (w_at(p + h) - w_at(p - h)) / (2.0 * h);
+            let f = lp.coenergy_unit(&i1);
+            assert!(
+                (f + dw_dp).abs() < 1e-5 * f.abs().max(1e-9),
+                "{f} vs {dw_dp}"
+            );
+        }
+    }
+
+    /// The saturation law's secant inductance: 1 at zero current, `1 − d/2`
+    /// at the knee, towards `1 − d` at large current.
+    #[test]
+    fn saturation_law_end_points() {
+        let s = Saturation::dropping(0.2, 0.5);
+        assert_eq!(s.inductance_ratio(0.0), 1.0);
+        assert!((s.inductance_ratio(0.5) - 0.8).abs() < 1e-15);
+        assert!((s.inductance_ratio(500.0) - 0.6).abs() < 1e-6);
+        // Lone winding: λ = L·i·ratio(i) through the common-flux form.
+        let lp = Loops::new(
+            0.3,
+            10.0,
+            1.0,
+            0.3,
+            None,
+            &Magnetics {
+                eddy: None,
+                saturation: Some(s),
+            },
+        );
+        for i in [0.1, 0.5, 1.3] {
+            let lam = lp.fluxes(&[i, 0.0, 0.0], 1.0);
+            assert!((lam[0] - 0.3 * i * s.inductance_ratio(i)).abs() < 1e-14);
+        }
     }
 }

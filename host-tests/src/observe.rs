@@ -91,7 +91,7 @@ pub struct Event {
 #[derive(Debug, Clone, Copy, PartialEq)]
 pub struct ChannelStats {
     /// Largest voltage across the switch itself (excluding the sense
-    /// resistor), volts, since the last [`Bench::reset_stats`].
+    /// resistor), volts, since the last [`crate::Bench::reset_stats`].
     pub peak_switch_volts: f64,
     /// Largest switched-node voltage to ground, volts.
     pub peak_node_volts: f64,

@@ -77,6 +77,7 @@ pub(crate) struct Eff {
 }
 
 impl Eff {
+    #[inline(always)]
     pub(crate) fn new(p: &ChannelParams, f: &FaultSet, mag: &Magnetics) -> Eff {
         let scale_r = 1.0 - f.shorted_fraction;
         let scale_l = scale_r * scale_r;
@@ -115,7 +116,7 @@ impl Eff {
                 mag,
             ),
         };
-        let simple = !loops.active[SECT] && !loops.active[EDDY] && loops.sat.is_none();
+        let simple = !loops.active[SECT] && !loops.active[EDDY] && !loops.saturates();
         Eff {
             open: f.open,
             r_coil: loops.r[WIND],
@@ -199,8 +200,6 @@ pub(crate) struct Op {
     pub dldx: f64,
     /// Terminal (winding) current, A.
     pub i: f64,
-    /// Loop currents (winding, shorted section, eddy), A.
-    pub il: [f64; 3],
     /// The terminal loop carries no current (open or clamp blocking).
     pub terminal_off: bool,
     pub node: Node,
@@ -224,14 +223,11 @@ pub(crate) fn operate(
     let x = pos / e.stroke;
     let (l, dldx) = e.inductance(x);
     let terminal_off = e.open || (blocked && p.snubber.is_none() && !gate);
-    let (i, il, force) = if e.simple {
+    let (i, force) = if e.simple {
         let i = if e.open { 0.0 } else { y[LAM] / l };
-        (i, [i, 0.0, 0.0], 0.5 * i * i * dldx / e.stroke)
+        (i, 0.5 * i * i * dldx / e.stroke)
     } else {
-        let il = e.loops.currents(&Eff::lams(y), l / e.l_op, terminal_off);
-        // F = ∂W'/∂p at fixed currents = (dL/dx / L_op)·(W'/P) / stroke.
-        let f = dldx / e.l_op * e.loops.coenergy_unit(&il) / e.stroke;
-        (il[WIND], il, f)
+        coupled_currents(e, y, l, dldx, terminal_off)
     };
     let node = if e.open {
         solve_node(p, gate, 0.0, vp, y[VC], p.snubber.is_none())
@@ -249,13 +245,51 @@ pub(crate) fn operate(
         l,
         dldx,
         i,
-        il,
         terminal_off,
         node,
         force,
         net_force: net,
         pinned,
     }
+}
+
+/// Loop currents and magnetic force of a coil with coupled loops or
+/// saturation (kept out of line so the plain coil's frames stay small).
+#[inline(never)]
+fn coupled_currents(e: &Eff, y: &[f64; K], l: f64, dldx: f64, off: bool) -> (f64, f64) {
+    let il = e.loops.currents(&Eff::lams(y), l / e.l_op, off);
+    // F = ∂W'/∂p at fixed currents = (dL/dx / L_op)·(W'/P) / stroke.
+    let f = dldx / e.l_op * e.loops.coenergy_unit(&il) / e.stroke;
+    (il[WIND], f)
+}
+
+/// Flux-linkage rates and loss powers of the coupled loops; `v_rest` is the
+/// terminal loop's voltage before the bridge drop, `V+ − w − R_series·i₀`.
+#[inline(never)]
+fn coupled_rates(e: &Eff, y: &[f64; K], op: &Op, v_rest: f64, out: &mut [f64; K]) {
+    let lp = &e.loops;
+    let il = e.currents(y, op.terminal_off);
+    let i = op.i;
+    // Bridge current (terminal loop minus section loop) with a shorted section.
+    let i_bridge = if lp.active[SECT] { i - il[SECT] } else { 0.0 };
+    out[LAM] = if op.terminal_off {
+        0.0
+    } else {
+        v_rest - lp.bridge * i_bridge
+    };
+    out[LAM_S] = if lp.active[SECT] {
+        lp.bridge * i_bridge - lp.r[SECT] * il[SECT]
+    } else {
+        0.0
+    };
+    out[LAM_E] = if lp.active[EDDY] {
+        -lp.r[EDDY] * il[EDDY]
+    } else {
+        0.0
+    };
+    out[E_WIND] = e.r_coil * i * i + lp.r[SECT] * il[SECT] * il[SECT];
+    out[E_BRIDGE] = lp.bridge * i_bridge * i_bridge;
+    out[E_EDDY] = lp.r[EDDY] * il[EDDY] * il[EDDY];
 }
 
 /// Time derivative of one channel's state. Returns the switch current drawn
@@ -274,30 +308,20 @@ pub(crate) fn derive(
     let i = op.i;
     let n = op.node;
     let r_series = e.r_coil + e.r_wire;
-    let lp = &e.loops;
-    // Bridge current (terminal loop minus section loop) with a shorted section.
-    let i_bridge = if lp.active[SECT] {
-        i - op.il[SECT]
+    if e.simple {
+        out[LAM] = if op.terminal_off {
+            0.0
+        } else {
+            vp - n.w - r_series * i
+        };
+        out[LAM_S] = 0.0;
+        out[LAM_E] = 0.0;
+        out[E_WIND] = e.r_coil * i * i;
+        out[E_BRIDGE] = 0.0;
+        out[E_EDDY] = 0.0;
     } else {
-        0.0
-    };
-    out[LAM] = if op.terminal_off {
-        0.0
-    } else if e.simple {
-        vp - n.w - r_series * i
-    } else {
-        vp - n.w - r_series * i - lp.bridge * i_bridge
-    };
-    out[LAM_S] = if lp.active[SECT] {
-        lp.bridge * i_bridge - lp.r[SECT] * op.il[SECT]
-    } else {
-        0.0
-    };
-    out[LAM_E] = if lp.active[EDDY] {
-        -lp.r[EDDY] * op.il[EDDY]
-    } else {
-        0.0
-    };
+        coupled_rates(e, y, &op, vp - n.w - r_series * i, out);
+    }
     let vel = y[VEL];
     if op.pinned {
         out[POS] = 0.0;
@@ -313,13 +337,6 @@ pub(crate) fn derive(
     let rs = p.sense_ohms;
     let v_sw = n.w - n.i_sw * rs;
     out[E_RAIL] = vp * n.i_sw;
-    out[E_WIND] = if lp.active[SECT] {
-        e.r_coil * i * i + lp.r[SECT] * op.il[SECT] * op.il[SECT]
-    } else {
-        e.r_coil * i * i
-    };
-    out[E_BRIDGE] = lp.bridge * i_bridge * i_bridge;
-    out[E_EDDY] = lp.r[EDDY] * op.il[EDDY] * op.il[EDDY];
     out[E_WIRE] = e.r_wire * i * i;
     out[E_SENSE] = rs * n.i_sw * n.i_sw;
     let p_sw = v_sw * n.i_sw;

@@ -102,6 +102,7 @@ impl<const N: usize> Bench<N> {
     /// the loop currents continuous.
     fn rebuild(&mut self, c: usize, f: FaultSet, mag: Magnetics) {
         let old = self.op(c);
+        let old_il = self.eff[c].currents(&self.y.ch[c], old.terminal_off);
         let old_simple = self.eff[c].simple;
         let had_section = self.eff[c].loops.active[SECT];
         let was_open = self.eff[c].open;
@@ -121,8 +122,8 @@ impl<const N: usize> Bench<N> {
             y[plant::LAM] = l_new * i_new;
             0.5 * l_new * i_new * i_new
         } else {
-            let i1 = if had_section { old.il[SECT] } else { i_new };
-            e.set_currents(y, &[i_new, i1, old.il[EDDY]]);
+            let i1 = if had_section { old_il[SECT] } else { i_new };
+            e.set_currents(y, &[i_new, i1, old_il[EDDY]]);
             let no_snubber = self.params[c].snubber.is_none();
             let off = e.open || (self.blocked[c] && no_snubber && !self.gate[c]);
             e.stored(y, off)

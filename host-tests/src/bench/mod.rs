@@ -401,3 +401,18 @@ impl<const N: usize> Bench<N> {
         }
     }
 }
+
+#[cfg(test)]
+mod tests {
+    /// A bench lives in firmware RAM (one per channel on the QEMU boards, the
+    /// smallest with 16 KiB): keep a channel's plant within a fixed budget.
+    #[test]
+    fn a_channel_of_plant_stays_within_its_ram_budget() {
+        let bytes = core::mem::size_of::<super::Bench<1>>();
+        let budget = 1_400;
+        assert!(
+            bytes <= budget,
+            "Bench<1> is {bytes} bytes (budget {budget})"
+        );
+    }
+}

@@ -15,6 +15,7 @@ impl<const N: usize> Bench<N> {
 
     pub(super) fn probe_unchecked(&self, c: usize) -> Probe {
         let op = self.op(c);
+        let il = self.eff[c].currents(&self.y.ch[c], op.terminal_off);
         let vp = self.rail_volts();
         let n = op.node;
         let node_volts = match self.params[c].topology {
@@ -34,8 +35,8 @@ impl<const N: usize> Bench<N> {
             position: op.x,
             velocity_m_per_s: self.y.ch[c][plant::VEL],
             inductance_henries: op.l,
-            section_amps: op.il[crate::magnetics::SECT],
-            eddy_amps: op.il[crate::magnetics::EDDY],
+            section_amps: il[crate::magnetics::SECT],
+            eddy_amps: il[crate::magnetics::EDDY],
             magnetic_force_newtons: op.force,
             gate_on: self.gate[c],
             armature: self.st[c].armature,

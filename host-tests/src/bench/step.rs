@@ -7,6 +7,9 @@ use crate::settings::Stepping;
 
 /// Smallest step the adaptive controller will try, seconds.
 const H_MIN: f64 = 1e-15;
+/// Absolute error tolerance of the energy integrals of coupled-loop
+/// channels, joules.
+const ENERGY_ATOL: f64 = 1e-12;
 /// Retries to land a step on an end stop or on current zero.
 const MAX_REFINE: u32 = 12;
 
@@ -71,14 +74,13 @@ impl<const N: usize> Bench<N> {
         for c in 0..N {
             let e = &self.eff[c];
             let (l, _) = e.inductance(y0.ch[c][plant::POS] / e.stroke);
-            let sc = &e.loops.scale;
             let atol = [
                 atol_i * l,
                 1e-7 * e.stroke,
                 1e-4 * e.stroke,
                 1e-6,
-                atol_i * sc[crate::magnetics::SECT],
-                atol_i * sc[crate::magnetics::EDDY],
+                atol_i * e.loops.self_henries(crate::magnetics::SECT),
+                atol_i * e.loops.self_henries(crate::magnetics::EDDY),
             ];
             for (j, at) in atol.iter().enumerate().take(DYN) {
                 let err = h
@@ -92,6 +94,24 @@ impl<const N: usize> Bench<N> {
                     return f64::INFINITY;
                 }
                 m = m.max(r);
+            }
+            if !e.simple {
+                // Coupled loops can be stiff: control the energy integrals
+                // too (1 pJ absolute), so the energy books stay as tight as
+                // for a plain coil.
+                for j in DYN..K {
+                    let err = h
+                        * (E[0] * k[0].ch[c][j]
+                            + E[1] * k[1].ch[c][j]
+                            + E[2] * k[2].ch[c][j]
+                            + E[3] * k[3].ch[c][j]);
+                    let sc = ENERGY_ATOL + rtol * y0.ch[c][j].abs().max(y1.ch[c][j].abs());
+                    let r = err.abs() / sc;
+                    if r.is_nan() {
+                        return f64::INFINITY;
+                    }
+                    m = m.max(r);
+                }
             }
         }
         if self.supply.source_ohms > 0.0 {
