@@ -141,7 +141,9 @@ struct Fit3 {
     vbv: f32,
 }
 
-/// Gauss–Newton on one window from λ; `None` when singular or not settling.
+/// Gauss–Newton on one window from λ; `None` when singular or not settling. Out of line: a
+/// caller that tries several windows keeps one frame of it, not one per window.
+#[inline(never)]
 fn refine3<S: Sample>(win: &[S], zero: f32, lambda0: f32, passes: u8) -> Option<Fit3> {
     let m = win.len();
     if m < MIN_SAMPLES {

@@ -36,7 +36,7 @@ pub use threshold::{judge_steady, judge_threshold, ThresholdReading};
 
 use super::armature::{Movement, MovementCriteria};
 use super::band::Expected;
-use super::fit::{FitQuality, Shape, TraceFault};
+use super::fit::{FitQuality, TraceFault};
 use crate::units::{Amps, Celsius, Henries, Ohms, Seconds};
 
 /// Why no coil verdict could be given although the trace looked like a sensor working.
@@ -138,8 +138,6 @@ pub struct Estimates {
     pub temperature: Option<Celsius>,
     /// Fit quality, for sampled traces.
     pub quality: Option<FitQuality>,
-    /// Initial level, fast component and clipping, for traces judged by the free-level fit.
-    pub shape: Option<Shape>,
     /// Armature movement, for full actuation traces.
     pub movement: Option<Movement>,
 }
@@ -268,7 +266,6 @@ pub(super) fn estimates(expected: &Expected, final_current: f32, tau: Option<f32
         },
         temperature,
         quality: None,
-        shape: None,
         movement: None,
     }
 }

@@ -122,7 +122,6 @@ pub fn judge_response(fit: &ResponseFit, expected: &Expected, criteria: &Criteri
     let sh = fit.shape;
     let mut est = estimates(expected, r.final_current.value(), Some(r.tau.value()));
     est.quality = Some(q);
-    est.shape = Some(sh);
     let fail = |f| Verdict::new(f, est);
     if !at_most(q.noise_ratio, criteria.max_noise_ratio) {
         let smooth = matches!(sh.durbin_watson, Some(d) if d < criteria.smooth_dw);
@@ -210,7 +209,9 @@ pub(super) fn judge_trace_fault(
 /// without a moving armature) with the free-level estimator. See [`fit_response`] and
 /// [`judge_response`].
 ///
-/// Never panics, for any samples.
+/// Out of line, so that a caller judging several windows (as [`super::judge_actuation`] does)
+/// stacks one fit, not one per call site. Never panics, for any samples.
+#[inline(never)]
 pub fn judge_trace<S: Sample>(
     samples: &[S],
     sampling: &Sampling,
