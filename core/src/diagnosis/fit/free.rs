@@ -233,6 +233,23 @@ fn model_at(f: &Fit3, m: usize, k: f32) -> f32 {
     f.q + f.b - f.b * libm::expf(-f.lambda * x)
 }
 
+/// Mean shortfall of `window[..skip]` below the model `f` fitted on `window[skip..]`, counts, and
+/// that over its noise standard error `noise/√skip`.
+fn head<S: Sample>(window: &[S], skip: usize, f: &Fit3, zero: f32, noise: f32) -> (f32, f32) {
+    let m = window.len() - skip;
+    let mut sum = 0.0f32;
+    for (k, v) in window[..skip].iter().enumerate() {
+        let at = k as f32 - skip as f32;
+        sum += model_at(f, m, at) - (v.to_f32() - zero);
+    }
+    let mean = sum / skip as f32;
+    (mean, mean / (noise / sqrt(skip as f32)))
+}
+
+/// Standard errors by which the head left out must fall short of the kept model for the window
+/// without it to be used.
+pub const HEAD_SIGMAS: f32 = 4.0;
+
 /// Durbin–Watson statistic of the residuals of `f` on `win`.
 fn durbin_watson<S: Sample>(win: &[S], zero: f32, f: &Fit3) -> f32 {
     let m = win.len();
@@ -338,6 +355,11 @@ pub fn fit_response<S: Sample>(
         };
         lambda_start = f.lambda;
         let ratio = sqrt(f.rr / larger(win.len() as f32 - 3.0, 1.0)) / noise;
+        // Leaving the head out is the physics of a coupled loop only if the head fell short of
+        // the slow mode (the loop held current back); otherwise the misfit is a shape.
+        if skip > 0 && head(window, skip, &f, zero, noise).1 <= HEAD_SIGMAS {
+            continue;
+        }
         let better = match &kept {
             None => true,
             Some((_, _, r)) => ratio < *r,
@@ -362,13 +384,7 @@ pub fn fit_response<S: Sample>(
     };
     // The head left out: mean shortfall below the kept model, extrapolated back.
     let (head_deficit, head_sigmas) = if skip > 0 {
-        let mut sum = 0.0f32;
-        for (k, v) in window[..skip].iter().enumerate() {
-            let at = k as f32 - skip as f32;
-            sum += model_at(&f, m, at) - (v.to_f32() - zero);
-        }
-        let mean = sum / skip as f32;
-        (mean, mean / (noise / sqrt(skip as f32)))
+        head(window, skip, &f, zero, noise)
     } else {
         (0.0, 0.0)
     };

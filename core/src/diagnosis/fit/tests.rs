@@ -358,3 +358,49 @@ fn measure_free_fit_on_coupled_loops() {
         );
     }
 }
+
+#[test]
+fn leading_samples_at_the_floor_are_clipped_not_read() {
+    // A negative converter offset of 4 counts clips the first samples of a rise at count 0
+    // (common practice, no source: a unipolar converter cannot read below zero). The fit leaves
+    // them out and still recovers τ; the same trace with a floor of −∞ is not clipped.
+    let sm = Sampling::adc(Seconds::new(1.0e-5), 12, Amps::new(0.4095)).unwrap();
+    let s: Vec<u16> = (1..=64)
+        .map(|k| {
+            let t = k as f64 * 1.0e-5;
+            let c = 3000.0 * -(-t / 2.0e-3f64).exp_m1() - 40.0;
+            c.round().clamp(0.0, 4095.0) as u16
+        })
+        .collect();
+    let zeros = s.iter().take_while(|&&c| c == 0).count();
+    assert_eq!(zeros, 2, "{s:?}");
+    let f = fit_response(&s, &sm, &FitOptions::default()).unwrap();
+    assert_eq!(f.shape.clipped, 2, "{f:?}");
+    assert!((f.rise.tau.value() / 2.0e-3 - 1.0).abs() < 0.02, "{f:?}");
+    let unclipped = sm.with_floor(f32::NEG_INFINITY).unwrap();
+    let g = fit_response(&s, &unclipped, &FitOptions::default()).unwrap();
+    assert_eq!(g.shape.clipped, 0);
+}
+
+#[test]
+fn start_latency_is_absorbed_by_the_free_level() {
+    // The same rise sampled 0.7 periods late, without telling the fit: τ and I∞ unchanged (the
+    // model is invariant to a time shift), the level at switch-on reads i(δ).
+    let (tau, i_inf, period) = (1.0e-3f64, 0.1f64, 5.0e-6f64);
+    let delta = 0.7 * period;
+    let s: Vec<f32> = (1..=64)
+        .map(|k| (i_inf * -(-(k as f64 * period + delta) / tau).exp_m1()) as f32)
+        .collect();
+    let sm = Sampling::new(Seconds::new(period as f32), 1.0)
+        .unwrap()
+        .with_first_sample(Seconds::new(period as f32))
+        .unwrap();
+    let f = fit_response(&s, &sm, &FitOptions::default().with_refinements(3)).unwrap();
+    assert!(
+        (f.rise.tau.value() as f64 / tau - 1.0).abs() < 1e-3,
+        "{f:?}"
+    );
+    assert!((f.rise.final_current.value() as f64 / i_inf - 1.0).abs() < 1e-3);
+    let at_delta = i_inf * -(-delta / tau).exp_m1();
+    assert!((f.shape.initial_current.value() as f64 - at_delta).abs() < 1e-3 * i_inf);
+}

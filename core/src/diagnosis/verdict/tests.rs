@@ -260,3 +260,32 @@ proptest! {
         }
     }
 }
+
+#[test]
+fn a_smooth_misfit_is_a_shape_and_a_noisy_one_a_sensor() {
+    let e = Expected::new(&valve_design(), &at_20c()).unwrap();
+    let c = Criteria::default();
+    let o = FitOptions::default();
+    // A smooth misfit: the rise with an extra ramp of 10 counts a sample from mid-window on
+    // (still monotone: a shape no coil model here has; the residuals correlated from sample to
+    // sample).
+    let mut smooth = counts(180.0, 0.30, 24.0, 64);
+    for (k, x) in smooth.iter_mut().enumerate() {
+        *x += 10 * k.saturating_sub(32) as u16;
+    }
+    let v = judge_trace(&smooth, &adc(), &e, &c, &o);
+    assert_eq!(v.finding, Finding::ShapeUnexplained, "{v:?}");
+    assert!(!v.finding.is_coil_fault());
+    // Noise of ±2 counts alternating sample to sample (within the monotone check): not smooth,
+    // and 3.5 times the stated 0.5 RMS plus quantisation.
+    let mut noisy = counts(180.0, 0.30, 24.0, 64);
+    for (k, x) in noisy.iter_mut().enumerate() {
+        *x = if k % 2 == 0 { *x + 2 } else { *x - 2 };
+    }
+    let v = judge_trace(&noisy, &adc(), &e, &c, &o);
+    assert_eq!(
+        v.finding,
+        Finding::SensorImplausible(TraceFault::PoorFit),
+        "{v:?}"
+    );
+}
