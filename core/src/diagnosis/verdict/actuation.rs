@@ -47,7 +47,9 @@ pub fn judge_actuation<S: Sample>(
                 criteria,
                 options,
             );
-            if first.finding == Finding::SensorImplausible(TraceFault::PoorFit) {
+            // A window that does not fit (noise-like or smooth misfit) because the armature was
+            // already moving in it: try the shorter one.
+            if misfit(&first.finding) {
                 let second = judge_trace(
                     prefix(0.6 * f, peak.value()),
                     sampling,
@@ -56,8 +58,7 @@ pub fn judge_actuation<S: Sample>(
                     options,
                 );
                 match second.finding {
-                    Finding::SensorImplausible(TraceFault::PoorFit)
-                    | Finding::CannotTell(Undetermined::TooFewSamples) => {
+                    f if misfit(&f) || f == Finding::CannotTell(Undetermined::TooFewSamples) => {
                         // Last resort: the slope alone from the first samples, before the
                         // armature has travelled far. Only an inductance fault is taken from it.
                         let head = &samples[..samples.len().min(EARLY_SAMPLES)];
@@ -99,6 +100,14 @@ pub fn judge_actuation<S: Sample>(
         }
     }
     v
+}
+
+/// Whether a finding says the window did not fit the rise model.
+fn misfit(f: &Finding) -> bool {
+    matches!(
+        f,
+        Finding::SensorImplausible(TraceFault::PoorFit) | Finding::ShapeUnexplained
+    )
 }
 
 /// Samples of the slope-only last resort of [`judge_actuation`].
