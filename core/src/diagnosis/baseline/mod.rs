@@ -26,8 +26,8 @@
 //! Design bands first (open, short, sensor, shape, supply: all as without a baseline). A pulse the
 //! bands pass is compared with the baseline: `L/L_b` outside `1 ± (k·√(sd² + spread²) + margin)`
 //! → [`Finding::ShortedTurns`] (below) or [`Finding::InductanceHigh`] (above); with both
-//! temperatures known, `R₂₀/R_b` likewise → [`Finding::ShortedTurns`] (below) or
-//! [`Finding::HighResistance`] (above), the window widened by `α·board_kelvin` for the winding's
+//! temperatures known, `R₂₀/R_b` likewise → [`Finding::HighResistance`] above, and below with
+//! the inductance kept [`Finding::ShapeUnexplained`] (shorted turns lower L at least as much), the window widened by `α·board_kelvin` for the winding's
 //! offset from the board sensor; a head shortfall grown by more than `head_fraction` of the final
 //! current → [`Finding::ShortedTurns`] (a coupled shorted loop appeared).
 //!
@@ -320,8 +320,11 @@ pub fn judge_baseline(
     };
     let grown = h - baseline.head_fraction > criteria.head_fraction && fit.shape.head_sigmas > k;
     let r_low = matches!(r_check, Some((ratio, tol)) if ratio < 1.0 - tol);
-    v.finding = if ratio_l < 1.0 - tol_l || grown || r_low {
+    v.finding = if ratio_l < 1.0 - tol_l || grown {
         Finding::ShortedTurns
+    } else if r_low {
+        // Resistance down with the inductance kept: not shorted turns (see judge_response).
+        Finding::ShapeUnexplained
     } else if matches!(r_check, Some((ratio, tol)) if ratio > 1.0 + tol) {
         Finding::HighResistance
     } else if ratio_l > 1.0 + tol_l {

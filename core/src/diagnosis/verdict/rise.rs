@@ -6,6 +6,23 @@ use crate::diagnosis::band::Expected;
 use crate::diagnosis::fit::{fit_response, FitOptions, ResponseFit, RiseFit, TraceFault};
 use crate::diagnosis::sample::{Sample, Sampling};
 
+/// What the physics of a real coil allows on top of the fit's errors (see [`judge_response`]).
+#[derive(Clone, Copy)]
+pub(super) struct Allowances {
+    /// How far the slope may read high and τ low (relative) for a healthy coil's eddy path.
+    pub(super) fast: (f32, f32),
+    /// The finding for a resistance below the band with the inductance inside it.
+    pub(super) r_low_alone: Finding,
+}
+
+impl Allowances {
+    /// The ideal first-order coil: no allowance; a low resistance is shorted turns.
+    pub(super) const FIRST_ORDER: Self = Self {
+        fast: (0.0, 0.0),
+        r_low_alone: Finding::ShortedTurns,
+    };
+}
+
 /// Judges slope and τ with their relative half-widths (already including sigmas and margin).
 ///
 /// The interval arithmetic of the module docs in ratio form (no logarithms): a relative
@@ -16,10 +33,11 @@ pub(super) fn judge_slope_tau(
     tau: f32,
     half_slope: f32,
     half_tau: Option<f32>,
-    fast: (f32, f32),
+    physics: Allowances,
     expected: &Expected,
     criteria: &Criteria,
 ) -> Finding {
+    let Allowances { fast, r_low_alone } = physics;
     let ws = 1.0 + half_slope;
     // A healthy coil's fast component may raise the slope by fast.0 and lower τ by fast.1
     // (relative): one-sided allowances, on the side the physics biases (see Criteria).
@@ -57,7 +75,7 @@ pub(super) fn judge_slope_tau(
     let r_lo = l_lo.max(ell_lo) / (tau * wt * ft);
     let r_hi = l_hi.min(ell_hi) * wt / tau;
     if r_hi < expected.loop_resistance.min.value() {
-        Finding::ShortedTurns
+        r_low_alone
     } else if r_lo > expected.loop_resistance.max.value() {
         Finding::HighResistance
     } else {
@@ -94,14 +112,14 @@ pub fn judge_rise(fit: &RiseFit, expected: &Expected, criteria: &Criteria) -> Ve
         fit.tau.value(),
         k * q.rel_sd_slope + m,
         half_tau,
-        (0.0, 0.0),
+        Allowances::FIRST_ORDER,
         expected,
         criteria,
     );
     fail(finding)
 }
 
-/// Judges a free-level fit ([`fit_response`]) against the bands: as [`judge_rise`], with three
+/// Judges a free-level fit ([`fit_response`]) against the bands: as [`judge_rise`], with four
 /// differences that follow the physics of a real coil.
 ///
 /// 1. A residual far above noise is [`Finding::ShapeUnexplained`] when the residuals are smooth
@@ -110,7 +128,10 @@ pub fn judge_rise(fit: &RiseFit, expected: &Expected, criteria: &Criteria) -> Ve
 ///    noise-like (a noisy or intermittent sensor).
 /// 2. The slope may read up to `fast_slope` high and τ up to `fast_tau` low before the band
 ///    counts them (a healthy coil's eddy path; one-sided: the side the physics biases).
-/// 3. A fast early component larger than an eddy path can carry — the left-out head of the window
+/// 3. A resistance below the band with the inductance inside it is [`Finding::ShapeUnexplained`]:
+///    shorted turns lower the inductance at least as much (turns squared against turns), while
+///    saturation lengthens the fitted τ of a short window and looks like exactly this.
+/// 4. A fast early component larger than an eddy path can carry — the left-out head of the window
 ///    short of the slow mode by more than `head_fraction` of the final current and by more than
 ///    `sigmas` standard errors — is a closed loop tightly coupled to the winding:
 ///    [`Finding::ShortedTurns`].
@@ -146,7 +167,13 @@ pub fn judge_response(fit: &ResponseFit, expected: &Expected, criteria: &Criteri
         r.tau.value(),
         k * q.rel_sd_slope + m,
         half_tau,
-        (criteria.fast_slope, criteria.fast_tau),
+        Allowances {
+            fast: (criteria.fast_slope, criteria.fast_tau),
+            // Shorted turns lower the inductance (turns squared) at least as much as the
+            // resistance; a resistance below the band with the inductance inside it is not their
+            // physics (it is what saturation does to τ on a short window): a shape, not a fault.
+            r_low_alone: Finding::ShapeUnexplained,
+        },
         expected,
         criteria,
     );

@@ -1,6 +1,6 @@
 //! Comparator readings (time to a threshold) and steady-current readings.
 
-use super::rise::judge_slope_tau;
+use super::rise::{judge_slope_tau, Allowances};
 use super::{
     estimates, finite_pos, healthy_or_supply, Criteria, Estimates, Finding, Undetermined, Verdict,
 };
@@ -114,7 +114,7 @@ pub fn judge_threshold(
                         tau,
                         half_tau + m,
                         Some(half_tau),
-                        (0.0, 0.0),
+                        Allowances::FIRST_ORDER,
                         expected,
                         criteria,
                     )
