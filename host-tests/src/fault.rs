@@ -93,6 +93,10 @@ impl Fault {
                 coupling,
                 bridge_ohms,
             } => {
+                check(
+                    cfg!(feature = "coupled-physics"),
+                    "fault.shorted_turns (needs the `coupled-physics` feature)",
+                )?;
                 check(fraction > 0.0 && fraction < 1.0, "fault.fraction")?;
                 check(coupling > 0.0 && coupling < 1.0, "fault.coupling")?;
                 finite_ge0(bridge_ohms, "fault.bridge_ohms")

@@ -44,11 +44,14 @@
 //!   supply changes.
 //! * Converter ([`AdcConfig`]): quantisation, offset of either sign with
 //!   clipping at zero and full scale, gain error, seeded Gaussian noise,
-//!   sampling-start latency and jitter.
+//!   sampling-start latency and jitter; comparator offset and propagation
+//!   delay ([`ComparatorErrors`]).
 //! * Energy bookkeeping per channel ([`Energy`]) that closes to the
 //!   integration tolerance (winding, bridge and eddy losses included).
 //!
-//! Not modelled: hysteresis, eddy currents beyond one lumped loop, diode
+//! Not modelled: hysteresis, eddy currents beyond one lumped loop, a
+//! saturation knee that moves with the armature (the knee is in ampere-turns
+//! of the core branch, the same at every position), diode
 //! reverse recovery, switching transients of the transistor (gate charge),
 //! node capacitance, temperature rise during a run. After the clamp blocks,
 //! secondary loops decay on their own (their induced voltage does not
@@ -74,6 +77,10 @@
 //!
 //! * `std` (default): the waveform [`record`]er. Without it the crate is
 //!   `no_std`, allocation-free, and builds for `thumbv6m-none-eabi`.
+//! * `coupled-physics` (default): coupled loops and saturation
+//!   ([`Bench::set_magnetics`], [`Fault::ShortedTurns`]). Without it those
+//!   are refused with [`SimError::InvalidParameter`] and their code is not
+//!   linked (about 8 KiB of flash in a Cortex-M4F firmware).
 //!
 //! ## Injecting coil physics
 //!
@@ -180,5 +187,5 @@ pub use params::{
     Armature, ChannelParams, Clamp, Coil, DiodeLaw, Mechanics, SimError, Snubber, Supply, Switch,
     Topology, THERMAL_VOLTS_25C,
 };
-pub use sense::{AdcConfig, Prng};
+pub use sense::{AdcConfig, ComparatorErrors, Prng};
 pub use settings::{SolverSettings, Stepping};

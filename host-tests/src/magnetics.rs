@@ -40,9 +40,17 @@
 //! `∂W'/∂x` at fixed currents, and the energy books close.
 //!
 //! The currents follow from the flux linkages in closed form up to one
-//! scalar equation: with `μ = λ/P(x)`, `i = L̂⁻¹·μ − L̂⁻¹·v·(Ψ(z) − z)` where
-//! `z` solves `(1 − c)·z + c·Ψ(z) = vᵀ·L̂⁻¹·μ`, `c = vᵀ·L̂⁻¹·v ∈ (0, 1]`
-//! (monotone in `z`; safeguarded Newton, ~1e-13 relative).
+//! scalar equation, because `D` is diagonal and the winding has no leakage of
+//! its own (`D₀ = 0`). With `μ = λ/P(x)`:
+//!
+//! * terminal loop carrying current: `Ψ(z) = μ₀/v₀` gives `z`, then
+//!   `iⱼ = (μⱼ − vⱼ·Ψ(z))/Dⱼ` for the secondary loops and
+//!   `i₀ = (z − Σⱼ vⱼ·iⱼ)/v₀`;
+//! * terminal loop open (clamp blocking, open wire): `i₀ = 0`, and `z`
+//!   solves `z + c·Ψ(z) = φ` with `c = Σⱼ vⱼ²/Dⱼ`, `φ = Σⱼ vⱼ·μⱼ/Dⱼ`.
+//!
+//! Both scalar equations are monotone in `z` (safeguarded Newton, ~1e-13
+//! relative; closed form without saturation).
 
 use crate::params::{check, finite_gt0, SimError};
 
@@ -114,6 +122,11 @@ impl Magnetics {
     };
 
     pub(crate) fn validate(&self) -> Result<(), SimError> {
+        if !cfg!(feature = "coupled-physics") && *self != Magnetics::LINEAR {
+            return Err(SimError::InvalidParameter(
+                "magnetics (needs the `coupled-physics` feature)",
+            ));
+        }
         if let Some(e) = self.eddy {
             finite_gt0(e.ohms, "eddy.ohms")?;
             finite_gt0(e.henries, "eddy.henries")?;
@@ -134,8 +147,8 @@ pub(crate) const EDDY: usize = 2;
 
 /// The coupled-loop model of one channel (referred to the operated position).
 ///
-/// Kept small (it lives in every bench, also in firmware RAM): `L̂⁻¹` is
-/// formed when currents are needed, not stored.
+/// Kept small (it lives in every bench, also in firmware RAM); no matrix
+/// inverse is needed (see the module docs).
 #[derive(Debug, Clone, Copy, PartialEq)]
 pub(crate) struct Loops {
     /// Which loops exist.
@@ -171,35 +184,6 @@ fn psi_integral(z: f64, d: f64, zs: f64) -> f64 {
     0.5 * z * z - d * 0.5 * (z * z - zs * zs * libm::log1p(u * u))
 }
 
-fn inverse3(m: &[[f64; 3]; 3]) -> [[f64; 3]; 3] {
-    let c00 = m[1][1] * m[2][2] - m[1][2] * m[2][1];
-    let c01 = m[1][2] * m[2][0] - m[1][0] * m[2][2];
-    let c02 = m[1][0] * m[2][1] - m[1][1] * m[2][0];
-    let det = m[0][0] * c00 + m[0][1] * c01 + m[0][2] * c02;
-    let inv_det = 1.0 / det;
-    [
-        [
-            c00 * inv_det,
-            (m[0][2] * m[2][1] - m[0][1] * m[2][2]) * inv_det,
-            (m[0][1] * m[1][2] - m[0][2] * m[1][1]) * inv_det,
-        ],
-        [
-            c01 * inv_det,
-            (m[0][0] * m[2][2] - m[0][2] * m[2][0]) * inv_det,
-            (m[0][2] * m[1][0] - m[0][0] * m[1][2]) * inv_det,
-        ],
-        [
-            c02 * inv_det,
-            (m[0][1] * m[2][0] - m[0][0] * m[2][1]) * inv_det,
-            (m[0][0] * m[1][1] - m[0][1] * m[1][0]) * inv_det,
-        ],
-    ]
-}
-
-fn mat_vec(m: &[[f64; 3]; 3], x: &[f64; 3]) -> [f64; 3] {
-    core::array::from_fn(|r| m[r][0] * x[0] + m[r][1] * x[1] + m[r][2] * x[2])
-}
-
 fn dot(a: &[f64; 3], b: &[f64; 3]) -> f64 {
     a[0] * b[0] + a[1] * b[1] + a[2] * b[2]
 }
@@ -210,7 +194,8 @@ impl Loops {
     /// `l_op`, `r`: the winding's operated inductance and resistance (after
     /// lumped faults); `l_rel_ratio = L_op/L_rel`; `l_intact`: the intact
     /// winding's operated inductance (reference of the saturation knee).
-    #[inline(always)]
+    #[cfg(feature = "coupled-physics")]
+    #[inline(never)]
     pub(crate) fn new(
         l_op: f64,
         r: f64,
@@ -264,6 +249,20 @@ impl Loops {
         }
     }
 
+    /// The plain winding of resistance `r` (no secondary loop, no
+    /// saturation; the coupling vector is unused on the plain path).
+    #[cfg(not(feature = "coupled-physics"))]
+    pub(crate) const fn plain(r: f64) -> Loops {
+        Loops {
+            active: [true, false, false],
+            r: [r, 0.0, 0.0],
+            bridge: 0.0,
+            leak: [0.0; 3],
+            v: [0.0; 3],
+            sat: [0.0, 1.0],
+        }
+    }
+
     /// Whether the core branch saturates.
     #[inline]
     pub(crate) fn saturates(&self) -> bool {
@@ -280,56 +279,68 @@ impl Loops {
         }
     }
 
-    /// `L̂⁻¹` over the loops that carry current (the others padded as
-    /// identity), the coupling vector restricted to them, and which they are.
-    fn inverse(&self, terminal_off: bool) -> ([[f64; 3]; 3], [f64; 3], [bool; 3]) {
-        let on: [bool; 3] =
-            core::array::from_fn(|j| self.active[j] && (j != WIND || !terminal_off));
-        let v: [f64; 3] = core::array::from_fn(|j| if on[j] { self.v[j] } else { 0.0 });
-        let m: [[f64; 3]; 3] = core::array::from_fn(|r| {
-            core::array::from_fn(|c| {
-                if on[r] && on[c] {
-                    v[r] * v[c] + if r == c { self.leak[r] } else { 0.0 }
-                } else if r == c {
-                    1.0
-                } else {
-                    0.0
-                }
-            })
-        });
-        (inverse3(&m), v, on)
-    }
-
     /// Loop currents (A) from flux linkages `lam` (Wb) at permeance ratio `p`.
     /// `terminal_off`: the terminal loop is open (carries no current).
+    /// Closed form, or one monotone scalar equation with saturation (see the
+    /// module docs).
+    #[allow(clippy::needless_range_loop)] // four arrays indexed by loop
     pub(crate) fn currents(&self, lam: &[f64; 3], p: f64, terminal_off: bool) -> [f64; 3] {
-        let (inv, v, on) = self.inverse(terminal_off);
-        let mu: [f64; 3] = core::array::from_fn(|j| if on[j] { lam[j] / p } else { 0.0 });
-        let lin = mat_vec(&inv, &mu);
-        if !self.saturates() {
-            return lin;
-        }
+        let mu = [lam[0] / p, lam[1] / p, lam[2] / p];
         let [d, zs] = self.sat;
-        let w = mat_vec(&inv, &v);
-        let phi = dot(&w, &mu);
-        let c = dot(&v, &w);
-        if phi == 0.0 || c <= 0.0 {
-            return lin;
+        let mut i = [0.0; 3];
+        if terminal_off {
+            // z + c·Ψ(z) = φ over the secondary loops.
+            let (mut c, mut phi) = (0.0, 0.0);
+            for j in 1..3 {
+                if self.active[j] {
+                    c += self.v[j] * self.v[j] / self.leak[j];
+                    phi += self.v[j] * mu[j] / self.leak[j];
+                }
+            }
+            let ps = if !self.saturates() {
+                phi / (1.0 + c) // Ψ(z) = z
+            } else {
+                // z ∈ [|φ|/(1 + c), |φ|/(1 + c·(1 − d))] since (1 − d)·z ≤ Ψ(z) ≤ z.
+                let a = phi.abs();
+                let f = |z: f64| {
+                    let (ps, dps) = psi(z, d, zs);
+                    (z + c * ps - a, 1.0 + c * dps)
+                };
+                let lo = a / (1.0 + c);
+                let z = crate::node::solve_increasing(f, lo, a / (1.0 + c * (1.0 - d)), lo);
+                psi(z, d, zs).0.copysign(phi)
+            };
+            for j in 1..3 {
+                if self.active[j] {
+                    i[j] = (mu[j] - self.v[j] * ps) / self.leak[j];
+                }
+            }
+            return i;
         }
-        let a = phi.abs();
-        // (1 − c)·z + c·Ψ(z) = |φ|, increasing in z; root in [|φ|, |φ|/(1 − c·d)].
-        let f = |z: f64| {
-            let (ps, dps) = psi(z, d, zs);
-            ((1.0 - c) * z + c * ps - a, (1.0 - c) + c * dps)
+        // Ψ(z) = μ₀/v₀ (the winding has no leakage of its own).
+        let ps = mu[WIND] / self.v[WIND];
+        let z = if !self.saturates() {
+            ps
+        } else {
+            // z ∈ [|ψ|, |ψ|/(1 − d)]; start at the fixed point |ψ|/(1 − d·s(|ψ|/z_s)).
+            let a = ps.abs();
+            let f = |z: f64| {
+                let (v, dv) = psi(z, d, zs);
+                (v - a, dv)
+            };
+            let u = a / zs;
+            let z0 = a / (1.0 - d * u * u / (1.0 + u * u));
+            crate::node::solve_increasing(f, a, a / (1.0 - d), z0).copysign(ps)
         };
-        // Start from the fixed point z = |φ|/(1 − c·d·s(|φ|/z_s)), inside the bracket.
-        let u = a / zs;
-        let z0 = a / (1.0 - c * d * u * u / (1.0 + u * u));
-        let z = crate::node::solve_increasing(f, a, a / (1.0 - c * d), z0);
-        let z = if phi < 0.0 { -z } else { z };
-        let (ps, _) = psi(z, d, zs);
-        let corr = ps - z;
-        core::array::from_fn(|j| lin[j] - w[j] * corr)
+        let mut rest = z;
+        for j in 1..3 {
+            if self.active[j] {
+                i[j] = (mu[j] - self.v[j] * ps) / self.leak[j];
+                rest -= self.v[j] * i[j];
+            }
+        }
+        i[WIND] = rest / self.v[WIND];
+        i
     }
 
     /// Flux linkages (Wb) from loop currents at permeance ratio `p`.

@@ -70,7 +70,8 @@ pub(crate) struct Eff {
     pub moving: bool,
     pub arm: Armature,
     /// Linear coil with no secondary loop and no saturation: the plain
-    /// `i = λ/L(x)` path (kept arithmetic-for-arithmetic).
+    /// `i = λ/L(x)` path (kept arithmetic-for-arithmetic). Read it through
+    /// [`Eff::plain`].
     pub simple: bool,
     /// The coupled-loop model (used when not `simple`).
     pub loops: Loops,
@@ -104,7 +105,14 @@ impl Eff {
             ),
             Mechanics::Moving(a) => (a.stroke_m, !f.stuck, a),
         };
+        #[cfg(not(feature = "coupled-physics"))]
+        let loops = {
+            let _ = mag;
+            Loops::plain(r_coil)
+        };
+        #[cfg(feature = "coupled-physics")]
         let coil = &p.coil;
+        #[cfg(feature = "coupled-physics")]
         let loops = match f.short {
             Some(_) => Loops::new(l_op, r_coil, 1.0, l_op, None, &Magnetics::LINEAR),
             None => Loops::new(
@@ -131,6 +139,13 @@ impl Eff {
         }
     }
 
+    /// Whether the channel takes the plain-coil path: always without the
+    /// `coupled-physics` feature (the coupled-loop code is then not linked).
+    #[inline(always)]
+    pub(crate) fn plain(&self) -> bool {
+        !cfg!(feature = "coupled-physics") || self.simple
+    }
+
     /// Flux linkages of the three loops in a state.
     #[inline]
     pub(crate) fn lams(y: &[f64; K]) -> [f64; 3] {
@@ -139,9 +154,10 @@ impl Eff {
 
     /// Loop currents (A) in state `y`; `terminal_off`: the terminal loop
     /// carries no current (open, or clamp blocking).
+    #[inline(never)]
     pub(crate) fn currents(&self, y: &[f64; K], terminal_off: bool) -> [f64; 3] {
         let (l, _) = self.inductance(y[POS] / self.stroke);
-        if self.simple {
+        if self.plain() {
             let i = if terminal_off { 0.0 } else { y[LAM] / l };
             return [i, 0.0, 0.0];
         }
@@ -150,9 +166,10 @@ impl Eff {
     }
 
     /// Stored magnetic energy (J) in state `y` (see [`Eff::currents`]).
+    #[inline(never)]
     pub(crate) fn stored(&self, y: &[f64; K], terminal_off: bool) -> f64 {
         let (l, _) = self.inductance(y[POS] / self.stroke);
-        if self.simple {
+        if self.plain() {
             let i = if terminal_off { 0.0 } else { y[LAM] / l };
             return 0.5 * l * i * i;
         }
@@ -163,9 +180,10 @@ impl Eff {
     }
 
     /// Set the flux linkages of `y` from loop currents `i` (A).
+    #[inline(never)]
     pub(crate) fn set_currents(&self, y: &mut [f64; K], i: &[f64; 3]) {
         let (l, _) = self.inductance(y[POS] / self.stroke);
-        if self.simple {
+        if self.plain() {
             y[LAM] = l * i[WIND];
             y[LAM_S] = 0.0;
             y[LAM_E] = 0.0;
@@ -223,7 +241,7 @@ pub(crate) fn operate(
     let x = pos / e.stroke;
     let (l, dldx) = e.inductance(x);
     let terminal_off = e.open || (blocked && p.snubber.is_none() && !gate);
-    let (i, force) = if e.simple {
+    let (i, force) = if e.plain() {
         let i = if e.open { 0.0 } else { y[LAM] / l };
         (i, 0.5 * i * i * dldx / e.stroke)
     } else {
@@ -308,7 +326,7 @@ pub(crate) fn derive(
     let i = op.i;
     let n = op.node;
     let r_series = e.r_coil + e.r_wire;
-    if e.simple {
+    if e.plain() {
         out[LAM] = if op.terminal_off {
             0.0
         } else {

@@ -201,3 +201,28 @@ impl AdcConfig {
         }
     }
 }
+
+/// Errors of a channel's current comparator ([`crate::Comparator`]): an
+/// input offset and a propagation delay, set with
+/// [`crate::Bench::set_comparator_errors`] at any time.
+///
+/// The comparator trips when the sensed current first reaches
+/// `threshold + offset_amps` after a switch-on, and reports the trip
+/// `delay_ns` later: [`crate::ChannelStats::comparator_trip_ns`] and the
+/// [`crate::EventKind::ComparatorTrip`] event carry the delayed time (so the
+/// event can precede, in a recording, events of the following `delay_ns`).
+#[derive(Debug, Clone, Copy, PartialEq, Default)]
+pub struct ComparatorErrors {
+    /// Input offset referred to the sensed current, A (finite, either sign).
+    pub offset_amps: f64,
+    /// Propagation delay from the crossing to the reported trip, ns.
+    pub delay_ns: u64,
+}
+
+impl ComparatorErrors {
+    /// No offset, no delay.
+    pub const NONE: Self = ComparatorErrors {
+        offset_amps: 0.0,
+        delay_ns: 0,
+    };
+}

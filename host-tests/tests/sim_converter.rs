@@ -13,7 +13,7 @@
 mod sim_common;
 use sim_common::*;
 
-use coilwise_host_tests::{AdcConfig, Clamp, Prng, Rig};
+use coilwise_host_tests::{AdcConfig, Clamp, Comparator, ComparatorErrors, Prng, Rig, SensePoint};
 
 const N: usize = 40_000;
 
@@ -149,4 +149,62 @@ fn start_latency_shifts_the_captured_rise() {
     for k in 0..63 {
         assert!(half[k] >= ideal[k] && half[k] <= ideal[k + 1], "sample {k}");
     }
+}
+
+/// Comparator errors: an input offset moves the trip to the time the rise
+/// reaches `threshold + offset`, `t = −τ·ln(1 − I/I∞)` (first-order RL step
+/// response, textbook, from memory); a propagation delay adds itself.
+#[test]
+fn comparator_offset_and_delay_move_the_trip() {
+    let r = r_on_loop(RCOIL);
+    let (i_inf, tau) = (24.0 / r, LCOIL / r);
+    let th = 0.05;
+    let trip = |errors: ComparatorErrors| {
+        let mut b = bench1(24.0, fixed_channel(RCOIL, LCOIL, Clamp::None));
+        b.set_comparator(
+            0,
+            Some(Comparator {
+                threshold_amps: th,
+                sense: SensePoint::Coil,
+            }),
+        )
+        .unwrap();
+        b.set_comparator_errors(0, errors).unwrap();
+        b.set_gate(0, true).unwrap();
+        b.advance_ns(10_000_000);
+        b.stats(0).unwrap().comparator_ns_since_on().unwrap() as f64
+    };
+    let t_at = |i: f64| -tau * (1.0 - i / i_inf).ln() * 1e9;
+    let ideal = trip(ComparatorErrors::NONE);
+    let late = trip(ComparatorErrors {
+        offset_amps: 0.0,
+        delay_ns: 1_500,
+    });
+    let high = trip(ComparatorErrors {
+        offset_amps: 0.004,
+        delay_ns: 0,
+    });
+    let low = trip(ComparatorErrors {
+        offset_amps: -0.004,
+        delay_ns: 700,
+    });
+    eprintln!(
+        "comparator: ideal {ideal} ns (law {:.0}), +1.5 µs delay {late}, +4 mA {high} (law {:.0}), −4 mA +0.7 µs {low} (law {:.0})",
+        t_at(th),
+        t_at(th + 0.004),
+        t_at(th - 0.004) + 700.0
+    );
+    assert_eq!(late, ideal + 1_500.0);
+    // The crossing is interpolated linearly inside a step of at most 10 µs:
+    // time error up to h²/(8τ) on an exponential rise, plus 1 ns of rounding.
+    let bound = (10e-6f64).powi(2) / (8.0 * tau) * 1e9 + 1.0;
+    assert!((ideal - t_at(th)).abs() < bound);
+    assert!((high - t_at(th + 0.004)).abs() < bound, "{bound}");
+    assert!((low - t_at(th - 0.004) - 700.0).abs() < bound);
+    let mut b = bench1(24.0, fixed_channel(RCOIL, LCOIL, Clamp::None));
+    let bad = ComparatorErrors {
+        offset_amps: f64::NAN,
+        delay_ns: 0,
+    };
+    assert!(b.set_comparator_errors(0, bad).is_err());
 }

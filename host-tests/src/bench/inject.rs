@@ -103,7 +103,7 @@ impl<const N: usize> Bench<N> {
     fn rebuild(&mut self, c: usize, f: FaultSet, mag: Magnetics) {
         let old = self.op(c);
         let old_il = self.eff[c].currents(&self.y.ch[c], old.terminal_off);
-        let old_simple = self.eff[c].simple;
+        let old_simple = self.eff[c].plain();
         let had_section = self.eff[c].loops.active[SECT];
         let was_open = self.eff[c].open;
         let w_old = if old_simple {
@@ -117,7 +117,7 @@ impl<const N: usize> Bench<N> {
         let e = &self.eff[c];
         let y = &mut self.y.ch[c];
         let i_new = if e.open || was_open { 0.0 } else { old.i };
-        let w_new = if e.simple && old_simple {
+        let w_new = if e.plain() && old_simple {
             let (l_new, _) = e.inductance(y[plant::POS] / e.stroke);
             y[plant::LAM] = l_new * i_new;
             0.5 * l_new * i_new * i_new

@@ -17,6 +17,7 @@ use crate::observe::{
 };
 use crate::params::{ChannelParams, Mechanics, SimError, Supply};
 use crate::plant::{self, Eff, Op, K};
+use crate::sense::ComparatorErrors;
 use crate::settings::{SolverSettings, Stepping};
 use drive::Drive;
 
@@ -42,6 +43,7 @@ struct Status {
     removed: f64,
     impact: f64,
     comparator: Option<Comparator>,
+    cmp_errors: ComparatorErrors,
     armed: bool,
     prev_sense: f64,
     prev_t_ns: f64,
@@ -54,8 +56,8 @@ struct Status {
 /// [`Bench::set_gate`] / [`Bench::set_pwm`] (or [`crate::GatePin`] /
 /// [`crate::PwmGate`]).
 ///
-/// Memory: about `(18·N + 3)·8` bytes per state copy; a step keeps seven
-/// copies on the stack (≈ 1.2 KiB for N = 1).
+/// Memory: about `(18·N + 3)·8` bytes per state copy; a step keeps four
+/// copies on the stack (≈ 0.7 KiB for N = 1) besides the bench's own two.
 #[derive(Debug, Clone)]
 pub struct Bench<const N: usize> {
     supply: Supply,
@@ -115,6 +117,7 @@ impl<const N: usize> Bench<N> {
             removed: 0.0,
             impact: 0.0,
             comparator: None,
+            cmp_errors: ComparatorErrors::NONE,
             armed: false,
             prev_sense: 0.0,
             prev_t_ns: 0.0,
@@ -250,6 +253,22 @@ impl<const N: usize> Bench<N> {
         Ok(())
     }
 
+    /// Give a channel's comparator an input offset and a propagation delay
+    /// ([`ComparatorErrors`]); kept when the comparator is replaced.
+    ///
+    /// Errors: [`SimError::NoSuchChannel`];
+    /// [`SimError::InvalidParameter`]`("comparator.offset_amps")` if not finite.
+    pub fn set_comparator_errors(
+        &mut self,
+        ch: usize,
+        errors: ComparatorErrors,
+    ) -> Result<(), SimError> {
+        self.check_ch(ch)?;
+        crate::params::check(errors.offset_amps.is_finite(), "comparator.offset_amps")?;
+        self.st[ch].cmp_errors = errors;
+        Ok(())
+    }
+
     fn emit(&mut self, ch: usize, kind: EventKind, t_ns: u64) {
         #[cfg(feature = "std")]
         if let Some(r) = self.rec.as_mut() {
@@ -333,7 +352,7 @@ impl<const N: usize> Bench<N> {
             self.gate[c] = g;
             self.k1_valid = false;
             if g {
-                if self.blocked[c] && !self.eff[c].simple {
+                if self.blocked[c] && !self.eff[c].plain() {
                     // The winding's flux linkage was not integrated while the
                     // clamp blocked: make it consistent with zero current.
                     let e = &self.eff[c];

@@ -76,7 +76,7 @@ impl<const N: usize> Bench<N> {
             damping: y[plant::E_DAMP],
             impact: self.st[c].impact,
             removed_by_events: self.st[c].removed,
-            magnetic_stored: if e.simple {
+            magnetic_stored: if e.plain() {
                 0.5 * op.l * op.i * op.i
             } else {
                 e.stored(y, op.terminal_off)

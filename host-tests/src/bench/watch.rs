@@ -31,7 +31,7 @@ impl<const N: usize> Bench<N> {
                     (None, false)
                 };
                 if let Some(pt) = target {
-                    let (mag_old, mag_new) = if e.simple {
+                    let (mag_old, mag_new) = if e.plain() {
                         let (l_old, _) = e.inductance(p / e.stroke);
                         let (l_new, _) = e.inductance(pt / e.stroke);
                         let lam = y[plant::LAM];
@@ -60,13 +60,13 @@ impl<const N: usize> Bench<N> {
             if !self.gate[c] && !self.blocked[c] && no_snubber && !e.open {
                 let y = &mut self.y.ch[c];
                 let (l, _) = e.inductance(y[plant::POS] / e.stroke);
-                let i = if e.simple {
+                let i = if e.plain() {
                     y[plant::LAM] / l
                 } else {
                     e.currents(y, false)[0]
                 };
                 if i <= floor {
-                    if e.simple {
+                    if e.plain() {
                         self.st[c].removed += 0.5 * l * i * i;
                         y[plant::LAM] = 0.0;
                     } else {
@@ -176,10 +176,16 @@ impl<const N: usize> Bench<N> {
             SensePoint::Coil => op.i,
         };
         let s = self.st[c];
-        if s.armed && s.prev_sense < cmp.threshold_amps && q >= cmp.threshold_amps {
-            let th = (cmp.threshold_amps - s.prev_sense) / (q - s.prev_sense);
+        let errs = s.cmp_errors;
+        let level = if errs.offset_amps != 0.0 {
+            cmp.threshold_amps + errs.offset_amps
+        } else {
+            cmp.threshold_amps
+        };
+        if s.armed && s.prev_sense < level && q >= level {
+            let th = (level - s.prev_sense) / (q - s.prev_sense);
             let tc = s.prev_t_ns + th * (t_ns - s.prev_t_ns);
-            let tu = libm::round(tc) as u64;
+            let tu = (libm::round(tc) as u64).saturating_add(errs.delay_ns);
             self.st[c].stats.comparator_trip_ns = Some(tu);
             self.st[c].armed = false;
             self.emit(c, EventKind::ComparatorTrip, tu);
