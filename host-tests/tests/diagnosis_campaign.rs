@@ -83,9 +83,8 @@ fn field_campaign() {
         for m in 0..3 {
             print_matrix(MODES[m], &rows[m]);
         }
-        // Targets of the issue, per mode; a miss is recorded with its number, never asserted
-        // away. Shorted turns ≥ 25 %, open and short are asserted in every mode; the rest
-        // where the issue asks for them.
+        // Targets of the issue, per mode. Those met at full size (docs/diagnosis.md §9) are
+        // asserted; a miss is recorded with its number, never asserted away.
         for m in 0..3 {
             let mode = &MODES[m][..1];
             let find = |label: &str| {
@@ -106,10 +105,24 @@ fn field_campaign() {
                     100.0 * r.rate(fa),
                     100.0 * r.rate(r.cannot_tell())
                 );
-                if fa as f64 > 0.001 * r.total as f64 || r.rate(r.cannot_tell()) > 0.02 {
-                    missed.push(line);
-                } else {
+                let met = fa as f64 <= 0.001 * r.total as f64 && r.rate(r.cannot_tell()) <= 0.02;
+                // Met at full size: every phenomenon but the eddy loop, saturation (no verdict
+                // above 2 %; its false alarms are asserted in A and B) and all together.
+                let held = matches!(
+                    ph,
+                    Phenomenon::Ideal
+                        | Phenomenon::Initial
+                        | Phenomenon::Converter
+                        | Phenomenon::Latency
+                );
+                let sat_fa =
+                    ph == Phenomenon::Saturation && m < 2 && fa as f64 > 0.001 * r.total as f64;
+                if (held && !met) || sat_fa {
+                    failures.push(line);
+                } else if met {
                     println!("met: {line}");
+                } else {
+                    missed.push(line);
                 }
             }
             let mut target = |t: Truth, goal: f64, assert_it: bool| {
@@ -142,7 +155,7 @@ fn field_campaign() {
                 target(Truth::ShortedTurns(0.10), 0.95, false);
             }
             if m > 0 {
-                target(Truth::SupplyLow, 0.99, false);
+                target(Truth::SupplyLow, 0.99, true);
             }
         }
     }
