@@ -104,7 +104,7 @@ pub static SCRIPT: [Scripted; 6] = [
         at_ms: 450,
         what: Happening::Fault {
             channel: A,
-            fault: Fault::ShortedTurns { fraction: 0.3 },
+            fault: Fault::ShortedTurnsLumped { fraction: 0.3 },
         },
     },
     Scripted {
@@ -221,7 +221,9 @@ fn truth(ch: usize, t_ms: u32) -> Finding {
             Happening::Fault { channel, fault } if channel == ch => {
                 finding = match fault {
                     Fault::Open => Finding::OpenCircuit,
-                    Fault::ShortedTurns { .. } => Finding::ShortedTurns,
+                    Fault::ShortedTurns { .. } | Fault::ShortedTurnsLumped { .. } => {
+                        Finding::ShortedTurns
+                    }
                     _ => Finding::CannotTell(coilwise::diagnosis::Undetermined::NotYet),
                 };
             }

@@ -14,7 +14,8 @@ use embedded_hal::delay::DelayNs;
 use embedded_hal::digital::{ErrorType, OutputPin, StatefulOutputPin};
 use embedded_hal::pwm::SetDutyCycle;
 
-use crate::bench::{Bench, SensePoint};
+use crate::bench::Bench;
+use crate::observe::SensePoint;
 use crate::params::{check, SimError};
 use crate::sense::{AdcConfig, Prng};
 
@@ -240,11 +241,13 @@ impl<const N: usize> SenseAdc<'_, N> {
         self.cfg.convert(a, &mut self.rng)
     }
 
-    /// Timer-triggered burst: `buf[k]` is converted at `now + k·interval_ns`.
-    /// Returns with the clock at the last conversion
-    /// (`now + (len − 1)·interval_ns`).
+    /// Timer-triggered burst, triggered now: `buf[k]` is converted at
+    /// `now + delay + k·interval_ns`, `delay` being the converter's start
+    /// latency and jitter ([`AdcConfig::start_delay_ns`]; 0 by default).
+    /// Returns with the clock at the last conversion.
     pub fn capture(&mut self, buf: &mut [u16], interval_ns: u64) {
-        let t0 = self.rig.bench().now_ns();
+        let delay = self.cfg.start_delay_ns(&mut self.rng);
+        let t0 = self.rig.bench().now_ns().saturating_add(delay);
         for (k, slot) in buf.iter_mut().enumerate() {
             let t = t0.saturating_add(interval_ns.saturating_mul(k as u64));
             self.rig.bench_mut().advance_to(t);

@@ -3,7 +3,7 @@
 
 use std::vec::Vec;
 
-use crate::bench::{ArmatureState, Event, EventKind, Probe};
+use crate::observe::{ArmatureState, Event, EventKind, Probe};
 
 /// One recorded sample of one channel.
 #[derive(Debug, Clone, Copy, PartialEq)]

@@ -1,7 +1,8 @@
-//! Current sensing as firmware sees it: ADC counts with quantisation and
-//! deterministic noise.
+//! Current sensing as firmware sees it: ADC counts with quantisation,
+//! converter errors (offset of either sign, gain error, seeded noise,
+//! clipping at both ends) and sampling-start latency with jitter.
 
-use crate::bench::SensePoint;
+use crate::observe::SensePoint;
 use crate::params::{check, finite_ge0, finite_gt0, SimError};
 
 /// Small deterministic pseudo-random generator (SplitMix64 output function
@@ -45,11 +46,20 @@ impl Prng {
     }
 }
 
-/// How an ADC channel converts current into counts.
+/// How an ADC channel converts current into counts, with its errors.
 ///
-/// `code = round(i/full_scale·2^bits + offset + noise)`, clamped to
-/// `[0, 2^bits − 1]` (unipolar), with `noise` Gaussian of
-/// `noise_lsb_rms` counts RMS.
+/// Transfer (unipolar converter):
+///
+/// `code = round((1 + g)·i/I_fs·2^bits + offset + noise)`, clipped to
+/// `[0, 2^bits − 1]`,
+///
+/// with `g` the gain error, `offset` in counts of either sign (a negative
+/// offset reads small currents as 0: the converter clips at zero, it cannot
+/// report below it), and `noise` Gaussian of `noise_lsb_rms` counts RMS from
+/// a seeded [`Prng`]. Timing: a burst of conversions triggered at a
+/// switch-on edge starts `start_latency_ns + U(0, start_jitter_ns)` after
+/// it ([`AdcConfig::start_delay_ns`], used by [`crate::SenseAdc::capture`]).
+/// All errors are zero in [`AdcConfig::new`].
 #[derive(Debug, Clone, Copy, PartialEq)]
 pub struct AdcConfig {
     /// Resolution in bits (1…16).
@@ -58,8 +68,16 @@ pub struct AdcConfig {
     pub full_scale_amps: f64,
     /// Gaussian noise, counts RMS (≥ 0).
     pub noise_lsb_rms: f64,
-    /// Offset error, counts (finite).
+    /// Offset error, counts (finite, either sign).
     pub offset_lsb: f64,
+    /// Relative gain error `g` (finite, > −1): `+0.01` reads 1 % high.
+    pub gain_error: f64,
+    /// Fixed delay from the trigger (switch-on edge) to the first
+    /// conversion of a burst, ns.
+    pub start_latency_ns: u64,
+    /// Extra start delay drawn uniformly in `[0, start_jitter_ns]` for each
+    /// burst, ns.
+    pub start_jitter_ns: u64,
     /// Noise seed.
     pub seed: u64,
     /// What current is sensed.
@@ -75,6 +93,9 @@ impl AdcConfig {
             full_scale_amps,
             noise_lsb_rms: 0.0,
             offset_lsb: 0.0,
+            gain_error: 0.0,
+            start_latency_ns: 0,
+            start_jitter_ns: 0,
             seed: 1,
             sense: SensePoint::Switch,
         }
@@ -91,6 +112,42 @@ impl AdcConfig {
         self.noise_lsb_rms = noise_lsb_rms;
         self.seed = seed;
         self
+    }
+
+    /// Same converter with static errors: offset (counts, either sign),
+    /// relative gain error, Gaussian noise (counts RMS) and its seed.
+    pub const fn with_errors(
+        mut self,
+        offset_lsb: f64,
+        gain_error: f64,
+        noise_lsb_rms: f64,
+        seed: u64,
+    ) -> Self {
+        self.offset_lsb = offset_lsb;
+        self.gain_error = gain_error;
+        self.noise_lsb_rms = noise_lsb_rms;
+        self.seed = seed;
+        self
+    }
+
+    /// Same converter with a sampling-start latency and jitter (ns).
+    pub const fn with_start_delay(mut self, latency_ns: u64, jitter_ns: u64) -> Self {
+        self.start_latency_ns = latency_ns;
+        self.start_jitter_ns = jitter_ns;
+        self
+    }
+
+    /// Delay of a burst's first conversion after its trigger, ns:
+    /// `start_latency_ns + U(0, start_jitter_ns)` (uniform, whole ns; draws
+    /// from `rng` only when the jitter is non-zero).
+    pub fn start_delay_ns(&self, rng: &mut Prng) -> u64 {
+        if self.start_jitter_ns == 0 {
+            return self.start_latency_ns;
+        }
+        let span = self.start_jitter_ns.saturating_add(1);
+        let extra = (rng.uniform() * span as f64) as u64;
+        self.start_latency_ns
+            .saturating_add(extra.min(self.start_jitter_ns))
     }
 
     /// Same converter with a different resolution.
@@ -114,13 +171,23 @@ impl AdcConfig {
         check((1..=16).contains(&self.bits), "adc.bits")?;
         finite_gt0(self.full_scale_amps, "adc.full_scale_amps")?;
         finite_ge0(self.noise_lsb_rms, "adc.noise_lsb_rms")?;
-        check(self.offset_lsb.is_finite(), "adc.offset_lsb")
+        check(self.offset_lsb.is_finite(), "adc.offset_lsb")?;
+        check(
+            self.gain_error.is_finite() && self.gain_error > -1.0,
+            "adc.gain_error",
+        )
     }
 
-    /// Convert a current to a code, drawing noise from `rng`.
+    /// Convert a current (A) to a code, drawing noise from `rng` (one
+    /// Gaussian draw when the noise is non-zero). The transfer is in the
+    /// type docs; NaN converts to 0.
     pub fn convert(&self, amps: f64, rng: &mut Prng) -> u16 {
         let max = ((1u32 << self.bits) - 1) as f64;
-        let mut x = amps / self.full_scale_amps * (1u32 << self.bits) as f64 + self.offset_lsb;
+        let mut ideal = amps / self.full_scale_amps * (1u32 << self.bits) as f64;
+        if self.gain_error != 0.0 {
+            ideal *= 1.0 + self.gain_error;
+        }
+        let mut x = ideal + self.offset_lsb;
         if self.noise_lsb_rms > 0.0 {
             x += self.noise_lsb_rms * rng.gaussian();
         }
@@ -133,4 +200,29 @@ impl AdcConfig {
             r as u16
         }
     }
+}
+
+/// Errors of a channel's current comparator ([`crate::Comparator`]): an
+/// input offset and a propagation delay, set with
+/// [`crate::Bench::set_comparator_errors`] at any time.
+///
+/// The comparator trips when the sensed current first reaches
+/// `threshold + offset_amps` after a switch-on, and reports the trip
+/// `delay_ns` later: [`crate::ChannelStats::comparator_trip_ns`] and the
+/// [`crate::EventKind::ComparatorTrip`] event carry the delayed time (so the
+/// event can precede, in a recording, events of the following `delay_ns`).
+#[derive(Debug, Clone, Copy, PartialEq, Default)]
+pub struct ComparatorErrors {
+    /// Input offset referred to the sensed current, A (finite, either sign).
+    pub offset_amps: f64,
+    /// Propagation delay from the crossing to the reported trip, ns.
+    pub delay_ns: u64,
+}
+
+impl ComparatorErrors {
+    /// No offset, no delay.
+    pub const NONE: Self = ComparatorErrors {
+        offset_amps: 0.0,
+        delay_ns: 0,
+    };
 }

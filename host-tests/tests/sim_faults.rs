@@ -28,14 +28,14 @@ fn rise_with(fault: Option<Fault>, ith: f64) -> (f64, Option<u64>) {
     )
 }
 
-/// Shorted turns: R·(1 − f), L·(1 − f)² ⇒ higher `I∞ = V/R_total` (Ohm's
+/// Lumped shorted turns: R·(1 − f), L·(1 − f)² ⇒ higher `I∞ = V/R_total` (Ohm's
 /// law) and a faster rise to a fixed threshold (τ = L/R shrinks) (textbook,
 /// from memory).
 #[test]
-fn shorted_turns_rise_faster_to_higher_current() {
+fn lumped_shorted_turns_rise_faster_to_higher_current() {
     let (i_ok, t_ok) = rise_with(None, 0.08);
     let f = 0.3;
-    let (i_st, t_st) = rise_with(Some(Fault::ShortedTurns { fraction: f }), 0.08);
+    let (i_st, t_st) = rise_with(Some(Fault::ShortedTurnsLumped { fraction: f }), 0.08);
     let r = RCOIL * (1.0 - f) + RWIRE + RON + RSENSE;
     assert!(rel(i_ok, 24.0 / r_on_loop(RCOIL)) < 1e-7);
     assert!(rel(i_st, 24.0 / r) < 1e-7, "{i_st} vs {}", 24.0 / r);

@@ -108,6 +108,9 @@ fn converter(spec: &crate::scenario::ChannelSpec, channel: usize) -> AdcConfig {
         full_scale_amps: apc * 4096.0,
         noise_lsb_rms: 0.6,
         offset_lsb: [3.0, 2.0, 4.0, 3.0][channel % 4],
+        gain_error: 0.0,
+        start_latency_ns: 0,
+        start_jitter_ns: 0,
         seed: 0x5EED_0000 + channel as u64,
         sense: SensePoint::Switch,
     }
@@ -162,6 +165,9 @@ const NO_ADC: AdcConfig = AdcConfig {
     full_scale_amps: 1.0,
     noise_lsb_rms: 0.0,
     offset_lsb: 0.0,
+    gain_error: 0.0,
+    start_latency_ns: 0,
+    start_jitter_ns: 0,
     seed: 0,
     sense: SensePoint::Switch,
 };
@@ -724,7 +730,7 @@ pub fn fault_name(f: &Fault) -> &'static str {
     match f {
         Fault::Open => "open wire",
         Fault::Short { .. } => "short across the coil",
-        Fault::ShortedTurns { .. } => "shorted turns",
+        Fault::ShortedTurns { .. } | Fault::ShortedTurnsLumped { .. } => "shorted turns",
         Fault::SeriesResistance { .. } => "corroded connector (series resistance)",
         Fault::StuckArmature => "stuck armature",
         _ => "other fault",
