@@ -53,8 +53,10 @@ fn op() -> impl Strategy<Value = Op> {
 fn happening() -> impl Strategy<Value = (u32, Happening)> {
     prop_oneof![
         (0u32..2_000, 0..CHANNELS).prop_map(|(t, ch)| (t, Happening::Fault(ch, Fault::Open))),
-        (0u32..2_000, 0..CHANNELS, 0.2f64..0.5)
-            .prop_map(|(t, ch, f)| (t, Happening::Fault(ch, Fault::ShortedTurns { fraction: f }))),
+        (0u32..2_000, 0..CHANNELS, 0.2f64..0.5).prop_map(|(t, ch, f)| (
+            t,
+            Happening::Fault(ch, Fault::ShortedTurnsLumped { fraction: f })
+        )),
         (0u32..2_000, 0usize..2, 0.6f64..0.8).prop_map(|(t, g, k)| {
             let nominal = if g == 0 { 24.0 } else { 12.0 };
             (t, Happening::Supply(g, nominal * k))

@@ -112,6 +112,9 @@ impl Plant {
                 full_scale_amps: apc * 4096.0,
                 noise_lsb_rms: 0.6,
                 offset_lsb: [3.0, 2.0, 4.0, 3.0][ch % 4],
+                gain_error: 0.0,
+                start_latency_ns: 0,
+                start_jitter_ns: 0,
                 seed: 0x5EED_0000 + ch as u64,
                 sense: SensePoint::Switch,
             };
