@@ -193,16 +193,14 @@ pub fn judge_response(fit: &ResponseFit, expected: &Expected, criteria: &Criteri
     } else {
         None
     };
+    let scale = eddy_scale(window_in_tau(r, expected));
     let finding = judge_slope_tau(
         r.slope,
         r.tau.value(),
         k * q.rel_sd_slope + m,
         half_tau,
         Allowances {
-            fast: (
-                criteria.fast_slope * eddy_scale(window_in_tau(r, expected)),
-                criteria.fast_tau * eddy_scale(window_in_tau(r, expected)),
-            ),
+            fast: (criteria.fast_slope * scale, criteria.fast_tau * scale),
             // Shorted turns lower the inductance (turns squared) at least as much as the
             // resistance; a resistance below the band with the inductance inside it is not their
             // physics (it is what saturation does to τ on a short window): a shape, not a fault.
