@@ -36,7 +36,7 @@
 //! test).
 //!
 //! Cost (QEMU instruction count, 64 `u16` samples, fit with the verdict, measured when
-//! [`super::verdict::judge_trace`] used this fit; it now uses [`fit_response`], 5 384
+//! [`super::verdict::judge_trace`] used this fit; it now uses [`fit_response`], 5 558
 //! instructions, see `docs/diagnosis.md` §3a): 2 832 instructions on a Cortex-M4F (about 12.5
 //! per sample in the survey pass of a trace that never falls, about 16 per refinement pass, the
 //! rest fixed), stack 320 bytes; about 232 000 instructions on a Cortex-M0 without FPU (soft

@@ -185,12 +185,13 @@ pub struct Criteria {
     /// Dip detection settings.
     pub movement: MovementCriteria,
     /// Free-level verdicts ([`judge_response`]): how much higher than the first-order model the
-    /// slope of a healthy coil with an eddy-current path may read (default 0.10). Sized for an
-    /// eddy path whose fast mode takes up to 2 % of the current with a time constant up to 20 %
-    /// of τ: measured +8.2 % on a window covering 30 % of the rise (`docs/diagnosis.md`, §
-    /// eddy currents). A coil with a stronger eddy path needs a larger allowance.
+    /// slope of a healthy coil with an eddy-current path may read (default 0.34). Sized for an
+    /// eddy path whose fast mode takes 0.5–5 % of the current with a time constant of 3–20 % of
+    /// τ: the worst slope bias measured over that range on a diagnostic pulse was +34 %
+    /// (`docs/diagnosis.md` §9). A coil known to have a weaker eddy path can use less and gains
+    /// resistance sensitivity.
     pub fast_slope: f32,
-    /// The same for τ reading low (default 0.25; measured −22.2 % for that path).
+    /// The same for τ reading low (default 0.63; worst measured −63 % over that range).
     pub fast_tau: f32,
     /// Largest head shortfall below the slow mode a healthy coil may show, as a fraction of the
     /// final current (default 0.03): beyond it the fast component is a tightly coupled closed
@@ -220,8 +221,8 @@ impl Default for Criteria {
             open_fraction: 0.02,
             pre_movement_fraction: 0.8,
             movement: MovementCriteria::default(),
-            fast_slope: 0.10,
-            fast_tau: 0.25,
+            fast_slope: 0.34,
+            fast_tau: 0.63,
             head_fraction: 0.03,
             smooth_dw: 1.0,
             baseline_margin: 0.02,

@@ -119,6 +119,37 @@ pub fn judge_rise(fit: &RiseFit, expected: &Expected, criteria: &Criteria) -> Ve
     fail(finding)
 }
 
+/// The window's length in time constants of the slowest healthy coil: `t_last/τ_max`, with
+/// `t_last = −ln(1 − covered)·τ_fit` from the fit's coverage. Taken against the band's longest τ
+/// rather than the fitted one, because an eddy path biases the fitted τ short, which would make
+/// the window look longer exactly when the allowance is needed. 0 when not finite.
+fn window_in_tau(r: &RiseFit, expected: &Expected) -> f32 {
+    let c = r.quality.rise_covered;
+    if !(c > 0.0 && c < 1.0) {
+        return 0.0;
+    }
+    let w = -libm::log1pf(-c) * r.tau.value() / expected.tau.max.value();
+    if w.is_finite() && w > 0.0 {
+        w
+    } else {
+        0.0
+    }
+}
+
+/// How much of the diagnostic-pulse eddy allowance applies to a window `w` time constants long:
+/// `min(1, e^(−(w − 0.36)/0.45))`. The eddy path's bias falls fast as the window grows past the
+/// fast mode: measured on the analytic two-loop rise for the worst path of the range (5 % of the
+/// current, τ_f 20 % of τ), τ −41 % at w = 0.36, −19 % at 0.7, −4 % at 1.2, −1 % at 1.8; the law
+/// bounds every point (`docs/diagnosis.md` §9).
+fn eddy_scale(w: f32) -> f32 {
+    let s = libm::expf(-(w - 0.36) / 0.45);
+    if s < 1.0 {
+        s
+    } else {
+        1.0
+    }
+}
+
 /// Judges a free-level fit ([`fit_response`]) against the bands: as [`judge_rise`], with four
 /// differences that follow the physics of a real coil.
 ///
@@ -127,7 +158,7 @@ pub fn judge_rise(fit: &RiseFit, expected: &Expected, criteria: &Criteria) -> Ve
 ///    the model leaves out) and [`Finding::SensorImplausible`]`(PoorFit)` only when they are
 ///    noise-like (a noisy or intermittent sensor).
 /// 2. The slope may read up to `fast_slope` high and τ up to `fast_tau` low before the band
-///    counts them (a healthy coil's eddy path; one-sided: the side the physics biases).
+///    counts them, scaled down for windows longer than a diagnostic pulse's (see `eddy_scale`) (a healthy coil's eddy path; one-sided: the side the physics biases).
 /// 3. A resistance below the band with the inductance inside it is [`Finding::ShapeUnexplained`]:
 ///    shorted turns lower the inductance at least as much (turns squared against turns), while
 ///    saturation lengthens the fitted τ of a short window and looks like exactly this.
@@ -162,13 +193,14 @@ pub fn judge_response(fit: &ResponseFit, expected: &Expected, criteria: &Criteri
     } else {
         None
     };
+    let scale = eddy_scale(window_in_tau(r, expected));
     let finding = judge_slope_tau(
         r.slope,
         r.tau.value(),
         k * q.rel_sd_slope + m,
         half_tau,
         Allowances {
-            fast: (criteria.fast_slope, criteria.fast_tau),
+            fast: (criteria.fast_slope * scale, criteria.fast_tau * scale),
             // Shorted turns lower the inductance (turns squared) at least as much as the
             // resistance; a resistance below the band with the inductance inside it is not their
             // physics (it is what saturation does to τ on a short window): a shape, not a fault.

@@ -68,9 +68,25 @@ fn named_faults() {
     // Shorted turns, 25 %: R × 0.75, L × 0.75² (inductance goes with turns squared).
     let v = judge(&counts(135.0, 0.30 * 0.5625, 24.0, 64), &at_20c());
     assert_eq!(v.finding, Finding::ShortedTurns, "{v:?}");
-    // A connector adding 90 Ω (+50 %) at a known temperature.
+    // A connector adding 90 Ω (+50 %) at a known temperature. The window covers 99 % of the rise,
+    // so the eddy allowance (sized for a diagnostic pulse's 30 %) has shrunk to nothing.
     let v = judge(&counts(270.0, 0.30, 24.0, 64), &at_20c());
     assert_eq!(v.finding, Finding::HighResistance, "{v:?}");
+    // On the first 9 samples (34 % of the rise) the full allowance applies: a healthy coil with
+    // an eddy path of 5 % of the current can shorten τ as much, so the same +50 % is not named;
+    // a coil declared free of eddy paths (no allowance) is.
+    let head = &counts(270.0, 0.30, 24.0, 64)[..9];
+    let e = Expected::new(&valve_design(), &at_20c()).unwrap();
+    let no_eddy = Criteria {
+        fast_slope: 0.0,
+        fast_tau: 0.0,
+        ..Criteria::default()
+    };
+    let o = FitOptions::default();
+    let with = judge_trace(head, &adc(), &e, &Criteria::default(), &o);
+    let without = judge_trace(head, &adc(), &e, &no_eddy, &o);
+    assert_ne!(with.finding, Finding::HighResistance, "{with:?}");
+    assert_eq!(without.finding, Finding::HighResistance, "{without:?}");
     // A sagging 17 V supply that nobody measured.
     let none = Conditions::default();
     let v = judge(&counts(180.0, 0.30, 17.0, 64), &none);
