@@ -72,8 +72,11 @@ pub(crate) enum BaseState {
 }
 
 /// Whether a baseline could be this design's coil: `L_b ∈ [k_s·V_d/s_max·(1 − a_s − m),
-/// k_s·V_d/s_min·(1 + m)]` and `R_b + R_ext ∈ [k_s·V_d/I∞,max·(1 − m), k_s·V_d/I∞,min·(1 + m)]`
-/// (`a_s` the eddy allowance on the slope, `m` the model margin plus the baseline margin). The
+/// k_s·V_d/s_min·(1 + m)]` and `R_b + R_ext ∈ [k_s·V_d/I∞,max·(1 − m),
+/// k_s·V_d/I∞,min·(1 + m)/(1 − a_τ)]` (`a_s`, `a_τ` the eddy allowances on slope and τ: an eddy
+/// path shortens the fitted τ of a diagnostic pulse, so its extrapolated `I∞` reads low and the
+/// learnt resistance high, consistently from pulse to pulse; `m` the model margin plus the
+/// baseline margin). The
 /// bands are those of the whole supply and temperature range, so a record of another coil of the
 /// same design passes: the check is for a record of another design or channel, not of another
 /// sample of the part.
@@ -85,7 +88,7 @@ fn fits_design(b: &Baseline, e: &Expected, c: &coilwise::diagnosis::Criteria) ->
     let l_hi = drive / e.slope.min * (1.0 + m);
     let r_on = b.resistance().value() + e.external_resistance().value();
     let r_lo = drive / e.final_current.max.value() * (1.0 - m);
-    let r_hi = drive / e.final_current.min.value() * (1.0 + m);
+    let r_hi = drive / e.final_current.min.value() * (1.0 + m) / (1.0 - c.fast_tau).max(0.05);
     l >= l_lo && l <= l_hi && r_on >= r_lo && r_on <= r_hi
 }
 

@@ -356,6 +356,18 @@ pub fn event(
             "t={=u32}.{=u32:03} ms  {=u32} driver event(s) lost (queue full)",
             ms, us, count
         ),
+        EventKind::BaselineLearned { pulses } => defmt::info!(
+            "t={=u32}.{=u32:03} ms  ch{=usize} {=str} baseline learnt from {=u8} healthy diagnostic pulses (each judged against the design bands first)",
+            ms, us, i, name, pulses
+        ),
+        EventKind::BaselineNotLearned(why) => defmt::warn!(
+            "t={=u32}.{=u32:03} ms  ch{=usize} {=str} no baseline learnt: {=str}; judged against the design bands",
+            ms, us, i, name, words::learn_error(why)
+        ),
+        EventKind::BaselineRejected(why) => defmt::warn!(
+            "t={=u32}.{=u32:03} ms  ch{=usize} {=str} stored baseline refused: {=str}; it learns afresh",
+            ms, us, i, name, words::baseline_error(why)
+        ),
         _ => defmt::info!("t={=u32}.{=u32:03} ms  ch{=usize} other event", ms, us, i),
     }
 }

@@ -28,7 +28,7 @@ fn pulse_of(t0: Instant, s: &Step) -> Pulse {
 /// Logs and checks every queued event of the driver.
 #[inline(never)]
 fn drain<Sw, Pwm, Sense>(
-    drv: &mut Drv<Sw, Pwm, Sense>,
+    drv: &mut Drv<'_, Sw, Pwm, Sense>,
     now: Instant,
     specs: &[ChannelSpec; CHANNELS],
     bands: &[(f32, f32); CHANNELS],
@@ -51,7 +51,7 @@ fn drain<Sw, Pwm, Sense>(
 /// Makes programme step `index`'s request and hands its outcome to the checker.
 #[inline(never)]
 fn request<Sw, Pwm, Sense>(
-    drv: &mut Drv<Sw, Pwm, Sense>,
+    drv: &mut Drv<'_, Sw, Pwm, Sense>,
     now: Instant,
     index: usize,
     s: &Step,
@@ -97,7 +97,7 @@ fn request<Sw, Pwm, Sense>(
 /// The driver's (time going backwards: a broken clock).
 #[inline(never)]
 pub fn run<Sw, Pwm, Sense, C>(
-    drv: &mut Drv<Sw, Pwm, Sense>,
+    drv: &mut Drv<'_, Sw, Pwm, Sense>,
     clock: &mut C,
     specs: &[ChannelSpec; CHANNELS],
     checker: &mut Checker,
@@ -161,7 +161,7 @@ where
 /// driver may be used.
 #[inline(never)]
 pub fn commission<Sw, Pwm, Sense, C>(
-    drv: &mut Drv<Sw, Pwm, Sense>,
+    drv: &mut Drv<'_, Sw, Pwm, Sense>,
     clock: &mut C,
     specs: &[ChannelSpec; CHANNELS],
     checker: &mut Checker,
@@ -206,7 +206,7 @@ where
 }
 
 /// The healthy comparator band of every channel, ms (for the log).
-fn bands<Sw, Pwm, Sense>(drv: &Drv<Sw, Pwm, Sense>) -> [(f32, f32); CHANNELS]
+fn bands<Sw, Pwm, Sense>(drv: &Drv<'_, Sw, Pwm, Sense>) -> [(f32, f32); CHANNELS]
 where
     Sense: CurrentSense,
 {

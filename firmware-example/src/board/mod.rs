@@ -23,6 +23,7 @@
 //! - [`monitor::Monitor`] watches the edges the pins really made and what the plant did, and
 //!   reports every broken constraint: the independent check of the scheduler's output.
 
+pub mod flash;
 mod handles;
 pub mod monitor;
 pub mod parts;
@@ -62,6 +63,22 @@ pub enum Happening {
         channel: usize,
         /// What breaks.
         fault: Fault,
+    },
+    /// The channel's coil still carries `amps` at its next switch-on, as a pulse soon after a
+    /// release leaves it (the driver's own minimum off-times never do here: every clamp of the
+    /// scenario brings the current to zero before they end, so the world puts it there).
+    Residual {
+        /// The channel.
+        channel: usize,
+        /// Current left at switch-on, A.
+        amps: f64,
+    },
+    /// A bit of the flash page flips (a worn or disturbed cell): `byte ^ mask` at `offset`.
+    FlashBitFlip {
+        /// Byte offset in the page.
+        offset: u16,
+        /// Bits flipped.
+        mask: u8,
     },
     /// A rail's open-circuit voltage changes (a sag, or its recovery).
     Supply {
@@ -132,6 +149,10 @@ pub struct Plant {
     pin: [bool; CHANNELS],
     duty: [u16; CHANNELS],
     faulted: [bool; CHANNELS],
+    /// Current left at the next switch-on, per channel (script).
+    residual: [Option<f64>; CHANNELS],
+    /// The flash page (survives the simulated reset).
+    pub flash: flash::SimFlash,
     capture: [CaptureState; CHANNELS],
     script: &'static [Scripted],
     next_event: usize,
@@ -180,6 +201,8 @@ impl Plant {
             pin: [false; CHANNELS],
             duty: [0; CHANNELS],
             faulted: [false; CHANNELS],
+            residual: [None; CHANNELS],
+            flash: flash::SimFlash::new(),
             capture: [IDLE_CAPTURE; CHANNELS],
             script: &[],
             next_event: 0,
@@ -204,6 +227,10 @@ impl Plant {
                 Some(Bench::single(Supply::ideal(v), params, solver()).map_err(|_| BoardError)?);
             self.adc[ch] = converter(spec, ch);
             self.rng[ch] = Prng::new(self.adc[ch].seed);
+            if let Some(b) = self.benches[ch].as_mut() {
+                b.set_magnetics(0, parts::magnetics(ch))
+                    .map_err(|_| BoardError)?;
+            }
             self.rails[ch] = spec.rail;
             self.design_min[ch] = f64::from(spec.design.supply.min().value());
         }
@@ -264,6 +291,26 @@ impl Plant {
                         e.at_ms,
                         channel,
                         fault_name(&fault)
+                    );
+                }
+                Happening::Residual { channel, amps } => {
+                    if let Some(r) = self.residual.get_mut(channel) {
+                        *r = Some(amps);
+                    }
+                    defmt::warn!(
+                        "[plant] t={=u32} ms: channel {=usize} will still carry {=f32} mA at its next switch-on (a pulse soon after a release)",
+                        e.at_ms,
+                        channel,
+                        (amps * 1e3) as f32
+                    );
+                }
+                Happening::FlashBitFlip { offset, mask } => {
+                    self.flash.disturb(usize::from(offset), mask);
+                    defmt::warn!(
+                        "[plant] t={=u32} ms: flash cell disturbed: byte {=u16} of the page, bits {=u8:#04x} flipped",
+                        e.at_ms,
+                        offset,
+                        mask
                     );
                 }
                 Happening::Supply { rail, volts } => {
@@ -374,6 +421,11 @@ impl Plant {
             ),
         };
         if before == DriveState::Off {
+            // The monitor judged the edge above (the driver's constraint); a current left from
+            // outside the driver is the world's, put in after it.
+            if let Some(amps) = self.residual[ch].take() {
+                let _ = b.set_current(0, amps);
+            }
             let c = &mut self.capture[ch];
             c.started = (c.plan.samples > 0).then_some(self.now_ns);
             c.taken = 0;
@@ -463,6 +515,16 @@ impl SimBoard {
             },
             SimSense { board: self, ch },
         )
+    }
+
+    /// The flash page (erase, program, read). Do not hold it across a call of a handle.
+    pub fn flash(&self) -> core::cell::RefMut<'_, flash::SimFlash> {
+        core::cell::RefMut::map(self.plant.borrow_mut(), |p| &mut p.flash)
+    }
+
+    /// The board temperature sensor, °C (the simulated coils sit at the board's temperature).
+    pub fn temperature(&self) -> f32 {
+        parts::WINDING_CELSIUS as f32
     }
 
     /// The board's clock: tick source and delay.
