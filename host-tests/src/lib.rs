@@ -80,7 +80,7 @@
 //! * `coupled-physics` (default): coupled loops and saturation
 //!   ([`Bench::set_magnetics`], [`Fault::ShortedTurns`]). Without it those
 //!   are refused with [`SimError::InvalidParameter`] and their code is not
-//!   linked (about 8 KiB of flash in a Cortex-M4F firmware).
+//!   linked (about 7 KiB of flash in a Cortex-M4F firmware).
 //!
 //! ## Injecting coil physics
 //!

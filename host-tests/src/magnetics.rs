@@ -177,6 +177,23 @@ fn psi(z: f64, d: f64, zs: f64) -> (f64, f64) {
     )
 }
 
+/// Solves `α·z + β·Ψ(z) = a` for `z ≥ 0` (`a ≥ 0`, `α ≥ 0`, `β > 0`).
+/// Since `(1 − d)·z ≤ Ψ(z) ≤ z`, the root lies in
+/// `[a/(α + β), a/(α + β·(1 − d))]`; the left side is increasing
+/// (`Ψ' > 0` for `d ≤ 0.8`). Safeguarded Newton from the fixed-point guess.
+#[inline(never)]
+fn solve_core(alpha: f64, beta: f64, a: f64, d: f64, zs: f64) -> f64 {
+    let lo = a / (alpha + beta);
+    let hi = a / (alpha + beta * (1.0 - d));
+    let u = lo / zs;
+    let z0 = a / (alpha + beta * (1.0 - d * u * u / (1.0 + u * u)));
+    let f = |z: f64| {
+        let (ps, dps) = psi(z, d, zs);
+        (alpha * z + beta * ps - a, alpha + beta * dps)
+    };
+    crate::node::solve_increasing(f, lo, hi, z0)
+}
+
 /// `∫₀^z Ψ(ζ) dζ = z²/2 − d·(z²/2 − (z_s²/2)·ln(1 + z²/z_s²))`.
 #[inline]
 fn psi_integral(z: f64, d: f64, zs: f64) -> f64 {
@@ -286,10 +303,9 @@ impl Loops {
     #[allow(clippy::needless_range_loop)] // four arrays indexed by loop
     pub(crate) fn currents(&self, lam: &[f64; 3], p: f64, terminal_off: bool) -> [f64; 3] {
         let mu = [lam[0] / p, lam[1] / p, lam[2] / p];
-        let [d, zs] = self.sat;
-        let mut i = [0.0; 3];
-        if terminal_off {
-            // z + c·Ψ(z) = φ over the secondary loops.
+        // The scalar equation α·z + β·Ψ(z) = t: (1, c, φ) with the terminal
+        // loop open, (0, 1, μ₀/v₀) with it carrying current.
+        let (alpha, beta, t) = if terminal_off {
             let (mut c, mut phi) = (0.0, 0.0);
             for j in 1..3 {
                 if self.active[j] {
@@ -297,47 +313,33 @@ impl Loops {
                     phi += self.v[j] * mu[j] / self.leak[j];
                 }
             }
-            let ps = if !self.saturates() {
-                phi / (1.0 + c) // Ψ(z) = z
-            } else {
-                // z ∈ [|φ|/(1 + c), |φ|/(1 + c·(1 − d))] since (1 − d)·z ≤ Ψ(z) ≤ z.
-                let a = phi.abs();
-                let f = |z: f64| {
-                    let (ps, dps) = psi(z, d, zs);
-                    (z + c * ps - a, 1.0 + c * dps)
-                };
-                let lo = a / (1.0 + c);
-                let z = crate::node::solve_increasing(f, lo, a / (1.0 + c * (1.0 - d)), lo);
-                psi(z, d, zs).0.copysign(phi)
-            };
-            for j in 1..3 {
-                if self.active[j] {
-                    i[j] = (mu[j] - self.v[j] * ps) / self.leak[j];
-                }
-            }
-            return i;
-        }
-        // Ψ(z) = μ₀/v₀ (the winding has no leakage of its own).
-        let ps = mu[WIND] / self.v[WIND];
-        let z = if !self.saturates() {
-            ps
+            (1.0, c, phi)
         } else {
-            // z ∈ [|ψ|, |ψ|/(1 − d)]; start at the fixed point |ψ|/(1 − d·s(|ψ|/z_s)).
-            let a = ps.abs();
-            let f = |z: f64| {
-                let (v, dv) = psi(z, d, zs);
-                (v - a, dv)
-            };
-            let u = a / zs;
-            let z0 = a / (1.0 - d * u * u / (1.0 + u * u));
-            crate::node::solve_increasing(f, a, a / (1.0 - d), z0).copysign(ps)
+            (0.0, 1.0, mu[WIND] / self.v[WIND])
         };
+        let z = if self.saturates() {
+            let [d, zs] = self.sat;
+            solve_core(alpha, beta, t.abs(), d, zs).copysign(t)
+        } else {
+            t / (alpha + beta)
+        };
+        let ps = if !terminal_off {
+            t // Ψ(z) = μ₀/v₀ by construction
+        } else if self.saturates() {
+            psi(z, self.sat[0], self.sat[1]).0
+        } else {
+            z
+        };
+        let mut i = [0.0; 3];
         let mut rest = z;
         for j in 1..3 {
             if self.active[j] {
                 i[j] = (mu[j] - self.v[j] * ps) / self.leak[j];
                 rest -= self.v[j] * i[j];
             }
+        }
+        if terminal_off {
+            return i;
         }
         i[WIND] = rest / self.v[WIND];
         i
