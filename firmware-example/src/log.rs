@@ -275,11 +275,11 @@ pub fn event(
     now: Instant,
     e: &Event,
     last: Option<&Verdict>,
-    specs: &[ChannelSpec],
+    specs: &[&'static str],
     bands: &[(f32, f32)],
 ) {
     let i = usize::from(e.channel);
-    let name = specs.get(i).map_or("?", |s| s.name);
+    let name = specs.get(i).copied().unwrap_or("?");
     let (ms, us) = stamp(t0, now);
     match &e.kind {
         EventKind::Judged {

@@ -18,7 +18,7 @@ use coilwise_firmware_example as fw;
 use cortex_m_rt::entry;
 use fw::board::{SimBoard, SimHold, SimSense, SimSwitch};
 use fw::demo::{self, Checker, Drv};
-use fw::scenario::{self, ChannelSpec, CHANNELS, INRUSH_CAP};
+use fw::scenario::{self, ChannelSpec, Names, CHANNELS, INRUSH_CAP};
 
 /// The driver on the QEMU board.
 type Driver<'a> = Drv<'a, SimSwitch<'static>, SimHold<'static>, SimSense<'static>>;
@@ -26,25 +26,34 @@ type Driver<'a> = Drv<'a, SimSwitch<'static>, SimHold<'static>, SimSense<'static
 /// The driver's working state (channels, scheduler, events, capture buffer), in static memory.
 type State = coilwise_driver::DriverState<CHANNELS, { demo::QUEUE }, { demo::EVENTS }>;
 
-/// The scenario's channel designs, built one by one straight into static memory (out of line:
-/// the temporaries of building them stay out of `main`'s frame).
+/// The scenario's channel designs, on the stack of the set-up only: the run needs their names
+/// alone (see [`setup`]), so their few hundred bytes are not kept in static memory.
 #[inline(never)]
-fn specs() -> Option<&'static [ChannelSpec; CHANNELS]> {
-    let slot = cortex_m::singleton!(
-        : MaybeUninit<[ChannelSpec; CHANNELS]> = MaybeUninit::uninit()
-    )?;
-    let first = slot.as_mut_ptr().cast::<ChannelSpec>();
-    for i in 0..CHANNELS {
+fn specs() -> Option<[ChannelSpec; CHANNELS]> {
+    let mut out: [Option<ChannelSpec>; CHANNELS] = [None; CHANNELS];
+    for (i, o) in out.iter_mut().enumerate() {
         let Some(Ok(spec)) = scenario::channel(i) else {
             defmt::error!("the scenario's designs are invalid");
             return None;
         };
-        // SAFETY: `i < CHANNELS`, so `first.add(i)` is element `i` of the array in `slot`, which
-        // nothing else refers to (`slot` is borrowed mutably).
-        unsafe { first.add(i).write(spec) };
+        *o = Some(spec);
     }
-    // SAFETY: every one of the `CHANNELS` elements was written above.
-    Some(unsafe { slot.assume_init_ref() })
+    let [Some(a), Some(b), Some(c), Some(d)] = out else {
+        return None;
+    };
+    Some([a, b, c, d])
+}
+
+/// Set-up (out of line, before the run's deepest frames): the designs, the driver's
+/// configurations (static), the board with its coils, the design log. Returns the
+/// configurations, the board and the channel names.
+#[inline(never)]
+fn setup() -> Option<(&'static [ChannelConfig; CHANNELS], &'static SimBoard, Names)> {
+    let specs = specs()?;
+    let configs = configs(&specs)?;
+    let board = board(&specs)?;
+    fw::log::design(&specs, demo::QUEUE);
+    Some((configs, board, core::array::from_fn(|i| specs[i].name)))
 }
 
 /// The driver's channel configurations, built one by one straight into static memory (as
@@ -72,7 +81,7 @@ fn configs(specs: &[ChannelSpec; CHANNELS]) -> Option<&'static [ChannelConfig; C
 
 /// The board with the scenario's coils (out of line: its set-up stays out of `main`'s frame).
 #[inline(never)]
-fn board(specs: &'static [ChannelSpec; CHANNELS]) -> Option<&'static SimBoard> {
+fn board(specs: &[ChannelSpec; CHANNELS]) -> Option<&'static SimBoard> {
     let b = fw::board::take(specs, &demo::SCRIPT);
     if b.is_none() {
         defmt::error!("the simulated plant could not be built");
@@ -158,14 +167,13 @@ fn first_life(
     configs: &'static [ChannelConfig; CHANNELS],
     state: &mut State,
     board: &'static SimBoard,
-    specs: &'static [ChannelSpec; CHANNELS],
+    specs: &Names,
     checker: &mut Checker,
     learned: &mut [u8; CHANNELS],
 ) -> Option<bool> {
     let mut owned = driver(configs, state, hardware(board), board)?;
     let drv = &mut owned;
     arm_monitor(board, drv);
-    fw::log::design(specs, demo::QUEUE);
     defmt::info!(
         "board temperature sensor: {=f32} C (given to the driver for the baselines' copper correction)",
         board.temperature()
@@ -202,7 +210,7 @@ fn second_life(
     configs: &'static [ChannelConfig; CHANNELS],
     state: &mut State,
     board: &'static SimBoard,
-    specs: &'static [ChannelSpec; CHANNELS],
+    specs: &Names,
     checker: &mut Checker,
     learned_before: [u8; CHANNELS],
 ) -> bool {
@@ -241,15 +249,10 @@ fn main() -> ! {
         fw::BOARD
     );
     defmt::info!("results are engineering estimates; real designs follow the datasheets, local codes and licensed practice");
-    let Some(specs) = specs() else {
+    let Some((configs, board, names)) = setup() else {
         fw::exit(fw::status::CHECK_FAILED)
     };
-    let Some(configs) = configs(specs) else {
-        fw::exit(fw::status::CHECK_FAILED)
-    };
-    let Some(board) = board(specs) else {
-        fw::exit(fw::status::CHECK_FAILED)
-    };
+    let specs = &names;
     let Some(state) = state() else {
         fw::exit(fw::status::CHECK_FAILED)
     };

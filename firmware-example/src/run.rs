@@ -10,7 +10,7 @@ use embedded_hal::digital::OutputPin;
 use embedded_hal::pwm::SetDutyCycle;
 
 use crate::demo::{Checker, Drv, Outcome, StartAt, Step, PROGRAMME, STEPS};
-use crate::scenario::{ChannelSpec, CHANNELS};
+use crate::scenario::{Names, CHANNELS};
 
 /// The pulse a programme step asks for, with the run's time origin `t0`.
 fn pulse_of(t0: Instant, s: &Step) -> Pulse {
@@ -30,7 +30,7 @@ fn pulse_of(t0: Instant, s: &Step) -> Pulse {
 fn drain<Sw, Pwm, Sense>(
     drv: &mut Drv<'_, Sw, Pwm, Sense>,
     now: Instant,
-    specs: &[ChannelSpec; CHANNELS],
+    specs: &Names,
     bands: &[(f32, f32); CHANNELS],
     checker: &mut Checker,
     check: bool,
@@ -99,7 +99,7 @@ fn request<Sw, Pwm, Sense>(
 pub fn run<Sw, Pwm, Sense, C>(
     drv: &mut Drv<'_, Sw, Pwm, Sense>,
     clock: &mut C,
-    specs: &[ChannelSpec; CHANNELS],
+    specs: &Names,
     checker: &mut Checker,
 ) -> Result<u32, DriverError>
 where
@@ -127,7 +127,7 @@ where
             if !now.is_at_or_after(t0.after(Ticks(s.at_ms * 1000))) {
                 break;
             }
-            let name = specs.get(s.channel).map_or("?", |c| c.name);
+            let name = specs.get(s.channel).copied().unwrap_or("?");
             request(drv, now, next, s, name, checker);
             // The request's own outcome, already checked from its return value: log only.
             drain(drv, now, specs, &bands, checker, false);
@@ -163,7 +163,7 @@ where
 pub fn commission<Sw, Pwm, Sense, C>(
     drv: &mut Drv<'_, Sw, Pwm, Sense>,
     clock: &mut C,
-    specs: &[ChannelSpec; CHANNELS],
+    specs: &Names,
     checker: &mut Checker,
 ) -> bool
 where
@@ -186,7 +186,7 @@ where
     defmt::info!("commissioning 2/3: converter zero and comparator, per channel");
     for (i, s) in specs.iter().enumerate() {
         if let Some(z) = drv.sense_setup(i) {
-            crate::log::sense_setup(i, s.name, z);
+            crate::log::sense_setup(i, s, z);
         }
     }
     defmt::info!("commissioning 3/3: a diagnostic pulse below pull-in, per channel");

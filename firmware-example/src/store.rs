@@ -12,7 +12,7 @@ use coilwise_driver::{CurrentSense, DriverError, ErrorKind};
 
 use crate::board::flash::{FlashError, SimFlash, PAGE_BYTES};
 use crate::demo::Drv;
-use crate::scenario::{ChannelSpec, CHANNELS};
+use crate::scenario::{Names, CHANNELS};
 
 const _: () = assert!(CHANNELS * RECORD_LEN <= PAGE_BYTES);
 
@@ -53,7 +53,7 @@ fn log_baseline<Sw, Pwm, Sense: CurrentSense>(
 pub fn save<Sw, Pwm, Sense: CurrentSense>(
     drv: &Drv<'_, Sw, Pwm, Sense>,
     flash: &mut SimFlash,
-    specs: &[ChannelSpec; CHANNELS],
+    specs: &Names,
 ) -> Result<u8, FlashError> {
     // One slot at a time (40 bytes of stack, not a page): what the slot must hold, and whether
     // it already does.
@@ -89,7 +89,7 @@ pub fn save<Sw, Pwm, Sense: CurrentSense>(
         flash.erases()
     );
     for (i, s) in specs.iter().enumerate() {
-        log_baseline(drv, i, s.name, "stored");
+        log_baseline(drv, i, s, "stored");
     }
     Ok(stored)
 }
@@ -100,7 +100,7 @@ pub fn save<Sw, Pwm, Sense: CurrentSense>(
 pub fn load<Sw, Pwm, Sense: CurrentSense>(
     drv: &mut Drv<'_, Sw, Pwm, Sense>,
     flash: &SimFlash,
-    specs: &[ChannelSpec; CHANNELS],
+    specs: &Names,
 ) -> [bool; CHANNELS] {
     let mut taken = [false; CHANNELS];
     for (i, s) in specs.iter().enumerate() {
@@ -111,7 +111,7 @@ pub fn load<Sw, Pwm, Sense: CurrentSense>(
         match drv.import_baseline(i, &rec) {
             Ok(()) => {
                 taken[i] = true;
-                log_baseline(drv, i, s.name, "loaded from flash");
+                log_baseline(drv, i, s, "loaded from flash");
             }
             // Refused: the driver queued the reason as an event (logged with the others).
             Err(DriverError {

@@ -6,8 +6,8 @@
 //! A real board replaces this with its HAL's flash driver (page erase and word programming);
 //! the application's use of it ([`crate::store`]) stays the same.
 
-/// Bytes in the page (a small page of a small part; the demo's records use 4 × 40).
-pub const PAGE_BYTES: usize = 256;
+/// Bytes in the page (a small page of a small part: the demo keeps 4 records of 40 bytes).
+pub const PAGE_BYTES: usize = 160;
 
 /// Why a flash operation was refused.
 #[derive(Clone, Copy, Debug, PartialEq, Eq, defmt::Format)]
