@@ -10,16 +10,18 @@
 //!
 //! | ms | world (plant) | programme | the firmware must |
 //! |---:|---|---|---|
-//! | 0 | valve C's wire is open | — | find it at the self-check, isolate C |
+//! | 0 | valve C's wire is open | — | find it at the self-check, isolate C, learn no baseline for it |
+//! | 0 | the pump relay has a strong eddy path (5 % of its current, 20 % of its τ) | — | keep it healthy; learn A, B and the pump (3 pulses each) and keep the records in flash |
 //! | 100 | | valves A and B together | stagger B behind A's inrush window |
 //! | 100 | | valve C | refuse: isolated |
 //! | 120 | | valve A for 5 ms | refuse: below minimum on-time |
-//! | 190 | | valve A again | delay: A's minimum off-time |
+//! | 150 | valve A will still carry 25 mA (8 %) at its next switch-on | | |
+//! | 190 | | valve A again | delay: A's minimum off-time; its rise (residual current) healthy |
 //! | 200 | | valve B, within 2 ms | refuse: B's off-time has not run out |
 //! | 300 | | pump, twice | second waits for the first (channel busy) |
 //! | 400 | | pump within 50 ms | refuse: thermal budget (the queued runs fill it) |
 //! | 420 | | pump | delay: thermal budget |
-//! | 450 | valve A: 30 % of turns shorted | | |
+//! | 450 | valve A: 30 % of its turns bridged through 0.5 Ω (coupled, k = 0.95) | | |
 //! | 500 | | valve A | rise says shorted turns: isolate A |
 //! | 700 | | valve A | refuse: isolated |
 //! | 800 | 24 V rail sags to 17 V | | |
@@ -31,6 +33,8 @@
 //! | 1600 | pump wire breaks | | |
 //! | ≈2231 | | (the thermally delayed pump run) | rise says open circuit: isolate the pump |
 //! | 2600 | | pump | refuse: isolated |
+//! | 2900 | a bit of valve A's flash record flips | | |
+//! | 3100 | (simulated reset) | new driver from the flash page | B and the pump judged with their stored baselines (one pulse, no relearning); A's record refused (checksum), A not learnt (its shorted turns); C none |
 
 use coilwise::diagnosis::Finding;
 use coilwise::schedule::{DelayReason, Refusal};
