@@ -194,3 +194,58 @@ fn a_corrupted_erased_or_foreign_record_is_refused_and_the_channel_learns() {
         ErrorKind::Phase
     );
 }
+
+/// A coil with a bridged section of shorted turns (a closed loop coupled to the winding) whose
+/// diagnostic pulse the model cannot explain: the driver keeps it in service, unverified, and
+/// learns no baseline from it; the first real pulse's rise and comparator name the fault and
+/// isolate it. Shorted turns lower the inductance (turns squared: common practice, no source),
+/// so the comparator level is crossed early.
+#[test]
+fn an_unexplained_probe_does_not_isolate_the_confirmed_rise_does() {
+    let shorted = Fault::ShortedTurns {
+        fraction: 0.3,
+        coupling: 0.95,
+        bridge_ohms: 0.5,
+    };
+    let (_p, mut clock, mut drv) = rig(&[(0, Happening::Fault(A, shorted))]);
+    drv.commission_blocking(&mut clock).unwrap();
+    let log = drain(&mut drv);
+    let a = on_channel(&log, A as u8);
+    assert_eq!(probes(&a), [Finding::ShapeUnexplained], "{a:?}");
+    assert!(
+        a.contains(&EventKind::BaselineNotLearned(LearnError::Refused(
+            Finding::ShapeUnexplained
+        )))
+    );
+    assert_eq!(
+        drv.status(A).unwrap().health,
+        coilwise_driver::Health::Unverified
+    );
+    assert!(!a.iter().any(|k| matches!(k, EventKind::Isolated { .. })));
+    // A real pulse: its rise fit and its comparator.
+    let now = coilwise_driver::TickSource::now(&clock);
+    let g = drv.request(now, A, coilwise_driver::Pulse::now(sim::run::ticks_ms(60)));
+    assert!(g.is_ok(), "{g:?}");
+    let mut log = Vec::new();
+    sim::run::run_until(&mut drv, &mut clock, sim::run::ms(300), &mut log);
+    let a = on_channel(&log, A as u8);
+    let rise = a
+        .iter()
+        .find_map(|k| match k {
+            EventKind::Judged {
+                source: Source::Rise,
+                finding,
+                comparator,
+                ..
+            } => Some((*finding, comparator.map(|c| c.finding))),
+            _ => None,
+        })
+        .expect("a rise verdict");
+    assert_eq!(rise.0, Finding::ShortedTurns, "{rise:?}");
+    // The comparator alone names it too (crossed far earlier than any healthy coil).
+    assert_eq!(rise.1, Some(Finding::ShortedTurns), "{rise:?}");
+    assert!(matches!(
+        drv.status(A).unwrap().health,
+        coilwise_driver::Health::Isolated(_)
+    ));
+}
