@@ -416,6 +416,7 @@ where
             scale.full_scale_counts,
             d.noise_counts,
         );
+        let baseline = matches!(self.st.chans[i].base, crate::baseline::BaseState::Ready(_));
         let verdict = match sampling {
             Ok(s) => {
                 // The probe's window: samples later than its end plus half a period are the
@@ -455,6 +456,7 @@ where
                 pulse: 0,
                 finding: verdict.finding,
                 comparator: None,
+                baseline,
             },
         );
         self.after_probe(now, i, p.purpose, verdict.finding);

@@ -66,6 +66,9 @@ pub enum EventKind {
         finding: Finding,
         /// The comparator's reading (rises with a comparator band only).
         comparator: Option<ComparatorReading>,
+        /// Judged against the channel's learnt baseline (diagnostic pulses of a channel with a
+        /// learnt or imported baseline; false for rises and during learning).
+        baseline: bool,
     },
     /// A request was taken at its asked start.
     Accepted {

@@ -284,6 +284,7 @@ where
                 pulse: w.pulse,
                 finding: verdict.finding,
                 comparator: cmp.map(|finding| ComparatorReading { crossing, finding }),
+                baseline: false,
             },
         );
         match classify(&verdict.finding) {

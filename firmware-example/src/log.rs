@@ -179,7 +179,7 @@ fn verdict(
     e: &Event,
     name: &str,
     source: Source,
-    purpose: Option<ProbePurpose>,
+    (purpose, baseline): (Option<ProbePurpose>, bool),
     pulse: u32,
     finding: Finding,
     last: Option<&Verdict>,
@@ -188,10 +188,13 @@ fn verdict(
 ) {
     let (ms, us) = stamp(t0, now);
     let (oms, ous) = stamp(t0, e.at);
-    let what = match (source, purpose) {
-        (Source::Rise, _) => "rise",
-        (_, Some(ProbePurpose::SupplyCheck)) => "supply re-check pulse",
-        (_, Some(ProbePurpose::Reenable)) => "re-enable pulse",
+    let what = match (source, purpose, baseline) {
+        (Source::Rise, _, _) => "rise",
+        (_, Some(ProbePurpose::SupplyCheck), false) => "supply re-check pulse",
+        (_, Some(ProbePurpose::SupplyCheck), true) => "supply re-check pulse vs its baseline",
+        (_, Some(ProbePurpose::Reenable), false) => "re-enable pulse",
+        (_, Some(ProbePurpose::Reenable), true) => "re-enable pulse vs its baseline",
+        (_, _, true) => "diagnostic pulse vs its learnt baseline",
         _ => "diagnostic pulse",
     };
     let bad = !(finding == Finding::Healthy || matches!(finding, Finding::CannotTell(_)));
@@ -288,13 +291,14 @@ pub fn event(
             pulse,
             finding,
             comparator,
+            baseline,
         } => verdict(
             t0,
             now,
             e,
             name,
             *source,
-            *purpose,
+            (*purpose, *baseline),
             *pulse,
             *finding,
             last,
