@@ -286,6 +286,8 @@ pub(crate) struct ChanState {
     pub pulses: u32,
     pub last_finding: Option<Finding>,
     pub last_verdict: Option<Verdict>,
+    /// Learned or imported baseline, or the learning in progress.
+    pub base: crate::baseline::BaseState,
 }
 
 impl ChanState {
@@ -307,6 +309,7 @@ impl ChanState {
             pulses: 0,
             last_finding: None,
             last_verdict: None,
+            base: crate::baseline::BaseState::None,
         }
     }
 }

@@ -74,6 +74,9 @@ pub(crate) fn classify(f: &Finding) -> Class {
         Finding::Healthy => Class::Healthy,
         Finding::CannotTell(_) => Class::Unsure,
         Finding::SupplyLow => Class::SupplyLow,
+        // A smooth trace the model does not explain: not a fault by itself. Only a confirming
+        // measurement (the comparator of the same rise, see `service::combine`) isolates.
+        Finding::ShapeUnexplained => Class::Unsure,
         Finding::SensorImplausible(_) => Class::Fault,
         f if f.is_coil_fault() => Class::Fault,
         _ => Class::Unsure,
@@ -138,7 +141,10 @@ where
                 continue;
             }
             match self.measure_zero(i) {
-                Ok(()) => self.st.chans[i].probe_due = Some(ProbePurpose::Commission),
+                Ok(()) => {
+                    self.start_learning(i);
+                    self.st.chans[i].probe_due = Some(ProbePurpose::Commission);
+                }
                 Err(kind) => self.fault(now, i, kind),
             }
         }
@@ -410,13 +416,22 @@ where
             scale.full_scale_counts,
             d.noise_counts,
         );
+        let baseline = matches!(self.st.chans[i].base, crate::baseline::BaseState::Ready(_));
         let verdict = match sampling {
             Ok(s) => {
-                let n = cap.len.min(SAMPLES);
-                d.probe.judge(
-                    &self.st.buf[..n],
+                // The probe's window: samples later than its end plus half a period are the
+                // decay, not the rise (as `Probe::judge`).
+                let end = d.probe.duration.value() + 0.5 * s.period().value();
+                let n = (0..cap.len.min(SAMPLES))
+                    .take_while(|&k| s.time_of(k).value() <= end)
+                    .count();
+                let st = &mut *self.st;
+                crate::baseline::judge_probe_samples(
+                    &st.buf[..n],
                     &s,
-                    &d.expected,
+                    &d,
+                    &mut st.chans[i].base,
+                    self.board,
                     &self.criteria,
                     &self.options,
                 )
@@ -441,6 +456,7 @@ where
                 pulse: 0,
                 finding: verdict.finding,
                 comparator: None,
+                baseline,
             },
         );
         self.after_probe(now, i, p.purpose, verdict.finding);
@@ -452,6 +468,12 @@ where
         let g = usize::from(self.configs[i].supply_group);
         match purpose {
             ProbePurpose::Commission | ProbePurpose::Reenable => {
+                // Learning a baseline: the channel stays out of service (no request can be
+                // scheduled into a later learning pulse) until its last pulse is judged.
+                if self.learning_step(now, i, f) && class == Class::Healthy {
+                    self.st.chans[i].probe_due = Some(purpose);
+                    return;
+                }
                 let was = self.st.chans[i].health;
                 match class {
                     Class::Healthy | Class::SupplyLow => {
@@ -525,6 +547,8 @@ mod tests {
             Class::Unsure
         );
         assert_eq!(classify(&Finding::SupplyLow), Class::SupplyLow);
+        // Not a fault by itself (kept in service, unverified).
+        assert_eq!(classify(&Finding::ShapeUnexplained), Class::Unsure);
         assert_eq!(
             classify(&Finding::SensorImplausible(TraceFault::PoorFit)),
             Class::Fault

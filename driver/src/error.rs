@@ -32,6 +32,8 @@ pub enum ErrorKind {
     SelfCheck,
     /// The channel is not isolated (nothing to re-enable).
     NotIsolated,
+    /// A stored baseline record was refused (the channel learns afresh).
+    Baseline(crate::baseline::BaselineError),
 }
 
 /// A run-time error: which channel (if any) and what kind.
@@ -115,6 +117,7 @@ impl fmt::Display for ErrorKind {
             ErrorKind::Phase => f.write_str("not allowed in this phase of commissioning"),
             ErrorKind::SelfCheck => f.write_str("self-check vectors failed on this device"),
             ErrorKind::NotIsolated => f.write_str("channel is not isolated"),
+            ErrorKind::Baseline(e) => write!(f, "baseline record refused ({e:?})"),
         }
     }
 }

@@ -66,6 +66,9 @@ pub enum EventKind {
         finding: Finding,
         /// The comparator's reading (rises with a comparator band only).
         comparator: Option<ComparatorReading>,
+        /// Judged against the channel's learnt baseline (diagnostic pulses of a channel with a
+        /// learnt or imported baseline; false for rises and during learning).
+        baseline: bool,
     },
     /// A request was taken at its asked start.
     Accepted {
@@ -111,6 +114,18 @@ pub enum EventKind {
         /// Channels in service (the rest are isolated).
         in_service: u8,
     },
+    /// Commissioning learnt the channel's baseline from this many healthy diagnostic pulses:
+    /// store [`crate::Driver::baseline_record`] (e.g. in flash) to keep it across resets.
+    BaselineLearned {
+        /// Pulses learnt.
+        pulses: u8,
+    },
+    /// Commissioning learnt no baseline for the channel (a pulse was not healthy against the
+    /// design bands, or too few pulses): later pulses are judged against the design bands.
+    BaselineNotLearned(coilwise::diagnosis::LearnError),
+    /// A stored baseline record was refused ([`crate::Driver::import_baseline`]): the channel
+    /// learns afresh at commissioning.
+    BaselineRejected(crate::baseline::BaselineError),
     /// This many events before this one were dropped because the queue was full.
     Lost {
         /// Number dropped.

@@ -68,6 +68,7 @@
 //! | [`sense`], [`ticks`] | the hardware seam: current sense and tick source (the switch and PWM are embedded-hal's) |
 //! | [`channel`] | channel hardware, configuration from a design or from limits, status |
 //! | [`commission`] | self-check vectors, converter zero, diagnostic pulses |
+//! | [`baseline`] | the learned per-coil baseline: learning, flash record export/import |
 //! | [`request`] | pulse requests, cancel, release, re-enable |
 //! | [`service`] | the service loop: edges, captures, verdicts, isolation |
 //! | [`event`] | the event queue (losses counted) |
@@ -92,6 +93,7 @@
 #![forbid(unsafe_code)]
 #![deny(missing_docs)]
 
+pub mod baseline;
 pub mod channel;
 pub mod commission;
 pub mod error;
@@ -103,6 +105,7 @@ pub mod service;
 pub mod ticks;
 pub mod words;
 
+pub use baseline::{BaselineError, LEARN_PULSES};
 pub use channel::{
     ChannelConfig, ChannelHw, ChannelOptions, Diagnosis, Health, SenseSetup, Status, SAMPLES,
 };
@@ -117,7 +120,7 @@ pub use ticks::TickSource;
 
 use coilwise::diagnosis::{Criteria, FitOptions, Verdict};
 use coilwise::schedule::{ChannelLimits, Scheduler, WakeCause};
-use coilwise::{Instant, TickRate};
+use coilwise::{Celsius, Instant, TickRate};
 
 use channel::ChanState;
 use commission::ActiveProbe;
@@ -192,6 +195,10 @@ pub struct Driver<'c, Sw, Pwm, Sense, const N: usize, const Q: usize = 8, const 
     pub(crate) criteria: Criteria,
     pub(crate) options: FitOptions,
     pub(crate) inrush_cap: u8,
+    /// Diagnostic pulses learnt per channel at commissioning.
+    pub(crate) learn_pulses: u8,
+    /// Board temperature reading, when the application gives one.
+    pub(crate) board: Option<Celsius>,
 }
 
 impl<'c, Sw, Pwm, Sense, const N: usize, const Q: usize, const E: usize>
@@ -244,6 +251,8 @@ where
             criteria: Criteria::default(),
             options: FitOptions::default(),
             inrush_cap,
+            learn_pulses: baseline::LEARN_PULSES,
+            board: None,
         })
     }
 

@@ -284,6 +284,7 @@ where
                 pulse: w.pulse,
                 finding: verdict.finding,
                 comparator: cmp.map(|finding| ComparatorReading { crossing, finding }),
+                baseline: false,
             },
         );
         match classify(&verdict.finding) {
@@ -380,5 +381,31 @@ mod tests {
         assert_eq!(combine(sensor, Finding::OpenCircuit), Finding::OpenCircuit);
         assert_eq!(combine(sensor, h), sensor);
         assert_eq!(combine(unsure, sensor), unsure);
+    }
+
+    /// An unexplained shape (a smooth misfit the model leaves out: saturation, an unusual
+    /// coupled loop) never takes a channel out of service by itself; the comparator of the same
+    /// rise naming a coil fault does.
+    #[test]
+    fn an_unexplained_shape_isolates_only_when_the_comparator_confirms_a_fault() {
+        let shape = Finding::ShapeUnexplained;
+        for cmp in [
+            Finding::Healthy,
+            Finding::CannotTell(Undetermined::NotYet),
+            Finding::SensorImplausible(TraceFault::PoorFit),
+        ] {
+            let f = combine(shape, cmp);
+            assert_eq!(f, shape, "comparator {cmp:?}");
+            assert_ne!(classify(&f), Class::Fault);
+        }
+        for cmp in [
+            Finding::SlowRise,
+            Finding::OpenCircuit,
+            Finding::ShortCircuit,
+        ] {
+            let f = combine(shape, cmp);
+            assert_eq!(f, cmp);
+            assert_eq!(classify(&f), Class::Fault);
+        }
     }
 }

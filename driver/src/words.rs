@@ -32,6 +32,9 @@ pub fn finding(f: &Finding) -> &'static str {
             Undetermined::MovementTooEarly => "cannot tell (armature moved too early)",
             _ => "cannot tell",
         },
+        Finding::ShapeUnexplained => {
+            "shape unexplained (smooth misfit; not isolated without a confirming measurement)"
+        }
         _ => "other finding",
     }
 }
@@ -85,5 +88,35 @@ pub fn error_kind(k: &crate::ErrorKind) -> &'static str {
         ErrorKind::Phase => "not allowed before commissioning",
         ErrorKind::SelfCheck => "self-check vectors failed on this device",
         ErrorKind::NotIsolated => "channel is not isolated",
+        ErrorKind::Baseline(e) => baseline_error(e),
+    }
+}
+
+/// Why a stored baseline record was refused, in words.
+pub fn baseline_error(e: &crate::BaselineError) -> &'static str {
+    use crate::BaselineError;
+    use coilwise::diagnosis::RecordError;
+    match e {
+        BaselineError::Record(r) => match r {
+            RecordError::Length { .. } => "baseline record has the wrong length",
+            RecordError::NoMarker => "no baseline record (erased or foreign bytes)",
+            RecordError::Version { .. } => "baseline record of another version",
+            RecordError::Checksum { .. } => "baseline record corrupted (checksum mismatch)",
+            RecordError::Field => "baseline record has a field out of range",
+            _ => "baseline record unreadable",
+        },
+        BaselineError::Mismatch => "baseline record is not of this channel's coil design",
+        BaselineError::NotDiagnosed => "channel is not diagnosed (no design to check against)",
+    }
+}
+
+/// Why no baseline was learnt, in words.
+pub fn learn_error(e: &coilwise::diagnosis::LearnError) -> &'static str {
+    use coilwise::diagnosis::LearnError;
+    match e {
+        LearnError::TooFewPulses { .. } => "too few healthy pulses",
+        LearnError::Refused(_) => "a pulse was not healthy against the design bands",
+        LearnError::MixedTemperature => "board temperature given for some pulses only",
+        _ => "not learnt",
     }
 }

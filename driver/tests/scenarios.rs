@@ -61,9 +61,10 @@ fn commissioning_isolates_an_open_wire_before_it_is_driven() {
         log.push(e);
     }
     for ch in [A, B, PUMP] {
+        // One diagnostic pulse per baseline learning pulse, each healthy.
         assert_eq!(
             judged(&on_channel(&log, ch as u8), Source::Probe),
-            [Finding::Healthy]
+            [Finding::Healthy; coilwise_driver::LEARN_PULSES as usize]
         );
         assert!(drv.status(ch).unwrap().health.in_service());
     }
@@ -90,7 +91,14 @@ fn commissioning_isolates_an_open_wire_before_it_is_driven() {
 fn shorted_turns_isolate_the_channel_at_its_next_rise() {
     let (plant, mut clock, mut drv) = rig(&[(
         150,
-        Happening::Fault(A, Fault::ShortedTurnsLumped { fraction: 0.3 }),
+        Happening::Fault(
+            A,
+            Fault::ShortedTurns {
+                fraction: 0.3,
+                coupling: 0.95,
+                bridge_ohms: 0.5,
+            },
+        ),
     )]);
     drv.commission_blocking(&mut clock).unwrap();
     let mut log = Vec::new();

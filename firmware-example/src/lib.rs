@@ -33,6 +33,7 @@ pub mod log;
 pub mod measure;
 pub mod run;
 pub mod scenario;
+pub mod store;
 pub mod ticks;
 
 /// Exit statuses the firmware reports to the host (besides 0 = every check held).

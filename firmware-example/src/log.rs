@@ -179,7 +179,7 @@ fn verdict(
     e: &Event,
     name: &str,
     source: Source,
-    purpose: Option<ProbePurpose>,
+    (purpose, baseline): (Option<ProbePurpose>, bool),
     pulse: u32,
     finding: Finding,
     last: Option<&Verdict>,
@@ -188,10 +188,13 @@ fn verdict(
 ) {
     let (ms, us) = stamp(t0, now);
     let (oms, ous) = stamp(t0, e.at);
-    let what = match (source, purpose) {
-        (Source::Rise, _) => "rise",
-        (_, Some(ProbePurpose::SupplyCheck)) => "supply re-check pulse",
-        (_, Some(ProbePurpose::Reenable)) => "re-enable pulse",
+    let what = match (source, purpose, baseline) {
+        (Source::Rise, _, _) => "rise",
+        (_, Some(ProbePurpose::SupplyCheck), false) => "supply re-check pulse",
+        (_, Some(ProbePurpose::SupplyCheck), true) => "supply re-check pulse vs its baseline",
+        (_, Some(ProbePurpose::Reenable), false) => "re-enable pulse",
+        (_, Some(ProbePurpose::Reenable), true) => "re-enable pulse vs its baseline",
+        (_, _, true) => "diagnostic pulse vs its learnt baseline",
         _ => "diagnostic pulse",
     };
     let bad = !(finding == Finding::Healthy || matches!(finding, Finding::CannotTell(_)));
@@ -275,11 +278,11 @@ pub fn event(
     now: Instant,
     e: &Event,
     last: Option<&Verdict>,
-    specs: &[ChannelSpec],
+    specs: &[&'static str],
     bands: &[(f32, f32)],
 ) {
     let i = usize::from(e.channel);
-    let name = specs.get(i).map_or("?", |s| s.name);
+    let name = specs.get(i).copied().unwrap_or("?");
     let (ms, us) = stamp(t0, now);
     match &e.kind {
         EventKind::Judged {
@@ -288,13 +291,14 @@ pub fn event(
             pulse,
             finding,
             comparator,
+            baseline,
         } => verdict(
             t0,
             now,
             e,
             name,
             *source,
-            *purpose,
+            (*purpose, *baseline),
             *pulse,
             *finding,
             last,
@@ -355,6 +359,18 @@ pub fn event(
         EventKind::Lost { count } => defmt::error!(
             "t={=u32}.{=u32:03} ms  {=u32} driver event(s) lost (queue full)",
             ms, us, count
+        ),
+        EventKind::BaselineLearned { pulses } => defmt::info!(
+            "t={=u32}.{=u32:03} ms  ch{=usize} {=str} baseline learnt from {=u8} healthy diagnostic pulses (each judged against the design bands first)",
+            ms, us, i, name, pulses
+        ),
+        EventKind::BaselineNotLearned(why) => defmt::warn!(
+            "t={=u32}.{=u32:03} ms  ch{=usize} {=str} no baseline learnt: {=str}; judged against the design bands",
+            ms, us, i, name, words::learn_error(why)
+        ),
+        EventKind::BaselineRejected(why) => defmt::warn!(
+            "t={=u32}.{=u32:03} ms  ch{=usize} {=str} stored baseline refused: {=str}; it learns afresh",
+            ms, us, i, name, words::baseline_error(why)
         ),
         _ => defmt::info!("t={=u32}.{=u32:03} ms  ch{=usize} other event", ms, us, i),
     }

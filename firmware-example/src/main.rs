@@ -12,38 +12,48 @@
 
 use core::mem::MaybeUninit;
 
+use coilwise::Celsius;
 use coilwise_driver::{ChannelConfig, ChannelHw, TickSource};
 use coilwise_firmware_example as fw;
 use cortex_m_rt::entry;
 use fw::board::{SimBoard, SimHold, SimSense, SimSwitch};
 use fw::demo::{self, Checker, Drv};
-use fw::scenario::{self, ChannelSpec, CHANNELS, INRUSH_CAP};
+use fw::scenario::{self, ChannelSpec, Names, CHANNELS, INRUSH_CAP};
 
 /// The driver on the QEMU board.
-type Driver = Drv<SimSwitch<'static>, SimHold<'static>, SimSense<'static>>;
+type Driver<'a> = Drv<'a, SimSwitch<'static>, SimHold<'static>, SimSense<'static>>;
 
 /// The driver's working state (channels, scheduler, events, capture buffer), in static memory.
 type State = coilwise_driver::DriverState<CHANNELS, { demo::QUEUE }, { demo::EVENTS }>;
 
-/// The scenario's channel designs, built one by one straight into static memory (out of line:
-/// the temporaries of building them stay out of `main`'s frame).
+/// The scenario's channel designs, on the stack of the set-up only: the run needs their names
+/// alone (see [`setup`]), so their few hundred bytes are not kept in static memory.
 #[inline(never)]
-fn specs() -> Option<&'static [ChannelSpec; CHANNELS]> {
-    let slot = cortex_m::singleton!(
-        : MaybeUninit<[ChannelSpec; CHANNELS]> = MaybeUninit::uninit()
-    )?;
-    let first = slot.as_mut_ptr().cast::<ChannelSpec>();
-    for i in 0..CHANNELS {
+fn specs() -> Option<[ChannelSpec; CHANNELS]> {
+    let mut out: [Option<ChannelSpec>; CHANNELS] = [None; CHANNELS];
+    for (i, o) in out.iter_mut().enumerate() {
         let Some(Ok(spec)) = scenario::channel(i) else {
             defmt::error!("the scenario's designs are invalid");
             return None;
         };
-        // SAFETY: `i < CHANNELS`, so `first.add(i)` is element `i` of the array in `slot`, which
-        // nothing else refers to (`slot` is borrowed mutably).
-        unsafe { first.add(i).write(spec) };
+        *o = Some(spec);
     }
-    // SAFETY: every one of the `CHANNELS` elements was written above.
-    Some(unsafe { slot.assume_init_ref() })
+    let [Some(a), Some(b), Some(c), Some(d)] = out else {
+        return None;
+    };
+    Some([a, b, c, d])
+}
+
+/// Set-up (out of line, before the run's deepest frames): the designs, the driver's
+/// configurations (static), the board with its coils, the design log. Returns the
+/// configurations, the board and the channel names.
+#[inline(never)]
+fn setup() -> Option<(&'static [ChannelConfig; CHANNELS], &'static SimBoard, Names)> {
+    let specs = specs()?;
+    let configs = configs(&specs)?;
+    let board = board(&specs)?;
+    fw::log::design(&specs, demo::QUEUE);
+    Some((configs, board, core::array::from_fn(|i| specs[i].name)))
 }
 
 /// The driver's channel configurations, built one by one straight into static memory (as
@@ -71,7 +81,7 @@ fn configs(specs: &[ChannelSpec; CHANNELS]) -> Option<&'static [ChannelConfig; C
 
 /// The board with the scenario's coils (out of line: its set-up stays out of `main`'s frame).
 #[inline(never)]
-fn board(specs: &'static [ChannelSpec; CHANNELS]) -> Option<&'static SimBoard> {
+fn board(specs: &[ChannelSpec; CHANNELS]) -> Option<&'static SimBoard> {
     let b = fw::board::take(specs, &demo::SCRIPT);
     if b.is_none() {
         defmt::error!("the simulated plant could not be built");
@@ -79,10 +89,11 @@ fn board(specs: &'static [ChannelSpec; CHANNELS]) -> Option<&'static SimBoard> {
     b
 }
 
+/// The channels' hardware handles.
+type Hardware = [ChannelHw<SimSwitch<'static>, SimHold<'static>, SimSense<'static>>; CHANNELS];
+
 /// The channels' hardware handles on the board.
-fn hardware(
-    board: &'static SimBoard,
-) -> [ChannelHw<SimSwitch<'static>, SimHold<'static>, SimSense<'static>>; CHANNELS] {
+fn hardware(board: &'static SimBoard) -> Hardware {
     core::array::from_fn(|ch| {
         let (switch, hold, sense) = board.channel(ch);
         ChannelHw::new(switch, hold, sense)
@@ -114,11 +125,118 @@ fn clock(board: &'static SimBoard) -> fw::board::SimClock<'static> {
 /// Gives the plant's monitor the limits the driver enforces (out of line: the copy of the
 /// limits and the monitor's own table stay out of `main`'s frame).
 #[inline(never)]
-fn arm_monitor(board: &SimBoard, drv: &Driver) {
+fn arm_monitor(board: &SimBoard, drv: &Driver<'_>) {
     board
         .plant()
         .monitor
         .set_limits(&drv.limits(), drv.inrush_cap());
+}
+
+/// A driver on `hw` in `state`, the board temperature given (out of line).
+#[inline(never)]
+fn driver<'a>(
+    configs: &'static [ChannelConfig; CHANNELS],
+    state: &'a mut State,
+    hw: Hardware,
+    board: &'static SimBoard,
+) -> Option<Driver<'a>> {
+    match Driver::new(
+        configs,
+        state,
+        hw,
+        clock(board).rate(),
+        clock(board).now(),
+        INRUSH_CAP,
+    ) {
+        Ok(mut d) => {
+            d.set_board_temperature(Some(Celsius::new(board.temperature())));
+            Some(d)
+        }
+        Err(e) => {
+            defmt::error!("driver set-up failed: {}", e);
+            None
+        }
+    }
+}
+
+/// Power-up to the end of the programme: commissioning with baseline learning, the records
+/// saved to flash, the programme. Returns whether it went as the script demands (`None`: no
+/// driver could be built).
+#[inline(never)]
+fn first_life(
+    configs: &'static [ChannelConfig; CHANNELS],
+    state: &mut State,
+    board: &'static SimBoard,
+    specs: &Names,
+    checker: &mut Checker,
+    learned: &mut [u8; CHANNELS],
+) -> Option<bool> {
+    let mut owned = driver(configs, state, hardware(board), board)?;
+    let drv = &mut owned;
+    arm_monitor(board, drv);
+    defmt::info!(
+        "board temperature sensor: {=f32} C (given to the driver for the baselines' copper correction)",
+        board.temperature()
+    );
+    let ok = fw::run::commission(drv, &mut board.clock(), specs, checker)
+        && match fw::store::save(drv, &mut board.flash(), specs) {
+            Ok(_) => true,
+            Err(e) => {
+                defmt::error!("flash: {}", e);
+                false
+            }
+        }
+        && match fw::run::run(drv, &mut board.clock(), specs, checker) {
+            Ok(_) => true,
+            Err(e) => {
+                defmt::error!("run stopped: {}", e);
+                false
+            }
+        };
+    *learned = checker.learned;
+    Some(ok)
+}
+
+/// When the simulated controller is switched on again, ms after the first power-up (after the
+/// script's flash disturbance).
+const RESET_AT_MS: u32 = 3_100;
+
+/// The simulated reset: power off until [`RESET_AT_MS`] (the plant keeps its coils, faults and
+/// flash; the driver's RAM state is gone), a new driver on the same state memory, the stored
+/// baselines offered to it, commissioning (one pulse per channel with an accepted record,
+/// judged against it), the records saved again. Returns whether the script's demands held.
+#[inline(never)]
+fn second_life(
+    configs: &'static [ChannelConfig; CHANNELS],
+    state: &mut State,
+    board: &'static SimBoard,
+    specs: &Names,
+    checker: &mut Checker,
+    learned_before: [u8; CHANNELS],
+) -> bool {
+    use embedded_hal::delay::DelayNs;
+    let mut clk = board.clock();
+    let since = clk.now().since(checker.origin).max(0) as u32 / 1000;
+    defmt::info!(
+        "simulated reset: power off at t={=u32} ms, on again at t={=u32} ms; the driver is re-created from the flash page",
+        since,
+        RESET_AT_MS
+    );
+    clk.delay_ms(RESET_AT_MS.saturating_sub(since));
+    // The same pins and converters, handed out again (all outputs are off).
+    let Some(mut owned) = driver(configs, state, hardware(board), board) else {
+        return false;
+    };
+    let drv = &mut owned;
+    let taken = fw::store::load(drv, &board.flash(), specs);
+    let ok = fw::run::commission(drv, &mut board.clock(), specs, checker);
+    // The flash is not written until the save below: compare each baseline in use with its slot.
+    let same: [bool; CHANNELS] = core::array::from_fn(|i| {
+        let mut r = [0u8; coilwise::diagnosis::baseline::RECORD_LEN];
+        board.flash().read(i * r.len(), &mut r).is_ok() && drv.baseline_record(i) == Some(r)
+    });
+    checker.after_reset(taken, learned_before, same);
+    ok && fw::store::save(drv, &mut board.flash(), specs).is_ok()
 }
 
 #[entry]
@@ -131,45 +249,31 @@ fn main() -> ! {
         fw::BOARD
     );
     defmt::info!("results are engineering estimates; real designs follow the datasheets, local codes and licensed practice");
-    let Some(specs) = specs() else {
+    let Some((configs, board, names)) = setup() else {
         fw::exit(fw::status::CHECK_FAILED)
     };
-    let Some(configs) = configs(specs) else {
-        fw::exit(fw::status::CHECK_FAILED)
-    };
-    let Some(board) = board(specs) else {
-        fw::exit(fw::status::CHECK_FAILED)
-    };
+    let specs = &names;
     let Some(state) = state() else {
         fw::exit(fw::status::CHECK_FAILED)
     };
-    let mut drv = match Driver::new(
+    let mut checker = Checker::new(board.clock().now());
+    // First life: commissioning learns each channel's baseline, the application keeps the
+    // records in flash, then the programme runs.
+    let mut learned_before = [0u8; CHANNELS];
+    let Some(ok_run) = first_life(
         configs,
         state,
-        hardware(board),
-        clock(board).rate(),
-        clock(board).now(),
-        INRUSH_CAP,
-    ) {
-        Ok(d) => d,
-        Err(e) => {
-            defmt::error!("driver set-up failed: {}", e);
-            fw::exit(fw::status::CHECK_FAILED)
-        }
+        board,
+        specs,
+        &mut checker,
+        &mut learned_before,
+    ) else {
+        fw::exit(fw::status::CHECK_FAILED)
     };
-    let drv = &mut drv;
-    arm_monitor(board, drv);
-    fw::log::design(specs, demo::QUEUE);
-
-    let mut checker = Checker::new(board.clock().now());
-    let ok_run = fw::run::commission(drv, &mut board.clock(), specs, &mut checker)
-        && match fw::run::run(drv, &mut board.clock(), specs, &mut checker) {
-            Ok(_) => true,
-            Err(e) => {
-                defmt::error!("run stopped: {}", e);
-                false
-            }
-        };
+    // Simulated reset: the controller restarts from its flash.
+    let ok_reset =
+        ok_run && second_life(configs, state, board, specs, &mut checker, learned_before);
+    let ok_run = ok_run && ok_reset;
     let ok_monitor = board.plant().finish();
     let ok_check = checker.finish();
     let ok = ok_run && ok_monitor && ok_check;

@@ -10,7 +10,7 @@ use embedded_hal::digital::OutputPin;
 use embedded_hal::pwm::SetDutyCycle;
 
 use crate::demo::{Checker, Drv, Outcome, StartAt, Step, PROGRAMME, STEPS};
-use crate::scenario::{ChannelSpec, CHANNELS};
+use crate::scenario::{Names, CHANNELS};
 
 /// The pulse a programme step asks for, with the run's time origin `t0`.
 fn pulse_of(t0: Instant, s: &Step) -> Pulse {
@@ -28,9 +28,9 @@ fn pulse_of(t0: Instant, s: &Step) -> Pulse {
 /// Logs and checks every queued event of the driver.
 #[inline(never)]
 fn drain<Sw, Pwm, Sense>(
-    drv: &mut Drv<Sw, Pwm, Sense>,
+    drv: &mut Drv<'_, Sw, Pwm, Sense>,
     now: Instant,
-    specs: &[ChannelSpec; CHANNELS],
+    specs: &Names,
     bands: &[(f32, f32); CHANNELS],
     checker: &mut Checker,
     check: bool,
@@ -51,7 +51,7 @@ fn drain<Sw, Pwm, Sense>(
 /// Makes programme step `index`'s request and hands its outcome to the checker.
 #[inline(never)]
 fn request<Sw, Pwm, Sense>(
-    drv: &mut Drv<Sw, Pwm, Sense>,
+    drv: &mut Drv<'_, Sw, Pwm, Sense>,
     now: Instant,
     index: usize,
     s: &Step,
@@ -97,9 +97,9 @@ fn request<Sw, Pwm, Sense>(
 /// The driver's (time going backwards: a broken clock).
 #[inline(never)]
 pub fn run<Sw, Pwm, Sense, C>(
-    drv: &mut Drv<Sw, Pwm, Sense>,
+    drv: &mut Drv<'_, Sw, Pwm, Sense>,
     clock: &mut C,
-    specs: &[ChannelSpec; CHANNELS],
+    specs: &Names,
     checker: &mut Checker,
 ) -> Result<u32, DriverError>
 where
@@ -127,7 +127,7 @@ where
             if !now.is_at_or_after(t0.after(Ticks(s.at_ms * 1000))) {
                 break;
             }
-            let name = specs.get(s.channel).map_or("?", |c| c.name);
+            let name = specs.get(s.channel).copied().unwrap_or("?");
             request(drv, now, next, s, name, checker);
             // The request's own outcome, already checked from its return value: log only.
             drain(drv, now, specs, &bands, checker, false);
@@ -161,9 +161,9 @@ where
 /// driver may be used.
 #[inline(never)]
 pub fn commission<Sw, Pwm, Sense, C>(
-    drv: &mut Drv<Sw, Pwm, Sense>,
+    drv: &mut Drv<'_, Sw, Pwm, Sense>,
     clock: &mut C,
-    specs: &[ChannelSpec; CHANNELS],
+    specs: &Names,
     checker: &mut Checker,
 ) -> bool
 where
@@ -186,7 +186,7 @@ where
     defmt::info!("commissioning 2/3: converter zero and comparator, per channel");
     for (i, s) in specs.iter().enumerate() {
         if let Some(z) = drv.sense_setup(i) {
-            crate::log::sense_setup(i, s.name, z);
+            crate::log::sense_setup(i, s, z);
         }
     }
     defmt::info!("commissioning 3/3: a diagnostic pulse below pull-in, per channel");
@@ -206,7 +206,7 @@ where
 }
 
 /// The healthy comparator band of every channel, ms (for the log).
-fn bands<Sw, Pwm, Sense>(drv: &Drv<Sw, Pwm, Sense>) -> [(f32, f32); CHANNELS]
+fn bands<Sw, Pwm, Sense>(drv: &Drv<'_, Sw, Pwm, Sense>) -> [(f32, f32); CHANNELS]
 where
     Sense: CurrentSense,
 {

@@ -20,6 +20,9 @@ use coilwise_driver::{ChannelConfig, ChannelOptions, SetupError};
 /// Number of coil channels of the controller.
 pub const CHANNELS: usize = 4;
 
+/// The channels' names for the log, in channel order (all the run needs of the specs).
+pub type Names = [&'static str; CHANNELS];
+
 /// Scheduler and measurement tick rate, Hz (1 µs per tick).
 pub const TICK_HZ: u32 = 1_000_000;
 

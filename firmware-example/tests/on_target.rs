@@ -205,4 +205,59 @@ mod tests {
             defmt::assert_eq!(e.action, *action);
         }
     }
+
+    /// The board's flash page keeps NOR rules (common practice, no source: erase sets all bits,
+    /// programming only clears them) and keeps a baseline record byte-exact; the core's decode
+    /// refuses the record after one flipped bit (a CRC-32 detects every single-bit error, common
+    /// practice, no source) and an erased slot (no marker).
+    #[test]
+    fn flash_page_keeps_a_baseline_record_byte_exact() {
+        use coilwise::diagnosis::baseline::RECORD_LEN;
+        use coilwise::diagnosis::{Baseline, RecordError};
+        use coilwise_firmware_example::board::flash::{FlashError, SimFlash, PAGE_BYTES};
+        let mut f = SimFlash::new();
+        let mut b = [0u8; 8];
+        f.read(0, &mut b).unwrap();
+        defmt::assert_eq!(b, [0xFF; 8]);
+        f.program(0, &[0xF0, 0x0F]).unwrap();
+        // 0xF0 -> 0xFF needs bits set: refused, nothing written.
+        defmt::assert_eq!(
+            f.program(0, &[0xFF]),
+            Err(FlashError::NotErased { offset: 0 })
+        );
+        // Clearing more bits is allowed without an erase.
+        f.program(1, &[0x0E]).unwrap();
+        f.read(0, &mut b[..2]).unwrap();
+        defmt::assert_eq!(b[..2], [0xF0, 0x0E]);
+        defmt::assert_eq!(
+            f.program(PAGE_BYTES - 1, &[0, 0]),
+            Err(FlashError::OutOfPage)
+        );
+        f.erase();
+        defmt::assert_eq!(f.erases(), 1);
+        // A record in the core's layout (marker, version, 3 pulses, L 0.3 H, R 72 ohm, tau).
+        let mut r = [0u8; RECORD_LEN];
+        r[..2].copy_from_slice(&[0xC0, 0x11]);
+        r[2] = coilwise::diagnosis::baseline::RECORD_VERSION;
+        r[4] = 3;
+        r[8..12].copy_from_slice(&0.3f32.to_le_bytes());
+        r[12..16].copy_from_slice(&72.0f32.to_le_bytes());
+        r[32..36].copy_from_slice(&0.004f32.to_le_bytes());
+        let crc = coilwise::diagnosis::baseline::crc32(&r[..36]);
+        r[36..].copy_from_slice(&crc.to_le_bytes());
+        f.program(RECORD_LEN, &r).unwrap();
+        let mut back = [0u8; RECORD_LEN];
+        f.read(RECORD_LEN, &mut back).unwrap();
+        defmt::assert_eq!(back, r);
+        let base = Baseline::decode(&back).unwrap();
+        defmt::assert_eq!(base.encode(), r);
+        f.disturb(RECORD_LEN + 9, 0x04);
+        f.read(RECORD_LEN, &mut back).unwrap();
+        defmt::assert!(matches!(
+            Baseline::decode(&back),
+            Err(RecordError::Checksum { .. })
+        ));
+        f.read(0, &mut back).unwrap();
+        defmt::assert_eq!(Baseline::decode(&back), Err(RecordError::NoMarker));
+    }
 }

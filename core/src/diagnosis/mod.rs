@@ -1,6 +1,7 @@
 //! On-device coil diagnosis from the measured current rise.
 //!
 //! - [`band`]: the bands a healthy coil stays in, over the tolerance corners;
+//! - [`baseline`]: a coil's learned signature, its byte record, and verdicts against it;
 //! - [`sample`]: sampled traces, their scale, a fixed buffer;
 //! - [`fit`]: the one-pass + refined estimate of slope, τ and I∞ from samples;
 //! - [`armature`]: the current dip of a moving armature;
@@ -13,6 +14,7 @@
 
 pub mod armature;
 pub mod band;
+pub mod baseline;
 pub mod fit;
 pub mod probe;
 pub mod sample;
@@ -20,10 +22,13 @@ pub mod verdict;
 
 pub use armature::{detect_movement, Movement, MovementCriteria};
 pub use band::{Conditions, Expected, Span, SupplyReading, ThresholdBand};
-pub use fit::{fit_rise, FitOptions, FitQuality, RiseFit, TraceFault};
+pub use baseline::{judge_baseline, Baseline, LearnError, Learning, RecordError};
+pub use fit::{
+    fit_response, fit_rise, FitOptions, FitQuality, ResponseFit, RiseFit, Shape, TraceFault,
+};
 pub use probe::Probe;
 pub use sample::{Sample, SampleBuffer, Sampling};
 pub use verdict::{
-    judge_actuation, judge_rise, judge_steady, judge_threshold, judge_trace, Criteria, Estimates,
-    Finding, ThresholdReading, Undetermined, Verdict,
+    judge_actuation, judge_response, judge_rise, judge_steady, judge_threshold, judge_trace,
+    Criteria, Estimates, Finding, ThresholdReading, Undetermined, Verdict,
 };

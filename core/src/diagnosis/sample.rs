@@ -62,6 +62,7 @@ pub struct Sampling {
     zero: f32,
     full_scale: f32,
     noise: f32,
+    floor: f32,
 }
 
 impl Sampling {
@@ -103,6 +104,7 @@ impl Sampling {
             zero: 0.0,
             full_scale: f32::INFINITY,
             noise: 0.0,
+            floor: f32::NEG_INFINITY,
         })
     }
 
@@ -119,6 +121,7 @@ impl Sampling {
         let fs = positive(full_scale.value(), Param::Current)?;
         let mut s = Self::new(period, fs / top)?;
         s.full_scale = top;
+        s.floor = 0.0;
         Ok(s)
     }
 
@@ -154,6 +157,25 @@ impl Sampling {
     pub fn with_noise(mut self, rms: f32) -> Result<Self, Error> {
         self.noise = non_negative(rms, Param::Current)?;
         Ok(self)
+    }
+
+    /// The same sampling with the raw value at and below which the converter is clipped at its
+    /// bottom (finite, or `f32::NEG_INFINITY` for none; [`Sampling::adc`] sets count 0): a
+    /// negative offset reads there while the current is still small.
+    ///
+    /// # Errors
+    /// NaN or +∞: [`Error::Invalid`] ([`Param::Current`], [`Why::NotFinite`]).
+    pub fn with_floor(mut self, floor: f32) -> Result<Self, Error> {
+        if floor.is_nan() || floor == f32::INFINITY {
+            return Err(Error::invalid(Param::Current, Why::NotFinite));
+        }
+        self.floor = floor;
+        Ok(self)
+    }
+
+    /// Raw value at and below which the converter is clipped (−∞: none).
+    pub const fn floor(&self) -> f32 {
+        self.floor
     }
 
     /// Sample period, s.

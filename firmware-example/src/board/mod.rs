@@ -23,25 +23,22 @@
 //! - [`monitor::Monitor`] watches the edges the pins really made and what the plant did, and
 //!   reports every broken constraint: the independent check of the scheduler's output.
 
+pub mod flash;
+mod handles;
 pub mod monitor;
 pub mod parts;
 
+pub use handles::{SimClock, SimHold, SimSense, SimSwitch};
+
 use core::cell::RefCell;
-use core::convert::Infallible;
 
-use coilwise::{Instant, TickRate, Ticks};
 use coilwise_host_tests::{
-    AdcConfig, ArmatureState, Bench, Comparator, Fault, Prng, SensePoint, SolverSettings, Stepping,
-    Supply,
+    AdcConfig, ArmatureState, Bench, Fault, Prng, SensePoint, SolverSettings, Stepping, Supply,
 };
-use embedded_hal::delay::DelayNs;
-use embedded_hal::digital::{ErrorType, OutputPin};
-use embedded_hal::pwm::SetDutyCycle;
 
-use crate::measure::note_seam_sp;
 use crate::scenario::{rail_name, CHANNELS, TICK_HZ};
-use coilwise_driver::TickSource;
-use coilwise_driver::{Capture, Crossing, CurrentSense, SenseErrorKind, SensePlan, SenseScale};
+use coilwise::Ticks;
+use coilwise_driver::SensePlan;
 use monitor::{DriveState, Monitor, PlantView};
 
 /// Samples one capture can hold.
@@ -66,6 +63,22 @@ pub enum Happening {
         channel: usize,
         /// What breaks.
         fault: Fault,
+    },
+    /// The channel's coil still carries `amps` at its next switch-on, as a pulse soon after a
+    /// release leaves it (the driver's own minimum off-times never do here: every clamp of the
+    /// scenario brings the current to zero before they end, so the world puts it there).
+    Residual {
+        /// The channel.
+        channel: usize,
+        /// Current left at switch-on, A.
+        amps: f64,
+    },
+    /// A bit of the flash page flips (a worn or disturbed cell): `byte ^ mask` at `offset`.
+    FlashBitFlip {
+        /// Byte offset in the page.
+        offset: u16,
+        /// Bits flipped.
+        mask: u8,
     },
     /// A rail's open-circuit voltage changes (a sag, or its recovery).
     Supply {
@@ -136,6 +149,10 @@ pub struct Plant {
     pin: [bool; CHANNELS],
     duty: [u16; CHANNELS],
     faulted: [bool; CHANNELS],
+    /// Current left at the next switch-on, per channel (script).
+    residual: [Option<f64>; CHANNELS],
+    /// The flash page (survives the simulated reset).
+    pub flash: flash::SimFlash,
     capture: [CaptureState; CHANNELS],
     script: &'static [Scripted],
     next_event: usize,
@@ -184,6 +201,8 @@ impl Plant {
             pin: [false; CHANNELS],
             duty: [0; CHANNELS],
             faulted: [false; CHANNELS],
+            residual: [None; CHANNELS],
+            flash: flash::SimFlash::new(),
             capture: [IDLE_CAPTURE; CHANNELS],
             script: &[],
             next_event: 0,
@@ -208,6 +227,10 @@ impl Plant {
                 Some(Bench::single(Supply::ideal(v), params, solver()).map_err(|_| BoardError)?);
             self.adc[ch] = converter(spec, ch);
             self.rng[ch] = Prng::new(self.adc[ch].seed);
+            if let Some(b) = self.benches[ch].as_mut() {
+                b.set_magnetics(0, parts::magnetics(ch))
+                    .map_err(|_| BoardError)?;
+            }
             self.rails[ch] = spec.rail;
             self.design_min[ch] = f64::from(spec.design.supply.min().value());
         }
@@ -268,6 +291,26 @@ impl Plant {
                         e.at_ms,
                         channel,
                         fault_name(&fault)
+                    );
+                }
+                Happening::Residual { channel, amps } => {
+                    if let Some(r) = self.residual.get_mut(channel) {
+                        *r = Some(amps);
+                    }
+                    defmt::warn!(
+                        "[plant] t={=u32} ms: channel {=usize} will still carry {=f32} mA at its next switch-on (a pulse soon after a release)",
+                        e.at_ms,
+                        channel,
+                        (amps * 1e3) as f32
+                    );
+                }
+                Happening::FlashBitFlip { offset, mask } => {
+                    self.flash.disturb(usize::from(offset), mask);
+                    defmt::warn!(
+                        "[plant] t={=u32} ms: flash cell disturbed: byte {=u16} of the page, bits {=u8:#04x} flipped",
+                        e.at_ms,
+                        offset,
+                        mask
                     );
                 }
                 Happening::Supply { rail, volts } => {
@@ -378,6 +421,11 @@ impl Plant {
             ),
         };
         if before == DriveState::Off {
+            // The monitor judged the edge above (the driver's constraint); a current left from
+            // outside the driver is the world's, put in after it.
+            if let Some(amps) = self.residual[ch].take() {
+                let _ = b.set_current(0, amps);
+            }
             let c = &mut self.capture[ch];
             c.started = (c.plan.samples > 0).then_some(self.now_ns);
             c.taken = 0;
@@ -469,259 +517,19 @@ impl SimBoard {
         )
     }
 
+    /// The flash page (erase, program, read). Do not hold it across a call of a handle.
+    pub fn flash(&self) -> core::cell::RefMut<'_, flash::SimFlash> {
+        core::cell::RefMut::map(self.plant.borrow_mut(), |p| &mut p.flash)
+    }
+
+    /// The board temperature sensor, °C (the simulated coils sit at the board's temperature).
+    pub fn temperature(&self) -> f32 {
+        parts::WINDING_CELSIUS as f32
+    }
+
     /// The board's clock: tick source and delay.
     pub fn clock(&self) -> SimClock<'_> {
         SimClock { board: self }
-    }
-}
-
-/// The low-side switch of one simulated channel.
-pub struct SimSwitch<'a> {
-    board: &'a SimBoard,
-    ch: usize,
-}
-
-impl ErrorType for SimSwitch<'_> {
-    type Error = Infallible;
-}
-
-impl SimSwitch<'_> {
-    #[inline(never)]
-    fn set(&mut self, high: bool) {
-        let mut p = self.board.plant.borrow_mut();
-        let duty = p.duty[self.ch];
-        p.set_drive(self.ch, high, duty);
-    }
-}
-
-// Every seam method below starts with `note_seam_sp` and is inlined into its caller, so the
-// stack pointer recorded is the application's; the plant's work stays out of line (see
-// `crate::measure::stack_app_bytes`).
-
-impl OutputPin for SimSwitch<'_> {
-    #[inline(always)]
-    fn set_low(&mut self) -> Result<(), Infallible> {
-        note_seam_sp();
-        self.set(false);
-        Ok(())
-    }
-
-    #[inline(always)]
-    fn set_high(&mut self) -> Result<(), Infallible> {
-        note_seam_sp();
-        self.set(true);
-        Ok(())
-    }
-}
-
-/// The hold PWM of one simulated channel ([`PWM_HZ`], [`PWM_MAX_DUTY`] steps).
-pub struct SimHold<'a> {
-    board: &'a SimBoard,
-    ch: usize,
-    duty: u16,
-}
-
-impl embedded_hal::pwm::ErrorType for SimHold<'_> {
-    type Error = Infallible;
-}
-
-impl SimHold<'_> {
-    #[inline(never)]
-    fn set(&mut self, duty: u16) {
-        self.duty = duty.min(PWM_MAX_DUTY);
-        let mut p = self.board.plant.borrow_mut();
-        let pin = p.pin[self.ch];
-        p.set_drive(self.ch, pin, self.duty);
-    }
-}
-
-impl SetDutyCycle for SimHold<'_> {
-    #[inline(always)]
-    fn max_duty_cycle(&self) -> u16 {
-        note_seam_sp();
-        PWM_MAX_DUTY
-    }
-
-    #[inline(always)]
-    fn set_duty_cycle(&mut self, duty: u16) -> Result<(), Infallible> {
-        note_seam_sp();
-        self.set(duty);
-        Ok(())
-    }
-}
-
-/// The current sense (ADC + comparator) of one simulated channel.
-pub struct SimSense<'a> {
-    board: &'a SimBoard,
-    ch: usize,
-}
-
-impl SimSense<'_> {
-    #[inline(never)]
-    fn scale_sim(&self) -> SenseScale {
-        let p = self.board.plant.borrow();
-        SenseScale {
-            amps_per_count: p.adc[self.ch].amps_per_count() as f32,
-            offset_counts: 0,
-            full_scale_counts: 4095,
-        }
-    }
-
-    #[inline(never)]
-    fn sample_now_sim(&mut self) -> Result<u16, SenseErrorKind> {
-        let mut p = self.board.plant.borrow_mut();
-        let amps = p.benches[self.ch]
-            .as_ref()
-            .and_then(|b| b.probe(0).ok())
-            .map_or(0.0, |x| x.switch_amps);
-        let ch = self.ch;
-        let Plant { adc, rng, .. } = &mut *p;
-        Ok(adc[ch].convert(amps, &mut rng[ch]))
-    }
-
-    #[inline(never)]
-    fn arm_sim(&mut self, plan: &SensePlan) -> Result<(), SenseErrorKind> {
-        if plan.samples > MAX_SAMPLES {
-            return Err(SenseErrorKind::BufferLength);
-        }
-        if plan.samples > 0 && plan.period.get() == 0 {
-            return Err(SenseErrorKind::PeriodUnsupported);
-        }
-        let mut p = self.board.plant.borrow_mut();
-        let ch = self.ch;
-        let cmp = match plan.trip_level {
-            Some(level) => {
-                if level > 4095 {
-                    return Err(SenseErrorKind::LevelOutOfRange);
-                }
-                // The comparator sees the amplified shunt voltage, offset included.
-                let a = &p.adc[ch];
-                let amps = (f64::from(level) - a.offset_lsb) * a.amps_per_count();
-                Some(Comparator {
-                    threshold_amps: amps,
-                    sense: SensePoint::Switch,
-                })
-            }
-            None => None,
-        };
-        p.benches[ch]
-            .as_mut()
-            .ok_or(SenseErrorKind::Other)?
-            .set_comparator(0, cmp)
-            .map_err(|_| SenseErrorKind::Other)?;
-        let c = &mut p.capture[ch];
-        c.plan = *plan;
-        c.started = None;
-        c.taken = 0;
-        Ok(())
-    }
-
-    #[inline(never)]
-    fn samples_sim(&mut self, out: &mut [u16]) -> Result<Option<Capture>, SenseErrorKind> {
-        let p = self.board.plant.borrow();
-        let c = &p.capture[self.ch];
-        if c.started.is_none() || c.taken < c.plan.samples {
-            return Ok(None);
-        }
-        let n = c.plan.samples;
-        let dst = out.get_mut(..n).ok_or(SenseErrorKind::BufferLength)?;
-        dst.copy_from_slice(&c.buf[..n]);
-        Ok(Some(Capture {
-            len: n,
-            first: c.plan.first,
-            period: c.plan.period,
-        }))
-    }
-
-    #[inline(never)]
-    fn crossing_sim(&mut self) -> Result<Crossing, SenseErrorKind> {
-        let p = self.board.plant.borrow();
-        let s = p.benches[self.ch]
-            .as_ref()
-            .and_then(|b| b.stats(0).ok())
-            .ok_or(SenseErrorKind::Other)?;
-        // A capture timer counts whole ticks: the crossing time rounds down.
-        Ok(match s.comparator_ticks_since_on(TICK_HZ) {
-            Some(t) => Crossing::After(Ticks(u32::try_from(t).unwrap_or(u32::MAX))),
-            None => Crossing::NotYet,
-        })
-    }
-}
-
-impl CurrentSense for SimSense<'_> {
-    type Error = SenseErrorKind;
-    const MAX_SAMPLES: usize = MAX_SAMPLES;
-
-    #[inline(always)]
-    fn scale(&self) -> SenseScale {
-        note_seam_sp();
-        self.scale_sim()
-    }
-
-    #[inline(always)]
-    fn sample_now(&mut self) -> Result<u16, SenseErrorKind> {
-        note_seam_sp();
-        self.sample_now_sim()
-    }
-
-    #[inline(always)]
-    fn arm(&mut self, plan: &SensePlan) -> Result<(), SenseErrorKind> {
-        note_seam_sp();
-        self.arm_sim(plan)
-    }
-
-    #[inline(always)]
-    fn samples(&mut self, out: &mut [u16]) -> Result<Option<Capture>, SenseErrorKind> {
-        note_seam_sp();
-        self.samples_sim(out)
-    }
-
-    #[inline(always)]
-    fn crossing(&mut self) -> Result<Crossing, SenseErrorKind> {
-        note_seam_sp();
-        self.crossing_sim()
-    }
-}
-
-/// Simulated time as a [`TickSource`] (1 µs ticks) and a [`DelayNs`] that advances the plant.
-pub struct SimClock<'a> {
-    board: &'a SimBoard,
-}
-
-impl SimClock<'_> {
-    #[inline(never)]
-    fn now_sim(&self) -> Instant {
-        // Truncation to the wrapping 32-bit counter is the intent.
-        Instant((self.board.plant.borrow().now_ns / NS_PER_TICK) as u32)
-    }
-
-    #[inline(never)]
-    fn delay_sim(&mut self, ns: u32) {
-        let mut p = self.board.plant.borrow_mut();
-        let t = p.now_ns + u64::from(ns);
-        p.advance_to(t);
-    }
-}
-
-impl TickSource for SimClock<'_> {
-    #[inline(always)]
-    fn rate(&self) -> TickRate {
-        note_seam_sp();
-        TickRate::new(TICK_HZ).unwrap_or_else(|_| crate::exit(crate::status::CHECK_FAILED))
-    }
-
-    #[inline(always)]
-    fn now(&self) -> Instant {
-        note_seam_sp();
-        self.now_sim()
-    }
-}
-
-impl DelayNs for SimClock<'_> {
-    #[inline(always)]
-    fn delay_ns(&mut self, ns: u32) {
-        note_seam_sp();
-        self.delay_sim(ns);
     }
 }
 

@@ -23,7 +23,7 @@ use coilwise::schedule::ChannelLimits;
 use crate::scenario::CHANNELS;
 
 /// Most pulses the inrush check keeps (more is reported as a violation of its own).
-const MAX_PULSES: usize = 64;
+const MAX_PULSES: usize = 40;
 
 /// The drive of one switch.
 #[derive(Clone, Copy, Debug, PartialEq, Eq, defmt::Format)]

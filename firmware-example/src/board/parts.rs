@@ -7,7 +7,8 @@
 //! the armature in time and shares no formula with the core's closed forms.
 
 use coilwise_host_tests::{
-    Armature, ChannelParams, Clamp, Coil, DiodeLaw, Mechanics, Switch, Topology,
+    Armature, ChannelParams, Clamp, Coil, CoupledLoop, DiodeLaw, Magnetics, Mechanics, Switch,
+    Topology,
 };
 
 /// Winding temperature of the simulated coils, °C.
@@ -170,4 +171,38 @@ pub fn channel(ch: usize) -> Option<ChannelParams> {
         ),
         _ => return None,
     })
+}
+
+/// The channel with a strong eddy-current path (the pump relay: invented, a solid,
+/// unlaminated iron core and yoke).
+pub const EDDY_CHANNEL: usize = 3;
+
+/// Its eddy path: a fast mode taking `x` of the current with a time constant `r` of the coil's,
+/// which the driver must not mistake for a fault. Built as the simulator's coupled loop (as the
+/// field campaign does): coupling `k² = x/(r + x)`, loop time constant `r·τ/(1 − k²)` (the fast
+/// eigenvalue of two coupled RL loops with a weak secondary), loop inductance 2 % of the coil's.
+pub const EDDY: (f64, f64) = (0.05, 0.20);
+
+/// The magnetic extras of simulated channel `ch` (eddy path, saturation): [`EDDY_CHANNEL`] has
+/// an eddy path ([`EDDY`]); the others are linear.
+pub fn magnetics(ch: usize) -> Magnetics {
+    if ch != EDDY_CHANNEL {
+        return Magnetics::LINEAR;
+    }
+    let (x, r) = EDDY;
+    let b = [&VALVE_A, &VALVE_B, &VALVE_C, &PUMP][ch];
+    let r_w = b.r20 * (1.0 + COPPER_ALPHA * (WINDING_CELSIUS - 20.0));
+    // On-loop resistance of the rise: winding, cable, shunt, switch (about 0.05 ohm or more).
+    let tau = b.l_released / (r_w + b.wiring + b.shunt + 0.05);
+    let k2 = x / (r + x);
+    let l_e = 0.02 * b.l_released;
+    let tau_e = r * tau / (1.0 - k2);
+    Magnetics {
+        eddy: Some(CoupledLoop {
+            ohms: l_e / tau_e,
+            henries: l_e,
+            coupling: libm::sqrt(k2),
+        }),
+        saturation: None,
+    }
 }

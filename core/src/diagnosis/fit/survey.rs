@@ -1,0 +1,264 @@
+//! The survey pass: trace checks and the closed-form one-pass estimate.
+
+use super::TraceFault;
+use super::MIN_SAMPLES;
+use crate::diagnosis::sample::{Sample, Sampling};
+
+/// What the first pass learns about a trace.
+pub(super) struct Survey {
+    pub(super) used: usize,
+    pub(super) truncated: bool,
+    pub(super) sigma: f32,
+    pub(super) lambda: f32,
+    pub(super) first: f32,
+    pub(super) max: f32,
+    pub(super) drop: f32,
+    /// Σc over the window (raw units above zero).
+    pub(super) sum: f32,
+    /// One-pass λ of the free-level model (initial current not assumed zero); 0 when the
+    /// regression is singular.
+    pub(super) free_lambda: f32,
+}
+
+/// Σκ² for κ = k0 + k, k = 0…m−1, in closed form: m·k0² + k0·m(m−1) + (m−1)m(2m−1)/6.
+fn sum_kappa2(k0: f32, m: f32) -> f32 {
+    m * k0 * k0 + k0 * m * (m - 1.0) + (m - 1.0) * m * (2.0 * m - 1.0) / 6.0
+}
+
+/// The five running sums of the survey: S (Σc), R (ΣS), Q (ΣR), P (ΣS²) and C (Σc²).
+struct Sums {
+    s: f32,
+    r: f32,
+    q: f32,
+    p: f32,
+    c: f32,
+}
+
+impl Sums {
+    /// The sums after the first sample `c0`.
+    fn new(c0: f32) -> Self {
+        Self {
+            s: c0,
+            r: c0,
+            q: c0,
+            p: c0 * c0,
+            c: c0 * c0,
+        }
+    }
+
+    /// Adds the next sample `c`: five flops.
+    #[inline(always)]
+    fn add(&mut self, c: f32) {
+        self.s += c;
+        self.r += self.s;
+        self.q += self.r;
+        self.p += self.s * self.s;
+        self.c += c * c;
+    }
+}
+
+/// Smallest count that reads as saturated, `⌈full⌉` limited to the `i32` range: for counts of at
+/// most 2¹⁶ in magnitude, `x ≥ count_limit(full)` exactly when `x as f32 ≥ full`.
+fn count_limit(full: f32) -> i32 {
+    // `as` saturates (and +∞ goes to i32::MAX, above every exact count).
+    let t = full as i32;
+    if (t as f32) < full {
+        t.saturating_add(1)
+    } else {
+        t
+    }
+}
+
+/// The survey loop for exact integer counts ([`Sample::EXACT_COUNT`]): the sums of
+/// `head, tail…` above `zero`, the last count, and a word that is negative exactly when some
+/// count is below its predecessor (the OR of the differences; no compare per sample).
+fn count_pass<S: Sample>(head: S, tail: &[S], zero: f32) -> (Sums, i32, i32) {
+    let mut sums = Sums::new(head.to_f32() - zero);
+    let (mut last, mut dips) = (head.to_count(), 0i32);
+    let mut step = |v: S| {
+        let x = v.to_count();
+        dips |= x.wrapping_sub(last);
+        last = x;
+        sums.add(v.to_f32() - zero);
+    };
+    // Two samples per loop turn halve the loop overhead; the arithmetic is the same.
+    let mut pairs = tail.chunks_exact(2);
+    for pair in &mut pairs {
+        step(pair[0]);
+        step(pair[1]);
+    }
+    for &v in pairs.remainder() {
+        step(v);
+    }
+    (sums, last, dips)
+}
+
+/// The largest count of `head, tail…` and the largest drop below the running maximum (counts);
+/// run only for a trace that falls somewhere.
+fn count_extent<S: Sample>(head: S, tail: &[S]) -> (i32, i32) {
+    let (mut hi, mut drop) = (head.to_count(), 0i32);
+    for v in tail {
+        let x = v.to_count();
+        if x >= hi {
+            hi = x;
+        } else if hi.wrapping_sub(x) > drop {
+            drop = hi.wrapping_sub(x);
+        }
+    }
+    (hi, drop)
+}
+
+pub(super) fn survey<S: Sample>(samples: &[S], sampling: &Sampling) -> Result<Survey, TraceFault> {
+    let n = samples.len();
+    let zero = sampling.zero();
+    let full = sampling.full_scale();
+    let k0 = sampling.first().value() / sampling.period().value();
+    let Some((head, tail)) = samples.split_first() else {
+        return Err(TraceFault::TooFewSamples { usable: 0 });
+    };
+    let x = head.to_f32();
+    if !S::IS_INTEGER && !x.is_finite() {
+        return Err(TraceFault::NotFinite { index: 0 });
+    }
+    if x >= full {
+        return Err(TraceFault::SaturatedEarly { index: 0 });
+    }
+    // The trapezoid integral is J_k = S_k − c_k/2 + γ with the prefix sum S_k = Σ_{j≤k} c_j and
+    // γ = c₀(k0 − 1)/2 (the first trapezoid runs from switch-on, i = 0, to the first sample). Every
+    // sum of the least-squares problem then follows from five running sums, S (Σc), R (ΣS),
+    // Q (ΣR), P (ΣS²) and C (Σc²), by summation by parts (see below): five flops per sample.
+    let c0 = x - zero;
+    let (sums, hi, drop, used, truncated) = if S::EXACT_COUNT {
+        // Integer counts: saturation, running maximum and largest drop on the counts themselves
+        // (exact). Saturation needs no test per sample: a saturated sample raises the maximum to
+        // the limit, and then the pass is redone on the window before the first one.
+        let limit = count_limit(full);
+        let mut window = tail;
+        let mut truncated = false;
+        let (sums, hi, drop) = loop {
+            let (sums, last, dips) = count_pass(*head, window, zero);
+            // A trace that never falls has its maximum at the end and no drop.
+            let (hi, drop) = if dips < 0 {
+                count_extent(*head, window)
+            } else {
+                (last, 0)
+            };
+            if hi < limit || truncated {
+                break (sums, hi, drop);
+            }
+            let k = window
+                .iter()
+                .position(|v| v.to_count() >= limit)
+                .unwrap_or(window.len());
+            window = window.get(..k).unwrap_or(&[]);
+            truncated = true;
+        };
+        let used = window.len() + 1;
+        (sums, hi as f32 - zero, drop as f32, used, truncated)
+    } else {
+        let mut sums = Sums::new(c0);
+        let (mut hi, mut drop) = (c0, 0.0f32);
+        let mut truncated = false;
+        let mut rest = tail.iter();
+        while let Some(v) = rest.next() {
+            let x = v.to_f32();
+            if !S::IS_INTEGER && !x.is_finite() {
+                return Err(TraceFault::NotFinite {
+                    index: (n - rest.len() - 1) as u32,
+                });
+            }
+            if x >= full {
+                truncated = true;
+                break;
+            }
+            let c = x - zero;
+            sums.add(c);
+            // Plain compares: `f32::max` may become a library call on the target.
+            if c > hi {
+                hi = c;
+            }
+            let fall = hi - c;
+            if fall > drop {
+                drop = fall;
+            }
+        }
+        let used = if truncated { n - rest.len() - 1 } else { n };
+        (sums, hi, drop, used, truncated)
+    };
+    let Sums {
+        s: s_sum,
+        r: r_sum,
+        q: q_sum,
+        p: p_sum,
+        c: c_sum,
+    } = sums;
+    if used < MIN_SAMPLES {
+        return Err(if truncated {
+            TraceFault::SaturatedEarly { index: used as u32 }
+        } else {
+            TraceFault::TooFewSamples {
+                usable: used as u32,
+            }
+        });
+    }
+    let m = used as f32;
+    let gamma = 0.5 * c0 * (k0 - 1.0);
+    let km = k0 + m;
+    // Σκ² and Σκ in closed form; Σk·c_k = m·S − R and Σk·S_k = m·R − Q (summation by parts);
+    // Σc_k·S_k = (S² + C)/2.
+    let suu = sum_kappa2(k0, m);
+    let su = m * k0 + 0.5 * m * (m - 1.0);
+    let scu = km * s_sum - r_sum;
+    let scj = 0.5 * s_sum * s_sum + gamma * s_sum;
+    let suj = km * r_sum - q_sum - 0.5 * scu + gamma * su;
+    let sjj = p_sum - 0.5 * s_sum * s_sum - 0.25 * c_sum + 2.0 * gamma * r_sum - gamma * s_sum
+        + m * gamma * gamma;
+    let d = suu * sjj - suj * suj;
+    let (sigma, lambda) = if d > 1.0e-6 * suu * sjj && d.is_finite() {
+        ((scu * sjj - suj * scj) / d, (suj * scu - suu * scj) / d)
+    } else {
+        (scu / suu, 0.0)
+    };
+    // The free-level model `c = P − A·e^(−λκ)` obeys `dc/dκ = λ·(P − c)`, so
+    // `c_k = a + λP·κ_k − λ·J_k` with a free intercept a (which also absorbs the unknown first
+    // trapezoid γ): the same regression on (κ, J) with both columns and c centred.
+    let sj = r_sum - 0.5 * s_sum + m * gamma;
+    let (mu, mj) = (su / m, sj / m);
+    let cuu = suu - su * mu;
+    let cuj = suj - su * mj;
+    let cjj = sjj - sj * mj;
+    let ccu = scu - s_sum * mu;
+    let ccj = scj - s_sum * mj;
+    let dc = cuu * cjj - cuj * cuj;
+    let free_lambda = if dc > 1.0e-7 * cuu * cjj && dc.is_finite() {
+        (cuj * ccu - cuu * ccj) / dc
+    } else {
+        0.0
+    };
+    Ok(Survey {
+        free_lambda,
+        used,
+        truncated,
+        sigma,
+        lambda,
+        first: c0,
+        max: hi,
+        drop,
+        sum: s_sum,
+    })
+}
+
+/// Index of the largest drop below the running maximum (rescan; only when reporting it).
+pub(super) fn drop_index<S: Sample>(samples: &[S], zero: f32) -> u32 {
+    let (mut hi, mut best, mut at) = (f32::NEG_INFINITY, 0.0f32, 0usize);
+    for (k, s) in samples.iter().enumerate() {
+        let c = s.to_f32() - zero;
+        if c > hi {
+            hi = c;
+        } else if hi - c > best {
+            best = hi - c;
+            at = k;
+        }
+    }
+    at as u32
+}
