@@ -306,28 +306,46 @@ pub fn judge_baseline(
     let k = criteria.sigmas;
     let m = criteria.baseline_margin;
     let hypot = |a: f32, b: f32| sqrt(a * a + b * b);
-    let tol_l = k * hypot(q.rel_sd_slope, baseline.spread_inductance) + m;
-    let ratio_l = l / baseline.inductance;
     let alpha = expected.coil().temperature_coefficient().value();
-    let r_check = match (board, baseline.temperature()) {
-        (Some(t), Some(_)) => copper_factor(expected, t).map(|f| {
-            let tol = k * hypot(q.rel_sd_final, baseline.spread_resistance)
-                + m
-                + alpha * criteria.board_kelvin;
-            (r / f / baseline.resistance, tol)
-        }),
+    // The operating point's log change between learning and now (envelope.rs): the coil's τ
+    // moves as 1/R(T) — from the two board readings, each up to board_kelvin off the winding;
+    // without them, the whole design window of τ. The current the window reaches is not known
+    // at learning (the baseline keeps the drive-normalised figures), so the saturation part
+    // is kept whole.
+    let factors = match (board, baseline.temperature()) {
+        (Some(t), Some(tb)) => copper_factor(expected, t).zip(copper_factor(expected, tb)),
         _ => None,
     };
+    let ln_tau_change = match factors {
+        Some((f, fb)) => libm::logf(f / fb).abs() + 2.0 * alpha * criteria.board_kelvin,
+        None => libm::logf(expected.tau.max.value() / expected.tau.min.value()),
+    };
+    let drift = criteria.envelope(1.0).drift(ln_tau_change, f32::INFINITY);
+    // Both pulses carry a bias inside the envelope; their ratio moves by the drift alone.
+    let (_, dl_hi) = drift.ln_inductance();
+    let (dr_lo, dr_hi) = drift.ln_resistance();
+    let tol_l = k * hypot(q.rel_sd_slope, baseline.spread_inductance) + m;
+    let ratio_l = l / baseline.inductance;
+    let l_low = libm::logf(ratio_l) < -(libm::log1pf(tol_l) + dl_hi);
+    let l_high = libm::logf(ratio_l) > libm::log1pf(tol_l) + dl_hi;
+    let r_check = factors.map(|(f, _)| {
+        let tol = k * hypot(q.rel_sd_final, baseline.spread_resistance)
+            + m
+            + alpha * criteria.board_kelvin;
+        let ln_ratio = libm::logf(r / f / baseline.resistance);
+        let span = libm::log1pf(tol) + dr_lo + dr_hi;
+        (ln_ratio < -span, ln_ratio > span)
+    });
     let grown = h - baseline.head_fraction > criteria.head_fraction && fit.shape.head_sigmas > k;
-    let r_low = matches!(r_check, Some((ratio, tol)) if ratio < 1.0 - tol);
-    v.finding = if ratio_l < 1.0 - tol_l || grown {
+    let r_low = matches!(r_check, Some((true, _)));
+    v.finding = if l_low || grown {
         Finding::ShortedTurns
     } else if r_low {
         // Resistance down with the inductance kept: not shorted turns (see judge_response).
         Finding::ShapeUnexplained
-    } else if matches!(r_check, Some((ratio, tol)) if ratio > 1.0 + tol) {
+    } else if matches!(r_check, Some((_, true))) {
         Finding::HighResistance
-    } else if ratio_l > 1.0 + tol_l {
+    } else if l_high {
         Finding::InductanceHigh
     } else {
         Finding::Healthy

@@ -27,6 +27,7 @@
 //! pass [`Criteria`].
 
 mod actuation;
+pub(crate) mod envelope;
 mod rise;
 mod threshold;
 
@@ -191,8 +192,15 @@ pub struct Criteria {
     /// (`docs/diagnosis.md` §9). A coil known to have a weaker eddy path can use less and gains
     /// resistance sensitivity.
     pub fast_slope: f32,
-    /// The same for τ reading low (default 0.63; worst measured −63 % over that range).
+    /// The same for τ reading low (default 0.63; worst measured −63 % over that range): the
+    /// fitted τ may be as low as `(1 − fast_tau)` of the true one, which may then be
+    /// `1/(1 − fast_tau)` (2.7) times the fitted one. Below 1 (0.99 is used above).
     pub fast_tau: f32,
+    /// How much longer than the first-order model τ of a healthy coil whose inductance falls
+    /// with the current (saturation) may read (default 0.69: the worst measured over an
+    /// inductance down by up to 25 % at full current on a diagnostic pulse, `docs/diagnosis.md`
+    /// §9). 0 for a coil declared not to saturate within its current range.
+    pub slow_tau: f32,
     /// Largest head shortfall below the slow mode a healthy coil may show, as a fraction of the
     /// final current (default 0.03): beyond it the fast component is a tightly coupled closed
     /// loop (shorted turns).
@@ -223,11 +231,35 @@ impl Default for Criteria {
             movement: MovementCriteria::default(),
             fast_slope: 0.34,
             fast_tau: 0.63,
+            slow_tau: 0.69,
             head_fraction: 0.03,
             smooth_dw: 1.0,
             baseline_margin: 0.02,
             board_kelvin: 5.0,
         }
+    }
+}
+
+impl Criteria {
+    /// The criteria for a coil declared with a laminated magnetic circuit and no solid
+    /// conducting part coupled to the winding (no solid plunger, sleeve or bobbin former): the
+    /// eddy path is sized for a loop carrying at most 2 % of the current, whose worst bias on a
+    /// diagnostic pulse was measured at +10 % slope, −25 % τ (`docs/diagnosis.md` §9). The
+    /// saturation allowance is kept: a laminated core saturates too. Everything else as
+    /// [`Criteria::default`], which is the conservative declaration (a solid eddy path of up
+    /// to 5 % of the current).
+    pub fn laminated() -> Self {
+        Self {
+            fast_slope: 0.10,
+            fast_tau: 0.25,
+            ..Self::default()
+        }
+    }
+
+    /// The bias envelope of a healthy coil under these criteria, the eddy part scaled by
+    /// `eddy_scale` (the window-length law, in `[0, 1]`).
+    pub(crate) fn envelope(&self, eddy_scale: f32) -> envelope::Envelope {
+        envelope::Envelope::new(self.fast_slope, self.fast_tau, self.slow_tau, eddy_scale)
     }
 }
 
