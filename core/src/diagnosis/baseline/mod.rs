@@ -320,14 +320,25 @@ pub fn judge_baseline(
         Some((f, fb)) => libm::logf(f / fb).abs() + 2.0 * alpha * criteria.board_kelvin,
         None => libm::logf(expected.tau.max.value() / expected.tau.min.value()),
     };
+    // The fit keeps a shorter window when a fast mode holds the head back (fit/free.rs); with
+    // the head left out now and not at learning (or the other way) the two biases are those of
+    // different windows, not of a moved operating point: the whole envelope.
+    let head_now = fit.shape.skipped > 0;
+    let head_then = baseline.head_fraction > 0.0;
+    let ln_tau_change = if head_now == head_then {
+        ln_tau_change
+    } else {
+        f32::INFINITY
+    };
     let drift = criteria.envelope(1.0).drift(ln_tau_change, f32::INFINITY);
     // Both pulses carry a bias inside the envelope; their ratio moves by the drift alone.
-    let (_, dl_hi) = drift.ln_inductance();
+    let (dl_lo, dl_hi) = drift.ln_inductance();
+    let dl = dl_lo + dl_hi;
     let (dr_lo, dr_hi) = drift.ln_resistance();
     let tol_l = k * hypot(q.rel_sd_slope, baseline.spread_inductance) + m;
     let ratio_l = l / baseline.inductance;
-    let l_low = libm::logf(ratio_l) < -(libm::log1pf(tol_l) + dl_hi);
-    let l_high = libm::logf(ratio_l) > libm::log1pf(tol_l) + dl_hi;
+    let l_low = libm::logf(ratio_l) < -(libm::log1pf(tol_l) + dl);
+    let l_high = libm::logf(ratio_l) > libm::log1pf(tol_l) + dl;
     let r_check = factors.map(|(f, _)| {
         let tol = k * hypot(q.rel_sd_final, baseline.spread_resistance)
             + m

@@ -46,14 +46,15 @@ pub(super) fn judge_slope_tau(
     } = physics;
     let ws = 1.0 + half_slope;
     // One-sided allowances, on the side the physics biases: the true slope may be 1/fs of the
-    // fitted one, the true τ up to ft times and down to 1/fh of it (envelope.rs).
+    // fitted one (and up to slope_up times it), the true τ up to ft times and down to 1/fh of
+    // it (envelope.rs).
     let (fs, ft, fh) = (
         envelope.slope_down(),
         envelope.tau_up(),
         envelope.tau_down(),
     );
     // Inductance the slope implies: L = k_s·V_d / s.
-    let l_lo = expected.sensed_drive.min.value() / (slope * ws);
+    let l_lo = expected.sensed_drive.min.value() / (slope * ws * envelope.slope_up());
     let l_hi = expected.sensed_drive.max.value() * ws * fs / slope;
     let ell_lo = expected.inductance.min.value();
     let ell_hi = expected.inductance.max.value();
@@ -258,8 +259,19 @@ pub(super) fn judge_trace_fault(
             let t = sampling.time_of(index as usize).value();
             let full = sampling.amps(sampling.full_scale());
             let healthy_max = (expected.slope.max * t).min(expected.final_current.max.value());
+            // Too fast for a healthy coil. A bypassed winding, or shorted turns: a bridged
+            // section leaves at least its leakage, about L_rest·(1 − k²) (turns_floor of the
+            // band's minimum). Reaching full scale by t means an inductance of at most
+            // V_max·t/I_fs (from rest; any resistance only lowers the current): "short" only
+            // when that bound is below what shorted turns can leave.
+            let l_bound = expected.sensed_drive.max.value() * t / full;
+            let floor = criteria.turns_floor * expected.inductance.min.value();
             if full > healthy_max * (1.0 + criteria.model_margin) {
-                Finding::ShortCircuit
+                if l_bound < floor {
+                    Finding::ShortCircuit
+                } else {
+                    Finding::ShortedTurns
+                }
             } else {
                 Finding::CannotTell(Undetermined::RangeTooSmall)
             }
