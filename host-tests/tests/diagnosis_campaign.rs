@@ -54,8 +54,19 @@ fn field_campaign() {
     let started = Instant::now();
     let mut failures: Vec<String> = Vec::new();
     let mut missed: Vec<String> = Vec::new();
-    for (ci, spec) in [VALVE, RELAY].into_iter().enumerate() {
-        let ch = Channel::new(spec);
+    let channels = [
+        Channel::new(VALVE),
+        Channel::new(RELAY),
+        Channel::laminated(VALVE),
+        Channel::laminated(RELAY),
+    ];
+    for (ci, ch) in channels.iter().enumerate() {
+        let spec = ch.spec;
+        let name = if ci < 2 {
+            spec.name.to_string()
+        } else {
+            format!("{} declared laminated", spec.name)
+        };
         let mut rng = Prng::new(0xF1E1_D000 + ci as u64);
         let mut rows: [Vec<(String, Row)>; 3] = Default::default();
         let mut cases: Vec<(Phenomenon, Truth)> =
@@ -75,7 +86,7 @@ fn field_campaign() {
         }
         println!(
             "\n=== {}: probe {:.1} us, {} samples every {} ns ===",
-            spec.name,
+            name,
             ch.probe.duration.value() * 1e6,
             campaign::SAMPLES,
             ch.period_ns
@@ -99,7 +110,7 @@ fn field_campaign() {
                 let fa = r.false_alarms();
                 let line = format!(
                     "{} {mode} {}: false alarms {fa}/{} ({:.2} %), no verdict {:.2} %",
-                    spec.name,
+                    name,
                     ph.label(),
                     r.total,
                     100.0 * r.rate(fa),
@@ -118,7 +129,7 @@ fn field_campaign() {
             let isolated = short.counts[2] + short.counts[3];
             let line = format!(
                 "{} {mode} short: {isolated}/{} isolated (short or shorted turns)",
-                spec.name, short.total
+                name, short.total
             );
             if isolated == short.total {
                 println!("met: {line}");
@@ -130,7 +141,7 @@ fn field_campaign() {
                 let rate = r.rate(r.right);
                 let line = format!(
                     "{} {mode} {}: {:.2} % named (goal {:.0} %)",
-                    spec.name,
+                    name,
                     t.label(),
                     100.0 * rate,
                     100.0 * goal
@@ -168,7 +179,7 @@ fn field_campaign() {
         println!("MISSED: {m}");
     }
     println!(
-        "{n} coils per row, 2 coils x 15 rows x 5 pulses, in {:.1} s",
+        "{n} coils per row, 4 coil declarations x 15 rows x 5 pulses, in {:.1} s",
         started.elapsed().as_secs_f64()
     );
     assert!(failures.is_empty(), "{failures:#?}");
