@@ -31,6 +31,12 @@
 //! offset from the board sensor; a head shortfall grown by more than `head_fraction` of the final
 //! current → [`Finding::ShortedTurns`] (a coupled shorted loop appeared).
 //!
+//! Each window also keeps the part of the healthy coil's bias envelope that a change of
+//! operating point moves (`verdict/envelope.rs`): the eddy part in proportion to the log change
+//! of the coil's τ between learning and now (from the two board readings), the saturation part
+//! whole (the current the learning pulses reached is not recorded), the whole envelope when the
+//! fit left the window's head out now and not at learning or the reverse.
+//!
 //! Results are engineering estimates; a learned baseline is only as good as the coil it was
 //! learned on. Follow the component datasheets and licensed practice.
 
@@ -285,9 +291,11 @@ impl Learning {
 /// (see the module docs for the windows). `board`: the board temperature now; the resistance is
 /// compared only when it and the baseline's temperature are both known.
 ///
-/// Windows, relative: `L`: `k·√(sd_s² + spread_L²) + baseline_margin`; `R`:
-/// `k·√(sd_I∞² + spread_R²) + baseline_margin + α·board_kelvin`. Never panics; the estimates are
-/// those of [`judge_response`].
+/// Windows, in logarithms: `L`: `ln(1 + k·√(sd_s² + spread_L²) + baseline_margin) + D_L`; `R`:
+/// `ln(1 + k·√(sd_I∞² + spread_R²) + baseline_margin + α·board_kelvin) + D_R`, with `D_L`, `D_R`
+/// the drift of the bias envelope between learning and now (module docs; `docs/diagnosis.md`
+/// §10). Never panics (NaN figures fail every comparison and keep the design verdict's finding
+/// or the healthy one); the estimates are those of [`judge_response`].
 pub fn judge_baseline(
     fit: &ResponseFit,
     baseline: &Baseline,

@@ -174,8 +174,11 @@ fn eddy_scale(w: f32) -> f32 {
 ///    (Durbin–Watson below `criteria.smooth_dw`: a shape the model does not have, from a plant
 ///    the model leaves out) and [`Finding::SensorImplausible`]`(PoorFit)` only when they are
 ///    noise-like (a noisy or intermittent sensor).
-/// 2. The slope may read up to `fast_slope` high and τ up to `fast_tau` low before the band
-///    counts them, scaled down for windows longer than a diagnostic pulse's (see `eddy_scale`) (a healthy coil's eddy path; one-sided: the side the physics biases).
+/// 2. Slope and τ are judged with the healthy coil's bias envelope (`envelope.rs`): the slope may
+///    read up to `fast_slope` high and τ `fast_tau` low (an eddy path; the true τ may then be
+///    `1/(1 − fast_tau)` times the fitted one), scaled down for windows longer than a diagnostic
+///    pulse's (see `eddy_scale`); τ `slow_tau` long and the slope `slow_slope` low
+///    (saturation). R = L/τ compounds both.
 /// 3. A resistance below the band with the inductance inside it is [`Finding::ShapeUnexplained`]:
 ///    shorted turns lower the inductance at least as much (turns squared against turns), while
 ///    saturation lengthens the fitted τ of a short window and looks like exactly this.
