@@ -193,14 +193,16 @@ pub struct Moment {
     initial: f64,
 }
 
-pub fn draw_part(rng: &mut Prng, ph: Phenomenon) -> Part {
+/// `eddy_max`: the largest share of the current the eddy path's fast mode takes (0.05 for a
+/// solid magnetic circuit, 0.02 for a coil declared laminated).
+pub fn draw_part(rng: &mut Prng, ph: Phenomenon, eddy_max: f64) -> Part {
     let mut u = |lo: f64, hi: f64| lo + (hi - lo) * rng.uniform();
     Part {
         k_r: u(0.93, 1.07),
         k_l: u(0.85, 1.15),
         k_s: u(0.99, 1.01),
         eddy: if ph.has(Phenomenon::Eddy) {
-            Some((u(0.005, 0.05), u(0.03, 0.20)))
+            Some((u(0.005, eddy_max), u(0.03, 0.20)))
         } else {
             None
         },
@@ -249,12 +251,28 @@ pub struct Channel {
     pub sampling: Sampling,
     pub period_ns: u64,
     pub wide: Expected,
+    /// What the design declares about its magnetic circuit.
+    pub criteria: Criteria,
+    /// Largest eddy share the parts of this design are drawn with.
+    pub eddy_max: f64,
 }
 
 pub const SAMPLES: usize = 64;
 
 impl Channel {
+    /// A coil with a solid magnetic circuit (eddy path up to 5 % of the current), judged with
+    /// the conservative default criteria.
     pub fn new(spec: CoilSpec) -> Self {
+        Self::declared(spec, Criteria::default(), 0.05)
+    }
+
+    /// A coil whose design declares a laminated magnetic circuit (eddy path up to 2 % of the
+    /// current), judged with [`Criteria::laminated`].
+    pub fn laminated(spec: CoilSpec) -> Self {
+        Self::declared(spec, Criteria::laminated(), 0.02)
+    }
+
+    fn declared(spec: CoilSpec, criteria: Criteria, eddy_max: f64) -> Self {
         let design = design(&spec);
         let probe = Probe::new(&design, 0.5).unwrap();
         let dt = probe.sample_period(SAMPLES).unwrap();
@@ -274,6 +292,8 @@ impl Channel {
             sampling,
             period_ns,
             wide,
+            criteria,
+            eddy_max,
         }
     }
 
@@ -414,7 +434,7 @@ impl Channel {
                 counts,
                 &self.sampling,
                 e,
-                &Criteria::default(),
+                &self.criteria,
                 &FitOptions::default(),
             )
             .finding
@@ -423,13 +443,13 @@ impl Channel {
     /// The three verdicts for one coil: (A) design ranges, (B) supply and temperature known,
     /// (C) against a baseline learned at commissioning over 4 healthy pulses.
     pub fn verdicts(&self, ph: Phenomenon, truth: Truth, rng: &mut Prng) -> [Finding; 3] {
-        let part = draw_part(rng, ph);
+        let part = draw_part(rng, ph, self.eddy_max);
         let lat = ph.has(Phenomenon::Latency);
         // Commissioning: the healthy coil at some temperature and supply.
         let commissioning = draw_moment(rng, &self.spec, ph);
         let (e0, board0) = self.knowledge(&commissioning, Truth::Healthy, rng);
         let mut learn = Learning::new();
-        let crit = Criteria::default();
+        let crit = self.criteria;
         let mut refused = None;
         for _ in 0..4 {
             let c = self.pulse(&part, &commissioning, Truth::Healthy, lat, rng);

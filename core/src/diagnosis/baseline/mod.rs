@@ -31,6 +31,12 @@
 //! offset from the board sensor; a head shortfall grown by more than `head_fraction` of the final
 //! current → [`Finding::ShortedTurns`] (a coupled shorted loop appeared).
 //!
+//! Each window also keeps the part of the healthy coil's bias envelope that a change of
+//! operating point moves (`verdict/envelope.rs`): the eddy part in proportion to the log change
+//! of the coil's τ between learning and now (from the two board readings), the saturation part
+//! whole (the current the learning pulses reached is not recorded), the whole envelope when the
+//! fit left the window's head out now and not at learning or the reverse.
+//!
 //! Results are engineering estimates; a learned baseline is only as good as the coil it was
 //! learned on. Follow the component datasheets and licensed practice.
 
@@ -285,9 +291,11 @@ impl Learning {
 /// (see the module docs for the windows). `board`: the board temperature now; the resistance is
 /// compared only when it and the baseline's temperature are both known.
 ///
-/// Windows, relative: `L`: `k·√(sd_s² + spread_L²) + baseline_margin`; `R`:
-/// `k·√(sd_I∞² + spread_R²) + baseline_margin + α·board_kelvin`. Never panics; the estimates are
-/// those of [`judge_response`].
+/// Windows, in logarithms: `L`: `ln(1 + k·√(sd_s² + spread_L²) + baseline_margin) + D_L`; `R`:
+/// `ln(1 + k·√(sd_I∞² + spread_R²) + baseline_margin + α·board_kelvin) + D_R`, with `D_L`, `D_R`
+/// the drift of the bias envelope between learning and now (module docs; `docs/diagnosis.md`
+/// §10). Never panics (NaN figures fail every comparison and keep the design verdict's finding
+/// or the healthy one); the estimates are those of [`judge_response`].
 pub fn judge_baseline(
     fit: &ResponseFit,
     baseline: &Baseline,
@@ -306,28 +314,57 @@ pub fn judge_baseline(
     let k = criteria.sigmas;
     let m = criteria.baseline_margin;
     let hypot = |a: f32, b: f32| sqrt(a * a + b * b);
-    let tol_l = k * hypot(q.rel_sd_slope, baseline.spread_inductance) + m;
-    let ratio_l = l / baseline.inductance;
     let alpha = expected.coil().temperature_coefficient().value();
-    let r_check = match (board, baseline.temperature()) {
-        (Some(t), Some(_)) => copper_factor(expected, t).map(|f| {
-            let tol = k * hypot(q.rel_sd_final, baseline.spread_resistance)
-                + m
-                + alpha * criteria.board_kelvin;
-            (r / f / baseline.resistance, tol)
-        }),
+    // The operating point's log change between learning and now (envelope.rs): the coil's τ
+    // moves as 1/R(T) — from the two board readings, each up to board_kelvin off the winding;
+    // without them, the whole design window of τ. The current the window reaches is not known
+    // at learning (the baseline keeps the drive-normalised figures), so the saturation part
+    // is kept whole.
+    let factors = match (board, baseline.temperature()) {
+        (Some(t), Some(tb)) => copper_factor(expected, t).zip(copper_factor(expected, tb)),
         _ => None,
     };
+    let ln_tau_change = match factors {
+        Some((f, fb)) => libm::logf(f / fb).abs() + 2.0 * alpha * criteria.board_kelvin,
+        None => libm::logf(expected.tau.max.value() / expected.tau.min.value()),
+    };
+    // The fit keeps a shorter window when a fast mode holds the head back (fit/free.rs); with
+    // the head left out now and not at learning (or the other way) the two biases are those of
+    // different windows, not of a moved operating point: the whole envelope.
+    let head_now = fit.shape.skipped > 0;
+    let head_then = baseline.head_fraction > 0.0;
+    let ln_tau_change = if head_now == head_then {
+        ln_tau_change
+    } else {
+        f32::INFINITY
+    };
+    let drift = criteria.envelope(1.0).drift(ln_tau_change, f32::INFINITY);
+    // Both pulses carry a bias inside the envelope; their ratio moves by the drift alone.
+    let (dl_lo, dl_hi) = drift.ln_inductance();
+    let dl = dl_lo + dl_hi;
+    let (dr_lo, dr_hi) = drift.ln_resistance();
+    let tol_l = k * hypot(q.rel_sd_slope, baseline.spread_inductance) + m;
+    let ratio_l = l / baseline.inductance;
+    let l_low = libm::logf(ratio_l) < -(libm::log1pf(tol_l) + dl);
+    let l_high = libm::logf(ratio_l) > libm::log1pf(tol_l) + dl;
+    let r_check = factors.map(|(f, _)| {
+        let tol = k * hypot(q.rel_sd_final, baseline.spread_resistance)
+            + m
+            + alpha * criteria.board_kelvin;
+        let ln_ratio = libm::logf(r / f / baseline.resistance);
+        let span = libm::log1pf(tol) + dr_lo + dr_hi;
+        (ln_ratio < -span, ln_ratio > span)
+    });
     let grown = h - baseline.head_fraction > criteria.head_fraction && fit.shape.head_sigmas > k;
-    let r_low = matches!(r_check, Some((ratio, tol)) if ratio < 1.0 - tol);
-    v.finding = if ratio_l < 1.0 - tol_l || grown {
+    let r_low = matches!(r_check, Some((true, _)));
+    v.finding = if l_low || grown {
         Finding::ShortedTurns
     } else if r_low {
         // Resistance down with the inductance kept: not shorted turns (see judge_response).
         Finding::ShapeUnexplained
-    } else if matches!(r_check, Some((ratio, tol)) if ratio > 1.0 + tol) {
+    } else if matches!(r_check, Some((_, true))) {
         Finding::HighResistance
-    } else if ratio_l > 1.0 + tol_l {
+    } else if l_high {
         Finding::InductanceHigh
     } else {
         Finding::Healthy

@@ -27,6 +27,7 @@
 //! pass [`Criteria`].
 
 mod actuation;
+pub(crate) mod envelope;
 mod rise;
 mod threshold;
 
@@ -176,6 +177,13 @@ pub struct Criteria {
     pub short_fraction: f32,
     /// Current above this multiple of the band's maximum is a short circuit (default 4).
     pub short_current: f32,
+    /// The smallest inductance at switch-on, as a fraction of the band's minimum, that a coil
+    /// with shorted turns can show (default 0.005): a bridged section of a fraction f of the
+    /// turns coupled k leaves about `(1 − f)²·(1 − k²)` of L as leakage, 0.005 for half the
+    /// turns at k = 0.99. A trace reaching the converter's full scale too fast is named
+    /// [`Finding::ShortCircuit`] only when it bounds the inductance below this; otherwise
+    /// [`Finding::ShortedTurns`] (both isolate; the name says what to look for).
+    pub turns_floor: f32,
     /// Mean current below this fraction of the band's minimum final current is no current
     /// (default 0.02).
     pub open_fraction: f32,
@@ -191,8 +199,18 @@ pub struct Criteria {
     /// (`docs/diagnosis.md` §9). A coil known to have a weaker eddy path can use less and gains
     /// resistance sensitivity.
     pub fast_slope: f32,
-    /// The same for τ reading low (default 0.63; worst measured −63 % over that range).
+    /// The same for τ reading low (default 0.63; worst measured −63 % over that range): the
+    /// fitted τ may be as low as `(1 − fast_tau)` of the true one, which may then be
+    /// `1/(1 − fast_tau)` (2.7) times the fitted one. Below 1 (0.99 is used above).
     pub fast_tau: f32,
+    /// How much longer than the first-order model τ of a healthy coil whose inductance falls
+    /// with the current (saturation) may read (default 0.69: the worst measured over an
+    /// inductance down by up to 25 % at full current on a diagnostic pulse, `docs/diagnosis.md`
+    /// §9). 0 for a coil declared not to saturate within its current range.
+    pub slow_tau: f32,
+    /// How much lower than the first-order model the slope of a saturating healthy coil may read
+    /// (default 0.022: the worst measured over the same range, §9). Below 1.
+    pub slow_slope: f32,
     /// Largest head shortfall below the slow mode a healthy coil may show, as a fraction of the
     /// final current (default 0.03): beyond it the fast component is a tightly coupled closed
     /// loop (shorted turns).
@@ -218,16 +236,48 @@ impl Default for Criteria {
             max_rel_sd: 0.1,
             short_fraction: 0.1,
             short_current: 4.0,
+            turns_floor: 0.005,
             open_fraction: 0.02,
             pre_movement_fraction: 0.8,
             movement: MovementCriteria::default(),
             fast_slope: 0.34,
             fast_tau: 0.63,
+            slow_tau: 0.69,
+            slow_slope: 0.022,
             head_fraction: 0.03,
             smooth_dw: 1.0,
             baseline_margin: 0.02,
             board_kelvin: 5.0,
         }
+    }
+}
+
+impl Criteria {
+    /// The criteria for a coil declared with a laminated magnetic circuit and no solid
+    /// conducting part coupled to the winding (no solid plunger, sleeve or bobbin former): the
+    /// eddy path is sized for a loop carrying at most 2 % of the current. Its worst bias is the
+    /// default's (+34 % slope, −63 % τ, for 5 %) scaled in logarithms by the analytic two-loop
+    /// rise's ratio between a 2 % and a 5 % path (τ −22 % against −41 %: 0.47; slope +8 %
+    /// against +21 %: 0.41, `docs/diagnosis.md` §9): +13 % slope, −37 % τ. The
+    /// saturation allowance is kept: a laminated core saturates too. Everything else as
+    /// [`Criteria::default`], which is the conservative declaration (a solid eddy path of up
+    /// to 5 % of the current).
+    pub fn laminated() -> Self {
+        Self {
+            fast_slope: 0.13,
+            fast_tau: 0.37,
+            ..Self::default()
+        }
+    }
+
+    /// The bias envelope of a healthy coil under these criteria, the eddy part scaled by
+    /// `eddy_scale` (the window-length law, in `[0, 1]`).
+    pub(crate) fn envelope(&self, eddy_scale: f32) -> envelope::Envelope {
+        envelope::Envelope::new(
+            (self.fast_slope, self.fast_tau),
+            (self.slow_tau, self.slow_slope),
+            eddy_scale,
+        )
     }
 }
 

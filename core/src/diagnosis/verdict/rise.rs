@@ -1,5 +1,6 @@
 //! Judging a fitted rise against the bands, and what a trace fault means for the coil.
 
+use super::envelope::Envelope;
 use super::Estimates;
 use super::{at_most, estimates, healthy_or_supply, Criteria, Finding, Undetermined, Verdict};
 use crate::diagnosis::band::Expected;
@@ -9,8 +10,8 @@ use crate::diagnosis::sample::{Sample, Sampling};
 /// What the physics of a real coil allows on top of the fit's errors (see [`judge_response`]).
 #[derive(Clone, Copy)]
 pub(super) struct Allowances {
-    /// How far the slope may read high and τ low (relative) for a healthy coil's eddy path.
-    pub(super) fast: (f32, f32),
+    /// How far slope and τ of a healthy coil may read off the first-order model.
+    pub(super) envelope: Envelope,
     /// The finding for a resistance below the band with the inductance inside it.
     pub(super) r_low_alone: Finding,
 }
@@ -18,40 +19,53 @@ pub(super) struct Allowances {
 impl Allowances {
     /// The ideal first-order coil: no allowance; a low resistance is shorted turns.
     pub(super) const FIRST_ORDER: Self = Self {
-        fast: (0.0, 0.0),
+        envelope: Envelope::NONE,
         r_low_alone: Finding::ShortedTurns,
     };
 }
 
-/// Judges slope and τ with their relative half-widths (already including sigmas and margin).
+/// Judges slope and τ with their relative half-widths (already including sigmas and margin),
+/// the healthy coil's bias envelope (`envelope.rs`: R = L/τ compounds the slope's and τ's
+/// biases), and `reached`, the current the window shows (A); the fitted figures are
+/// `(slope A/s, τ s, reached A)`.
 ///
 /// The interval arithmetic of the module docs in ratio form (no logarithms): a relative
 /// half-width `w` widens `[a, b]` to `[a/(1 + w), b·(1 + w)]`, which is `ln(1 + w) ≈ w` wide
 /// either side in logarithms.
 pub(super) fn judge_slope_tau(
-    slope: f32,
-    tau: f32,
+    (slope, tau, reached): (f32, f32, f32),
     half_slope: f32,
     half_tau: Option<f32>,
     physics: Allowances,
     expected: &Expected,
     criteria: &Criteria,
 ) -> Finding {
-    let Allowances { fast, r_low_alone } = physics;
+    let Allowances {
+        envelope,
+        r_low_alone,
+    } = physics;
     let ws = 1.0 + half_slope;
-    // A healthy coil's fast component may raise the slope by fast.0 and lower τ by fast.1
-    // (relative): one-sided allowances, on the side the physics biases (see Criteria).
-    let (fs, ft) = (1.0 + fast.0, 1.0 + fast.1);
+    // One-sided allowances, on the side the physics biases: the true slope may be 1/fs of the
+    // fitted one (and up to slope_up times it), the true τ up to ft times and down to 1/fh of
+    // it (envelope.rs).
+    let (fs, ft, fh) = (
+        envelope.slope_down(),
+        envelope.tau_up(),
+        envelope.tau_down(),
+    );
     // Inductance the slope implies: L = k_s·V_d / s.
-    let l_lo = expected.sensed_drive.min.value() / (slope * ws);
+    let l_lo = expected.sensed_drive.min.value() / (slope * ws * envelope.slope_up());
     let l_hi = expected.sensed_drive.max.value() * ws * fs / slope;
     let ell_lo = expected.inductance.min.value();
     let ell_hi = expected.inductance.max.value();
     if l_hi < ell_lo {
         // Inductance nearly gone *and* a current far beyond the band: the winding is bypassed.
-        // A coupled shorted section also leaves little inductance at first (its leakage), but
-        // the final current stays within a few times the band: shorted turns.
-        let bypassed = slope * tau > criteria.short_current * expected.final_current.max.value()
+        // A coupled shorted section also leaves little inductance at first (its leakage), and
+        // its current never exceeds its final one, V/(R_rest + R_b∥R_short) ≤ V/(R·(1 − f)):
+        // a current *reached* (not extrapolated by a τ its fast mode corrupts) beyond
+        // `short_current` times the band excludes sections below 1 − 1/short_current of the
+        // turns. Otherwise: shorted turns (both isolate; the name says what to look for).
+        let bypassed = reached > criteria.short_current * expected.final_current.max.value()
             || tau.is_nan()
             || tau <= 0.0;
         return if l_hi < ell_lo * criteria.short_fraction && bypassed {
@@ -73,7 +87,7 @@ pub(super) fn judge_slope_tau(
     let wt = 1.0 + half_tau;
     // The inductance both the slope and the band allow, over τ: R_on = L/τ.
     let r_lo = l_lo.max(ell_lo) / (tau * wt * ft);
-    let r_hi = l_hi.min(ell_hi) * wt / tau;
+    let r_hi = l_hi.min(ell_hi) * wt * fh / tau;
     if r_hi < expected.loop_resistance.min.value() {
         r_low_alone
     } else if r_lo > expected.loop_resistance.max.value() {
@@ -108,8 +122,11 @@ pub fn judge_rise(fit: &RiseFit, expected: &Expected, criteria: &Criteria) -> Ve
         None
     };
     let finding = judge_slope_tau(
-        fit.slope,
-        fit.tau.value(),
+        (
+            fit.slope,
+            fit.tau.value(),
+            fit.slope * fit.tau.value() * q.rise_covered,
+        ),
         k * q.rel_sd_slope + m,
         half_tau,
         Allowances::FIRST_ORDER,
@@ -157,8 +174,11 @@ fn eddy_scale(w: f32) -> f32 {
 ///    (Durbin–Watson below `criteria.smooth_dw`: a shape the model does not have, from a plant
 ///    the model leaves out) and [`Finding::SensorImplausible`]`(PoorFit)` only when they are
 ///    noise-like (a noisy or intermittent sensor).
-/// 2. The slope may read up to `fast_slope` high and τ up to `fast_tau` low before the band
-///    counts them, scaled down for windows longer than a diagnostic pulse's (see `eddy_scale`) (a healthy coil's eddy path; one-sided: the side the physics biases).
+/// 2. Slope and τ are judged with the healthy coil's bias envelope (`envelope.rs`): the slope may
+///    read up to `fast_slope` high and τ `fast_tau` low (an eddy path; the true τ may then be
+///    `1/(1 − fast_tau)` times the fitted one), scaled down for windows longer than a diagnostic
+///    pulse's (see `eddy_scale`); τ `slow_tau` long and the slope `slow_slope` low
+///    (saturation). R = L/τ compounds both.
 /// 3. A resistance below the band with the inductance inside it is [`Finding::ShapeUnexplained`]:
 ///    shorted turns lower the inductance at least as much (turns squared against turns), while
 ///    saturation lengthens the fitted τ of a short window and looks like exactly this.
@@ -195,12 +215,15 @@ pub fn judge_response(fit: &ResponseFit, expected: &Expected, criteria: &Criteri
     };
     let scale = eddy_scale(window_in_tau(r, expected));
     let finding = judge_slope_tau(
-        r.slope,
-        r.tau.value(),
+        (
+            r.slope,
+            r.tau.value(),
+            r.slope * r.tau.value() * q.rise_covered,
+        ),
         k * q.rel_sd_slope + m,
         half_tau,
         Allowances {
-            fast: (criteria.fast_slope * scale, criteria.fast_tau * scale),
+            envelope: criteria.envelope(scale),
             // Shorted turns lower the inductance (turns squared) at least as much as the
             // resistance; a resistance below the band with the inductance inside it is not their
             // physics (it is what saturation does to τ on a short window): a shape, not a fault.
@@ -239,8 +262,19 @@ pub(super) fn judge_trace_fault(
             let t = sampling.time_of(index as usize).value();
             let full = sampling.amps(sampling.full_scale());
             let healthy_max = (expected.slope.max * t).min(expected.final_current.max.value());
+            // Too fast for a healthy coil. A bypassed winding, or shorted turns: a bridged
+            // section leaves at least its leakage, about L_rest·(1 − k²) (turns_floor of the
+            // band's minimum). Reaching full scale by t means an inductance of at most
+            // V_max·t/I_fs (from rest; any resistance only lowers the current): "short" only
+            // when that bound is below what shorted turns can leave.
+            let l_bound = expected.sensed_drive.max.value() * t / full;
+            let floor = criteria.turns_floor * expected.inductance.min.value();
             if full > healthy_max * (1.0 + criteria.model_margin) {
-                Finding::ShortCircuit
+                if l_bound < floor {
+                    Finding::ShortCircuit
+                } else {
+                    Finding::ShortedTurns
+                }
             } else {
                 Finding::CannotTell(Undetermined::RangeTooSmall)
             }

@@ -305,3 +305,57 @@ fn a_smooth_misfit_is_a_shape_and_a_noisy_one_a_sensor() {
         "{v:?}"
     );
 }
+
+/// A healthy valve at 20 °C (180 Ω winding, 0.30 H) fitted with an eddy path's worst bias and
+/// with saturation's: judged with the default envelope it is healthy; declared first order, the
+/// same figures are a fault. The biases are the worst measured on the simulator's diagnostic
+/// pulse (`docs/diagnosis.md` §9); the expected figures follow from R = L/τ (arithmetic).
+#[test]
+fn the_envelope_keeps_a_biased_healthy_coil_healthy() {
+    use super::rise::{judge_slope_tau, Allowances};
+    let e = Expected::new(&valve_design(), &at_20c()).unwrap();
+    let drive = e.nominal_drive().value();
+    let r_on = 180.0 + e.external_resistance().value();
+    let (slope, tau) = (drive / 0.30, 0.30 / r_on);
+    let c = Criteria::default();
+    let judged = |s: f32, t: f32, envelope| {
+        judge_slope_tau(
+            (s, t, s * t * 0.3),
+            0.02,
+            Some(0.02),
+            Allowances {
+                envelope,
+                r_low_alone: Finding::ShapeUnexplained,
+            },
+            &e,
+            &c,
+        )
+    };
+    assert_eq!(judged(slope, tau, c.envelope(1.0)), Finding::Healthy);
+    // Eddy path: slope +34 %, τ −60 % (0.40 of the true τ): R reads 1/(1.34·0.40) = 1.87 × high.
+    let eddy = (slope * 1.34, tau * 0.40);
+    assert_eq!(judged(eddy.0, eddy.1, c.envelope(1.0)), Finding::Healthy);
+    // Declared first order, the same figures are a fault (L = 1/1.34 of the true one, below
+    // the band).
+    assert_eq!(
+        judged(eddy.0, eddy.1, envelope::Envelope::NONE),
+        Finding::ShortedTurns
+    );
+    // The ratio form used before (the true τ allowed 1 + 0.63 times the fitted one, where a τ
+    // 60 % low means 1/0.40 = 2.5 times) names the healthy coil's resistance high.
+    let old = envelope::Envelope::new((0.34, 1.0 - 1.0 / 1.63), (0.0, 0.0), 1.0);
+    assert_eq!(judged(eddy.0, eddy.1, old), Finding::HighResistance);
+    // Saturation: τ +60 %, slope −2 %: R reads 1/(0.98·1.6) = 0.64 of the true one.
+    let sat = (slope * 0.98, tau * 1.6);
+    assert_eq!(judged(sat.0, sat.1, c.envelope(1.0)), Finding::Healthy);
+    assert_eq!(
+        judged(sat.0, sat.1, envelope::Envelope::NONE),
+        Finding::ShapeUnexplained
+    );
+    // A resistance beyond what the eddy path can fake (R_on × 4, τ a quarter; the envelope
+    // allows 2.7) is still named.
+    assert_eq!(
+        judged(slope, tau / 4.0, c.envelope(1.0)),
+        Finding::HighResistance
+    );
+}

@@ -110,8 +110,7 @@ pub fn judge_threshold(
                     Finding::SensorImplausible(TraceFault::Inconsistent)
                 } else {
                     judge_slope_tau(
-                        i / tau,
-                        tau,
+                        (i / tau, tau, i),
                         half_tau + m,
                         Some(half_tau),
                         Allowances::FIRST_ORDER,
