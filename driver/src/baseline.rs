@@ -104,9 +104,9 @@ pub(crate) fn judge_probe_samples(
     d: &Diagnosis,
     state: &mut BaseState,
     board: Option<Celsius>,
-    criteria: &coilwise::diagnosis::Criteria,
     options: &coilwise::diagnosis::FitOptions,
 ) -> Verdict {
+    let criteria = &d.criteria;
     match fit_response(samples, sampling, options) {
         Ok(fit) => match state {
             BaseState::Learning(l) => l.add(&fit, &d.expected, board, criteria),
@@ -180,7 +180,7 @@ where
         let checked = match (&cfg.diagnosis, Baseline::decode(bytes)) {
             (None, _) => Err(BaselineError::NotDiagnosed),
             (Some(_), Err(e)) => Err(BaselineError::Record(e)),
-            (Some(d), Ok(b)) if fits_design(&b, &d.expected, &self.criteria) => Ok(b),
+            (Some(d), Ok(b)) if fits_design(&b, &d.expected, &d.criteria) => Ok(b),
             (Some(_), Ok(_)) => Err(BaselineError::Mismatch),
         };
         match checked {

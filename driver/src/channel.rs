@@ -8,7 +8,7 @@
 //! the device. Without a design the channel is scheduled just as safely, but not diagnosed:
 //! no diagnostic pulse, no rise capture, no findings.
 
-use coilwise::diagnosis::{Conditions, Expected, Finding, Probe, ThresholdBand, Verdict};
+use coilwise::diagnosis::{Conditions, Criteria, Expected, Finding, Probe, ThresholdBand, Verdict};
 use coilwise::schedule::{ChannelLimits, HeatRatings, HoldPlan};
 use coilwise::{Amps, DriverDesign, Instant, Ticks};
 
@@ -69,6 +69,12 @@ pub struct ChannelOptions {
     pub probe_fraction: f32,
     /// The comparator trips at this fraction of the pull-in current (0 < f < 1).
     pub trip_fraction: f32,
+    /// Verdict criteria, which carry the coil's declared build: `None` is
+    /// [`Criteria::default`], the conservative declaration (a solid eddy-current path of up to
+    /// 5 % of the current, saturation up to −25 % of L), under which a diagnostic pulse cannot
+    /// name a resistance fault; [`Criteria::laminated`] for a laminated core with no solid
+    /// conducting part gets resistance sensitivity back (`docs/diagnosis.md` §9).
+    pub criteria: Option<Criteria>,
 }
 
 impl ChannelOptions {
@@ -86,7 +92,14 @@ impl ChannelOptions {
             noise_counts: 0.6,
             probe_fraction: 0.5,
             trip_fraction: 0.5,
+            criteria: None,
         }
+    }
+
+    /// The same options with these verdict criteria (the coil's declared build).
+    pub const fn with_criteria(mut self, criteria: Criteria) -> Self {
+        self.criteria = Some(criteria);
+        self
     }
 
     /// The same options on supply group `g`.
@@ -130,6 +143,9 @@ pub struct Diagnosis {
     pub noise_counts: f32,
     /// Comparator level as a fraction of the pull-in current.
     pub trip_fraction: f32,
+    /// How strict the verdicts are, with the coil's declared build (its eddy-current and
+    /// saturation envelope); see [`ChannelOptions::criteria`].
+    pub criteria: Criteria,
 }
 
 /// Everything the driver knows about one channel.
@@ -179,6 +195,7 @@ impl ChannelConfig {
                 rise_period: options.rise_period,
                 noise_counts: options.noise_counts,
                 trip_fraction: t,
+                criteria: options.criteria.unwrap_or_default(),
             }),
         })
     }

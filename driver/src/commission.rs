@@ -432,7 +432,6 @@ where
                     &d,
                     &mut st.chans[i].base,
                     self.board,
-                    &self.criteria,
                     &self.options,
                 )
             }

@@ -118,7 +118,7 @@ pub use sense::{
 };
 pub use ticks::TickSource;
 
-use coilwise::diagnosis::{Criteria, FitOptions, Verdict};
+use coilwise::diagnosis::{FitOptions, Verdict};
 use coilwise::schedule::{ChannelLimits, Scheduler, WakeCause};
 use coilwise::{Celsius, Instant, TickRate};
 
@@ -186,13 +186,12 @@ fn build_scheduler<const N: usize, const Q: usize>(
 /// The driver: `N` channels (1…256), `Q` pulses pending or in flight (1…255), `E` events
 /// queued (2…255). Borrows its channel configurations and its [`DriverState`] (`'c`); owns the
 /// channels' hardware, which [`Driver::free`] gives back. Itself small (the handles, a few
-/// references and the diagnosis criteria).
+/// references and the fit options).
 pub struct Driver<'c, Sw, Pwm, Sense, const N: usize, const Q: usize = 8, const E: usize = 16> {
     pub(crate) configs: &'c [ChannelConfig; N],
     pub(crate) st: &'c mut DriverState<N, Q, E>,
     pub(crate) hw: [ChannelHw<Sw, Pwm, Sense>; N],
     pub(crate) rate: TickRate,
-    pub(crate) criteria: Criteria,
     pub(crate) options: FitOptions,
     pub(crate) inrush_cap: u8,
     /// Diagnostic pulses learnt per channel at commissioning.
@@ -248,7 +247,6 @@ where
             st: state,
             hw,
             rate,
-            criteria: Criteria::default(),
             options: FitOptions::default(),
             inrush_cap,
             learn_pulses: baseline::LEARN_PULSES,

@@ -254,7 +254,7 @@ where
             &self.st.buf[..n],
             &sampling,
             &d.expected,
-            &self.criteria,
+            &d.criteria,
             &self.options,
         );
         let reading = match crossing {
@@ -265,7 +265,7 @@ where
         };
         let band = self.st.chans[i].setup.and_then(|s| s.band);
         let cmp =
-            band.map(|b| judge_threshold(reading, &b, None, &d.expected, &self.criteria).finding);
+            band.map(|b| judge_threshold(reading, &b, None, &d.expected, &d.criteria).finding);
         let verdict = Verdict {
             finding: combine(
                 fit.finding,

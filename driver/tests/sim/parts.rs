@@ -402,8 +402,21 @@ pub fn channel_config(i: usize) -> coilwise_driver::ChannelConfig {
                 }),
             }),
     }
-    .with_noise(0.6);
+    .with_noise(0.6)
+    .with_criteria(linear_build());
     ChannelConfig::from_design(&design, &options).expect("rig config")
+}
+
+/// The rig's simulated coils have neither an eddy-current path nor saturation (the plant's
+/// linear magnetics), and are declared so: no eddy or saturation envelope, so the verdicts keep
+/// their full resistance sensitivity.
+fn linear_build() -> coilwise::diagnosis::Criteria {
+    let mut c = coilwise::diagnosis::Criteria::default();
+    c.fast_slope = 0.0;
+    c.fast_tau = 0.0;
+    c.slow_tau = 0.0;
+    c.slow_slope = 0.0;
+    c
 }
 
 /// Amperes per count of channel `i`'s converter.
