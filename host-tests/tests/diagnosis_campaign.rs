@@ -21,7 +21,10 @@ mod campaign;
 
 use std::time::Instant;
 
-use campaign::{print_matrix, Channel, Phenomenon, Row, Truth, PHENOMENA, RELAY, VALVE};
+use campaign::{
+    print_matrix, Channel, Phenomenon, Row, SensorFault, Truth, PHENOMENA, RELAY, SENSOR_FAULTS,
+    VALVE,
+};
 use coilwise_host_tests::Prng;
 
 fn size() -> usize {
@@ -180,6 +183,84 @@ fn field_campaign() {
     }
     println!(
         "{n} coils per row, 4 coil declarations x 15 rows x 5 pulses, in {:.1} s",
+        started.elapsed().as_secs_f64()
+    );
+    assert!(failures.is_empty(), "{failures:#?}");
+}
+
+/// Sensor faults on healthy coils, all phenomena on, in every mode and declaration: the trace is
+/// one no coil current produces. Asserted: never healthy, never a coil fault (open, short,
+/// shorted turns, high R, supply, L high), except "open" for a sensor stuck at 0 (a dead sensor
+/// and an open winding give the same all-zero trace; see `Truth::right`). Dropouts miss it
+/// (a defect of the core's sensor checks, measured and printed, docs/diagnosis.md §9).
+#[test]
+fn sensor_fault_campaign() {
+    let n = size();
+    let started = Instant::now();
+    let mut failures: Vec<String> = Vec::new();
+    let mut missed: Vec<String> = Vec::new();
+    let channels = [
+        Channel::new(VALVE),
+        Channel::new(RELAY),
+        Channel::laminated(VALVE),
+        Channel::laminated(RELAY),
+    ];
+    for (ci, ch) in channels.iter().enumerate() {
+        let name = if ci < 2 {
+            ch.spec.name.to_string()
+        } else {
+            format!("{} declared laminated", ch.spec.name)
+        };
+        let mut rng = Prng::new(0x5E25_0000 + ci as u64);
+        let mut rows: [Vec<(String, Row)>; 3] = Default::default();
+        for s in SENSOR_FAULTS {
+            let truth = Truth::Sensor(s);
+            let mut r: [Row; 3] = Default::default();
+            for _ in 0..n {
+                let v = ch.verdicts(Phenomenon::All, truth, &mut rng);
+                for m in 0..3 {
+                    r[m].add(truth, &v[m]);
+                }
+            }
+            for m in 0..3 {
+                let healthy = r[m].counts[0];
+                let allowed_open = if s == SensorFault::StuckZero {
+                    r[m].counts[1]
+                } else {
+                    0
+                };
+                let coil = r[m].coil_faults() - allowed_open;
+                let line = format!(
+                    "{name} {} {}: healthy {healthy}, coil fault {coil} of {}, right {:.2} %",
+                    &MODES[m][..1],
+                    s.label(),
+                    r[m].total,
+                    100.0 * r[m].rate(r[m].right)
+                );
+                if healthy == 0 && coil == 0 {
+                    println!("met: {line}");
+                } else if s == SensorFault::Dropouts {
+                    // Measured miss, not asserted (docs/diagnosis.md §9): isolated samples at 0
+                    // or full scale pass the core's sensor checks and are fitted as a coil.
+                    missed.push(line);
+                } else {
+                    failures.push(line);
+                }
+                rows[m].push((format!("all together / {}", s.label()), r[m].clone()));
+            }
+        }
+        println!("\n=== {name}: sensor faults ===");
+        for m in 0..3 {
+            print_matrix(MODES[m], &rows[m]);
+        }
+    }
+    println!("\nSensor targets missed (numbers measured, reasons in docs/diagnosis.md):");
+    for m in &missed {
+        println!("MISSED: {m}");
+    }
+    println!(
+        "{n} coils per row, 4 coil declarations x {} rows x 5 pulses, in {:.1} s",
+        SENSOR_FAULTS.len(),
         started.elapsed().as_secs_f64()
     );
     assert!(failures.is_empty(), "{failures:#?}");
