@@ -162,7 +162,7 @@ impl Truth {
             Truth::ShortedTurns(f) => format!("sh.turns {:.0}%", f * 100.0),
             Truth::SeriesR(x) => format!("R +{:.0}%", x * 100.0),
             Truth::SupplyLow => "supply 85% min".into(),
-            Truth::Sensor(s) => s.label().into(),
+            Truth::Sensor(s) => s.label(),
         }
     }
     pub fn right(&self, f: &Finding) -> bool {

@@ -7,6 +7,9 @@ use coilwise_host_tests::Prng;
 
 /// Full scale of the campaign's 12-bit converter, counts.
 const TOP: u16 = 4095;
+/// A dropout that moves a sample by more than this many counts (8 times the converter's rated
+/// 2 counts RMS) is one the trace shows.
+const VISIBLE: u16 = 16;
 
 /// How the sensor fails.
 #[derive(Clone, Copy, Debug, PartialEq)]
@@ -22,22 +25,36 @@ pub enum SensorFault {
     /// Each sample with probability 0.1 read as 0 or full scale (50/50): a failing conversion
     /// or a bus glitch.
     Dropouts,
+    /// Dropouts to 0 only (probability 0.1 a sample).
+    DropoutsZero,
+    /// Dropouts to full scale only (probability 0.1 a sample).
+    DropoutsTop,
+    /// The sense amplifier's gain off by a factor (a feedback resistor open or shorted, the
+    /// wrong part fitted).
+    Gain(f64),
 }
 
-pub const SENSOR_FAULTS: [SensorFault; 4] = [
+pub const SENSOR_FAULTS: [SensorFault; 8] = [
     SensorFault::StuckMid,
     SensorFault::StuckZero,
     SensorFault::Noisy,
     SensorFault::Dropouts,
+    SensorFault::DropoutsZero,
+    SensorFault::DropoutsTop,
+    SensorFault::Gain(0.5),
+    SensorFault::Gain(2.0),
 ];
 
 impl SensorFault {
-    pub fn label(&self) -> &'static str {
+    pub fn label(&self) -> String {
         match self {
-            SensorFault::StuckMid => "sensor stuck mid-scale",
-            SensorFault::StuckZero => "sensor stuck at 0",
-            SensorFault::Noisy => "sensor noisy 40 rms",
-            SensorFault::Dropouts => "sensor dropouts 10%",
+            SensorFault::Gain(k) => format!("sensor gain x{k}"),
+            SensorFault::StuckMid => "sensor stuck mid-scale".into(),
+            SensorFault::StuckZero => "sensor stuck at 0".into(),
+            SensorFault::Noisy => "sensor noisy 40 rms".into(),
+            SensorFault::Dropouts => "sensor dropouts 10%".into(),
+            SensorFault::DropoutsZero => "sensor dropouts to 0".into(),
+            SensorFault::DropoutsTop => "sensor dropouts to top".into(),
         }
     }
 
@@ -55,11 +72,40 @@ impl SensorFault {
                     *c = v.clamp(0.0, TOP as f64) as u16;
                 }
             }
-            SensorFault::Dropouts => {
+            SensorFault::Gain(k) => {
+                for c in counts.iter_mut() {
+                    *c = (*c as f64 * k).round().clamp(0.0, TOP as f64) as u16;
+                }
+            }
+            SensorFault::Dropouts | SensorFault::DropoutsZero | SensorFault::DropoutsTop => {
+                let pick = |rng: &mut Prng| {
+                    let top = match self {
+                        SensorFault::DropoutsZero => false,
+                        SensorFault::DropoutsTop => true,
+                        _ => rng.uniform() < 0.5,
+                    };
+                    if top {
+                        TOP
+                    } else {
+                        0
+                    }
+                };
+                let mut visible = false;
                 for c in counts.iter_mut() {
                     if rng.uniform() < 0.1 {
-                        *c = if rng.uniform() < 0.5 { 0 } else { TOP };
+                        let v = pick(rng);
+                        visible |= c.abs_diff(v) > VISIBLE;
+                        *c = v;
                     }
+                }
+                // A dropout the trace cannot show (none drawn, 0.9⁶⁴ = 0.1 % of captures, or
+                // only a 0 where the current reads a few counts anyway) is no sensor fault yet:
+                // one more in the second half, where the current is well above the noise.
+                if !visible {
+                    let n = counts.len();
+                    let at = n / 2 + ((n - n / 2) as f64 * rng.uniform()) as usize;
+                    let at = at.min(n - 1);
+                    counts[at] = pick(rng);
                 }
             }
         }
