@@ -3,7 +3,9 @@
 //! knowledge, and the confusion matrices.
 #![allow(dead_code)]
 
+mod full_rise;
 mod sensor;
+pub use full_rise::{FullRise, SPAN_TAU};
 pub use sensor::{SensorFault, SENSOR_FAULTS};
 
 use coilwise::diagnosis::fit_response;
