@@ -13,6 +13,11 @@
 //!   judged healthy against B-mode bands first), compared with copper-α correction from the board
 //!   reading, supply measured.
 //!
+//! Two more tests on the same coils, all phenomena on: `sensor_fault_campaign` (a failed
+//! current sensor on a healthy coil: stuck, noisy, dropouts, gain; three modes) and
+//! `full_rise_resistance` (mode B on a capture of a few τ instead of the probe's window: series
+//! resistance +20 % / +50 % and healthy coils).
+//!
 //! Size: `COILWISE_CAMPAIGN=N` coils per row (default 12, which CI runs in debug). The full size:
 //! `COILWISE_CAMPAIGN=2000 cargo test --release -p coilwise-host-tests --test diagnosis_campaign
 //! -- --nocapture`.

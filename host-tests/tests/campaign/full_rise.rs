@@ -7,7 +7,10 @@ use coilwise::diagnosis::{judge_trace, FitOptions, Sampling};
 use coilwise::{Amps, Finding, Seconds};
 use coilwise_host_tests::Prng;
 
-use super::{draw_moment, draw_part, Channel, CoilSpec, Phenomenon, Truth, ALPHA, SAMPLES};
+use super::{
+    draw_moment, draw_part, Channel, CoilSpec, Phenomenon, Truth, ALPHA, RDS, SAMPLES, SENSE,
+    WIRING,
+};
 
 /// Time constants the capture spans, at the coil's nominal values (20 °C): 2.0…4.8 τ over the
 /// tolerance box and −20…85 °C.
@@ -25,10 +28,11 @@ impl FullRise {
     /// probe's converter is ranged for the probe's current only.
     pub fn new(base: Channel) -> Self {
         let c = base.spec;
-        let r_on_nominal = c.r_ref + 0.95;
+        let rest = WIRING + SENSE + RDS;
+        let r_on_nominal = c.r_ref + rest;
         let tau = c.l / r_on_nominal;
         let period_ns = (SPAN_TAU * tau / SAMPLES as f64 * 1e9).floor() as u64;
-        let r_cold = c.r_ref * 0.93 * (1.0 + ALPHA * (-20.0 - 20.0)) + 0.95;
+        let r_cold = c.r_ref * 0.93 * (1.0 + ALPHA * (-20.0 - 20.0)) + rest;
         let full_scale = 1.05 * 1.1 * c.volts / r_cold;
         let spec = CoilSpec { full_scale, ..c };
         let dt = Seconds::new(period_ns as f32 * 1e-9);
