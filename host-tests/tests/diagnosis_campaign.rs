@@ -13,6 +13,11 @@
 //!   judged healthy against B-mode bands first), compared with copper-α correction from the board
 //!   reading, supply measured.
 //!
+//! Two more tests on the same coils, all phenomena on: `sensor_fault_campaign` (a failed
+//! current sensor on a healthy coil: stuck, noisy, dropouts, gain; three modes) and
+//! `full_rise_resistance` (mode B on a capture of a few τ instead of the probe's window: series
+//! resistance +20 % / +50 % and healthy coils).
+//!
 //! Size: `COILWISE_CAMPAIGN=N` coils per row (default 12, which CI runs in debug). The full size:
 //! `COILWISE_CAMPAIGN=2000 cargo test --release -p coilwise-host-tests --test diagnosis_campaign
 //! -- --nocapture`.
@@ -21,7 +26,10 @@ mod campaign;
 
 use std::time::Instant;
 
-use campaign::{print_matrix, Channel, Phenomenon, Row, Truth, PHENOMENA, RELAY, VALVE};
+use campaign::{
+    print_matrix, Channel, FullRise, Phenomenon, Row, SensorFault, Truth, PHENOMENA, RELAY,
+    SENSOR_FAULTS, VALVE,
+};
 use coilwise_host_tests::Prng;
 
 fn size() -> usize {
@@ -180,6 +188,173 @@ fn field_campaign() {
     }
     println!(
         "{n} coils per row, 4 coil declarations x 15 rows x 5 pulses, in {:.1} s",
+        started.elapsed().as_secs_f64()
+    );
+    assert!(failures.is_empty(), "{failures:#?}");
+}
+
+/// Sensor faults on healthy coils, all phenomena on, in every mode and declaration: the trace is
+/// one no coil current produces. Asserted: never healthy, never a coil fault (open, short,
+/// shorted turns, high R, supply, L high), except "open" for a sensor stuck at 0 (a dead sensor
+/// and an open winding give the same all-zero trace; see `Truth::right`), for a sensor stuck
+/// mid-scale, stuck at 0 and 40 counts noisy; never a coil fault for dropouts to 0. Dropouts to
+/// full scale miss it (the core's saturation cut, measured and printed), and a gain fault is a
+/// coil's or supply's signature, not a trace fault (printed); docs/diagnosis.md §9.
+#[test]
+fn sensor_fault_campaign() {
+    let n = size();
+    let started = Instant::now();
+    let mut failures: Vec<String> = Vec::new();
+    let mut missed: Vec<String> = Vec::new();
+    let channels = [
+        Channel::new(VALVE),
+        Channel::new(RELAY),
+        Channel::laminated(VALVE),
+        Channel::laminated(RELAY),
+    ];
+    for (ci, ch) in channels.iter().enumerate() {
+        let name = if ci < 2 {
+            ch.spec.name.to_string()
+        } else {
+            format!("{} declared laminated", ch.spec.name)
+        };
+        let mut rng = Prng::new(0x5E25_0000 + ci as u64);
+        let mut rows: [Vec<(String, Row)>; 3] = Default::default();
+        for s in SENSOR_FAULTS {
+            let truth = Truth::Sensor(s);
+            let mut r: [Row; 3] = Default::default();
+            for _ in 0..n {
+                let v = ch.verdicts(Phenomenon::All, truth, &mut rng);
+                for m in 0..3 {
+                    r[m].add(truth, &v[m]);
+                }
+            }
+            for m in 0..3 {
+                let healthy = r[m].counts[0];
+                let allowed_open = if s == SensorFault::StuckZero {
+                    r[m].counts[1]
+                } else {
+                    0
+                };
+                let coil = r[m].coil_faults() - allowed_open;
+                let line = format!(
+                    "{name} {} {}: healthy {healthy}, coil fault {coil} of {}, right {:.2} %",
+                    &MODES[m][..1],
+                    s.label(),
+                    r[m].total,
+                    100.0 * r[m].rate(r[m].right)
+                );
+                match s {
+                    _ if healthy == 0 && coil == 0 => println!("met: {line}"),
+                    // Measured miss, not asserted (docs/diagnosis.md §9): a sample at full scale
+                    // ends the fit's window as converter saturation, and nothing checks that the
+                    // samples after it stay there, so the clean head before it is judged as a
+                    // coil (short, shorted turns, healthy).
+                    SensorFault::Dropouts | SensorFault::DropoutsTop => missed.push(line),
+                    // Never a coil fault: asserted. Healthy on 1–2 of 2 000 laminated coils, a
+                    // 0 in the first sample only, which the free-level fit leaves out with the
+                    // head (docs/diagnosis.md §9): printed.
+                    SensorFault::DropoutsZero if coil == 0 => missed.push(line),
+                    // Not a trace fault at all: a gain k gives exactly the trace of the supply
+                    // times k, or (supply measured) of a coil with R/k and L/k and the same τ.
+                    // No check on the current alone can see it (docs/diagnosis.md §9); printed.
+                    SensorFault::Gain(_) => println!("indistinguishable: {line}"),
+                    _ => failures.push(line),
+                }
+                rows[m].push((format!("all together / {}", s.label()), r[m].clone()));
+            }
+        }
+        println!("\n=== {name}: sensor faults ===");
+        for m in 0..3 {
+            print_matrix(MODES[m], &rows[m]);
+        }
+    }
+    println!("\nSensor targets missed (numbers measured, reasons in docs/diagnosis.md):");
+    for m in &missed {
+        println!("MISSED: {m}");
+    }
+    println!(
+        "{n} coils per row, 4 coil declarations x {} rows x 5 pulses, in {:.1} s",
+        SENSOR_FAULTS.len(),
+        started.elapsed().as_secs_f64()
+    );
+    assert!(failures.is_empty(), "{failures:#?}");
+}
+
+/// Resistance faults on a full-rise capture (a few τ, as the driver judges a real pulse's rise),
+/// mode B, all phenomena on, default and laminated declarations. The probe cannot name them
+/// (docs/diagnosis.md §9); this shows what a longer window does. Asserted: false alarms on the
+/// healthy rows ≤ 0.1 % for every phenomenon alone (the target for every verdict on a
+/// healthy coil); with all phenomena together it is missed at full size (measured, printed).
+/// Detection is printed.
+#[test]
+fn full_rise_resistance() {
+    let n = size();
+    let started = Instant::now();
+    let mut failures: Vec<String> = Vec::new();
+    let mut missed: Vec<String> = Vec::new();
+    let channels = [
+        Channel::new(VALVE),
+        Channel::new(RELAY),
+        Channel::laminated(VALVE),
+        Channel::laminated(RELAY),
+    ];
+    let mut cases: Vec<(Phenomenon, Truth)> =
+        PHENOMENA.iter().map(|&p| (p, Truth::Healthy)).collect();
+    cases.push((Phenomenon::All, Truth::SeriesR(0.20)));
+    cases.push((Phenomenon::All, Truth::SeriesR(0.50)));
+    for (ci, base) in channels.into_iter().enumerate() {
+        let name = if ci < 2 {
+            base.spec.name.to_string()
+        } else {
+            format!("{} declared laminated", base.spec.name)
+        };
+        let fr = FullRise::new(base);
+        let mut rng = Prng::new(0xF0_11E5_0000 + ci as u64);
+        let mut rows: Vec<(String, Row)> = Vec::new();
+        for &(ph, truth) in &cases {
+            let mut r = Row::default();
+            for _ in 0..n {
+                r.add(truth, &fr.verdict_b(ph, truth, &mut rng));
+            }
+            let line = format!(
+                "{name} B full rise {} / {}: named {:.2} %, false alarms {}/{}, no verdict {:.2} %",
+                ph.label(),
+                truth.label(),
+                100.0 * r.rate(r.right),
+                r.false_alarms(),
+                r.total,
+                100.0 * r.rate(r.cannot_tell())
+            );
+            let alarms =
+                truth == Truth::Healthy && r.false_alarms() as f64 > 0.001 * r.total as f64;
+            if !alarms {
+                println!("measured: {line}");
+            } else if ph == Phenomenon::All {
+                // Measured miss at full size (docs/diagnosis.md §9): with every phenomenon on,
+                // a few healthy rises are named shorted turns or sensor; printed, not asserted.
+                missed.push(line);
+            } else {
+                failures.push(line);
+            }
+            rows.push((format!("{} / {}", ph.label(), truth.label()), r));
+        }
+        println!(
+            "\n=== {name}: full rise, {} samples every {} ns ({:.1} ms, {} tau nominal), full scale {:.3} A ===",
+            campaign::SAMPLES,
+            fr.ch.period_ns,
+            fr.ch.period_ns as f64 * campaign::SAMPLES as f64 * 1e-6,
+            campaign::SPAN_TAU,
+            fr.ch.spec.full_scale
+        );
+        print_matrix(MODES[1], &rows);
+    }
+    println!("\nFull-rise targets missed (numbers measured, reasons in docs/diagnosis.md):");
+    for m in &missed {
+        println!("MISSED: {m}");
+    }
+    println!(
+        "{n} coils per row, 4 coil declarations x 9 rows x 1 pulse, in {:.1} s",
         started.elapsed().as_secs_f64()
     );
     assert!(failures.is_empty(), "{failures:#?}");

@@ -3,6 +3,11 @@
 //! knowledge, and the confusion matrices.
 #![allow(dead_code)]
 
+mod full_rise;
+mod sensor;
+pub use full_rise::{FullRise, SPAN_TAU};
+pub use sensor::{SensorFault, SENSOR_FAULTS};
+
 use coilwise::diagnosis::fit_response;
 use coilwise::diagnosis::{
     judge_baseline, judge_trace, Conditions, Criteria, Expected, FitOptions, Learning, Probe,
@@ -146,6 +151,8 @@ pub enum Truth {
     ShortedTurns(f64),
     SeriesR(f64),
     SupplyLow,
+    /// A healthy coil whose current sensor has failed.
+    Sensor(SensorFault),
 }
 
 impl Truth {
@@ -157,6 +164,7 @@ impl Truth {
             Truth::ShortedTurns(f) => format!("sh.turns {:.0}%", f * 100.0),
             Truth::SeriesR(x) => format!("R +{:.0}%", x * 100.0),
             Truth::SupplyLow => "supply 85% min".into(),
+            Truth::Sensor(s) => s.label(),
         }
     }
     pub fn right(&self, f: &Finding) -> bool {
@@ -167,6 +175,16 @@ impl Truth {
             Truth::ShortedTurns(_) => *f == Finding::ShortedTurns,
             Truth::SeriesR(_) => *f == Finding::HighResistance,
             Truth::SupplyLow => *f == Finding::SupplyLow,
+            // A sensor that reads zero throughout is, to the trace, an open circuit (no current
+            // flows through an open winding either); that name sends the technician to the
+            // channel, where the open sensor is found. It counts as right here.
+            Truth::Sensor(SensorFault::StuckZero) => matches!(
+                f,
+                Finding::SensorImplausible(_) | Finding::CannotTell(_) | Finding::OpenCircuit
+            ),
+            Truth::Sensor(_) => {
+                matches!(f, Finding::SensorImplausible(_) | Finding::CannotTell(_))
+            }
         }
     }
 }
@@ -470,7 +488,11 @@ impl Channel {
         };
         // Later: the pulse under test.
         let now = draw_moment(rng, &self.spec, ph);
-        let counts = self.pulse(&part, &now, truth, lat, rng);
+        let mut counts = self.pulse(&part, &now, truth, lat, rng);
+        // A sensor that fails after commissioning: the baseline was learned on good traces.
+        if let Truth::Sensor(s) = truth {
+            s.apply(&mut counts, rng);
+        }
         let a = self.judge_samples(&counts, &self.wide);
         let (e1, board1) = self.knowledge(&now, truth, rng);
         let b = self.judge_samples(&counts, &e1);
