@@ -246,15 +246,18 @@ fn sensor_fault_campaign() {
                 );
                 match s {
                     _ if healthy == 0 && coil == 0 => println!("met: {line}"),
-                    // Measured miss, not asserted (docs/diagnosis.md §9): a sample at full scale
-                    // ends the fit's window as converter saturation, and nothing checks that the
-                    // samples after it stay there, so the clean head before it is judged as a
-                    // coil (short, shorted turns, healthy).
-                    SensorFault::Dropouts | SensorFault::DropoutsTop => missed.push(line),
-                    // Never a coil fault: asserted. Healthy on 1–2 of 2 000 laminated coils, a
-                    // 0 in the first sample only, which the free-level fit leaves out with the
-                    // head (docs/diagnosis.md §9): printed.
-                    SensorFault::DropoutsZero if coil == 0 => missed.push(line),
+                    // Never a coil fault: asserted. Healthy on 1–2 of 2 000 coils: a 0 in the
+                    // first sample only, which the free-level fit leaves out with the head, or a
+                    // full-scale reading in the last sample only, which ends the window like a
+                    // converter that saturates there (nothing after it can fall back); the coil
+                    // itself is healthy (docs/diagnosis.md §9): printed.
+                    SensorFault::Dropouts
+                    | SensorFault::DropoutsTop
+                    | SensorFault::DropoutsZero
+                        if coil == 0 =>
+                    {
+                        missed.push(line)
+                    }
                     // Not a trace fault at all: a gain k gives exactly the trace of the supply
                     // times k, or (supply measured) of a coil with R/k and L/k and the same τ.
                     // No check on the current alone can see it (docs/diagnosis.md §9); printed.

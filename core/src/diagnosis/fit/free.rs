@@ -308,6 +308,12 @@ pub fn fit_response<S: Sample>(
                 level: Amps::new(super::num::finite_or_zero(level)),
             });
         }
+        // Indices of the survey are into the clipped trace: give them in the caller's samples.
+        Err(TraceFault::NotMonotone { index }) => {
+            return Err(TraceFault::NotMonotone {
+                index: index + clipped as u32,
+            })
+        }
         other => other?,
     };
     let window = &trace[..sv.used];

@@ -1,7 +1,8 @@
 //! The survey pass: trace checks and the closed-form one-pass estimate.
 
+use super::num::{larger, sqrt};
 use super::TraceFault;
-use super::MIN_SAMPLES;
+use super::{MIN_SAMPLES, MONOTONE_SIGMAS};
 use crate::diagnosis::sample::{Sample, Sampling};
 
 /// What the first pass learns about a trace.
@@ -121,7 +122,12 @@ pub(super) fn survey<S: Sample>(samples: &[S], sampling: &Sampling) -> Result<Su
         return Err(TraceFault::NotFinite { index: 0 });
     }
     if x >= full {
-        return Err(TraceFault::SaturatedEarly { index: 0 });
+        return Err(
+            match falls_after_saturation(samples, 0, sampling, saturation_margin::<S>(sampling)) {
+                Some(index) => TraceFault::NotMonotone { index },
+                None => TraceFault::SaturatedEarly { index: 0 },
+            },
+        );
     }
     // The trapezoid integral is J_k = S_k − c_k/2 + γ with the prefix sum S_k = Σ_{j≤k} c_j and
     // γ = c₀(k0 − 1)/2 (the first trapezoid runs from switch-on, i = 0, to the first sample). Every
@@ -192,6 +198,13 @@ pub(super) fn survey<S: Sample>(samples: &[S], sampling: &Sampling) -> Result<Su
         p: p_sum,
         c: c_sum,
     } = sums;
+    if truncated {
+        if let Some(index) =
+            falls_after_saturation(samples, used, sampling, saturation_margin::<S>(sampling))
+        {
+            return Err(TraceFault::NotMonotone { index });
+        }
+    }
     if used < MIN_SAMPLES {
         return Err(if truncated {
             TraceFault::SaturatedEarly { index: used as u32 }
@@ -246,6 +259,38 @@ pub(super) fn survey<S: Sample>(samples: &[S], sampling: &Sampling) -> Result<Su
         drop,
         sum: s_sum,
     })
+}
+
+/// After the converter saturates a coil current stays saturated: the index (into `samples`) of
+/// the first sample after `samples[used]` (the first saturated one) that reads more than
+/// `margin` (raw units) below the full scale, or `None`. A sample that falls back is a sensor
+/// that spiked to full scale (a dropout), not a coil that saturated the converter: the monotone
+/// rule applied past the window. Cost: one compare per sample after the window, only for a
+/// truncated trace.
+/// How far below full scale a saturated coil current may read: the monotone limit at the noise
+/// the fits reckon (converter noise and quantisation, the signal floor taken at full scale).
+fn saturation_margin<S: Sample>(sampling: &Sampling) -> f32 {
+    let quantum = if S::IS_INTEGER { 1.0 / 12.0 } else { 0.0 };
+    let base = sqrt(sampling.noise() * sampling.noise() + quantum);
+    MONOTONE_SIGMAS
+        * larger(
+            larger(base, sampling.full_scale() * 7.6e-6),
+            f32::MIN_POSITIVE,
+        )
+}
+
+fn falls_after_saturation<S: Sample>(
+    samples: &[S],
+    used: usize,
+    sampling: &Sampling,
+    margin: f32,
+) -> Option<u32> {
+    let limit = sampling.full_scale() - margin;
+    let after = samples.get(used.saturating_add(1)..)?;
+    after
+        .iter()
+        .position(|v| v.to_f32() < limit || v.to_f32().is_nan())
+        .map(|k| (used + 1 + k) as u32)
 }
 
 /// Index of the largest drop below the running maximum (rescan; only when reporting it).

@@ -168,11 +168,18 @@ fn integer_check_matches_the_float_check() {
         fit_rise(&traces[4], &sm, &o),
         Err(TraceFault::NotMonotone { index: 40 })
     ));
+    // Full scale at sample 3 and normal readings after it: a dropout (a coil current that
+    // saturated the converter would stay there), refused at the first sample that fell back.
     assert_eq!(
         fit_rise(&traces[5], &sm, &o),
-        Err(TraceFault::SaturatedEarly { index: 3 })
+        Err(TraceFault::NotMonotone { index: 4 })
     );
-    assert_eq!(fit_rise(&traces[6], &sm, &o).unwrap().quality.samples, 50);
+    // Full scale at sample 50, then readings far below it: a dropout, not saturation (a coil
+    // current at full scale stays there).
+    assert_eq!(
+        fit_rise(&traces[6], &sm, &o),
+        Err(TraceFault::NotMonotone { index: 51 })
+    );
 }
 
 #[test]
@@ -186,6 +193,38 @@ fn saturation_ends_the_window() {
     assert!(f.quality.truncated);
     assert!(f.quality.samples < 64);
     assert!((f.final_current.value() - 0.8).abs() < 0.8 * 0.01);
+}
+
+/// A coil current that reaches the converter's full scale stays there (it only rises); a
+/// sample that spikes to full scale and falls back is a sensor dropout, not the end of the
+/// window: both fits refuse it as `NotMonotone` at the first sample that fell back.
+#[test]
+fn a_spike_to_full_scale_that_falls_back_is_not_saturation() {
+    let sm = Sampling::adc(Seconds::new(1.0e-4), 12, Amps::new(0.4095)).unwrap();
+    let mut s: Vec<u16> = model(3000.0, 2.0e-3, 1.0e-4, 0.0, 64)
+        .iter()
+        .map(|&c| c.round() as u16)
+        .collect();
+    s[30] = 4095;
+    assert_eq!(
+        fit_rise(&s, &sm, &FitOptions::default()).err(),
+        Some(TraceFault::NotMonotone { index: 31 })
+    );
+    assert_eq!(
+        fit_response(&s, &sm, &FitOptions::default()).err(),
+        Some(TraceFault::NotMonotone { index: 31 })
+    );
+    // A genuine saturation (every later sample at full scale, or within noise of it) still
+    // ends the window.
+    let mut sat: Vec<u16> = model(8000.0, 2.0e-3, 1.0e-4, 0.0, 64)
+        .iter()
+        .map(|&c| c.round().min(4095.0) as u16)
+        .collect();
+    if let Some(last) = sat.last_mut() {
+        *last = 4094;
+    }
+    assert!(fit_rise(&sat, &sm, &FitOptions::default()).is_ok());
+    assert!(fit_response(&sat, &sm, &FitOptions::default()).is_ok());
 }
 
 /// Primary current of two magnetically coupled RL loops after a voltage step (the primary driven
