@@ -3,8 +3,7 @@
 
 mod common;
 
-use common::{run, stderr, stdout};
-use std::process::Command;
+use common::{run, rustc_check, stderr, stdout};
 
 fn snippet(args: &[&str]) -> String {
     let o = run(args);
@@ -13,29 +12,9 @@ fn snippet(args: &[&str]) -> String {
 }
 
 fn compile(lib: &str) {
-    let dir = tempfile::tempdir().unwrap();
-    let src = dir.path().join("lib.rs");
-    std::fs::write(&src, lib).unwrap();
-    let rustc = std::env::var("RUSTC").unwrap_or_else(|_| "rustc".to_string());
-    let o = Command::new(rustc)
-        .args([
-            "--edition",
-            "2021",
-            "--crate-type",
-            "lib",
-            "--crate-name",
-            "coil_budget",
-        ])
-        .args(["-D", "warnings", "--emit", "metadata", "--out-dir"])
-        .arg(dir.path())
-        .arg(&src)
-        .output()
-        .expect("rustc runs");
-    assert!(
-        o.status.success(),
-        "emitted constants do not compile:\n{}\n--- source ---\n{lib}",
-        String::from_utf8_lossy(&o.stderr)
-    );
+    if let Err(e) = rustc_check(lib) {
+        panic!("emitted constants do not compile:\n{e}\n--- source ---\n{lib}");
+    }
 }
 
 const CHECKS: &str = r#"

@@ -3,8 +3,7 @@
 
 mod common;
 
-use common::{run, stderr, stdout};
-use std::process::Command;
+use common::{run, rustc_check, stderr, stdout};
 
 const VALVE: &str = "examples/greenhouse-valve.toml";
 
@@ -19,33 +18,6 @@ fn hostile() -> String {
     s
 }
 
-/// Compiles `lib` as a `no_std` library with warnings denied (rustc lints included).
-fn compiles(lib: &str) -> Result<(), String> {
-    let dir = tempfile::tempdir().unwrap();
-    let src = dir.path().join("lib.rs");
-    std::fs::write(&src, lib).unwrap();
-    let rustc = std::env::var("RUSTC").unwrap_or_else(|_| "rustc".to_string());
-    let o = Command::new(rustc)
-        .args([
-            "--edition",
-            "2021",
-            "--crate-type",
-            "lib",
-            "--crate-name",
-            "names",
-        ])
-        .args(["-D", "warnings", "--emit", "metadata", "--out-dir"])
-        .arg(dir.path())
-        .arg(&src)
-        .output()
-        .expect("rustc runs");
-    if o.status.success() {
-        Ok(())
-    } else {
-        Err(String::from_utf8_lossy(&o.stderr).into_owned())
-    }
-}
-
 #[test]
 fn a_name_with_a_newline_cannot_add_code_to_the_constants() {
     let injected = "valve\npub const INJECTED: u32 = 1;\n// ";
@@ -55,7 +27,7 @@ fn a_name_with_a_newline_cannot_add_code_to_the_constants() {
     let s = stdout(&o);
     // The test below fails to compile if INJECTED exists (a duplicate definition).
     let probe = format!("#![no_std]\n{s}\npub const INJECTED: u32 = 2;\n");
-    compiles(&probe).unwrap_or_else(|e| panic!("{e}\n--- source ---\n{probe}"));
+    rustc_check(&probe).unwrap_or_else(|e| panic!("{e}\n--- source ---\n{probe}"));
     assert_eq!(s.lines().filter(|l| l.contains("INJECTED")).count(), 1);
 
     // Every other hostile character as well, with the snippet in a module.
@@ -63,7 +35,7 @@ fn a_name_with_a_newline_cannot_add_code_to_the_constants() {
     let o = run(&["constants", VALVE, "--set", &set, "--module", "coil"]);
     assert!(o.status.success(), "{}", stderr(&o));
     let s = stdout(&o);
-    compiles(&format!("#![no_std]\n{s}")).unwrap_or_else(|e| panic!("{e}\n--- source ---\n{s}"));
+    rustc_check(&format!("#![no_std]\n{s}")).unwrap_or_else(|e| panic!("{e}\n--- source ---\n{s}"));
     assert!(s.contains("end"), "the name is kept, escaped");
 }
 
@@ -77,7 +49,7 @@ fn a_design_path_with_a_newline_cannot_add_code_either() {
     assert!(o.status.success(), "{}", stderr(&o));
     let s = stdout(&o);
     let probe = format!("#![no_std]\n{s}\npub const FROM_PATH: u32 = 2;\n");
-    compiles(&probe).unwrap_or_else(|e| panic!("{e}\n--- source ---\n{probe}"));
+    rustc_check(&probe).unwrap_or_else(|e| panic!("{e}\n--- source ---\n{probe}"));
 }
 
 #[test]
@@ -95,7 +67,7 @@ fn keywords_and_non_identifiers_are_refused_as_module_names() {
     // A lower-case identifier that is only a weak keyword compiles as a module name.
     let o = run(&["constants", VALVE, "--module", "union"]);
     assert!(o.status.success(), "{}", stderr(&o));
-    compiles(&format!("#![no_std]\n{}", stdout(&o))).unwrap();
+    rustc_check(&format!("#![no_std]\n{}", stdout(&o))).unwrap();
 }
 
 #[test]

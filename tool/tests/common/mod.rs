@@ -49,3 +49,31 @@ pub fn line_of(text: &str, needle: &str) -> usize {
         .map(|i| i + 1)
         .expect("needle present")
 }
+
+/// Compiles `lib` as a library crate with warnings denied (rustc's lints included), metadata
+/// only; `Err` carries rustc's diagnostics.
+pub fn rustc_check(lib: &str) -> Result<(), String> {
+    let dir = tempfile::tempdir().unwrap();
+    let src = dir.path().join("lib.rs");
+    std::fs::write(&src, lib).unwrap();
+    let rustc = std::env::var("RUSTC").unwrap_or_else(|_| "rustc".to_string());
+    let o = Command::new(rustc)
+        .args([
+            "--edition",
+            "2021",
+            "--crate-type",
+            "lib",
+            "--crate-name",
+            "emitted",
+        ])
+        .args(["-D", "warnings", "--emit", "metadata", "--out-dir"])
+        .arg(dir.path())
+        .arg(&src)
+        .output()
+        .expect("rustc runs");
+    if o.status.success() {
+        Ok(())
+    } else {
+        Err(String::from_utf8_lossy(&o.stderr).into_owned())
+    }
+}
