@@ -42,9 +42,30 @@ pub fn elf_path(board: &Board, bin: &str) -> PathBuf {
     target_dir.join(board.triple).join("release").join(bin)
 }
 
+/// `--config` argument that makes the firmware's bytes independent of where the checkout and
+/// the cargo home are: panic locations of path dependencies (the core, the driver) and of
+/// registry crates carry absolute paths into `.rodata`, so a clone six characters deeper linked
+/// a few dozen bytes more flash and failed a budget. Both prefixes are remapped to fixed names.
+fn path_remap_config(triple: &str) -> String {
+    let mut flags = vec![format!(
+        "\"--remap-path-prefix={}=/coilwise\"",
+        repo_root().display()
+    )];
+    if let Some(home) = tools::cargo_home() {
+        flags.push(format!("\"--remap-path-prefix={}=/cargo\"", home.display()));
+    }
+    format!("target.{triple}.rustflags=[{}]", flags.join(","))
+}
+
 fn firmware_cargo(args: &[&str]) -> Command {
     let mut c = Command::new(tools::cargo());
-    c.current_dir(firmware_dir()).args(args);
+    c.current_dir(firmware_dir());
+    if let Some(pos) = args.iter().position(|a| *a == "--target") {
+        if let Some(triple) = args.get(pos + 1) {
+            c.arg("--config").arg(path_remap_config(triple));
+        }
+    }
+    c.args(args);
     // Settings of the outer (host) cargo must not leak into the firmware build.
     for v in ["RUSTFLAGS", "CARGO_ENCODED_RUSTFLAGS", "CARGO_BUILD_TARGET"] {
         c.env_remove(v);

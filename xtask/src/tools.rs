@@ -118,11 +118,15 @@ pub fn ensure_qemu_and_binutils() -> Result<(), String> {
     }
 }
 
-fn cargo_home_bin() -> Option<PathBuf> {
-    let home = std::env::var_os("CARGO_HOME")
+/// `$CARGO_HOME`, else `$HOME/.cargo`.
+pub fn cargo_home() -> Option<PathBuf> {
+    std::env::var_os("CARGO_HOME")
         .map(PathBuf::from)
-        .or_else(|| std::env::var_os("HOME").map(|h| PathBuf::from(h).join(".cargo")))?;
-    Some(home.join("bin"))
+        .or_else(|| std::env::var_os("HOME").map(|h| PathBuf::from(h).join(".cargo")))
+}
+
+fn cargo_home_bin() -> Option<PathBuf> {
+    Some(cargo_home()?.join("bin"))
 }
 
 /// Path of a working `defmt-print`: on PATH, else in `$CARGO_HOME/bin`.
