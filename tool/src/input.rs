@@ -207,7 +207,7 @@ impl Inputs {
     /// value (`clamp.diode_drop=`) removes the key.
     ///
     /// # Errors
-    /// [`ErrorClass::Usage`] for a missing `=`; schema errors as for the file.
+    /// [`ErrorClass::Usage`] for a missing `=` or an empty key; schema errors as for the file.
     pub fn apply_override(&mut self, argument: &str) -> Result<(), ToolError> {
         let place = Some(Place::CommandLine {
             argument: argument.to_string(),
@@ -221,6 +221,14 @@ impl Inputs {
         };
         let key = key.trim();
         let value = value.trim();
+        if key.is_empty() {
+            return Err(ToolError::new(
+                ErrorClass::Usage,
+                "an override needs a key before the `=`",
+            )
+            .at(place, None)
+            .hint("for example --set supply.min=\"20 V\"; `coilwise keys` lists them"));
+        }
         if value.is_empty() {
             // `KEY=` removes the key: back to its default, or absent.
             if schema::spec(key).is_none() {

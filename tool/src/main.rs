@@ -66,7 +66,7 @@ enum Command {
         #[arg(long, value_enum, default_value_t = CornerArg::Nominal)]
         corner: CornerArg,
         /// Length of the on-phase, e.g. "20 ms" (default: the larger of 5 τ and 1.5 × pull-in).
-        #[arg(long, value_name = "TIME")]
+        #[arg(long, value_name = "TIME", allow_hyphen_values = true)]
         on_time: Option<String>,
     },
     /// Emit a Rust source snippet with the timing budget as integer ticks.
@@ -80,7 +80,7 @@ enum Command {
         #[arg(long, value_name = "NAME")]
         module: Option<String>,
         /// Timer tick rate, e.g. "32768 Hz" (overrides timing.tick_rate).
-        #[arg(long, value_name = "RATE")]
+        #[arg(long, value_name = "RATE", allow_hyphen_values = true)]
         tick_rate: Option<String>,
     },
     /// List every key of the design file with its unit and meaning.

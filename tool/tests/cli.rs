@@ -464,6 +464,27 @@ fn io_and_usage_errors() {
     assert_eq!(o.status.code(), Some(1));
     assert!(stderr(&o).starts_with("error[usage]"));
 
+    // An override without a key is a usage error, not an unknown key "".
+    let o = run(&["report", VALVE, "--set", "=x"]);
+    assert_eq!(o.status.code(), Some(1));
+    assert!(
+        stderr(&o).starts_with("error[usage]: command line `--set =x`: an override needs a key"),
+        "{}",
+        stderr(&o)
+    );
+
+    // A negative value is a value (refused for what it is), not a flag the parser rejects.
+    let o = run(&["plot", VALVE, "-o", "/tmp/x.svg", "--on-time", "-1 s"]);
+    assert_eq!(o.status.code(), Some(1));
+    assert!(
+        stderr(&o).starts_with("error[usage]: --on-time must be a positive time"),
+        "{}",
+        stderr(&o)
+    );
+    let o = run(&["constants", VALVE, "--tick-rate", "-5 Hz"]);
+    assert_eq!(o.status.code(), Some(1));
+    assert!(stderr(&o).contains("timing.tick_rate: -5 Hz is not a whole number of ticks"));
+
     // An unknown flag is rejected by the argument parser with status 2.
     let o = run(&["report", VALVE, "--frobnicate"]);
     assert_eq!(o.status.code(), Some(2));
