@@ -233,7 +233,7 @@ fn check<const E: usize>(
 
     let mut p = plant.borrow_mut();
     prop_assert_eq!(p.monitor.violations(), 0);
-    prop_assert!(p.monitor.finish());
+    prop_assert!(p.monitor.finish(sim::print_violation).held);
     let limits = drv.limits();
     let mut on_since: [Option<u64>; CHANNELS] = [None; CHANNELS];
     for &(t, ch, s) in p.edges.iter() {

@@ -40,7 +40,7 @@ fn judged(kinds: &[EventKind], source: Source) -> Vec<Finding> {
 fn finish(plant: &sim::Shared) {
     let mut p = plant.borrow_mut();
     assert!(
-        p.monitor.finish(),
+        p.monitor.finish(sim::print_violation).held,
         "the edge monitor found broken constraints"
     );
     assert!(p.monitor.edges() > 0);
@@ -374,7 +374,7 @@ fn the_monitor_reports_edges_that_break_the_limits() {
     sw.set_low().unwrap();
     let mut p = plant.borrow_mut();
     assert!(p.monitor.violations() >= 1);
-    assert!(!p.monitor.finish());
+    assert!(!p.monitor.finish(sim::print_violation).held);
 }
 
 /// A wire that breaks in service: the next rise says open circuit, the channel is isolated and

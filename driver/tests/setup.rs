@@ -110,7 +110,7 @@ fn bad_configurations_are_refused_with_a_reason() {
     );
     assert!(matches!(r, Err(SetupError::Capture { channel: 0 })));
     // Options outside their domain.
-    let design = sim::parts::valve_design(1_000_000).unwrap();
+    let design = coilwise_rig::scenario::valve_design(1_000_000).unwrap();
     let mut o = ChannelOptions::new(Ticks(100));
     o.trip_fraction = 1.0;
     assert!(matches!(

@@ -32,7 +32,7 @@ pub mod fake;
 pub mod log;
 pub mod measure;
 pub mod run;
-pub mod scenario;
+pub use coilwise_rig::scenario;
 pub mod store;
 pub mod ticks;
 

@@ -7,11 +7,11 @@
 //! It mirrors the QEMU board (`firmware-example/src/board/mod.rs`): one `Bench<1>` per channel;
 //! the converter samples at the instants of the armed plan while time advances (as a
 //! timer-triggered ADC with DMA would); the comparator latches the first crossing after each
-//! switch-on; a script injects faults and supply changes; every drive change goes to the
-//! monitor (`monitor.rs`) with the plant's state.
+//! switch-on; a script injects faults and supply changes; every drive change goes to the rig's
+//! edge monitor (`coilwise_rig::monitor`, the firmware's too) with the plant's state.
 #![allow(dead_code)]
 
-pub mod monitor;
+pub use coilwise_rig::monitor;
 pub mod parts;
 pub mod run;
 
@@ -30,7 +30,18 @@ use coilwise_host_tests::{
 use embedded_hal::digital::{ErrorType, OutputPin};
 use embedded_hal::pwm::SetDutyCycle;
 
-use monitor::{DriveState, Monitor, PlantView};
+use monitor::{DriveState, PlantView, Violation};
+
+/// Most pulses the monitor's inrush check keeps over one test run.
+const MONITORED_PULSES: usize = 1024;
+
+/// The rig's edge monitor.
+pub type Monitor = monitor::Monitor<CHANNELS, MONITORED_PULSES>;
+
+/// Prints one broken constraint the monitor found.
+pub fn print_violation(v: &Violation) {
+    eprintln!("[monitor] {v}");
+}
 pub use parts::{CHANNELS, TICK_HZ};
 
 /// Samples one capture can hold.
@@ -267,7 +278,8 @@ impl Plant {
             return;
         }
         let view = self.view(ch);
-        self.monitor.drive(self.now_ns, ch, after, &view);
+        self.monitor
+            .drive(self.now_ns, ch, after, &view, print_violation);
         self.edges.push((self.now_ns, ch, after));
         let b = &mut self.benches[ch];
         let _ = match after {

@@ -20,13 +20,14 @@
 //! - Every seam method records the stack pointer it is called with
 //!   ([`crate::measure::note_seam_sp`]) before handing over to the plant, so the firmware can
 //!   report the application's stack without the plant's.
-//! - [`monitor::Monitor`] watches the edges the pins really made and what the plant did, and
-//!   reports every broken constraint: the independent check of the scheduler's output.
+//! - [`Monitor`] (the rig's, `coilwise_rig::monitor`) watches the edges the pins really made and
+//!   what the plant did, and reports every broken constraint: the independent check of the
+//!   scheduler's output. The board logs what it reports.
 
 pub mod flash;
 mod handles;
-pub mod monitor;
-pub mod parts;
+
+pub use coilwise_rig::{monitor, parts};
 
 pub use handles::{SimClock, SimHold, SimSense, SimSwitch};
 
@@ -39,7 +40,19 @@ use coilwise_host_tests::{
 use crate::scenario::{rail_name, CHANNELS, TICK_HZ};
 use coilwise::Ticks;
 use coilwise_driver::SensePlan;
-use monitor::{DriveState, Monitor, PlantView};
+use monitor::{DriveState, PlantView, Violation};
+
+/// Most pulses the monitor's inrush check keeps over one run (more is a violation of its own).
+const MONITORED_PULSES: usize = 40;
+
+/// The board's edge monitor.
+pub type Monitor = monitor::Monitor<CHANNELS, MONITORED_PULSES>;
+
+/// Logs one broken constraint the monitor found.
+#[inline(never)]
+fn log_violation(v: &Violation) {
+    defmt::error!("[monitor] {}", v);
+}
 
 /// Samples one capture can hold.
 pub const MAX_SAMPLES: usize = 64;
@@ -405,7 +418,8 @@ impl Plant {
             return;
         }
         let view = self.view(ch);
-        self.monitor.drive(self.now_ns, ch, after, &view);
+        self.monitor
+            .drive(self.now_ns, ch, after, &view, log_violation);
         log_drive(self.now_ns, ch, after);
         let Some(b) = self.benches[ch].as_mut() else {
             return;
@@ -436,7 +450,16 @@ impl Plant {
     /// whether every constraint held.
     #[inline(never)]
     pub fn finish(&mut self) -> bool {
-        self.monitor.finish()
+        let s = self.monitor.finish(log_violation);
+        defmt::info!(
+            "[monitor] {=u32} drive changes, {=u32} pulses; most coils in inrush at once: {=usize} (cap {=usize}); violations: {=u32}",
+            s.edges,
+            s.pulses,
+            s.worst_inrush,
+            s.inrush_cap,
+            s.violations
+        );
+        s.held
     }
 }
 

@@ -8,7 +8,7 @@
 //!
 //! This module holds what the *firmware* knows about its hardware (the datasheet view). What the
 //! simulated hardware really is (each coil a little off nominal, at 25 °C, with its own armature)
-//! lives in the QEMU board module, `crate::board::parts`.
+//! lives in [`crate::parts`].
 
 use coilwise::schedule::{HeatRating, HeatRatings, HoldPlan};
 use coilwise::{
@@ -292,6 +292,12 @@ impl ChannelSpec {
     /// As [`ChannelConfig::from_design`].
     #[inline(never)]
     pub fn config(&self) -> Result<ChannelConfig, SetupError> {
+        ChannelConfig::from_design(&self.design, &self.options())
+    }
+
+    /// The driver options of [`ChannelSpec::config`]: supply group, converter noise, the
+    /// economiser at [`HOLD_HZ`], the thermal rating, the rise capture period.
+    pub fn options(&self) -> ChannelOptions {
         let mut o = ChannelOptions::new(Ticks(self.rise_period))
             .in_group(self.rail)
             .with_noise(self.sense.noise_counts);
@@ -310,6 +316,6 @@ impl ChannelSpec {
                 }),
             });
         }
-        ChannelConfig::from_design(&self.design, &o)
+        o
     }
 }
