@@ -232,8 +232,8 @@ fn check<const E: usize>(
     prop_assert_eq!(marked, u64::from(q.lost()));
 
     let mut p = plant.borrow_mut();
-    prop_assert_eq!(p.monitor.violations(), 0);
-    prop_assert!(p.monitor.finish(sim::print_violation).held);
+    prop_assert_eq!(p.hw.monitor.violations(), 0);
+    prop_assert!(p.hw.monitor.finish(sim::print_violation).held);
     let limits = drv.limits();
     let mut on_since: [Option<u64>; CHANNELS] = [None; CHANNELS];
     for &(t, ch, s) in p.edges.iter() {

@@ -40,10 +40,10 @@ fn judged(kinds: &[EventKind], source: Source) -> Vec<Finding> {
 fn finish(plant: &sim::Shared) {
     let mut p = plant.borrow_mut();
     assert!(
-        p.monitor.finish(sim::print_violation).held,
+        p.hw.monitor.finish(sim::print_violation).held,
         "the edge monitor found broken constraints"
     );
-    assert!(p.monitor.edges() > 0);
+    assert!(p.hw.monitor.edges() > 0);
 }
 
 #[test]
@@ -373,8 +373,8 @@ fn the_monitor_reports_edges_that_break_the_limits() {
     clock.wait_until(ms(40));
     sw.set_low().unwrap();
     let mut p = plant.borrow_mut();
-    assert!(p.monitor.violations() >= 1);
-    assert!(!p.monitor.finish(sim::print_violation).held);
+    assert!(p.hw.monitor.violations() >= 1);
+    assert!(!p.hw.monitor.finish(sim::print_violation).held);
 }
 
 /// A wire that breaks in service: the next rise says open circuit, the channel is isolated and

@@ -128,6 +128,7 @@ fn clock(board: &'static SimBoard) -> fw::board::SimClock<'static> {
 fn arm_monitor(board: &SimBoard, drv: &Driver<'_>) {
     board
         .plant()
+        .hw
         .monitor
         .set_limits(&drv.limits(), drv.inrush_cap());
 }

@@ -7,6 +7,8 @@
 //! - [`parts`]: what the simulated hardware really is (each coil a little off nominal, with its
 //!   armature and, for the pump relay, an eddy-current path) for the numerical plant of
 //!   `coilwise-host-tests`;
+//! - [`hardware`]: the simulated channel hardware (plant, converter, comparator, drive, rise
+//!   capture) both wrap in their own handles;
 //! - [`monitor`]: an independent check of the edges the pins really made against the limits the
 //!   scheduler was given and against what the simulated coils did.
 //!
@@ -20,6 +22,7 @@
 #![forbid(unsafe_code)]
 #![deny(missing_docs)]
 
+pub mod hardware;
 pub mod monitor;
 pub mod parts;
 pub mod scenario;

@@ -1,13 +1,13 @@
 //! The greenhouse rig of the host tests: the same parts as the QEMU firmware, from
 //! `coilwise-rig` (the designs the driver is given, `coilwise_rig::scenario`, and the coils as
-//! built that the numerical plant simulates, `coilwise_rig::parts`). Every value is invented for
+//! built that the numerical plant simulates, `coilwise_rig::parts`, fitted by
+//! `coilwise_rig::hardware`). Every value is invented for
 //! the demo and stands for no real part.
 //!
 //! One difference from the firmware: the host rig's plant is linear (no eddy path on the pump
 //! relay, no saturation), and the channels are declared so ([`linear_build`]).
 #![allow(dead_code)]
 
-pub use coilwise_rig::parts as built;
 pub use coilwise_rig::scenario::{CHANNELS, INRUSH_CAP, TICK_HZ};
 
 use coilwise_rig::scenario::{channel, ChannelSpec};
@@ -36,14 +36,4 @@ fn linear_build() -> coilwise::diagnosis::Criteria {
     c.slow_tau = 0.0;
     c.slow_slope = 0.0;
     c
-}
-
-/// Amperes per count of channel `i`'s converter.
-pub fn amps_per_count(i: usize) -> f32 {
-    spec(i).sense.amps_per_count()
-}
-
-/// Supply group of channel `i`.
-pub fn group(i: usize) -> usize {
-    usize::from(spec(i).rail)
 }

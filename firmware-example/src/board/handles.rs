@@ -3,13 +3,12 @@
 
 use core::convert::Infallible;
 
-use coilwise::{Instant, TickRate, Ticks};
-use coilwise_host_tests::{Comparator, SensePoint};
+use coilwise::{Instant, TickRate};
 use embedded_hal::delay::DelayNs;
 use embedded_hal::digital::{ErrorType, OutputPin};
 use embedded_hal::pwm::SetDutyCycle;
 
-use super::{Plant, SimBoard, MAX_SAMPLES, NS_PER_TICK, PWM_MAX_DUTY};
+use super::{SimBoard, MAX_SAMPLES, NS_PER_TICK, PWM_MAX_DUTY};
 use crate::measure::note_seam_sp;
 use crate::scenario::TICK_HZ;
 use coilwise_driver::TickSource;
@@ -28,9 +27,7 @@ impl ErrorType for SimSwitch<'_> {
 impl SimSwitch<'_> {
     #[inline(never)]
     fn set(&mut self, high: bool) {
-        let mut p = self.board.plant.borrow_mut();
-        let duty = p.duty[self.ch];
-        p.set_drive(self.ch, high, duty);
+        self.board.plant.borrow_mut().set_pin(self.ch, high);
     }
 }
 
@@ -69,9 +66,7 @@ impl SimHold<'_> {
     #[inline(never)]
     fn set(&mut self, duty: u16) {
         self.duty = duty.min(PWM_MAX_DUTY);
-        let mut p = self.board.plant.borrow_mut();
-        let pin = p.pin[self.ch];
-        p.set_drive(self.ch, pin, self.duty);
+        self.board.plant.borrow_mut().set_duty(self.ch, self.duty);
     }
 }
 
@@ -99,92 +94,27 @@ pub struct SimSense<'a> {
 impl SimSense<'_> {
     #[inline(never)]
     fn scale_sim(&self) -> SenseScale {
-        let p = self.board.plant.borrow();
-        SenseScale {
-            amps_per_count: p.adc[self.ch].amps_per_count() as f32,
-            offset_counts: 0,
-            full_scale_counts: 4095,
-        }
+        self.board.plant.borrow().hw.scale(self.ch)
     }
 
     #[inline(never)]
     fn sample_now_sim(&mut self) -> Result<u16, SenseErrorKind> {
-        let mut p = self.board.plant.borrow_mut();
-        let amps = p.benches[self.ch]
-            .as_ref()
-            .and_then(|b| b.probe(0).ok())
-            .map_or(0.0, |x| x.switch_amps);
-        let ch = self.ch;
-        let Plant { adc, rng, .. } = &mut *p;
-        Ok(adc[ch].convert(amps, &mut rng[ch]))
+        self.board.plant.borrow_mut().hw.sample_now(self.ch)
     }
 
     #[inline(never)]
     fn arm_sim(&mut self, plan: &SensePlan) -> Result<(), SenseErrorKind> {
-        if plan.samples > MAX_SAMPLES {
-            return Err(SenseErrorKind::BufferLength);
-        }
-        if plan.samples > 0 && plan.period.get() == 0 {
-            return Err(SenseErrorKind::PeriodUnsupported);
-        }
-        let mut p = self.board.plant.borrow_mut();
-        let ch = self.ch;
-        let cmp = match plan.trip_level {
-            Some(level) => {
-                if level > 4095 {
-                    return Err(SenseErrorKind::LevelOutOfRange);
-                }
-                // The comparator sees the amplified shunt voltage, offset included.
-                let a = &p.adc[ch];
-                let amps = (f64::from(level) - a.offset_lsb) * a.amps_per_count();
-                Some(Comparator {
-                    threshold_amps: amps,
-                    sense: SensePoint::Switch,
-                })
-            }
-            None => None,
-        };
-        p.benches[ch]
-            .as_mut()
-            .ok_or(SenseErrorKind::Other)?
-            .set_comparator(0, cmp)
-            .map_err(|_| SenseErrorKind::Other)?;
-        let c = &mut p.capture[ch];
-        c.plan = *plan;
-        c.started = None;
-        c.taken = 0;
-        Ok(())
+        self.board.plant.borrow_mut().hw.arm(self.ch, plan)
     }
 
     #[inline(never)]
     fn samples_sim(&mut self, out: &mut [u16]) -> Result<Option<Capture>, SenseErrorKind> {
-        let p = self.board.plant.borrow();
-        let c = &p.capture[self.ch];
-        if c.started.is_none() || c.taken < c.plan.samples {
-            return Ok(None);
-        }
-        let n = c.plan.samples;
-        let dst = out.get_mut(..n).ok_or(SenseErrorKind::BufferLength)?;
-        dst.copy_from_slice(&c.buf[..n]);
-        Ok(Some(Capture {
-            len: n,
-            first: c.plan.first,
-            period: c.plan.period,
-        }))
+        self.board.plant.borrow().hw.samples(self.ch, out)
     }
 
     #[inline(never)]
     fn crossing_sim(&mut self) -> Result<Crossing, SenseErrorKind> {
-        let p = self.board.plant.borrow();
-        let s = p.benches[self.ch]
-            .as_ref()
-            .and_then(|b| b.stats(0).ok())
-            .ok_or(SenseErrorKind::Other)?;
-        // A capture timer counts whole ticks: the crossing time rounds down.
-        Ok(match s.comparator_ticks_since_on(TICK_HZ) {
-            Some(t) => Crossing::After(Ticks(u32::try_from(t).unwrap_or(u32::MAX))),
-            None => Crossing::NotYet,
-        })
+        self.board.plant.borrow().hw.crossing(self.ch)
     }
 }
 
@@ -232,13 +162,13 @@ impl SimClock<'_> {
     #[inline(never)]
     fn now_sim(&self) -> Instant {
         // Truncation to the wrapping 32-bit counter is the intent.
-        Instant((self.board.plant.borrow().now_ns / NS_PER_TICK) as u32)
+        Instant((self.board.plant.borrow().now_ns() / NS_PER_TICK) as u32)
     }
 
     #[inline(never)]
     fn delay_sim(&mut self, ns: u32) {
         let mut p = self.board.plant.borrow_mut();
-        let t = p.now_ns + u64::from(ns);
+        let t = p.now_ns() + u64::from(ns);
         p.advance_to(t);
     }
 }

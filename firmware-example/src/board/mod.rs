@@ -33,39 +33,25 @@ pub use handles::{SimClock, SimHold, SimSense, SimSwitch};
 
 use core::cell::RefCell;
 
-use coilwise_host_tests::{
-    AdcConfig, ArmatureState, Bench, Fault, Prng, SensePoint, SolverSettings, Stepping, Supply,
-};
+use coilwise_host_tests::{Fault, Magnetics};
+use coilwise_rig::hardware::Channels;
 
-use crate::scenario::{rail_name, CHANNELS, TICK_HZ};
-use coilwise::Ticks;
-use coilwise_driver::SensePlan;
-use monitor::{DriveState, PlantView, Violation};
+use crate::scenario::{rail_name, CHANNELS};
+use monitor::{DriveState, Violation};
+
+pub use coilwise_rig::hardware::{MAX_SAMPLES, NS_PER_TICK, PWM_HZ, PWM_MAX_DUTY};
 
 /// Most pulses the monitor's inrush check keeps over one run (more is a violation of its own).
 const MONITORED_PULSES: usize = 40;
 
-/// The board's edge monitor.
-pub type Monitor = monitor::Monitor<CHANNELS, MONITORED_PULSES>;
+/// The board's simulated channels (the rig's plant, converters, drive and capture).
+pub type Hardware = Channels<CHANNELS, MONITORED_PULSES>;
 
 /// Logs one broken constraint the monitor found.
 #[inline(never)]
 fn log_violation(v: &Violation) {
     defmt::error!("[monitor] {}", v);
 }
-
-/// Samples one capture can hold.
-pub const MAX_SAMPLES: usize = 64;
-
-/// Hold PWM carrier of the simulated timers, Hz (invented; every edge is integrated, so the
-/// simulation cost grows with it).
-pub const PWM_HZ: u32 = 2_000;
-
-/// Duty resolution of the simulated PWM (`max_duty_cycle`).
-pub const PWM_MAX_DUTY: u16 = 1_000;
-
-const NS_PER_TICK: u64 = 1_000_000_000 / TICK_HZ as u64;
-const PWM_PERIOD_NS: u64 = 1_000_000_000 / PWM_HZ as u64;
 
 /// Something the fault script does to the simulated hardware.
 #[derive(Clone, Copy, Debug, PartialEq)]
@@ -111,122 +97,34 @@ pub struct Scripted {
     pub what: Happening,
 }
 
-/// Solver settings for the demo: adaptive steps of at most 1 ms, tolerances loose enough to keep
-/// the M0 run short and tight enough for the converter (1e-6 relative is 0.004 counts at full
-/// scale) and the comparator (crossings within a few ns).
-fn solver() -> SolverSettings {
-    SolverSettings {
-        stepping: Stepping::Adaptive {
-            rel_tol: 1e-6,
-            abs_tol_amps: 1e-7,
-            max_step_s: 1e-3,
-        },
-        ..SolverSettings::default()
-    }
-}
-
-/// Converter of one channel as built (invented): the scenario's shunt/gain/reference, an
-/// amplifier offset of a few counts, and 0.6 counts RMS of noise from a fixed seed.
-fn converter(spec: &crate::scenario::ChannelSpec, channel: usize) -> AdcConfig {
-    let apc = f64::from(spec.sense.amps_per_count());
-    AdcConfig {
-        bits: 12,
-        full_scale_amps: apc * 4096.0,
-        noise_lsb_rms: 0.6,
-        offset_lsb: [3.0, 2.0, 4.0, 3.0][channel % 4],
-        gain_error: 0.0,
-        start_latency_ns: 0,
-        start_jitter_ns: 0,
-        seed: 0x5EED_0000 + channel as u64,
-        sense: SensePoint::Switch,
-    }
-}
-
-#[derive(Clone, Copy)]
-struct CaptureState {
-    plan: SensePlan,
-    /// Switch-on time of the capture in progress, ns; `None`: not started.
-    started: Option<u64>,
-    taken: usize,
-    buf: [u16; MAX_SAMPLES],
-}
-
-/// The simulated hardware: plants, converters, drive state, fault script, monitor.
+/// The simulated hardware and world: the rig's channels, the flash page, the fault script.
 pub struct Plant {
-    benches: [Option<Bench<1>>; CHANNELS],
-    adc: [AdcConfig; CHANNELS],
-    rng: [Prng; CHANNELS],
-    rails: [u8; CHANNELS],
-    /// Lowest supply each channel's design allows, V.
-    design_min: [f64; CHANNELS],
-    pin: [bool; CHANNELS],
-    duty: [u16; CHANNELS],
-    faulted: [bool; CHANNELS],
-    /// Current left at the next switch-on, per channel (script).
-    residual: [Option<f64>; CHANNELS],
+    /// Plants, converters, drive state, capture, and the edge monitor.
+    pub hw: Hardware,
     /// The flash page (survives the simulated reset).
     pub flash: flash::SimFlash,
-    capture: [CaptureState; CHANNELS],
     script: &'static [Scripted],
     next_event: usize,
-    now_ns: u64,
-    /// The independent check of what the pins did.
-    pub monitor: Monitor,
 }
 
 /// Why the plant could not be built.
 #[derive(Clone, Copy, Debug, PartialEq, Eq, defmt::Format)]
 pub struct BoardError;
 
-const IDLE_CAPTURE: CaptureState = CaptureState {
-    plan: SensePlan {
-        first: Ticks(0),
-        period: Ticks(1),
-        samples: 0,
-        trip_level: None,
-    },
-    started: None,
-    taken: 0,
-    buf: [0; MAX_SAMPLES],
-};
-
-const NO_ADC: AdcConfig = AdcConfig {
-    bits: 12,
-    full_scale_amps: 1.0,
-    noise_lsb_rms: 0.0,
-    offset_lsb: 0.0,
-    gain_error: 0.0,
-    start_latency_ns: 0,
-    start_jitter_ns: 0,
-    seed: 0,
-    sense: SensePoint::Switch,
-};
-
 impl Plant {
     /// A plant with no coils yet (usable in a `static`; see [`Plant::install`]).
     pub const fn empty() -> Self {
         Self {
-            benches: [const { None }; CHANNELS],
-            adc: [NO_ADC; CHANNELS],
-            rng: [Prng::new(0); CHANNELS],
-            rails: [0; CHANNELS],
-            design_min: [0.0; CHANNELS],
-            pin: [false; CHANNELS],
-            duty: [0; CHANNELS],
-            faulted: [false; CHANNELS],
-            residual: [None; CHANNELS],
+            hw: Channels::empty(),
             flash: flash::SimFlash::new(),
-            capture: [IDLE_CAPTURE; CHANNELS],
             script: &[],
             next_event: 0,
-            now_ns: 0,
-            monitor: Monitor::new(),
         }
     }
 
     /// Fits the greenhouse coils (see [`parts`]) at the scenario's nominal rail voltages, one at a
-    /// time (so that no copy of the whole plant passes through the stack), and loads `script`
-    /// (events at 0 ms are applied now).
+    /// time (so that no copy of the whole plant passes through the stack), with their magnetic
+    /// extras (the pump relay's eddy path), and loads `script` (events at 0 ms are applied now).
     #[inline(never)]
     pub fn install(
         &mut self,
@@ -234,18 +132,8 @@ impl Plant {
         script: &'static [Scripted],
     ) -> Result<(), BoardError> {
         for (ch, spec) in specs.iter().enumerate() {
-            let params = parts::channel(ch).ok_or(BoardError)?;
-            let v = f64::from(spec.design.supply.nominal().value());
-            self.benches[ch] =
-                Some(Bench::single(Supply::ideal(v), params, solver()).map_err(|_| BoardError)?);
-            self.adc[ch] = converter(spec, ch);
-            self.rng[ch] = Prng::new(self.adc[ch].seed);
-            if let Some(b) = self.benches[ch].as_mut() {
-                b.set_magnetics(0, parts::magnetics(ch))
-                    .map_err(|_| BoardError)?;
-            }
-            self.rails[ch] = spec.rail;
-            self.design_min[ch] = f64::from(spec.design.supply.min().value());
+            let magnetics: Magnetics = parts::magnetics(ch);
+            self.hw.fit(ch, spec, magnetics).ok_or(BoardError)?;
         }
         self.script = script;
         self.apply_due_events(0);
@@ -254,36 +142,7 @@ impl Plant {
 
     /// Simulated time, ns.
     pub fn now_ns(&self) -> u64 {
-        self.now_ns
-    }
-
-    /// Whether the channel's coil has a scripted fault or its rail is below the design's range
-    /// right now (the monitor does not expect such a coil to operate).
-    fn degraded(&self, ch: usize) -> bool {
-        self.faulted[ch]
-            || self.benches[ch]
-                .as_ref()
-                .is_none_or(|b| b.supply().volts < self.design_min[ch])
-    }
-
-    fn view(&self, ch: usize) -> PlantView {
-        let Some(b) = self.benches[ch].as_ref() else {
-            return PlantView {
-                coil_amps: 0.0,
-                at_rest: true,
-                moved: false,
-                operated: false,
-                degraded: true,
-            };
-        };
-        let stats = b.stats(0).ok();
-        PlantView {
-            coil_amps: b.probe(0).map(|p| p.coil_amps).unwrap_or(0.0),
-            at_rest: matches!(b.armature(0), Ok(ArmatureState::Released)),
-            moved: stats.is_some_and(|s| s.moved_ns.is_some()),
-            operated: stats.is_some_and(|s| s.operated_ns.is_some()),
-            degraded: self.degraded(ch),
-        }
+        self.hw.now_ns()
     }
 
     fn apply_due_events(&mut self, upto_ns: u64) {
@@ -294,11 +153,7 @@ impl Plant {
             }
             match e.what {
                 Happening::Fault { channel, fault } => {
-                    if let Some(Some(b)) = self.benches.get_mut(channel) {
-                        if b.inject(0, fault).is_ok() {
-                            self.faulted[channel] = true;
-                        }
-                    }
+                    self.hw.inject(channel, fault);
                     defmt::warn!(
                         "[plant] t={=u32} ms: fault appears on channel {=usize}: {=str}",
                         e.at_ms,
@@ -307,9 +162,7 @@ impl Plant {
                     );
                 }
                 Happening::Residual { channel, amps } => {
-                    if let Some(r) = self.residual.get_mut(channel) {
-                        *r = Some(amps);
-                    }
+                    self.hw.leave_current(channel, amps);
                     defmt::warn!(
                         "[plant] t={=u32} ms: channel {=usize} will still carry {=f32} mA at its next switch-on (a pulse soon after a release)",
                         e.at_ms,
@@ -327,12 +180,7 @@ impl Plant {
                     );
                 }
                 Happening::Supply { rail, volts } => {
-                    for ch in 0..CHANNELS {
-                        if let (true, Some(b)) = (self.rails[ch] == rail, self.benches[ch].as_mut())
-                        {
-                            let _ = b.set_supply_volts(volts);
-                        }
-                    }
+                    self.hw.set_rail_volts(rail, volts);
                     defmt::warn!(
                         "[plant] t={=u32} ms: {=str} now at {=u32}.{=u32} V",
                         e.at_ms,
@@ -348,7 +196,7 @@ impl Plant {
 
     /// Advances every plant to `t_ns`, taking due samples and applying due script events.
     pub fn advance_to(&mut self, t_ns: u64) {
-        if t_ns <= self.now_ns {
+        if t_ns <= self.hw.now_ns() {
             return;
         }
         loop {
@@ -357,11 +205,7 @@ impl Plant {
                 .get(self.next_event)
                 .map(|e| u64::from(e.at_ms) * 1_000_000)
                 .filter(|&at| at <= t_ns);
-            let until = next.unwrap_or(t_ns);
-            for ch in 0..CHANNELS {
-                self.advance_channel(ch, until);
-            }
-            self.now_ns = until;
+            self.hw.advance_to(next.unwrap_or(t_ns));
             match next {
                 Some(at) => self.apply_due_events(at),
                 None => break,
@@ -369,80 +213,17 @@ impl Plant {
         }
     }
 
-    fn advance_channel(&mut self, ch: usize, until: u64) {
-        loop {
-            let c = &self.capture[ch];
-            let Some(on) = c.started else { break };
-            if c.taken >= c.plan.samples {
-                break;
-            }
-            let t = on
-                + (u64::from(c.plan.first.get()) + c.taken as u64 * u64::from(c.plan.period.get()))
-                    * NS_PER_TICK;
-            if t > until {
-                break;
-            }
-            let Some(b) = self.benches[ch].as_mut() else {
-                return;
-            };
-            b.advance_to(t);
-            let amps = b.probe(0).map(|p| p.switch_amps).unwrap_or(0.0);
-            let code = self.adc[ch].convert(amps, &mut self.rng[ch]);
-            let c = &mut self.capture[ch];
-            c.buf[c.taken] = code;
-            c.taken += 1;
-        }
-        if let Some(b) = self.benches[ch].as_mut() {
-            b.advance_to(until);
+    /// Sets channel `ch`'s switch pin; the monitor judges the edge, the log shows it.
+    fn set_pin(&mut self, ch: usize, high: bool) {
+        if let Some(d) = self.hw.set_pin(ch, high, log_violation) {
+            log_drive(self.hw.now_ns(), ch, d);
         }
     }
 
-    fn drive_state(&self, ch: usize) -> DriveState {
-        if self.duty[ch] > 0 {
-            DriveState::Pwm(self.duty[ch])
-        } else if self.pin[ch] {
-            DriveState::Full
-        } else {
-            DriveState::Off
-        }
-    }
-
-    /// Applies a pin or duty change to the plant: a switch-on edge starts the armed capture
-    /// (the comparator of the plant arms itself at every switch-on).
-    fn set_drive(&mut self, ch: usize, pin: bool, duty: u16) {
-        let before = self.drive_state(ch);
-        self.pin[ch] = pin;
-        self.duty[ch] = duty.min(PWM_MAX_DUTY);
-        let after = self.drive_state(ch);
-        if before == after {
-            return;
-        }
-        let view = self.view(ch);
-        self.monitor
-            .drive(self.now_ns, ch, after, &view, log_violation);
-        log_drive(self.now_ns, ch, after);
-        let Some(b) = self.benches[ch].as_mut() else {
-            return;
-        };
-        let _ = match after {
-            DriveState::Off => b.set_gate(0, false),
-            DriveState::Full => b.set_gate(0, true),
-            DriveState::Pwm(d) if d >= PWM_MAX_DUTY => b.set_gate(0, true),
-            DriveState::Pwm(d) => b.set_pwm(
-                0,
-                PWM_PERIOD_NS,
-                PWM_PERIOD_NS * u64::from(d) / u64::from(PWM_MAX_DUTY),
-            ),
-        };
-        if before == DriveState::Off {
-            // The monitor judged the edge above (the driver's constraint); a current left from
-            // outside the driver is the world's, put in after it.
-            if let Some(amps) = self.residual[ch].take() {
-                let _ = b.set_current(0, amps);
-            }
-            let c = &mut self.capture[ch];
-            c.started = (c.plan.samples > 0).then_some(self.now_ns);
-            c.taken = 0;
+    /// Sets channel `ch`'s hold duty; the monitor judges the edge, the log shows it.
+    fn set_duty(&mut self, ch: usize, duty: u16) {
+        if let Some(d) = self.hw.set_duty(ch, duty, log_violation) {
+            log_drive(self.hw.now_ns(), ch, d);
         }
     }
 
@@ -450,7 +231,7 @@ impl Plant {
     /// whether every constraint held.
     #[inline(never)]
     pub fn finish(&mut self) -> bool {
-        let s = self.monitor.finish(log_violation);
+        let s = self.hw.monitor.finish(log_violation);
         defmt::info!(
             "[monitor] {=u32} drive changes, {=u32} pulses; most coils in inrush at once: {=usize} (cap {=usize}); violations: {=u32}",
             s.edges,

@@ -89,6 +89,21 @@ impl Bench<1> {
     ) -> Result<Self, SimError> {
         Bench::new(supply, [channel], settings)
     }
+
+    /// [`Bench::single`] built straight into `slot` (`None` first, `Some` on success), with no
+    /// bench-sized temporary on the caller's stack: for a firmware that keeps its benches in
+    /// static memory and fits them on a small stack.
+    ///
+    /// Errors: as [`Bench::new`] (the slot is then `None`).
+    #[inline(never)]
+    pub fn single_into(
+        slot: &mut Option<Self>,
+        supply: Supply,
+        channel: ChannelParams,
+        settings: SolverSettings,
+    ) -> Result<(), SimError> {
+        Bench::new_into(slot, supply, [channel], settings)
+    }
 }
 
 impl<const N: usize> Bench<N> {
@@ -101,6 +116,21 @@ impl<const N: usize> Bench<N> {
         params: [ChannelParams; N],
         settings: SolverSettings,
     ) -> Result<Self, SimError> {
+        let mut slot = None;
+        Bench::new_into(&mut slot, supply, params, settings)?;
+        slot.ok_or(SimError::InvalidParameter("bench"))
+    }
+
+    /// [`Bench::new`] built straight into `slot` (see [`Bench::single_into`]).
+    ///
+    /// Errors: as [`Bench::new`] (the slot is then `None`).
+    pub fn new_into(
+        slot: &mut Option<Self>,
+        supply: Supply,
+        params: [ChannelParams; N],
+        settings: SolverSettings,
+    ) -> Result<(), SimError> {
+        *slot = None;
         supply.validate()?;
         settings.validate()?;
         for p in &params {
@@ -137,7 +167,7 @@ impl<const N: usize> Bench<N> {
             Stepping::Adaptive { max_step_s, .. } => max_step_s * 0.1,
             Stepping::Fixed { step_s } => step_s,
         };
-        Ok(Bench {
+        *slot = Some(Bench {
             supply,
             params,
             faults,
@@ -156,7 +186,8 @@ impl<const N: usize> Bench<N> {
             counters: SolverCounters::default(),
             #[cfg(feature = "std")]
             rec: None,
-        })
+        });
+        Ok(())
     }
 
     fn check_ch(&self, ch: usize) -> Result<(), SimError> {
