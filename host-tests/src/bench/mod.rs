@@ -465,4 +465,41 @@ mod tests {
             "Bench<1> is {bytes} bytes (budget {budget})"
         );
     }
+
+    /// Built in place or by value, a bench is the same; a refused one leaves the slot empty.
+    #[test]
+    fn a_bench_built_in_place_is_the_bench_built_by_value() {
+        use super::Bench;
+        use crate::{demo, SolverSettings, Supply};
+        let by_value = Bench::single(
+            Supply::ideal(24.0),
+            demo::valve_24v(),
+            SolverSettings::default(),
+        )
+        .unwrap();
+        let mut slot = Some(by_value.clone());
+        Bench::single_into(
+            &mut slot,
+            Supply::ideal(24.0),
+            demo::valve_24v(),
+            SolverSettings::default(),
+        )
+        .unwrap();
+        let mut a = slot.unwrap();
+        let mut b = by_value;
+        a.set_gate(0, true).unwrap();
+        b.set_gate(0, true).unwrap();
+        a.advance_to(5_000_000);
+        b.advance_to(5_000_000);
+        assert_eq!(a.probe(0).unwrap(), b.probe(0).unwrap());
+        let mut slot = Some(a);
+        let bad = Bench::single_into(
+            &mut slot,
+            Supply::ideal(f64::NAN),
+            demo::valve_24v(),
+            SolverSettings::default(),
+        );
+        assert!(bad.is_err());
+        assert!(slot.is_none());
+    }
 }
