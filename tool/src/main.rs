@@ -94,6 +94,23 @@ enum CornerArg {
     Release,
 }
 
+/// Loads the design file with its overrides and hands its analysis to `f`.
+fn analysed<T>(
+    design: &str,
+    set: &[String],
+    f: impl FnOnce(&coilwise_tool::Spec, &Analysis) -> Result<T, ToolError>,
+) -> Result<T, ToolError> {
+    let spec = coilwise_tool::load(design, set)?;
+    let a = Analysis::new(&spec)?;
+    f(&spec, &a)
+}
+
+/// Writes `text` to `output` (standard output when `None`), never over the design file.
+fn emit(output: Option<&std::path::Path>, design: &str, text: &str) -> Result<(), ToolError> {
+    output::not_the_input(output, design)?;
+    output::write(output, text.as_bytes())
+}
+
 fn run(cli: Cli) -> Result<ExitCode, ToolError> {
     match cli.command {
         Command::Report {
@@ -102,16 +119,16 @@ fn run(cli: Cli) -> Result<ExitCode, ToolError> {
             output,
             strict,
         } => {
-            let spec = coilwise_tool::load(&design.design, &design.set)?;
-            let a = Analysis::new(&spec)?;
-            let text = if json {
-                json::render(&a)
-            } else {
-                report::render_report(&a)
-            };
-            output::not_the_input(output.as_deref(), &design.design)?;
-            output::write(output.as_deref(), text.as_bytes())?;
-            if strict && a.any_failed() {
+            let failed = analysed(&design.design, &design.set, |_, a| {
+                let text = if json {
+                    json::render(a)
+                } else {
+                    report::render_report(a)
+                };
+                emit(output.as_deref(), &design.design, &text)?;
+                Ok(a.any_failed())
+            })?;
+            if strict && failed {
                 return Ok(ExitCode::from(3));
             }
         }
@@ -119,25 +136,20 @@ fn run(cli: Cli) -> Result<ExitCode, ToolError> {
             design,
             json,
             output,
-        } => {
-            let spec = coilwise_tool::load(&design.design, &design.set)?;
-            let a = Analysis::new(&spec)?;
+        } => analysed(&design.design, &design.set, |_, a| {
             let text = if json {
-                json::render_comparison(&a)
+                json::render_comparison(a)
             } else {
-                report::render_comparison(&a)
+                report::render_comparison(a)
             };
-            output::not_the_input(output.as_deref(), &design.design)?;
-            output::write(output.as_deref(), text.as_bytes())?;
-        }
+            emit(output.as_deref(), &design.design, &text)
+        })?,
         Command::Plot {
             design,
             output,
             corner,
             on_time,
         } => {
-            let spec = coilwise_tool::load(&design.design, &design.set)?;
-            let a = Analysis::new(&spec)?;
             let on = match on_time {
                 Some(t) => Some(quantity::parse(quantity::Dim::Time, &t).map_err(|e| {
                     ToolError::new(ErrorClass::Usage, format!("--on-time \"{t}\" {e}"))
@@ -150,10 +162,11 @@ fn run(cli: Cli) -> Result<ExitCode, ToolError> {
                 CornerArg::PullIn => Corner::PullIn,
                 CornerArg::Release => Corner::Release,
             };
-            let cycle = plot::cycle(&a, corner, on)?;
-            let svg = plot::svg(&cycle, &format!("coilwise: {}", spec.name))?;
-            output::not_the_input(Some(&output), &design.design)?;
-            output::write(Some(&output), svg.as_bytes())?;
+            analysed(&design.design, &design.set, |spec, a| {
+                let cycle = plot::cycle(a, corner, on)?;
+                let svg = plot::svg(&cycle, &format!("coilwise: {}", spec.name))?;
+                emit(Some(&output), &design.design, &svg)
+            })?
         }
         Command::Constants {
             design,
@@ -165,11 +178,10 @@ fn run(cli: Cli) -> Result<ExitCode, ToolError> {
             if let Some(r) = tick_rate {
                 set.push(format!("timing.tick_rate={r}"));
             }
-            let spec = coilwise_tool::load(&design.design, &set)?;
-            let a = Analysis::new(&spec)?;
-            let text = constants::render(&a, module.as_deref())?;
-            output::not_the_input(output.as_deref(), &design.design)?;
-            output::write(output.as_deref(), text.as_bytes())?;
+            analysed(&design.design, &set, |_, a| {
+                let text = constants::render(a, module.as_deref())?;
+                emit(output.as_deref(), &design.design, &text)
+            })?
         }
         Command::Keys => {
             output::write(None, schema::table().as_bytes())?;
