@@ -19,7 +19,9 @@ use super::clamp::Clamp;
 use super::first_order::FirstOrder;
 use super::snubber::SnubberRelease;
 use crate::error::{result, Error, Param, Why};
-use crate::units::{Amps, Henries, Joules, Seconds, Volts};
+#[cfg(feature = "clamp-rc-snubber")]
+use crate::units::Henries;
+use crate::units::{Amps, Joules, Seconds, Volts};
 
 /// Where the coil's stored energy goes during one release, J.
 ///
@@ -61,7 +63,9 @@ impl EnergySplit {
 enum Shape {
     /// First-order: resistance against a constant opposing voltage (every clamp but the snubber).
     Linear,
-    /// Second-order: the series R–C snubber.
+    /// Second-order: the series R–C snubber (only with feature `clamp-rc-snubber`: without it no
+    /// release takes this shape, and none of its code is linked).
+    #[cfg(feature = "clamp-rc-snubber")]
     Snubber(SnubberRelease),
 }
 
@@ -104,6 +108,9 @@ impl Circuit {
 
     /// [`Circuit::release`] on an already resolved operating point (saves resolving twice).
     pub(crate) fn release_resolved(&self, r: &Resolved, initial: Amps) -> Result<Release, Error> {
+        // A clamp type left out of the build (refused by `Clamp::validate` already): its arm
+        // below is dead code and not linked.
+        self.clamp().kind().built()?;
         let i0 = crate::error::non_negative(initial.value(), Param::Current)?;
         let supply = r.supply.value();
         let r_loop = r.off_loop.value();
@@ -142,6 +149,11 @@ impl Circuit {
                 }
                 (0.0, breakdown - supply, breakdown, supply)
             }
+            #[cfg(not(feature = "clamp-rc-snubber"))]
+            Clamp::RcSnubber { .. } => {
+                return Err(Error::invalid(Param::ClampType, Why::FeatureDisabled))
+            }
+            #[cfg(feature = "clamp-rc-snubber")]
             Clamp::RcSnubber {
                 resistance,
                 capacitance,
@@ -199,9 +211,11 @@ impl Release {
         &self.curve
     }
 
-    /// The exact second-order release when the clamp is an RC snubber, else `None`.
+    /// The exact second-order release when the clamp is an RC snubber, else `None` (always `None`
+    /// without feature `clamp-rc-snubber`).
     pub const fn snubber(&self) -> Option<&SnubberRelease> {
         match &self.shape {
+            #[cfg(feature = "clamp-rc-snubber")]
             Shape::Snubber(s) => Some(s),
             Shape::Linear => None,
         }
@@ -224,6 +238,7 @@ impl Release {
     pub fn current_at(&self, t: Seconds) -> Result<Amps, Error> {
         match &self.shape {
             Shape::Linear => Ok(Amps::new(libm::fmaxf(self.curve.value_at(t)?, 0.0))),
+            #[cfg(feature = "clamp-rc-snubber")]
             Shape::Snubber(s) => s.current_at(t),
         }
     }
@@ -237,6 +252,7 @@ impl Release {
                 let target = crate::error::non_negative(target.value(), Param::Current)?;
                 self.curve.time_to(target)
             }
+            #[cfg(feature = "clamp-rc-snubber")]
             Shape::Snubber(s) => s.time_to_current(target),
         }
     }
@@ -247,6 +263,7 @@ impl Release {
     pub fn time_to_zero(&self) -> Result<Seconds, Error> {
         match &self.shape {
             Shape::Linear => self.curve.time_to(0.0),
+            #[cfg(feature = "clamp-rc-snubber")]
             Shape::Snubber(s) => s.time_to_rest(),
         }
     }
@@ -259,7 +276,9 @@ impl Release {
         let r = crate::error::non_negative(residual.value(), Param::Current)?;
         match &self.shape {
             Shape::Linear => self.curve.time_to(r),
+            #[cfg(feature = "clamp-rc-snubber")]
             Shape::Snubber(s) if r == 0.0 => s.time_to_rest(),
+            #[cfg(feature = "clamp-rc-snubber")]
             Shape::Snubber(s) => s.settle_time(residual),
         }
     }
@@ -286,6 +305,7 @@ impl Release {
     fn peak_coil_voltage(&self) -> f32 {
         match &self.shape {
             Shape::Linear => self.coil_voltage_at_current(self.curve.initial()),
+            #[cfg(feature = "clamp-rc-snubber")]
             Shape::Snubber(s) => s.peak_reverse_voltage().value(),
         }
     }
@@ -302,6 +322,7 @@ impl Release {
     /// voltage. Domain: t ≥ 0.
     pub fn switch_voltage_at(&self, t: Seconds) -> Result<Volts, Error> {
         let coil = match &self.shape {
+            #[cfg(feature = "clamp-rc-snubber")]
             Shape::Snubber(s) => s.reverse_voltage_at(t)?.value(),
             Shape::Linear => {
                 let i = self.current_at(t)?.value();
@@ -335,6 +356,7 @@ impl Release {
     ///
     /// Accuracy: relative error ≲ 1e-5 of `stored` (series evaluation for small I₀/a).
     pub fn energy(&self) -> Result<EnergySplit, Error> {
+        #[cfg(feature = "clamp-rc-snubber")]
         if let Shape::Snubber(s) = &self.shape {
             let e = s.energy();
             return Ok(EnergySplit {
@@ -351,6 +373,7 @@ impl Release {
     /// Time to zero and the energy split together, sharing one `log1p` for the first-order clamps
     /// (the budget's hot path). Same results as [`Release::time_to_zero`] and [`Release::energy`].
     pub(crate) fn zero_time_and_energy(&self) -> Result<(Seconds, EnergySplit), Error> {
+        #[cfg(feature = "clamp-rc-snubber")]
         if matches!(self.shape, Shape::Snubber(_)) {
             return Ok((self.time_to_zero()?, self.energy()?));
         }
