@@ -16,7 +16,11 @@
 //!   the `coilwise` crate, in the main firmware ELF (`arm-none-eabi-nm -S -C --size-sort`). Code of
 //!   the core that LTO inlined into a caller outside the crate is not counted;
 //! - `driver_flash_bytes`: the same for the `coilwise_driver` crate (the runtime library, its
-//!   generic code as instantiated for the QEMU board).
+//!   generic code as instantiated for the QEMU board);
+//! - `core_flash_min_bytes` / `core_flash_fit_bytes`: `coilwise` symbols as above in the minimal
+//!   firmwares `min_comparator` (tick constants + comparator verdict + scheduler) and `min_fit`
+//!   (the same plus the sample fit), built with their own features (firmware-example/src/minimal);
+//!   each must run under QEMU and exit 0 (its results checked) before it is counted.
 
 use std::collections::BTreeMap;
 use std::fmt::Write as _;
@@ -193,6 +197,42 @@ fn measure(b: &Board) -> Result<Vec<Figure>, String> {
         value: crate_symbol_bytes(&nm, "coilwise_driver"),
         unit: "bytes",
     });
+
+    firmware::build_minimal(b)?;
+    for (bin, key, what) in [
+        (
+            firmware::MIN_COMPARATOR_BIN,
+            "core_flash_min_bytes",
+            "core flash, minimal firmware: tick constants + comparator verdict + scheduler",
+        ),
+        (
+            firmware::MIN_FIT_BIN,
+            "core_flash_fit_bytes",
+            "core flash, minimal firmware plus the sample fit",
+        ),
+    ] {
+        let r = firmware::run(b, bin, true)?;
+        if r.status != 0 {
+            return Err(format!(
+                "minimal firmware {bin} for {} exited with status {} — {}\n{}",
+                b.triple,
+                r.status,
+                firmware::describe_status(r.status),
+                r.log
+            ));
+        }
+        let elf = firmware::elf_path(b, bin);
+        let nm = tool_output(
+            "arm-none-eabi-nm",
+            &["-S", "-C", "--size-sort", &elf.to_string_lossy()],
+        )?;
+        figs.push(Figure {
+            key: key.into(),
+            what: what.into(),
+            value: crate_symbol_bytes(&nm, "coilwise"),
+            unit: "bytes",
+        });
+    }
     Ok(figs)
 }
 
@@ -456,6 +496,10 @@ How:
 - **Flash**: `arm-none-eabi-size -A` of the main firmware ELF; the core's share is the sum of the
   symbols of the `coilwise` crate in `arm-none-eabi-nm -S -C`, the driver library's the same for
   `coilwise_driver` (code that LTO inlined into callers outside the crate is not counted there).
+  `core_flash_min_bytes` and `core_flash_fit_bytes` are the same sum in the minimal firmwares
+  (`firmware-example/src/minimal/`: the tick constants the design tool emits, the comparator
+  verdict and the scheduler; then the sample fit as well), built with only the core features they
+  need (`--no-default-features --features minimal`); each runs and checks its results first.
 - **The driver's `service()`** (`driver_service_*`): one valve channel on replaying hardware
   (`firmware-example/src/fake.rs`: pins that do nothing, a sense that returns a precomputed
   healthy 64-sample rise), so the figures are the library's own work: a call with nothing due,

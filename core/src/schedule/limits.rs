@@ -428,7 +428,7 @@ mod tests {
     // with the feature, refused with the one documented error without it, never dropped
     // silently (feature gating, common practice, no source).
     #[test]
-    fn thermal_buckets_are_refused_without_their_feature() {
+    fn thermal_buckets_left_out_of_the_build_are_refused() {
         let l = ChannelLimits::new(Ticks(10), Ticks(20)).unwrap();
         let rate = TickRate::new(1_000_000).unwrap();
         let b = ThermalBucket::from_rating(Watts::new(0.5), Seconds::new(2.0), rate).unwrap();

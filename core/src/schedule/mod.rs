@@ -458,7 +458,7 @@ impl<const CHANNELS: usize, const QUEUE: usize> Scheduler<CHANNELS, QUEUE> {
             .extend(now)
             .ok_or(ScheduleError::TimeWentBackwards)?;
         self.clock.commit(now, t);
-        while let Some((slot, p)) = self.head() {
+        while let Some((slot, &p)) = self.head() {
             if p.next > t {
                 break;
             }
@@ -525,7 +525,7 @@ impl<const CHANNELS: usize, const QUEUE: usize> Scheduler<CHANNELS, QUEUE> {
         let mut running = None;
         let mut i = 0;
         while i < self.len as usize {
-            let Some((slot, p)) = self.queued(i) else {
+            let Some((slot, &p)) = self.queued(i) else {
                 break;
             };
             if p.channel as usize != ch {
@@ -613,13 +613,13 @@ impl<const CHANNELS: usize, const QUEUE: usize> Scheduler<CHANNELS, QUEUE> {
 
     /// The slot number at `order[i]` and its pulse; `None` only past the end of `order` (slot
     /// numbers in `order` are always below `QUEUE`).
-    fn queued(&self, i: usize) -> Option<(usize, Pulse)> {
+    fn queued(&self, i: usize) -> Option<(usize, &Pulse)> {
         let slot = usize::from(*self.order.get(i)?);
-        Some((slot, *self.slots.get(slot)?))
+        Some((slot, self.slots.get(slot)?))
     }
 
     /// The next edge's slot and pulse (`order[len − 1]`), `None` when the queue is empty.
-    fn head(&self) -> Option<(usize, Pulse)> {
+    fn head(&self) -> Option<(usize, &Pulse)> {
         self.queued(usize::from(self.len).checked_sub(1)?)
     }
 
@@ -628,22 +628,21 @@ impl<const CHANNELS: usize, const QUEUE: usize> Scheduler<CHANNELS, QUEUE> {
     /// that the queue has room.
     fn insert_sorted(&mut self, slot: u8) {
         let len = usize::from(self.len);
-        let Some(room) = self.order.get_mut(..=len) else {
+        if len >= self.order.len() {
             return;
-        };
-        sink(room, &self.slots, len, slot);
+        }
+        sink(&mut self.order, &self.slots, len, slot);
         self.len += 1;
     }
 
     /// Moves the head (`order[len − 1]`), whose `next` just grew, to its place: before (towards
     /// index 0) every slot that is due at or before it. In place, no block move.
     fn sift_head(&mut self) {
-        let len = usize::from(self.len);
-        let (Some(top), Some(queue)) = (len.checked_sub(1), self.order.get_mut(..len)) else {
+        let Some(top) = usize::from(self.len).checked_sub(1) else {
             return;
         };
-        if let Some(&slot) = queue.get(top) {
-            sink(queue, &self.slots, top, slot);
+        if let Some(&slot) = self.order.get(top) {
+            sink(&mut self.order, &self.slots, top, slot);
         }
     }
 
@@ -661,13 +660,14 @@ impl<const CHANNELS: usize, const QUEUE: usize> Scheduler<CHANNELS, QUEUE> {
 
 /// Writes `slot` into `order[at]` after moving it towards index 0 past every entry due at or
 /// before it (`order` sorted by `next` descending; `order[at]` is free to overwrite).
+#[inline(always)]
 fn sink(order: &mut [u8], slots: &[Pulse], at: usize, slot: u8) {
-    let next_of = |s: u8| slots.get(usize::from(s)).map_or(u64::MAX, |p| p.next);
-    let key = next_of(slot);
+    let key = slots.get(usize::from(slot)).map_or(0, |p| p.next);
     let mut i = at;
     while let Some(&prev) = i.checked_sub(1).and_then(|j| order.get(j)) {
-        if next_of(prev) > key {
-            break;
+        match slots.get(usize::from(prev)) {
+            Some(p) if p.next <= key => {}
+            _ => break,
         }
         if let Some(x) = order.get_mut(i) {
             *x = prev;
