@@ -101,8 +101,9 @@ pub fn expected() -> Option<Expected> {
     Expected::new(black_box(&d), &Conditions::default()).ok()
 }
 
-/// Two 80 ms pulses on one channel: the first starts now, the second waits for the safe minimum
-/// off-time after the first; polling gives the on and off edges at their ticks.
+/// Two 80 ms pulses on one channel: the first starts now; the second, asked while the first
+/// runs, is delayed (channel busy) to the first's end plus the safe minimum off-time; polling
+/// gives the on and off edges at their ticks.
 pub fn scheduler_round() -> bool {
     let Some(lim) = limits() else { return false };
     let Ok(mut s) = Scheduler::<1, 4>::new([lim], 1, Instant(0)) else {
