@@ -73,6 +73,8 @@ pub enum Param {
     Gain,
     /// A resistance not covered above (base resistor, load).
     Resistance,
+    /// The clamp type ([`crate::ClampKind`]) itself.
+    ClampType,
 }
 
 /// Why a parameter was rejected.
@@ -98,6 +100,9 @@ pub enum Why {
     BelowSupply,
     /// A must-release voltage at or above the must-operate voltage.
     ReleaseAboveOperate,
+    /// Supported by the crate but left out of this build: its cargo feature is off (a clamp type
+    /// whose `clamp-…` feature is not enabled, see [`crate::ClampKind::is_built`]).
+    FeatureDisabled,
 }
 
 /// Which modelling limit made an answer impossible.
@@ -192,6 +197,7 @@ impl fmt::Display for Param {
             Param::Voltage => "voltage",
             Param::Gain => "gain",
             Param::Resistance => "resistance",
+            Param::ClampType => "clamp type",
         };
         f.write_str(s)
     }
@@ -208,6 +214,7 @@ impl fmt::Display for Why {
             Why::BelowDiodeDrop => "must be above the clamp diode's forward drop",
             Why::BelowSupply => "must be above the supply voltage",
             Why::ReleaseAboveOperate => "must be below the must-operate voltage",
+            Why::FeatureDisabled => "is left out of this build (its cargo feature is off)",
         };
         f.write_str(s)
     }

@@ -13,7 +13,8 @@
 //! - [`demo`]: the scripted demo (faults, programme, expected outcomes, checker);
 //! - [`run`]: the demo's loop on the driver (commissioning, requests, service, events);
 //! - [`log`]: the designs, the commissioning and the driver's events in words;
-//! - [`fake`]: replaying hardware for the cost probes of the driver.
+//! - [`fake`]: replaying hardware for the cost probes of the driver;
+//! - [`minimal`]: the small firmwares `src/bin/min_*.rs` (core flash without the driver).
 //!
 //! The runtime itself (commissioning, scheduling, capture, diagnosis, isolation) is the
 //! `coilwise-driver` library; this crate is board + scenario + `main` on top of it.
@@ -24,16 +25,29 @@
 #![deny(missing_docs)]
 
 use cortex_m_rt::{exception, ExceptionFrame};
+// The critical-section implementation (single core) defmt needs, for binaries that use nothing
+// else of cortex-m.
+use cortex_m as _;
 use defmt_semihosting as _;
 
+#[cfg(feature = "full")]
 pub mod board;
+#[cfg(feature = "full")]
 pub mod demo;
+#[cfg(feature = "full")]
 pub mod fake;
+#[cfg(feature = "full")]
 pub mod log;
+#[cfg(feature = "full")]
 pub mod measure;
+pub mod minimal;
+#[cfg(feature = "full")]
 pub mod run;
+#[cfg(feature = "full")]
 pub use coilwise_rig::scenario;
+#[cfg(feature = "full")]
 pub mod store;
+#[cfg(feature = "full")]
 pub mod ticks;
 
 /// Exit statuses the firmware reports to the host (besides 0 = every check held).

@@ -115,3 +115,17 @@ fn bad_module_name_is_refused() {
     assert_eq!(o.status.code(), Some(1));
     assert!(stderr(&o).starts_with("error[usage]"));
 }
+
+/// The example firmware's minimal firmwares (firmware-example/src/minimal/) carry the constants
+/// of the example valve exactly as this tool emits them; this keeps that copy current.
+#[test]
+fn the_minimal_firmwares_copy_is_what_the_tool_emits() {
+    let emitted = snippet(&["constants", "examples/greenhouse-valve.toml"]);
+    let path = common::root().join("firmware-example/src/minimal/emitted.rs");
+    let copy = std::fs::read_to_string(&path).expect("the minimal firmwares' constants file");
+    assert_eq!(
+        copy, emitted,
+        "regenerate: cargo run -p coilwise-tool -- constants examples/greenhouse-valve.toml > {}",
+        "firmware-example/src/minimal/emitted.rs"
+    );
+}

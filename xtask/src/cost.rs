@@ -16,7 +16,14 @@
 //!   the `coilwise` crate, in the main firmware ELF (`arm-none-eabi-nm -S -C --size-sort`). Code of
 //!   the core that LTO inlined into a caller outside the crate is not counted;
 //! - `driver_flash_bytes`: the same for the `coilwise_driver` crate (the runtime library, its
-//!   generic code as instantiated for the QEMU board).
+//!   generic code as instantiated for the QEMU board);
+//! - `core_flash_min_bytes` / `core_flash_fit_bytes`: `coilwise` symbols as above in the minimal
+//!   firmwares `min_comparator` (tick constants + comparator verdict + scheduler) and `min_fit`
+//!   (the same plus the sample fit), built with their own features (firmware-example/src/minimal);
+//!   each must run under QEMU and exit 0 (its results checked) before it is counted;
+//! - `core_inlined_bytes`, `core_inlined_min_bytes`, `core_inlined_fit_bytes`: core code that
+//!   LTO inlined into other crates' functions in the same three ELFs, which the symbol sums miss
+//!   (DWARF line table, `arm-none-eabi-objdump --dwarf=decodedline`; see `inlined.rs`).
 
 use std::collections::BTreeMap;
 use std::fmt::Write as _;
@@ -188,12 +195,72 @@ fn measure(b: &Board) -> Result<Vec<Figure>, String> {
         unit: "bytes",
     });
     figs.push(Figure {
+        key: "core_inlined_bytes".into(),
+        what: "core code inlined into the driver's and firmware's functions (line table)".into(),
+        value: core_inlined(&elf_s, &nm)?,
+        unit: "bytes",
+    });
+    figs.push(Figure {
         key: "driver_flash_bytes".into(),
         what: "driver library flash as linked (coilwise_driver symbols, .text+.rodata)".into(),
         value: crate_symbol_bytes(&nm, "coilwise_driver"),
         unit: "bytes",
     });
+
+    firmware::build_minimal(b)?;
+    for (bin, key, inlined_key, what) in [
+        (
+            firmware::MIN_COMPARATOR_BIN,
+            "core_flash_min_bytes",
+            "core_inlined_min_bytes",
+            "minimal firmware: tick constants + comparator verdict + scheduler",
+        ),
+        (
+            firmware::MIN_FIT_BIN,
+            "core_flash_fit_bytes",
+            "core_inlined_fit_bytes",
+            "minimal firmware plus the sample fit",
+        ),
+    ] {
+        let r = firmware::run(b, bin, true)?;
+        if r.status != 0 {
+            return Err(format!(
+                "minimal firmware {bin} for {} exited with status {} — {}\n{}",
+                b.triple,
+                r.status,
+                firmware::describe_status(r.status),
+                r.log
+            ));
+        }
+        let elf = firmware::elf_path(b, bin).to_string_lossy().into_owned();
+        let nm = tool_output("arm-none-eabi-nm", &["-S", "-C", "--size-sort", &elf])?;
+        figs.push(Figure {
+            key: key.into(),
+            what: format!("core flash (coilwise symbols), {what}"),
+            value: crate_symbol_bytes(&nm, "coilwise"),
+            unit: "bytes",
+        });
+        figs.push(Figure {
+            key: inlined_key.into(),
+            what: format!("core code inlined into the firmware's functions, {what}"),
+            value: core_inlined(&elf, &nm)?,
+            unit: "bytes",
+        });
+    }
     Ok(figs)
+}
+
+/// Core code inlined into other crates' functions of `elf` (see `inlined.rs`); `nm` is its
+/// `nm -S -C` output. Paths are remapped at build time, so the core's files are
+/// `/coilwise/core/src/...` wherever the checkout is.
+fn core_inlined(elf: &str, nm: &str) -> Result<u64, String> {
+    let decoded = tool_output("arm-none-eabi-objdump", &["--dwarf=decodedline", elf])?;
+    Ok(crate::inlined::inlined_bytes(
+        &decoded,
+        nm,
+        "coilwise",
+        "/coilwise/core/src/",
+    ))
 }
 
 fn tool_output(program: &str, args: &[&str]) -> Result<String, String> {
@@ -456,6 +523,14 @@ How:
 - **Flash**: `arm-none-eabi-size -A` of the main firmware ELF; the core's share is the sum of the
   symbols of the `coilwise` crate in `arm-none-eabi-nm -S -C`, the driver library's the same for
   `coilwise_driver` (code that LTO inlined into callers outside the crate is not counted there).
+  `core_flash_min_bytes` and `core_flash_fit_bytes` are the same sum in the minimal firmwares
+  (`firmware-example/src/minimal/`: the tick constants the design tool emits, the comparator
+  verdict and the scheduler; then the sample fit as well), built with only the core features they
+  need (`--no-default-features --features minimal`); each runs and checks its results first.
+  Because fat LTO inlines much of the core into its callers, where its symbols vanish, the
+  `core_inlined_*` figures add what the DWARF line table attributes to `core/src/` inside other
+  crates' functions (the driver's, the firmware's; rows without a source line not counted):
+  symbols plus inlined is the core's whole share of the image.
 - **The driver's `service()`** (`driver_service_*`): one valve channel on replaying hardware
   (`firmware-example/src/fake.rs`: pins that do nothing, a sense that returns a precomputed
   healthy 64-sample rise), so the figures are the library's own work: a call with nothing due,
@@ -470,72 +545,5 @@ How:
 }
 
 #[cfg(test)]
-mod tests {
-    use super::*;
-
-    #[test]
-    fn parses_cost_lines_and_ignores_others() {
-        let log = "INFO  calibration: 26215 ticks per 1024 instructions\n\
-                   INFO  cost libm_expf_x1 insns 63 stack 16 | one expf\n\
-                   INFO  cost done\n";
-        let f = parse_cost_log(log).unwrap();
-        assert_eq!(f.len(), 2);
-        assert_eq!((f[0].key.as_str(), f[0].value), ("insns.libm_expf_x1", 63));
-        assert_eq!((f[1].key.as_str(), f[1].value), ("stack.libm_expf_x1", 16));
-        assert_eq!(f[0].what, "one expf: instructions");
-        assert!(parse_cost_log("INFO  nothing here\n").is_err());
-    }
-
-    #[test]
-    fn sums_flash_sections_from_size_output() {
-        // Layout of `arm-none-eabi-size -A` output (GNU binutils, "sysv" format).
-        let out = "ELF  :\nsection size addr\n.vector_table 1024 0\n.text 5000 1024\n\
-                   .rodata 300 6024\n.data 8 536870912\n.bss 40 536870920\n.defmt 12 0\n\
-                   Total 6384\n";
-        assert_eq!(flash_of_sections(out), 1024 + 5000 + 300 + 8);
-    }
-
-    #[test]
-    fn counts_only_the_crates_text_and_rodata_symbols() {
-        // Layout of `arm-none-eabi-nm -S -C` output: address, size (hex), type, name.
-        let nm = "00000100 00000010 T coilwise::design::DriverDesign::budget\n\
-                  00000200 00000020 t <coilwise::units::Volts as defmt::traits::Format>::format\n\
-                  00000300 00000040 T libm::math::expf::expf\n\
-                  20000000 00000004 b coilwise::SOME_STATIC\n\
-                  00000400 00000008 r coilwise::physics::TABLE\n\
-                  00000500 00000100 T <&T as coilwise_other::Thing>::f\n";
-        assert_eq!(crate_symbol_bytes(nm, "coilwise"), 0x10 + 0x20 + 0x08);
-    }
-
-    #[test]
-    fn budget_file_sections_and_errors() {
-        let t = "# c\n[m4f]\ninsns.a = 1_500 # x\n\"stack.a\" = 64\n[m4f.goals]\ninsns.a = 1000\n";
-        let l = parse_budget(t).unwrap();
-        assert_eq!(l["m4f"].budget["insns.a"], 1500);
-        assert_eq!(l["m4f"].budget["stack.a"], 64);
-        assert_eq!(l["m4f"].goal["insns.a"], 1000);
-        assert!(parse_budget("[nope]\na = 1\n").is_err());
-        assert!(parse_budget("a = 1\n").is_err());
-        assert!(parse_budget("[m0]\na = x\n").is_err());
-        assert!(parse_budget("[m0]\na = 1\na = 2\n").is_err());
-    }
-
-    #[test]
-    fn marked_number_and_thousands() {
-        assert_eq!(
-            parse_marked_number("INFO  stack high-water mark: ~576 bytes\n", "mark: ~"),
-            Some(576)
-        );
-        assert_eq!(parse_marked_number("INFO  x\n", "mark: ~"), None);
-        assert_eq!(
-            parse_marked_number(
-                "INFO  application stack above the hardware seam: ~2320 bytes (seam method \
-                 frames not included)\n",
-                "application stack above the hardware seam: ~"
-            ),
-            Some(2320)
-        );
-        assert_eq!(thousands(1234567), "1 234 567");
-        assert_eq!(thousands(999), "999");
-    }
-}
+#[path = "cost_tests.rs"]
+mod tests;

@@ -10,6 +10,22 @@ use crate::tools;
 pub const MAIN_BIN: &str = "coilwise-firmware-example";
 /// The cost measurement binary.
 pub const COST_BIN: &str = "cost";
+/// Minimal firmware (b): tick constants + comparator verdict + scheduler.
+pub const MIN_COMPARATOR_BIN: &str = "min_comparator";
+/// Minimal firmware (c): (b) plus the sample fit.
+pub const MIN_FIT_BIN: &str = "min_fit";
+
+/// Cargo feature arguments a firmware binary is built and run with: the minimal firmwares alone,
+/// without the demo's feature `full` (and so without the core features it asks for; cargo
+/// unifies features per package, not per binary).
+fn feature_args(bin: Option<&str>) -> &'static [&'static str] {
+    match bin {
+        Some(MIN_COMPARATOR_BIN | MIN_FIT_BIN) => {
+            &["--no-default-features", "--features", "minimal"]
+        }
+        _ => &[],
+    }
+}
 
 /// defmt-print line format used for every captured log: level and message, no timestamp and
 /// no source location, so that logs compare across builds.
@@ -73,13 +89,27 @@ fn firmware_cargo(args: &[&str]) -> Command {
     c
 }
 
-/// Builds every binary of the firmware for `board` in release mode.
+/// Builds every binary of the firmware for `board` in release mode (the demo's: main and cost).
 pub fn build(board: &Board) -> Result<(), String> {
+    build_with(board, None)
+}
+
+/// Builds the minimal firmwares for `board` in release mode, with their own features.
+pub fn build_minimal(board: &Board) -> Result<(), String> {
+    build_with(board, Some(MIN_COMPARATOR_BIN))
+}
+
+fn build_with(board: &Board, like: Option<&str>) -> Result<(), String> {
     eprintln!(
-        "xtask: building the firmware for {} ({}, QEMU {})",
-        board.triple, board.core, board.machine
+        "xtask: building the {}firmware for {} ({}, QEMU {})",
+        if like.is_some() { "minimal " } else { "" },
+        board.triple,
+        board.core,
+        board.machine
     );
-    let st = firmware_cargo(&["build", "--release", "--target", board.triple, "--bins"])
+    let mut args = vec!["build", "--release", "--target", board.triple, "--bins"];
+    args.extend_from_slice(feature_args(like));
+    let st = firmware_cargo(&args)
         .status()
         .map_err(|e| format!("could not start cargo: {e}"))?;
     if st.success() {
@@ -102,7 +132,7 @@ pub struct RunResult {
 /// shown; stderr (plain text from QEMU and the firmware) always goes to the terminal.
 pub fn run(board: &Board, bin: &str, capture: bool) -> Result<RunResult, String> {
     let decoder = tools::ensure_defmt_print()?;
-    let mut c = firmware_cargo(&[
+    let mut args = vec![
         "run",
         "--quiet",
         "--release",
@@ -110,7 +140,9 @@ pub fn run(board: &Board, bin: &str, capture: bool) -> Result<RunResult, String>
         board.triple,
         "--bin",
         bin,
-    ]);
+    ];
+    args.extend_from_slice(feature_args(Some(bin)));
+    let mut c = firmware_cargo(&args);
     c.env("COILWISE_LOG_FORMAT", LOG_FORMAT)
         .env("DEFMT_PRINT", &decoder);
     if capture {

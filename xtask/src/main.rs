@@ -15,6 +15,7 @@ mod boards;
 mod cost;
 mod firmware;
 mod golden;
+mod inlined;
 mod tools;
 
 use std::process::ExitCode;

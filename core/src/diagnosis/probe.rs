@@ -107,7 +107,9 @@ impl Probe {
             .enumerate()
             .take_while(|(k, _)| sampling.time_of(*k).value() <= end)
             .count();
-        judge_trace(&samples[..within], sampling, expected, criteria, options)
+        // `within` counts samples of `samples`, so the slice always exists.
+        let window = samples.get(..within).unwrap_or(samples);
+        judge_trace(window, sampling, expected, criteria, options)
     }
 }
 

@@ -439,6 +439,11 @@ pub(crate) mod tests {
 
     /// Invented demo circuit: a 24 V greenhouse valve, 180 Ω, low-side MOSFET, 0.5 Ω sense.
     pub(crate) fn valve(clamp: Clamp) -> Circuit {
+        try_valve(clamp).unwrap()
+    }
+
+    /// [`valve`] without the unwrap: the circuit's own validation result.
+    pub(crate) fn try_valve(clamp: Clamp) -> Result<Circuit, Error> {
         let coil = Coil::new(
             Ohms::new(180.0),
             Celsius::new(20.0),
@@ -459,7 +464,6 @@ pub(crate) mod tests {
             Ohms::new(0.4),
             clamp,
         )
-        .unwrap()
     }
 
     #[test]

@@ -81,6 +81,33 @@ pub enum ClampKind {
     RcSnubber,
 }
 
+impl ClampKind {
+    /// Whether this build supports the clamp type: its cargo feature is on (`clamp-diode`,
+    /// `clamp-diode-zener`, `clamp-diode-resistor`, `clamp-across-switch`, `clamp-unclamped`,
+    /// `clamp-tvs-across-coil`, `clamp-rc-snubber`; all of them by default). A compile-time
+    /// constant per kind.
+    pub const fn is_built(self) -> bool {
+        match self {
+            ClampKind::Diode => cfg!(feature = "clamp-diode"),
+            ClampKind::DiodeZener => cfg!(feature = "clamp-diode-zener"),
+            ClampKind::DiodeResistor => cfg!(feature = "clamp-diode-resistor"),
+            ClampKind::AcrossSwitch => cfg!(feature = "clamp-across-switch"),
+            ClampKind::Unclamped => cfg!(feature = "clamp-unclamped"),
+            ClampKind::TvsAcrossCoil => cfg!(feature = "clamp-tvs-across-coil"),
+            ClampKind::RcSnubber => cfg!(feature = "clamp-rc-snubber"),
+        }
+    }
+
+    /// `Ok` when [`ClampKind::is_built`], else the error every clamp of a left-out type gets.
+    pub(crate) const fn built(self) -> Result<(), Error> {
+        if self.is_built() {
+            Ok(())
+        } else {
+            Err(Error::invalid(Param::ClampType, Why::FeatureDisabled))
+        }
+    }
+}
+
 impl Clamp {
     /// A plain diode with forward drop `forward` (V, > 0).
     pub fn diode(forward: Volts) -> Result<Self, Error> {
@@ -131,7 +158,12 @@ impl Clamp {
     /// clamping voltage, resistors at most [`super::domain::MAX_RESISTANCE`]). Whether a clamp across the switch sits above the supply, and
     /// whether a TVS across the coil stays below its standoff while the switch is on, is checked at
     /// release, where the supply is known.
+    ///
+    /// # Errors
+    /// [`Why::FeatureDisabled`] on [`Param::ClampType`] when the clamp type's cargo feature is off
+    /// ([`ClampKind::is_built`]); otherwise the value errors above.
     pub fn validate(&self) -> Result<(), Error> {
+        self.kind().built()?;
         match *self {
             Clamp::Diode { forward } => {
                 clamp_voltage_in_range(forward, Param::DiodeDrop)?;
@@ -197,12 +229,77 @@ impl Clamp {
 #[cfg(test)]
 mod tests {
     use super::*;
-    use crate::physics::circuit::tests::valve;
+    use crate::physics::circuit::tests::{try_valve, valve};
     use crate::physics::circuit::OperatingPoint;
     use crate::units::{Amps, Celsius};
 
     fn op() -> OperatingPoint {
         OperatingPoint::new(Volts::new(24.0), Celsius::new(20.0))
+    }
+
+    /// One clamp of every type with values valid for the test valve, in [`ClampKind`] order,
+    /// built as literals (no validation on the way).
+    fn one_of_each() -> [Clamp; 7] {
+        [
+            Clamp::Diode {
+                forward: Volts::new(0.8),
+            },
+            Clamp::DiodeZener {
+                forward: Volts::new(0.8),
+                clamp_voltage: Volts::new(34.0),
+            },
+            Clamp::DiodeResistor {
+                forward: Volts::new(0.8),
+                resistance: Ohms::new(220.0),
+            },
+            Clamp::AcrossSwitch {
+                clamp_voltage: Volts::new(47.0),
+            },
+            Clamp::Unclamped,
+            Clamp::TvsAcrossCoil {
+                clamp_voltage: Volts::new(34.0),
+                standoff: Volts::new(26.0),
+            },
+            Clamp::RcSnubber {
+                resistance: Ohms::new(1000.0),
+                capacitance: Farads::from_micro(10.0),
+            },
+        ]
+    }
+
+    // Holds under every feature set (CI runs it with single clamp features too): a clamp type
+    // left out of the build is refused with one documented error wherever it enters, never
+    // computed with another type's formula (feature gating, common practice, no source).
+    #[test]
+    fn a_clamp_type_left_out_of_the_build_is_refused() {
+        let off = Err(Error::invalid(Param::ClampType, Why::FeatureDisabled));
+        let kinds = [
+            ClampKind::Diode,
+            ClampKind::DiodeZener,
+            ClampKind::DiodeResistor,
+            ClampKind::AcrossSwitch,
+            ClampKind::Unclamped,
+            ClampKind::TvsAcrossCoil,
+            ClampKind::RcSnubber,
+        ];
+        for (c, kind) in one_of_each().into_iter().zip(kinds) {
+            assert_eq!(c.kind(), kind);
+            let circuit = try_valve(c);
+            if kind.is_built() {
+                assert_eq!(c.validate(), Ok(()), "{kind:?}");
+                let rel = circuit.unwrap().release(&op(), Amps::new(0.1)).unwrap();
+                assert!(rel.time_to_zero().unwrap().value() > 0.0, "{kind:?}");
+                assert_eq!(rel.snubber().is_some(), kind == ClampKind::RcSnubber);
+            } else {
+                assert_eq!(c.validate(), off, "{kind:?}");
+                assert_eq!(circuit.map(|_| ()), off, "{kind:?}");
+            }
+        }
+        assert_eq!(
+            ClampKind::RcSnubber.is_built(),
+            cfg!(feature = "clamp-rc-snubber")
+        );
+        assert_eq!(ClampKind::Diode.is_built(), cfg!(feature = "clamp-diode"));
     }
 
     #[test]

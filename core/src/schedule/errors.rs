@@ -111,6 +111,9 @@ pub enum LimitsError {
     ZeroInrushCap,
     /// The driver design behind the limits could not be evaluated.
     Design(crate::Error),
+    /// A thermal bucket or heat rating, but the crate is built without its `thermal-budget`
+    /// feature.
+    FeatureDisabled,
 }
 
 impl fmt::Display for DelayReason {
@@ -181,6 +184,9 @@ impl fmt::Display for LimitsError {
             LimitsError::NotFiniteOrNegative => f.write_str("not a finite non-negative number"),
             LimitsError::ZeroInrushCap => f.write_str("inrush cap of zero"),
             LimitsError::Design(e) => write!(f, "design: {e}"),
+            LimitsError::FeatureDisabled => {
+                f.write_str("thermal budget left out of this build (feature `thermal-budget`)")
+            }
         }
     }
 }

@@ -74,12 +74,17 @@ pub(crate) fn earliest_start<const Q: usize>(
     run.unwrap_or_else(|| ends.last().copied().unwrap_or(from))
 }
 
+/// Insertion sort, ascending (a handful of entries: smaller than the library sort).
 fn sort<const Q: usize>(v: &mut Vec<u64, Q>) {
     for k in 1..v.len() {
-        let mut m = k;
-        while m > 0 && v[m - 1] > v[m] {
-            v.swap(m - 1, m);
-            m -= 1;
+        for m in (1..=k).rev() {
+            let Some([a, b]) = v.get_mut(m - 1..=m) else {
+                break;
+            };
+            if *a <= *b {
+                break;
+            }
+            core::mem::swap(a, b);
         }
     }
 }

@@ -156,6 +156,23 @@ pub struct ChannelLimits {
     coil_heat: Option<ThermalBucket>,
 }
 
+/// How many thermal buckets a channel can have: clamp and winding with feature
+/// `thermal-budget`, none without it.
+pub(crate) const BUCKETS: usize = if cfg!(feature = "thermal-budget") {
+    2
+} else {
+    0
+};
+
+/// `Ok` with feature `thermal-budget`, else [`LimitsError::FeatureDisabled`].
+const fn thermal_built() -> Result<(), LimitsError> {
+    if cfg!(feature = "thermal-budget") {
+        Ok(())
+    } else {
+        Err(LimitsError::FeatureDisabled)
+    }
+}
+
 impl ChannelLimits {
     /// A channel that must stay on at least `min_on` ticks and off at least `min_off` ticks (both
     /// ≥ 1, ≤ [`MAX_LIMIT`]); no maximum on-time, no inrush window, no hold phase, no thermal
@@ -196,13 +213,22 @@ impl ChannelLimits {
     }
 
     /// The same limits with a thermal bucket for the clamp.
+    ///
+    /// # Errors
+    /// [`LimitsError::FeatureDisabled`] without feature `thermal-budget`; as
+    /// [`ChannelLimits::new`] otherwise, and [`LimitsError::BucketTooSmall`].
     pub fn with_clamp_heat(mut self, bucket: ThermalBucket) -> Result<Self, LimitsError> {
+        thermal_built()?;
         self.clamp_heat = Some(bucket);
         self.validated()
     }
 
     /// The same limits with a thermal bucket for the winding.
+    ///
+    /// # Errors
+    /// As [`ChannelLimits::with_clamp_heat`].
     pub fn with_coil_heat(mut self, bucket: ThermalBucket) -> Result<Self, LimitsError> {
+        thermal_built()?;
         self.coil_heat = Some(bucket);
         self.validated()
     }
@@ -233,14 +259,17 @@ impl ChannelLimits {
                 return Err(LimitsError::HoldBeforeMinOn);
             }
         }
-        if let Some(b) = self.clamp_heat {
-            if !b.admits_min_pulse(self.min_on.0) {
-                return Err(LimitsError::BucketTooSmall);
+        // Without feature `thermal-budget` no bucket can be set: nothing to check or link.
+        if cfg!(feature = "thermal-budget") {
+            if let Some(b) = self.clamp_heat {
+                if !b.admits_min_pulse(self.min_on.0) {
+                    return Err(LimitsError::BucketTooSmall);
+                }
             }
-        }
-        if let Some(b) = self.coil_heat {
-            if !b.admits_min_pulse(self.min_on.0) {
-                return Err(LimitsError::BucketTooSmall);
+            if let Some(b) = self.coil_heat {
+                if !b.admits_min_pulse(self.min_on.0) {
+                    return Err(LimitsError::BucketTooSmall);
+                }
             }
         }
         Ok(self)
@@ -261,7 +290,8 @@ impl ChannelLimits {
     ///
     /// # Errors
     /// [`LimitsError::Design`] for a time constant that does not fit the ticks, any conversion out
-    /// of range, and every check of [`ChannelLimits::new`] and the `with_*` methods.
+    /// of range, and every check of [`ChannelLimits::new`] and the `with_*` methods;
+    /// [`LimitsError::FeatureDisabled`] for a heat rating without feature `thermal-budget`.
     pub fn from_budget(
         budget: &TimingBudget,
         rate: TickRate,
@@ -282,6 +312,9 @@ impl ChannelLimits {
         };
         if let Some(d) = hold_duty {
             limits = limits.with_hold(HoldPhase::new(min_on, d)?)?;
+        }
+        if heat.clamp.is_some() || heat.coil.is_some() {
+            thermal_built()?;
         }
         if let Some(r) = heat.clamp {
             let e = max_of(&|c| c.energy.clamp.value());
@@ -372,14 +405,44 @@ impl ChannelLimits {
     }
 
     /// The buckets in the scheduler's fixed order: clamp, winding.
-    pub(crate) const fn buckets(&self) -> [Option<ThermalBucket>; 2] {
-        [self.clamp_heat, self.coil_heat]
+    ///
+    /// Without feature `thermal-budget` an empty array (none can be set): the scheduler's loops
+    /// over the buckets then have no body to link.
+    pub(crate) const fn buckets(&self) -> [Option<ThermalBucket>; BUCKETS] {
+        #[cfg(feature = "thermal-budget")]
+        {
+            [self.clamp_heat, self.coil_heat]
+        }
+        #[cfg(not(feature = "thermal-budget"))]
+        {
+            []
+        }
     }
 }
 
 #[cfg(test)]
 mod tests {
     use super::*;
+
+    // Holds with and without feature `thermal-budget` (CI runs both): a bucket is kept and used
+    // with the feature, refused with the one documented error without it, never dropped
+    // silently (feature gating, common practice, no source).
+    #[test]
+    fn thermal_buckets_left_out_of_the_build_are_refused() {
+        let l = ChannelLimits::new(Ticks(10), Ticks(20)).unwrap();
+        let rate = TickRate::new(1_000_000).unwrap();
+        let b = ThermalBucket::from_rating(Watts::new(0.5), Seconds::new(2.0), rate).unwrap();
+        let (clamp, coil) = (l.with_clamp_heat(b), l.with_coil_heat(b));
+        if cfg!(feature = "thermal-budget") {
+            assert_eq!(clamp.map(|c| c.clamp_heat()), Ok(Some(b)));
+            assert_eq!(coil.map(|c| c.coil_heat()), Ok(Some(b)));
+            assert_eq!(clamp.map(|c| c.buckets().iter().flatten().count()), Ok(1));
+        } else {
+            assert_eq!(clamp, Err(LimitsError::FeatureDisabled));
+            assert_eq!(coil, Err(LimitsError::FeatureDisabled));
+            assert!(l.buckets().is_empty());
+        }
+    }
 
     #[test]
     fn limits_validate() {

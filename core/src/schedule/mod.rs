@@ -345,14 +345,14 @@ impl<const CHANNELS: usize, const QUEUE: usize> Scheduler<CHANNELS, QUEUE> {
         let (pull_in, held) = lim.phases(d);
         let buckets = lim.buckets();
         let mut plans = [None; 2];
-        for (k, b) in buckets.iter().enumerate() {
+        let (tail_heat, since) = match chan.tail {
+            Some(tail) => (tail.heat, tail.end),
+            None => ([0; 2], 0),
+        };
+        for ((b, planned), level) in buckets.iter().zip(plans.iter_mut()).zip(tail_heat) {
             let Some(b) = b else { continue };
             let plan = b.plan(pull_in, held, lim.min_on().0);
-            plans[k] = Some(plan);
-            let (level, since) = match chan.tail {
-                Some(tail) => (tail.heat[k], tail.end),
-                None => (0, 0),
-            };
+            *planned = Some(plan);
             let wait = b.earliest(level, &plan).ok_or(Refusal::ThermalBudget)?;
             let fits = since + wait;
             if fits > start {
@@ -365,8 +365,10 @@ impl<const CHANNELS: usize, const QUEUE: usize> Scheduler<CHANNELS, QUEUE> {
         let window = lim.inrush_window().0.min(d);
         if window > 0 && (self.inrush_cap as usize) < QUEUE {
             let mut open: heapless::Vec<(u64, u64), QUEUE> = heapless::Vec::new();
-            for &slot in &self.order[..self.len as usize] {
-                let p = &self.slots[slot as usize];
+            for &slot in self.order.iter().take(self.len as usize) {
+                let Some(p) = self.slots.get(usize::from(slot)) else {
+                    continue;
+                };
                 if p.window > 0 {
                     let _ = open.push((p.start, p.start + p.window as u64));
                 }
@@ -456,9 +458,7 @@ impl<const CHANNELS: usize, const QUEUE: usize> Scheduler<CHANNELS, QUEUE> {
             .extend(now)
             .ok_or(ScheduleError::TimeWentBackwards)?;
         self.clock.commit(now, t);
-        while self.len > 0 {
-            let slot = self.order[self.len as usize - 1] as usize;
-            let p = self.slots[slot];
+        while let Some((slot, &p)) = self.head() {
             if p.next > t {
                 break;
             }
@@ -468,18 +468,19 @@ impl<const CHANNELS: usize, const QUEUE: usize> Scheduler<CHANNELS, QUEUE> {
                     cause: WakeCause::OutputFull,
                 });
             }
-            let ch = p.channel as usize;
+            // Every queued pulse's channel was checked by `submit`.
+            let Some(chan) = self.channels.get_mut(p.channel as usize) else {
+                break;
+            };
             let action = match p.stage {
                 Stage::Queued => {
-                    self.channels[ch].started = Some(Tail {
+                    chan.started = Some(Tail {
                         end: p.end(),
                         heat: p.heat,
                     });
                     PinAction::On
                 }
-                Stage::PullIn if p.hold > 0 => PinAction::HoldStart {
-                    duty: self.channels[ch].duty,
-                },
+                Stage::PullIn if p.hold > 0 => PinAction::HoldStart { duty: chan.duty },
                 _ => PinAction::Off,
             };
             let _ = out.push(PinEvent {
@@ -493,8 +494,10 @@ impl<const CHANNELS: usize, const QUEUE: usize> Scheduler<CHANNELS, QUEUE> {
                 PinAction::HoldStart { .. } => (Stage::Held, p.end()),
                 PinAction::Off => (Stage::Free, 0),
             };
-            self.slots[slot].stage = stage;
-            self.slots[slot].next = next;
+            if let Some(q) = self.slots.get_mut(slot) {
+                q.stage = stage;
+                q.next = next;
+            }
             if stage == Stage::Free {
                 self.len -= 1;
             } else {
@@ -522,8 +525,9 @@ impl<const CHANNELS: usize, const QUEUE: usize> Scheduler<CHANNELS, QUEUE> {
         let mut running = None;
         let mut i = 0;
         while i < self.len as usize {
-            let slot = self.order[i] as usize;
-            let p = self.slots[slot];
+            let Some((slot, &p)) = self.queued(i) else {
+                break;
+            };
             if p.channel as usize != ch {
                 i += 1;
             } else if p.stage == Stage::Queued {
@@ -552,8 +556,10 @@ impl<const CHANNELS: usize, const QUEUE: usize> Scheduler<CHANNELS, QUEUE> {
             _ => off,
         };
         self.slots[slot] = p;
-        if let Some(pos) = self.order[..self.len as usize]
+        if let Some(pos) = self
+            .order
             .iter()
+            .take(self.len as usize)
             .position(|&s| s as usize == slot)
         {
             self.remove_at(pos);
@@ -598,47 +604,77 @@ impl<const CHANNELS: usize, const QUEUE: usize> Scheduler<CHANNELS, QUEUE> {
             };
         }
         // After a poll the head is in the future; after a submit it may be due already (`now`).
-        let next = self.slots[self.order[self.len as usize - 1] as usize].next;
+        let next = self.head().map_or(t, |(_, p)| p.next);
         Wake {
             at: self.clock.instant(next.max(t)),
             cause: WakeCause::Event,
         }
     }
 
+    /// The slot number at `order[i]` and its pulse; `None` only past the end of `order` (slot
+    /// numbers in `order` are always below `QUEUE`).
+    fn queued(&self, i: usize) -> Option<(usize, &Pulse)> {
+        let slot = usize::from(*self.order.get(i)?);
+        Some((slot, self.slots.get(slot)?))
+    }
+
+    /// The next edge's slot and pulse (`order[len − 1]`), `None` when the queue is empty.
+    fn head(&self) -> Option<(usize, &Pulse)> {
+        self.queued(usize::from(self.len).checked_sub(1)?)
+    }
+
     /// Inserts `slot` into `order` so that it comes out after every slot whose `next` is at or
-    /// before its own (descending order: after the prefix of later ones).
+    /// before its own (descending order: after the prefix of later ones). The caller has checked
+    /// that the queue has room.
     fn insert_sorted(&mut self, slot: u8) {
-        let key = self.slots[slot as usize].next;
-        let len = self.len as usize;
-        let mut i = 0;
-        while i < len && self.slots[self.order[i] as usize].next > key {
-            i += 1;
+        let len = usize::from(self.len);
+        if len >= self.order.len() {
+            return;
         }
-        self.order.copy_within(i..len, i + 1);
-        self.order[i] = slot;
+        sink(&mut self.order, &self.slots, len, slot);
         self.len += 1;
     }
 
     /// Moves the head (`order[len − 1]`), whose `next` just grew, to its place: before (towards
     /// index 0) every slot that is due at or before it. In place, no block move.
     fn sift_head(&mut self) {
-        let mut i = self.len as usize - 1;
-        let slot = self.order[i];
-        let key = self.slots[slot as usize].next;
-        while i > 0 {
-            let prev = self.order[i - 1];
-            if self.slots[prev as usize].next > key {
-                break;
-            }
-            self.order[i] = prev;
-            i -= 1;
+        let Some(top) = usize::from(self.len).checked_sub(1) else {
+            return;
+        };
+        if let Some(&slot) = self.order.get(top) {
+            sink(&mut self.order, &self.slots, top, slot);
         }
-        self.order[i] = slot;
     }
 
     fn remove_at(&mut self, i: usize) {
-        let len = self.len as usize;
-        self.order.copy_within(i + 1..len, i);
-        self.len -= 1;
+        let len = usize::from(self.len);
+        let Some(rest) = self.order.get_mut(i..len) else {
+            return;
+        };
+        if !rest.is_empty() {
+            rest.rotate_left(1);
+            self.len -= 1;
+        }
+    }
+}
+
+/// Writes `slot` into `order[at]` after moving it towards index 0 past every entry due at or
+/// before it (`order` sorted by `next` descending; `order[at]` is free to overwrite).
+#[inline(always)]
+fn sink(order: &mut [u8], slots: &[Pulse], at: usize, slot: u8) {
+    let key = slots.get(usize::from(slot)).map_or(0, |p| p.next);
+    let mut i = at;
+    while let Some(&prev) = i.checked_sub(1).and_then(|j| order.get(j)) {
+        match slots.get(usize::from(prev)) {
+            Some(p) if p.next <= key => {}
+            _ => break,
+        }
+        if let Some(x) = order.get_mut(i) {
+            *x = prev;
+        }
+        i -= 1;
+    }
+    if let Some(x) = order.get_mut(i) {
+        *x = slot;
     }
 }

@@ -236,9 +236,10 @@ fn model_at(f: &Fit3, m: usize, k: f32) -> f32 {
 /// Mean shortfall of `window[..skip]` below the model `f` fitted on `window[skip..]`, counts, and
 /// that over its noise standard error `noise/√skip`.
 fn head<S: Sample>(window: &[S], skip: usize, f: &Fit3, zero: f32, noise: f32) -> (f32, f32) {
-    let m = window.len() - skip;
+    let (early, fitted) = window.split_at_checked(skip).unwrap_or((window, &[]));
+    let m = fitted.len();
     let mut sum = 0.0f32;
-    for (k, v) in window[..skip].iter().enumerate() {
+    for (k, v) in early.iter().enumerate() {
         let at = k as f32 - skip as f32;
         sum += model_at(f, m, at) - (v.to_f32() - zero);
     }
@@ -316,7 +317,8 @@ pub fn fit_response<S: Sample>(
         }
         other => other?,
     };
-    let window = &trace[..sv.used];
+    // The survey counts `used` among the trace's own samples, so the slice always exists.
+    let window = trace.get(..sv.used).unwrap_or(trace);
     let zero = sampling.zero();
     let apc = sampling.amps_per_count();
     let k0 = shifted.first().value() / period;
@@ -350,9 +352,11 @@ pub fn fit_response<S: Sample>(
     let passes = options.refinements.saturating_add(1);
     let m_all = window.len();
     let mut lambda_start = lambda0;
-    let mut kept: Option<(usize, Fit3, f32)> = None;
+    let mut kept: Option<(usize, &[S], Fit3, f32)> = None;
     for skip in [0, m_all / 4, m_all / 2] {
-        let win = &window[skip..];
+        let Some(win) = window.get(skip..) else {
+            break;
+        };
         if win.len() < 2 * MIN_SAMPLES && skip > 0 {
             break;
         }
@@ -368,19 +372,18 @@ pub fn fit_response<S: Sample>(
         }
         let better = match &kept {
             None => true,
-            Some((_, _, r)) => ratio < *r,
+            Some((_, _, _, r)) => ratio < *r,
         };
         if better {
-            kept = Some((skip, f, ratio));
+            kept = Some((skip, win, f, ratio));
         }
         if ratio <= HEAD_RATIO {
             break;
         }
     }
-    let Some((skip, f, ratio)) = kept else {
+    let Some((skip, win, f, ratio)) = kept else {
         return Err(TraceFault::NoConvergence);
     };
-    let win = &window[skip..];
     let m = win.len();
     let mf = m as f32;
     let durbin_watson = if ratio > HEAD_RATIO {

@@ -212,7 +212,8 @@ pub fn fit_rise<S: Sample>(
     options: &FitOptions,
 ) -> Result<RiseFit, TraceFault> {
     let sv = survey(samples, sampling)?;
-    let window = &samples[..sv.used];
+    // The survey counts `used` among the trace's own samples, so the slice always exists.
+    let window = samples.get(..sv.used).unwrap_or(samples);
     let n = sv.used as f32;
     let apc = sampling.amps_per_count();
     let period = sampling.period().value();
