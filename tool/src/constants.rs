@@ -19,12 +19,134 @@ fn micro(x: f64) -> Result<u32, ToolError> {
     Ok(v as u32)
 }
 
-/// Emits the snippet. `module`, when given, wraps it in `pub mod NAME { … }`.
+/// The fields of `coilwise::diagnosis::BandFigures`, in order: name, unit, meaning.
+const BAND_FIELDS: [(&str, &str, &str); 15] = [
+    (
+        "final_current_a",
+        "[f32; 2]",
+        "Final current in measured terms, A (min, max).",
+    ),
+    (
+        "tau_s",
+        "[f32; 2]",
+        "Time constant with the armature released, s (min, max).",
+    ),
+    (
+        "slope_a_per_s",
+        "[f32; 2]",
+        "Initial slope, A/s (min, max).",
+    ),
+    (
+        "loop_ohms",
+        "[f32; 2]",
+        "On-loop resistance, ohm (min, max).",
+    ),
+    (
+        "inductance_h",
+        "[f32; 2]",
+        "Inductance with the armature released, H (min, max).",
+    ),
+    (
+        "sensed_drive_v",
+        "[f32; 2]",
+        "Drive voltage as the current reading scales it, V (min, max).",
+    ),
+    (
+        "movement_by_s",
+        "f32",
+        "Latest time to armature movement, s (negative: some corner never pulls in).",
+    ),
+    (
+        "pull_in_reading_a",
+        "f32",
+        "Pull-in current in measured terms at the high sense corner, A.",
+    ),
+    (
+        "operate_allowance_s",
+        "f32",
+        "Mechanical operate allowance, s.",
+    ),
+    (
+        "external_ohms",
+        "f32",
+        "On-loop resistance outside the winding, ohm.",
+    ),
+    (
+        "coil_ohms",
+        "f32",
+        "Winding resistance at the reference temperature, ohm.",
+    ),
+    (
+        "coil_reference_celsius",
+        "f32",
+        "Reference temperature, degC.",
+    ),
+    (
+        "coil_alpha_per_kelvin",
+        "f32",
+        "Temperature coefficient of the winding, 1/K.",
+    ),
+    (
+        "coil_inductance_h",
+        "[f32; 2]",
+        "Inductance released, operated, H.",
+    ),
+    (
+        "coil_must_volts",
+        "[f32; 2]",
+        "Must-operate, must-release voltage at the reference temperature, V.",
+    ),
+];
+
+/// The healthy bands of the verdicts as `HEALTHY_BANDS`: the core's f32 figures printed so that
+/// they read back exactly, with the field names of `coilwise::diagnosis::BandFigures`.
+fn healthy_bands(b: &mut String, f: &coilwise::diagnosis::BandFigures) {
+    let pair = |v: [f32; 2]| format!("[{:?}, {:?}]", v[0], v[1]);
+    let one = |v: f32| format!("{v:?}");
+    let values = [
+        pair(f.final_current_a),
+        pair(f.tau_s),
+        pair(f.slope_a_per_s),
+        pair(f.loop_ohms),
+        pair(f.inductance_h),
+        pair(f.sensed_drive_v),
+        one(f.movement_by_s),
+        one(f.pull_in_reading_a),
+        one(f.operate_allowance_s),
+        one(f.external_ohms),
+        one(f.coil_ohms),
+        one(f.coil_reference_celsius),
+        one(f.coil_alpha_per_kelvin),
+        pair(f.coil_inductance_h),
+        pair(f.coil_must_volts),
+    ];
+    let _ = writeln!(
+        b,
+        "\n/// Healthy bands of the rise verdicts over the design's supply and temperature ranges: the\n/// core's f32 figures, printed to read back exactly. Field for field\n/// `coilwise::diagnosis::BandFigures`, for `Expected::from_figures` (no design physics on the\n/// device)."
+    );
+    let _ = writeln!(b, "#[derive(Clone, Copy, Debug, PartialEq)]");
+    let _ = writeln!(b, "pub struct HealthyBands {{");
+    for (name, ty, doc) in BAND_FIELDS {
+        let _ = writeln!(b, "    /// {doc}");
+        let _ = writeln!(b, "    pub {name}: {ty},");
+    }
+    let _ = writeln!(b, "}}");
+    let _ = writeln!(b, "\n/// The healthy bands of this design.");
+    let _ = writeln!(b, "pub const HEALTHY_BANDS: HealthyBands = HealthyBands {{");
+    for ((name, _, _), v) in BAND_FIELDS.iter().zip(values) {
+        let _ = writeln!(b, "    {name}: {v},");
+    }
+    let _ = writeln!(b, "}};");
+}
+
+/// Emits the snippet. `module`, when given, wraps it in `pub mod NAME { … }`; `healthy` adds
+/// the verdicts' healthy bands as f32 figures (`HEALTHY_BANDS`), for a firmware that judges
+/// rises without computing its design (everything else is integer).
 ///
 /// # Errors
 /// A design whose coil never pulls in at the pull-in corner (firmware must not rely on it), a
 /// module name that is not a lower-case Rust identifier or is a keyword, or a value that does not fit a `u32`.
-pub fn render(a: &Analysis<'_>, module: Option<&str>) -> Result<String, ToolError> {
+pub fn render(a: &Analysis<'_>, module: Option<&str>, healthy: bool) -> Result<String, ToolError> {
     let spec = a.spec;
     let (Some(min_on), Some(pull_in)) = (a.ticks.min_on, a.ticks.pull_in) else {
         return Err(spec.inputs.error(
@@ -195,6 +317,15 @@ pub fn render(a: &Analysis<'_>, module: Option<&str>) -> Result<String, ToolErro
             "u32",
             grouped(p.length.0 as u64),
         );
+    }
+    if healthy {
+        let e = a.expected.as_ref().map_err(|e| {
+            ToolError::new(
+                ErrorClass::Impossible,
+                format!("the healthy bands cannot be computed for this design: {e}"),
+            )
+        })?;
+        healthy_bands(&mut b, &e.figures());
     }
     let _ = writeln!(
         b,

@@ -82,6 +82,10 @@ enum Command {
         /// Timer tick rate, e.g. "32768 Hz" (overrides timing.tick_rate).
         #[arg(long, value_name = "RATE", allow_hyphen_values = true)]
         tick_rate: Option<String>,
+        /// Add the verdicts' healthy bands as f32 figures (`HEALTHY_BANDS`, for the core's
+        /// `Expected::from_figures`): rise verdicts without the design computed on the device.
+        #[arg(long)]
+        healthy_bands: bool,
     },
     /// List every key of the design file with its unit and meaning.
     Keys,
@@ -173,13 +177,14 @@ fn run(cli: Cli) -> Result<ExitCode, ToolError> {
             output,
             module,
             tick_rate,
+            healthy_bands,
         } => {
             let mut set = design.set;
             if let Some(r) = tick_rate {
                 set.push(format!("timing.tick_rate={r}"));
             }
             analysed(&design.design, &set, |_, a| {
-                let text = constants::render(a, module.as_deref())?;
+                let text = constants::render(a, module.as_deref(), healthy_bands)?;
                 emit(output.as_deref(), &design.design, &text)
             })?
         }

@@ -62,6 +62,59 @@ fn constants_compile_without_std_or_float() {
     }
 }
 
+/// The healthy bands, when asked for, are the core's own f32 figures: they compile with the rest
+/// and read back to exactly the bands `Expected::new` computes for the design (reference: the
+/// core itself, through `Expected::figures`; f32 `{:?}` printing round-trips by definition of
+/// Rust's shortest representation).
+#[test]
+fn healthy_bands_read_back_exactly() {
+    for design in [
+        "examples/greenhouse-valve.toml",
+        "examples/greenhouse-pump-relay.toml",
+    ] {
+        let s = snippet(&["constants", design, "--healthy-bands"]);
+        compile(&format!("#![no_std]\n{s}\n{CHECKS}"));
+        let spec = coilwise_tool::load(design_path(design).as_str(), &[]).unwrap();
+        let a = coilwise_tool::analysis::Analysis::new(&spec).unwrap();
+        let f = a.expected.as_ref().unwrap().figures();
+        let body = s
+            .split("pub const HEALTHY_BANDS: HealthyBands = HealthyBands {")
+            .nth(1)
+            .and_then(|r| r.split("};").next())
+            .expect("HEALTHY_BANDS in the output");
+        let numbers: Vec<f32> = body
+            .split(|c: char| !(c.is_ascii_digit() || c == '.' || c == '-' || c == 'e'))
+            .filter(|w| !w.is_empty() && w.chars().any(|c| c.is_ascii_digit()))
+            .map(|w| w.parse().unwrap())
+            .collect();
+        let want = [
+            f.final_current_a.as_slice(),
+            &f.tau_s,
+            &f.slope_a_per_s,
+            &f.loop_ohms,
+            &f.inductance_h,
+            &f.sensed_drive_v,
+            &[f.movement_by_s],
+            &[f.pull_in_reading_a],
+            &[f.operate_allowance_s],
+            &[f.external_ohms],
+            &[f.coil_ohms],
+            &[f.coil_reference_celsius],
+            &[f.coil_alpha_per_kelvin],
+            &f.coil_inductance_h,
+            &f.coil_must_volts,
+        ]
+        .concat();
+        assert_eq!(numbers, want, "{design}");
+        let back = coilwise::diagnosis::Expected::from_figures(&f).unwrap();
+        assert_eq!(&back, a.expected.as_ref().unwrap());
+    }
+}
+
+fn design_path(design: &str) -> String {
+    common::root().join(design).display().to_string()
+}
+
 #[test]
 fn tick_counts_round_the_report_times_up() {
     let json = snippet(&["report", "examples/greenhouse-pump-relay.toml", "--json"]);
@@ -120,7 +173,11 @@ fn bad_module_name_is_refused() {
 /// of the example valve exactly as this tool emits them; this keeps that copy current.
 #[test]
 fn the_minimal_firmwares_copy_is_what_the_tool_emits() {
-    let emitted = snippet(&["constants", "examples/greenhouse-valve.toml"]);
+    let emitted = snippet(&[
+        "constants",
+        "examples/greenhouse-valve.toml",
+        "--healthy-bands",
+    ]);
     let path = common::root().join("firmware-example/src/minimal/emitted.rs");
     let copy = std::fs::read_to_string(&path).expect("the minimal firmwares' constants file");
     assert_eq!(

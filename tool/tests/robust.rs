@@ -85,7 +85,7 @@ fn extreme_values_never_panic_or_print_nan() {
                     assert!(v[key].is_number(), "{set:?}: {key} = {}", v[key]);
                     assert!(v["worst"][key].is_number(), "{set:?}: worst {key}");
                 }
-                let _ = constants::render(&a, None);
+                let _ = constants::render(&a, None, true);
                 if let Ok(c) = plot::cycle(&a, Corner::Release, None) {
                     for t in &c.traces {
                         assert!(

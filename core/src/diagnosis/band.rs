@@ -197,9 +197,9 @@ pub struct Expected {
     pub supply_measured: bool,
     /// Whether the measured supply (if any) lies below the design's minimum.
     pub supply_below_design: bool,
-    coil: Coil,
-    external: f32,
-    drive_mid: f32,
+    pub(super) coil: Coil,
+    pub(super) external: f32,
+    pub(super) drive_mid: f32,
 }
 
 /// The design with its supply and temperature ranges replaced by what the conditions say, so that
@@ -312,9 +312,14 @@ impl Expected {
             supply_below_design: d.supply.max().value() < design.supply.min().value(),
             coil: *c.coil(),
             external: c.wiring().value() + nominal_sense + switch_r,
-            // Halves first: the sum of two drives near f32::MAX overflows.
-            drive_mid: 0.5 * drive.min + 0.5 * drive.max,
+            drive_mid: Self::mid_drive(drive),
         })
+    }
+
+    /// The mid-band sensed drive of a drive band, V (halves first: the sum of two drives near
+    /// f32::MAX overflows).
+    pub(super) fn mid_drive(drive: Span<f32>) -> f32 {
+        0.5 * drive.min + 0.5 * drive.max
     }
 
     /// The coil of the design (nominal values), for temperature estimates.

@@ -1,6 +1,7 @@
 //! On-device coil diagnosis from the measured current rise.
 //!
 //! - [`band`]: the bands a healthy coil stays in, over the tolerance corners;
+//! - [`figures`]: the bands as stored figures, rebuilt without the design on the device;
 //! - [`baseline`]: a coil's learned signature, its byte record, and verdicts against it;
 //! - [`sample`]: sampled traces, their scale, a fixed buffer;
 //! - [`fit`]: the one-pass + refined estimate of slope, τ and I∞ from samples;
@@ -15,6 +16,7 @@
 pub mod armature;
 pub mod band;
 pub mod baseline;
+pub mod figures;
 pub mod fit;
 pub mod probe;
 pub mod sample;
@@ -23,6 +25,7 @@ pub mod verdict;
 pub use armature::{detect_movement, Movement, MovementCriteria};
 pub use band::{Conditions, Expected, Span, SupplyReading, ThresholdBand};
 pub use baseline::{judge_baseline, Baseline, LearnError, Learning, RecordError};
+pub use figures::BandFigures;
 pub use fit::{
     fit_response, fit_rise, FitOptions, FitQuality, ResponseFit, RiseFit, Shape, TraceFault,
 };

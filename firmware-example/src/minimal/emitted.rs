@@ -39,6 +39,63 @@ pub const FINAL_CURRENT_MAX_UA: u32 = 211_011;
 /// Longest diagnostic pulse that keeps the current below 50 % of pull-in at every corner, ticks (rounded down).
 pub const PROBE_TICKS: u32 = 571;
 
+/// Healthy bands of the rise verdicts over the design's supply and temperature ranges: the
+/// core's f32 figures, printed to read back exactly. Field for field
+/// `coilwise::diagnosis::BandFigures`, for `Expected::from_figures` (no design physics on the
+/// device).
+#[derive(Clone, Copy, Debug, PartialEq)]
+pub struct HealthyBands {
+    /// Final current in measured terms, A (min, max).
+    pub final_current_a: [f32; 2],
+    /// Time constant with the armature released, s (min, max).
+    pub tau_s: [f32; 2],
+    /// Initial slope, A/s (min, max).
+    pub slope_a_per_s: [f32; 2],
+    /// On-loop resistance, ohm (min, max).
+    pub loop_ohms: [f32; 2],
+    /// Inductance with the armature released, H (min, max).
+    pub inductance_h: [f32; 2],
+    /// Drive voltage as the current reading scales it, V (min, max).
+    pub sensed_drive_v: [f32; 2],
+    /// Latest time to armature movement, s (negative: some corner never pulls in).
+    pub movement_by_s: f32,
+    /// Pull-in current in measured terms at the high sense corner, A.
+    pub pull_in_reading_a: f32,
+    /// Mechanical operate allowance, s.
+    pub operate_allowance_s: f32,
+    /// On-loop resistance outside the winding, ohm.
+    pub external_ohms: f32,
+    /// Winding resistance at the reference temperature, ohm.
+    pub coil_ohms: f32,
+    /// Reference temperature, degC.
+    pub coil_reference_celsius: f32,
+    /// Temperature coefficient of the winding, 1/K.
+    pub coil_alpha_per_kelvin: f32,
+    /// Inductance released, operated, H.
+    pub coil_inductance_h: [f32; 2],
+    /// Must-operate, must-release voltage at the reference temperature, V.
+    pub coil_must_volts: [f32; 2],
+}
+
+/// The healthy bands of this design.
+pub const HEALTHY_BANDS: HealthyBands = HealthyBands {
+    final_current_a: [0.09905593, 0.21101004],
+    tau_s: [0.001378029, 0.0031855032],
+    slope_a_per_s: [53.127953, 89.626884],
+    loop_ohms: [126.35365, 215.88806],
+    inductance_h: [0.2975, 0.40249997],
+    sensed_drive_v: [21.384, 26.664],
+    movement_by_s: 0.019284245,
+    pull_in_reading_a: 0.0909,
+    operate_allowance_s: 0.015,
+    external_ohms: 0.95,
+    coil_ohms: 160.0,
+    coil_reference_celsius: 20.0,
+    coil_alpha_per_kelvin: 0.00393,
+    coil_inductance_h: [0.35, 0.52],
+    coil_must_volts: [14.4, 2.4],
+};
+
 /// Expected time from switch-on for the coil current to reach a threshold, over all
 /// tolerance corners (earliest rounded down, latest rounded up). Outside the band: fault.
 #[derive(Clone, Copy, Debug, PartialEq, Eq)]

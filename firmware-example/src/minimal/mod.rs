@@ -6,69 +6,27 @@
 //! - Timing: the tick constants the design tool emits ([`emitted`], generated from
 //!   `examples/greenhouse-valve.toml`) become the scheduler's [`ChannelLimits`] and the
 //!   comparator's [`ThresholdBand`] — no physics on the device for either.
-//! - The verdicts need an [`Expected`] (the design's healthy bands). The core builds it only from
-//!   the design ([`Expected::new`], the 32 tolerance corners), so these firmwares carry the
-//!   valve's design and compute it once at start-up: that is the physics they still link.
+//! - The verdicts need an [`Expected`] (the design's healthy bands): the tool emits them too
+//!   (`--healthy-bands`, [`emitted::HEALTHY_BANDS`]) and [`Expected::from_figures`] rebuilds them
+//!   at start-up with a few comparisons. No design and no physics on the device.
 //!
 //! Every value is invented for the demo (the greenhouse zone valve of the example design file).
 
 use coilwise::diagnosis::verdict::{judge_threshold, judge_trace};
 use coilwise::diagnosis::{
-    Conditions, Criteria, Expected, Finding, FitOptions, Sampling, Span, ThresholdBand,
+    BandFigures, Criteria, Expected, Finding, FitOptions, Sampling, Span, ThresholdBand,
     ThresholdReading,
 };
 use coilwise::schedule::{
     Admission, ChannelId, ChannelLimits, DelayReason, EdgeBuffer, PinAction, Request, Scheduler,
 };
-use coilwise::{
-    Amps, Celsius, Circuit, Clamp, Coil, DriverDesign, Error, Henries, Instant, Ohms, Seconds,
-    SupplyRange, Switch, TemperatureRange, TickRate, Ticks, Tolerances, Topology, Volts,
-};
+use coilwise::{Amps, Instant, Seconds, Ticks};
 use core::hint::black_box;
 
 /// The valve's firmware constants exactly as `cargo run -p coilwise-tool -- constants
-/// examples/greenhouse-valve.toml` prints them (regenerate, do not edit).
+/// examples/greenhouse-valve.toml --healthy-bands` prints them (regenerate, do not edit).
 #[rustfmt::skip]
 pub mod emitted;
-
-/// The valve of `examples/greenhouse-valve.toml` (invented values), as the device knows it: only
-/// what [`Expected::new`] needs (coil, switch, sense and wiring, ranges, tolerances). Its clamp
-/// plays no part in the bands.
-pub fn valve() -> Result<DriverDesign, Error> {
-    let coil = Coil::new(
-        Ohms::new(160.0),
-        Celsius::new(20.0),
-        Henries::new(0.35),
-        Henries::new(0.52),
-        Volts::new(14.4),
-        Volts::new(2.4),
-    )?;
-    let circuit = Circuit::new(
-        coil,
-        Switch::Mosfet {
-            on_resistance: Ohms::new(0.05),
-            breakdown: Volts::new(60.0),
-        },
-        Topology::LowSide,
-        Ohms::new(0.5),
-        Ohms::new(0.4),
-        Clamp::diode_zener(Volts::new(0.8), Volts::new(18.8))?,
-    )?;
-    let mut d = DriverDesign::new(
-        circuit,
-        SupplyRange::new(Volts::new(21.6), Volts::new(24.0), Volts::new(26.4))?,
-        TemperatureRange::new(Celsius::new(-20.0), Celsius::new(85.0))?,
-        TickRate::new(emitted::TICK_HZ)?,
-    );
-    d.tolerances = Tolerances {
-        resistance: 0.07,
-        inductance: 0.15,
-        sense: 0.01,
-    };
-    d.operate_allowance = Seconds::from_millis(15.0);
-    d.release_allowance = Seconds::from_millis(20.0);
-    Ok(d)
-}
 
 /// Seconds of `ticks` at the emitted tick rate.
 fn seconds(ticks: u32) -> Seconds {
@@ -95,10 +53,27 @@ pub fn limits() -> Option<ChannelLimits> {
         .ok()
 }
 
-/// The bands of the valve at start-up (the one piece of physics these firmwares run).
+/// The healthy bands of the valve, from the emitted figures (field for field).
 pub fn expected() -> Option<Expected> {
-    let d = valve().ok()?;
-    Expected::new(black_box(&d), &Conditions::default()).ok()
+    let h = black_box(emitted::HEALTHY_BANDS);
+    Expected::from_figures(&BandFigures {
+        final_current_a: h.final_current_a,
+        tau_s: h.tau_s,
+        slope_a_per_s: h.slope_a_per_s,
+        loop_ohms: h.loop_ohms,
+        inductance_h: h.inductance_h,
+        sensed_drive_v: h.sensed_drive_v,
+        movement_by_s: h.movement_by_s,
+        pull_in_reading_a: h.pull_in_reading_a,
+        operate_allowance_s: h.operate_allowance_s,
+        external_ohms: h.external_ohms,
+        coil_ohms: h.coil_ohms,
+        coil_reference_celsius: h.coil_reference_celsius,
+        coil_alpha_per_kelvin: h.coil_alpha_per_kelvin,
+        coil_inductance_h: h.coil_inductance_h,
+        coil_must_volts: h.coil_must_volts,
+    })
+    .ok()
 }
 
 /// Two 80 ms pulses on one channel: the first starts now; the second, asked while the first

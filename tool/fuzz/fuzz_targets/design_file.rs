@@ -56,7 +56,7 @@ fuzz_target!(|data: &[u8]| {
     };
     assert!(!report::render_report(&a).is_empty());
     assert!(!json::render(&a).is_empty());
-    match constants::render(&a, Some("coil")) {
+    match constants::render(&a, Some("coil"), true) {
         Ok(c) => assert!(c.contains("pub const TICK_HZ")),
         Err(e) => located(&e, Some(&text)),
     }
