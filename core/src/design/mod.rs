@@ -18,14 +18,16 @@
 //! first-order clamp).
 
 use crate::error::Error;
-use crate::physics::circuit::{Circuit, OperatingPoint, SupplyRange, TemperatureRange, Tolerances};
+use crate::physics::circuit::{
+    Circuit, OperatingPoint, Resolved, SupplyRange, TemperatureRange, Tolerances,
+};
 use crate::physics::clamp::{EnergySplit, Release};
 use crate::physics::coil::Armature;
 use crate::physics::hold::Hold;
-use crate::physics::off_time::{off_time_from_parts, OffTime, OffTimeNeeds};
+use crate::physics::off_time::{off_time_from_parts, OffTime, OffTimeLimit, OffTimeNeeds};
 use crate::physics::repetition::{clamp_average_power, max_repetition_rate};
 use crate::time::{TickRate, Ticks};
-use crate::units::{Amps, Hertz, Seconds, Volts, Watts};
+use crate::units::{Amps, Hertz, Joules, Seconds, Volts, Watts};
 
 /// A complete driver design: the circuit, the ranges it must work over, and the firmware's timer.
 #[derive(Clone, Copy, Debug, PartialEq)]
@@ -171,47 +173,62 @@ impl DriverDesign {
 
     /// [`DriverDesign::figures`] of a design already validated (the budget validates once).
     fn figures_of_valid(&self, op: &OperatingPoint) -> Result<Figures, Error> {
+        let mut f = Figures::UNSET;
+        self.figures_into(op, &mut f)?;
+        Ok(f)
+    }
+
+    /// [`DriverDesign::figures_of_valid`] written into `out` (every field; left partly written on
+    /// an error). Out of line and in place, so that the budget's three figures are built where
+    /// they end up instead of in temporaries moved up through the callers (stack).
+    #[inline(never)]
+    fn figures_into(&self, op: &OperatingPoint, out: &mut Figures) -> Result<(), Error> {
         let c = &self.circuit;
         let resolved = c.resolve(op)?;
+        out.point = *op;
         let rise = c.energize_resolved(&resolved, Armature::Released, Amps::new(0.0))?;
         let final_current = Amps::new(rise.asymptote());
-        let pull_in_time = match rise.time_to(c.coil().pull_in_current().value()) {
+        out.final_current = final_current;
+        out.tau_on = rise.tau();
+        out.pull_in_time = match rise.time_to(c.coil().pull_in_current().value()) {
             Ok(t) => Some(t),
             Err(Error::Unreachable { .. }) => None,
             Err(e) => return Err(e),
         };
-        let release = c.release_resolved(&resolved, final_current)?;
-        let (release_time, time_to_zero, energy, off_time) = self.release_figures(&release)?;
-        let clamp_power = match self.duty {
+        out.pull_in_margin =
+            crate::physics::circuit::pull_in_margin_of(final_current, c.coil().pull_in_current())?;
+        self.release_into(&resolved, final_current, out)
+    }
+
+    /// The release half of [`DriverDesign::figures_into`]: the release from `i0` at `resolved`
+    /// and every figure of it, written into `out` (a frame of its own; the release is used
+    /// where it was returned, not moved).
+    #[inline(never)]
+    fn release_into(&self, resolved: &Resolved, i0: Amps, out: &mut Figures) -> Result<(), Error> {
+        let made = self.circuit.release_resolved(resolved, i0);
+        let release = match &made {
+            Ok(r) => r,
+            Err(e) => return Err(*e),
+        };
+        let (release_time, time_to_zero, energy, off_time) = self.release_figures(release)?;
+        out.clamp_power = match self.duty {
             Some((_, f)) => Some(clamp_average_power(energy.clamp, f)?),
             None => None,
         };
-        let max_repetition = match self.clamp_rating {
+        out.max_repetition = match self.clamp_rating {
             Some(p) => max_repetition_rate(energy.clamp, p)?,
             None => None,
         };
-        Ok(Figures {
-            point: *op,
-            final_current,
-            tau_on: rise.tau(),
-            pull_in_time,
-            pull_in_margin: crate::physics::circuit::pull_in_margin_of(
-                final_current,
-                c.coil().pull_in_current(),
-            )?,
-            tau_off: release.tau(),
-            release_time,
-            time_to_zero,
-            energy,
-            peak_switch_voltage: release.peak_switch_voltage(),
-            switch_headroom: Volts::new(
-                c.switch().breakdown().value() - release.peak_switch_voltage().value(),
-            ),
-            peak_node_voltage: release.peak_node_voltage(),
-            clamp_power,
-            max_repetition,
-            off_time,
-        })
+        out.tau_off = release.tau();
+        out.release_time = release_time;
+        out.time_to_zero = time_to_zero;
+        out.energy = energy;
+        let peak = release.peak_switch_voltage();
+        out.peak_switch_voltage = peak;
+        out.switch_headroom = Volts::new(self.circuit.switch().breakdown().value() - peak.value());
+        out.peak_node_voltage = release.peak_node_voltage();
+        out.off_time = off_time;
+        Ok(())
     }
 
     /// Release to drop-out, time to zero, energy split and safe off-time of one release, with
@@ -278,7 +295,7 @@ impl DriverDesign {
     /// As [`DriverDesign::budget`].
     pub fn tick_budget(&self) -> Result<TickBudget, Error> {
         if self.circuit.clamp().kind() == crate::physics::clamp::ClampKind::RcSnubber {
-            return self.budget().map(|b| b.ticks);
+            return self.snubber_ticks();
         }
         self.validate()?;
         let c = &self.circuit;
@@ -295,6 +312,15 @@ impl DriverDesign {
             clamp_average_power(energy.clamp, f)?;
         }
         Ok(self.ticks_from(t_pull, off.required, release_time)?.1)
+    }
+
+    /// [`DriverDesign::tick_budget`] of an RC snubber: the full budget's ticks (out of line, so
+    /// that the budget sits on the stack only on this path).
+    #[inline(never)]
+    fn snubber_ticks(&self) -> Result<TickBudget, Error> {
+        let mut b = TimingBudget::UNSET;
+        self.budget_into(&mut b)?;
+        Ok(b.ticks)
     }
 
     /// Longest off-time and release time over all corners (the RC snubber's times are not
@@ -373,22 +399,60 @@ impl DriverDesign {
     /// rely on such a design); [`Error::TickOverflow`] when a time does not fit the timer; any
     /// invalid input.
     pub fn budget(&self) -> Result<TimingBudget, Error> {
+        let mut r = Err(Error::TickOverflow);
+        self.budget_result(&mut r);
+        r
+    }
+
+    /// [`DriverDesign::budget`] written over `r`.
+    #[inline(never)]
+    fn budget_result(&self, r: &mut Result<TimingBudget, Error>) {
+        *r = Ok(TimingBudget::UNSET);
+        if let Ok(b) = r {
+            if let Err(e) = self.budget_into(b) {
+                *r = Err(e);
+            }
+        }
+    }
+
+    /// [`DriverDesign::budget`] written into `out` (left partly written on an error): the three
+    /// figures are built in place, not returned by value through the callers (stack).
+    #[inline(never)]
+    pub(crate) fn budget_into(&self, out: &mut TimingBudget) -> Result<(), Error> {
+        let t = self.budget_core(out)?;
+        out.min_on_time = t.min_on;
+        out.min_off_time = t.min_off;
+        out.release_time = t.release_time;
+        out.ticks = t.ticks;
+        Ok(())
+    }
+
+    /// The budget's computation: the figures at the nominal point, the pull-in corner and the
+    /// release corner (in that order) written into the slots `slots` hands out, and the times
+    /// and ticks drawn from them. A caller that needs the figures only one at a time (channel
+    /// limits) hands out one slot three times and reads it in between.
+    pub(crate) fn budget_core(&self, slots: &mut impl FigureSlots) -> Result<BudgetTimes, Error> {
         self.validate()?;
-        let nominal = self.figures_of_valid(&self.nominal_point())?;
-        let pull_in = self.figures_of_valid(&self.pull_in_corner())?;
-        let release = self.figures_of_valid(&self.release_corner())?;
-        let Some(t_pull) = pull_in.pull_in_time else {
+        let f = slots.slot(0);
+        self.figures_into(&self.nominal_point(), f)?;
+        let nominal_off = f.off_time.required;
+        let f = slots.slot(1);
+        self.figures_into(&self.pull_in_corner(), f)?;
+        let (pull_in_time, pull_in_final) = (f.pull_in_time, f.final_current);
+        let f = slots.slot(2);
+        self.figures_into(&self.release_corner(), f)?;
+        let (release_off, mut release_time) = (f.off_time.required, f.release_time);
+        let Some(t_pull) = pull_in_time else {
             return Err(Error::Unreachable {
                 target: self.circuit.coil().pull_in_current().value(),
-                asymptote: pull_in.final_current.value(),
+                asymptote: pull_in_final.value(),
             });
         };
-        let mut min_off = if release.off_time.required >= nominal.off_time.required {
-            release.off_time.required
+        let mut min_off = if release_off >= nominal_off {
+            release_off
         } else {
-            nominal.off_time.required
+            nominal_off
         };
-        let mut release_time = release.release_time;
         if self.circuit.clamp().kind() == crate::physics::clamp::ClampKind::RcSnubber {
             let (off, rel) = self.slowest_corner_times()?;
             if off > min_off {
@@ -399,16 +463,38 @@ impl DriverDesign {
             }
         }
         let (min_on, ticks) = self.ticks_from(t_pull, min_off, release_time)?;
-        Ok(TimingBudget {
-            nominal,
-            pull_in_corner: pull_in,
-            release_corner: release,
-            min_on_time: min_on,
-            min_off_time: min_off,
+        Ok(BudgetTimes {
+            min_on,
+            min_off,
             release_time,
             ticks,
         })
     }
+}
+
+/// Where [`DriverDesign::budget_core`] writes the figures of point `0` (nominal), `1` (pull-in
+/// corner) and `2` (release corner).
+pub(crate) trait FigureSlots {
+    /// The slot for point `point`'s figures (called once per point, in order).
+    fn slot(&mut self, point: usize) -> &mut Figures;
+}
+
+impl FigureSlots for TimingBudget {
+    fn slot(&mut self, point: usize) -> &mut Figures {
+        match point {
+            0 => &mut self.nominal,
+            1 => &mut self.pull_in_corner,
+            _ => &mut self.release_corner,
+        }
+    }
+}
+
+/// The times and ticks of a budget, without its figures.
+pub(crate) struct BudgetTimes {
+    pub(crate) min_on: Seconds,
+    pub(crate) min_off: Seconds,
+    pub(crate) release_time: Seconds,
+    pub(crate) ticks: TickBudget,
 }
 
 /// Every timing, energy and stress figure at one operating point.
@@ -448,6 +534,39 @@ pub struct Figures {
     pub off_time: OffTime,
 }
 
+impl Figures {
+    /// A placeholder whose every field the budget overwrites (in-place construction).
+    pub(crate) const UNSET: Figures = Figures {
+        point: OperatingPoint::new(Volts::new(0.0), crate::units::Celsius::new(0.0)),
+        final_current: Amps::new(0.0),
+        tau_on: Seconds::new(0.0),
+        pull_in_time: None,
+        pull_in_margin: 0.0,
+        tau_off: Seconds::new(0.0),
+        release_time: Seconds::new(0.0),
+        time_to_zero: Seconds::new(0.0),
+        energy: EnergySplit {
+            stored: Joules::new(0.0),
+            clamp: Joules::new(0.0),
+            winding: Joules::new(0.0),
+            supply: Joules::new(0.0),
+            capacitor: Joules::new(0.0),
+        },
+        peak_switch_voltage: Volts::new(0.0),
+        switch_headroom: Volts::new(0.0),
+        peak_node_voltage: Volts::new(0.0),
+        clamp_power: None,
+        max_repetition: None,
+        off_time: OffTime {
+            release: Seconds::new(0.0),
+            residual: Seconds::new(0.0),
+            thermal: Seconds::new(0.0),
+            required: Seconds::new(0.0),
+            limit: OffTimeLimit::Release,
+        },
+    };
+}
+
 /// Number of corners of the tolerance box searched by [`DriverDesign::corner`]: 2⁵ (supply,
 /// temperature, resistance, inductance, sense).
 pub const CORNER_COUNT: u32 = 32;
@@ -485,6 +604,24 @@ pub struct TimingBudget {
     pub release_time: Seconds,
     /// The same in ticks.
     pub ticks: TickBudget,
+}
+
+impl TimingBudget {
+    /// A placeholder whose every field [`DriverDesign::budget_into`] overwrites.
+    pub(crate) const UNSET: TimingBudget = TimingBudget {
+        nominal: Figures::UNSET,
+        pull_in_corner: Figures::UNSET,
+        release_corner: Figures::UNSET,
+        min_on_time: Seconds::new(0.0),
+        min_off_time: Seconds::new(0.0),
+        release_time: Seconds::new(0.0),
+        ticks: TickBudget {
+            min_on: Ticks(0),
+            min_off: Ticks(0),
+            pull_in: Ticks(0),
+            release: Ticks(0),
+        },
+    };
 }
 
 #[cfg(test)]
