@@ -85,7 +85,8 @@ impl FirstOrder {
 
     /// Time at which the response first reaches `target`:
     /// `t = τ·ln(1 + (f(0) − f_target)/(f_target − f∞))` (the `ln_1p` form keeps precision for
-    /// short times).
+    /// short times; within one f32 ulp of the exact logarithm, in integer arithmetic for the
+    /// usual ratios, see `physics::ln`).
     ///
     /// A target on the far side of f(0) (already passed) gives 0 s. A target at or beyond f∞ is
     /// never reached: [`Error::Unreachable`].
@@ -113,7 +114,7 @@ impl FirstOrder {
         }
         // Both differences have the same sign here, so the ratio is > 0.
         let ratio = (self.initial - target) / (target - self.asymptote);
-        result(self.tau * libm::log1pf(ratio)).map(Seconds::new)
+        result(self.tau * super::ln::ln_1p(ratio)).map(Seconds::new)
     }
 
     /// Area under the response from 0 to `t`: `∫f dt = f∞·t + (f(0) − f∞)·τ·(1 − e^(−t/τ))`

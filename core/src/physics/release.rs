@@ -385,7 +385,7 @@ impl Release {
 /// `(x − ln(1 + x), ln(1 + x) − x + x²/2, ln(1 + x))` for x ≥ 0 from one `log1p`; the first two
 /// by a series below 0.25, where the direct forms cancel.
 fn log_tails(x: f32) -> (f32, f32, f32) {
-    let l = libm::log1pf(x);
+    let l = super::ln::ln_1p(x);
     if x < 0.25 {
         (alternating_log_tail(x, 2), -alternating_log_tail(x, 3), l)
     } else {
