@@ -172,6 +172,13 @@ fn first_life(
     learned: &mut [u8; CHANNELS],
 ) -> Option<bool> {
     let mut owned = driver(configs, state, hardware(board), board)?;
+    // Everything built from reset up to here (designs, channel configurations with their limits
+    // and bands, the board, the design log, the driver) has run on the stack painted at entry;
+    // commissioning, next, is the first call that reaches the hardware.
+    defmt::info!(
+        "start-up stack, reset to the driver built: ~{=u32} bytes",
+        fw::measure::stack_peak_bytes()
+    );
     let drv = &mut owned;
     arm_monitor(board, drv);
     defmt::info!(

@@ -8,6 +8,9 @@
 //! - `stack_app_bytes`: the main firmware's `application stack above the hardware seam: ~<bytes>`
 //!   line: initial stack pointer minus the lowest stack pointer seen on entry to a board seam
 //!   method (the application's depth without the simulated plant; seam frames not included);
+//! - `stack_startup_bytes`: the main firmware's `start-up stack, reset to the driver built: ~<bytes>`
+//!   line: the high-water mark of the stack painted at entry, read once the driver is built and
+//!   before commissioning first reaches the hardware (the start-up chain's depth);
 //! - `stack_peak_bytes`: the main firmware's own high-water mark line
 //!   (`stack high-water mark: ~<bytes> bytes`), whole run;
 //! - `firmware_flash_bytes`: `.vector_table + .text + .rodata + .data` of the main firmware ELF
@@ -160,6 +163,15 @@ fn measure(b: &Board) -> Result<Vec<Figure>, String> {
         key: "stack_app_bytes".into(),
         what: "stack of the application above the hardware seam (deepest seam call)".into(),
         value: app,
+        unit: "bytes",
+    });
+    let startup = parse_marked_number(&main.log, "start-up stack, reset to the driver built: ~")
+        .ok_or("the firmware log has no `start-up stack, reset to the driver built: ~N` line")?;
+    figs.push(Figure {
+        key: "stack_startup_bytes".into(),
+        what: "stack of the start-up chain, reset to the driver built (designs, configurations, driver)"
+            .into(),
+        value: startup,
         unit: "bytes",
     });
     let peak = parse_marked_number(&main.log, "stack high-water mark: ~")
@@ -448,6 +460,12 @@ How:
   board (add its driver's depth), and stack the application uses only between seam calls without
   calling the board (start-up construction from the designs, a fit, logging); the per-call
   `stack.*` figures cover the core's share of those.
+- **Stack of the start-up chain** (`stack_startup_bytes`): the main firmware's high-water mark
+  of the stack painted at entry, read once its driver is built: the depth of everything it
+  builds from reset before its loop (the designs, the channel configurations with their limits
+  and bands, the board, the design log, `Driver::new`). Commissioning, which follows, is the
+  first call into the hardware; its depth above the seam is in `stack_app_bytes`, and on
+  replaying hardware in `driver_new_commission`.
 - **Stack high-water mark** (`stack_peak_bytes`): the main firmware paints free RAM at entry and
   reports the lowest overwritten word at the end of its run. This is the whole run: start-up
   construction, the application, and the simulated coil plant of the QEMU board (an f64
