@@ -210,30 +210,43 @@ impl DriverDesign {
             Ok(r) => r,
             Err(e) => return Err(*e),
         };
-        let (release_time, time_to_zero, energy, off_time) = self.release_figures(release)?;
+        // The steps of `release_figures`, in its order, each written into `out` as it comes
+        // (no tuple of them on the stack).
+        out.release_time = release.time_to_current(self.circuit.coil().drop_out_current())?;
+        let (time_to_zero, energy) = release.zero_time_and_energy()?;
+        out.time_to_zero = time_to_zero;
+        out.energy = energy;
+        let residual = if self.residual_current.value().to_bits() & 0x7FFF_FFFF == 0 {
+            time_to_zero
+        } else {
+            release.settle_time(self.residual_current)?
+        };
+        out.off_time = off_time_from_parts(
+            out.release_time,
+            residual,
+            out.energy.clamp,
+            &self.off_time_needs(),
+        )?;
         out.clamp_power = match self.duty {
-            Some((_, f)) => Some(clamp_average_power(energy.clamp, f)?),
+            Some((_, f)) => Some(clamp_average_power(out.energy.clamp, f)?),
             None => None,
         };
         out.max_repetition = match self.clamp_rating {
-            Some(p) => max_repetition_rate(energy.clamp, p)?,
+            Some(p) => max_repetition_rate(out.energy.clamp, p)?,
             None => None,
         };
         out.tau_off = release.tau();
-        out.release_time = release_time;
-        out.time_to_zero = time_to_zero;
-        out.energy = energy;
         let peak = release.peak_switch_voltage();
         out.peak_switch_voltage = peak;
         out.switch_headroom = Volts::new(self.circuit.switch().breakdown().value() - peak.value());
         out.peak_node_voltage = release.peak_node_voltage();
-        out.off_time = off_time;
         Ok(())
     }
 
     /// Release to drop-out, time to zero, energy split and safe off-time of one release, with
-    /// time to zero and energy sharing one `log1p` (the budget's hot path). Inlined into its two
-    /// callers so its tuple result costs no stack of its own (the M0 tick budget grew by 72 B).
+    /// time to zero and energy sharing one `log1p` (the tick budget's hot path; the budget's
+    /// `release_into` takes the same steps in the same order, writing each into its figures).
+    /// Inlined so its tuple result costs no stack of its own (the M0 tick budget grew by 72 B).
     #[inline(always)]
     fn release_figures(
         &self,
@@ -241,7 +254,7 @@ impl DriverDesign {
     ) -> Result<(Seconds, Seconds, EnergySplit, OffTime), Error> {
         let release_time = release.time_to_current(self.circuit.coil().drop_out_current())?;
         let (time_to_zero, energy) = release.zero_time_and_energy()?;
-        let residual = if self.residual_current.value() == 0.0 {
+        let residual = if self.residual_current.value().to_bits() & 0x7FFF_FFFF == 0 {
             time_to_zero
         } else {
             release.settle_time(self.residual_current)?
@@ -303,9 +316,12 @@ impl DriverDesign {
             .energize(&self.pull_in_corner(), Armature::Released, Amps::new(0.0))?
             .time_to(c.coil().pull_in_current().value())?;
         let resolved = c.resolve(&self.release_corner())?;
-        let i0 = Amps::new(resolved.drive.value() / resolved.on_loop.value());
-        let release = c.release_resolved(&resolved, i0)?;
-        let (release_time, _, energy, off) = self.release_figures(&release)?;
+        let made = c.release_resolved(&resolved, resolved.final_current);
+        let release = match &made {
+            Ok(r) => r,
+            Err(e) => return Err(*e),
+        };
+        let (release_time, _, energy, off) = self.release_figures(release)?;
         // The budget's clamp power at the planned rate: refused here when it overflows there
         // (the release corner carries the largest clamp energy of the budget's three points).
         if let Some((_, f)) = self.duty {

@@ -148,33 +148,51 @@ pub(crate) fn ln_1p_int(x: f32) -> f32 {
     let k = 31 - lz as i32 - shift; // y = (m/2³¹)·2^k
     let j = ((m >> 26) & 31) as usize;
     // r = m·c_j − 1, Q63 → Q37; |r| < 2⁻⁶, so it fits an i32.
-    let prod = u64::from(m) * u64::from(RECIP[j]);
+    let prod = wide_mul(m, RECIP[j]);
     let r = ((prod.wrapping_sub(1 << 63) as i64) >> 26) as i32;
-    let mul = |t: i64| (i64::from(r) * t) >> 37; // r·t, t and the result Q30
+    let mul = |t: i64| signed_wide_mul(r, t as i32) >> 37; // r·t, t and the result Q30
     let mut t = FIFTH_Q30;
     t = QUARTER_Q30 - mul(t);
     t = THIRD_Q30 - mul(t);
     t = HALF_Q30 - mul(t);
     t = ONE_Q30 - mul(t);
-    let ln_1p_r = (i64::from(r) * t) >> 30; // Q37
-    let sum = i64::from(k) * LN2_Q37 + (i64::from(LN_RECIP[j]) << 5) + ln_1p_r;
+    let ln_1p_r = signed_wide_mul(r, t as i32) >> 30; // Q37
+                                                      // k·ln 2 with k = 0…24 from two 32-bit halves of LN2_Q37 (no 64×64 multiply).
+    let k = k as u32;
+    let k_ln2 = ((u64::from(k * (LN2_Q37 >> 32) as u32)) << 32) + wide_mul(k, LN2_Q37 as u32);
+    let sum = k_ln2 as i64 + (i64::from(LN_RECIP[j]) << 5) + ln_1p_r;
     q37_to_f32(sum as u64)
 }
 
-/// `v·2⁻³⁷` rounded to the nearest f32, ties to even, for 2²⁵ ≤ v < 2⁶³ (the sums above lie in
-/// 2³⁰…2⁴²).
-fn q37_to_f32(v: u64) -> f32 {
-    let len = 64 - v.leading_zeros(); // bit length, 26…63
-    let drop = len - 24;
-    let mut m = (v >> drop) as u32;
-    let rest = v & ((1u64 << drop) - 1);
-    let half = 1u64 << (drop - 1);
-    if rest > half || (rest == half && m & 1 == 1) {
-        m += 1;
+/// `a·b` exact in 64 bits from four 16×16-bit products: a Cortex-M0 multiplies 32×32→32 only,
+/// and the compiler's 64×64 multiply routine costs about twice as much.
+#[inline]
+const fn wide_mul(a: u32, b: u32) -> u64 {
+    let (a0, a1) = (a & 0xFFFF, a >> 16);
+    let (b0, b1) = (b & 0xFFFF, b >> 16);
+    let low = a0 * b0;
+    let (mid, carry) = (a0 * b1).overflowing_add(a1 * b0);
+    let high = a1 * b1 + ((carry as u32) << 16) + (mid >> 16);
+    let (low, c2) = low.overflowing_add(mid << 16);
+    (((high + c2 as u32) as u64) << 32) | low as u64
+}
+
+/// `a·b` exact in 64 bits, signed ([`wide_mul`] of the magnitudes).
+#[inline]
+const fn signed_wide_mul(a: i32, b: i32) -> i64 {
+    let p = wide_mul(a.unsigned_abs(), b.unsigned_abs()) as i64;
+    if (a < 0) != (b < 0) {
+        -p
+    } else {
+        p
     }
-    // m·2^(drop − 37); a carry to 2²⁴ moves into the exponent by itself below.
-    let exp = (drop as i32 - 37 + 23 + 127) as u32;
-    f32::from_bits((exp << 23) + (m - 0x0080_0000))
+}
+
+/// `v·2⁻³⁷` rounded to the nearest f32, ties to even, for 2²⁵ ≤ v < 2⁶⁴ (the sums above lie in
+/// 2³⁰…2⁴²): the integer conversion rounds, the scaling by a power of two is exact (the result
+/// stays a normal float), done on the exponent bits.
+fn q37_to_f32(v: u64) -> f32 {
+    f32::from_bits((v as f32).to_bits() - (37 << 23))
 }
 
 #[cfg(test)]
@@ -243,6 +261,32 @@ mod tests {
         // The integer path is for Arm cores without an FPU; test builds on the host use libm.
         for x in [0.02f32, 0.7, 3.0, 1234.5] {
             assert_eq!(ln_1p(x).to_bits(), libm::log1pf(x).to_bits());
+        }
+    }
+
+    #[test]
+    fn wide_products_are_exact() {
+        for (a, b) in [
+            (0u32, 0u32),
+            (u32::MAX, u32::MAX),
+            (0xFFFF_0000, 0x0001_FFFF),
+            (0x8000_0000, 0xFC0F_C0FC),
+            (123_456_789, 987_654_321),
+            (0x0000_FFFF, 0xFFFF_0000),
+        ] {
+            assert_eq!(wide_mul(a, b), u64::from(a) * u64::from(b), "{a} {b}");
+        }
+        for (a, b) in [
+            (-1i32, 1i32),
+            (i32::MIN + 1, i32::MAX),
+            (-5, -7),
+            (1 << 30, -(1 << 30)),
+        ] {
+            assert_eq!(
+                signed_wide_mul(a, b),
+                i64::from(a) * i64::from(b),
+                "{a} {b}"
+            );
         }
     }
 
