@@ -224,7 +224,7 @@ where
         inrush_cap: u8,
     ) -> Result<Self, SetupError> {
         state.sched = None;
-        state.events = EventQueue::new();
+        state.events.reset();
         state.group_low = [false; N];
         state.phase = Phase::NotStarted;
         state.probe = None;
