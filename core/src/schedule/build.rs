@@ -107,15 +107,16 @@ impl<const CHANNELS: usize, const QUEUE: usize> Scheduler<CHANNELS, QUEUE> {
         self.clock = Clock::new(now);
     }
 
-    /// Storage [`Scheduler::new_in`] overwrites before use (limits of one tick each, cap 1; never
-    /// handed out as it is).
+    /// Storage [`Scheduler::new_in`] and [`Scheduler::new`] overwrite entirely before use (never
+    /// handed out as it is). All zero, so that writing it is a memory fill, not a copy of a
+    /// scheduler-sized constant from flash.
     const BLANK: Self = Self {
         limits: [ChannelLimits::BLANK; CHANNELS],
         channels: [Channel::IDLE; CHANNELS],
         slots: [Pulse::FREE; QUEUE],
         order: [0; QUEUE],
         len: 0,
-        inrush_cap: 1,
+        inrush_cap: 0,
         clock: Clock::new(Instant(0)),
     };
 }

@@ -157,11 +157,11 @@ pub struct ChannelLimits {
 }
 
 impl ChannelLimits {
-    /// One tick on, one tick off, nothing else: placeholder storage that
-    /// [`super::Scheduler::new_in`] overwrites.
+    /// All zero (not valid limits): placeholder storage that [`super::Scheduler::new_in`]
+    /// overwrites before use.
     pub(crate) const BLANK: ChannelLimits = ChannelLimits {
-        min_on: Ticks(1),
-        min_off: Ticks(1),
+        min_on: Ticks(0),
+        min_off: Ticks(0),
         max_on: None,
         inrush_window: Ticks(0),
         hold: None,
@@ -289,7 +289,9 @@ impl ChannelLimits {
         Self::from_summary(&BudgetSummary::of(budget), rate, heat, hold_duty)
     }
 
-    /// [`ChannelLimits::from_budget`] from the few budget figures it uses.
+    /// [`ChannelLimits::from_budget`] from the few budget figures it uses (out of line: its
+    /// bucket arithmetic does not sit below the budget in `from_design`).
+    #[inline(never)]
     fn from_summary(
         s: &BudgetSummary,
         rate: TickRate,
