@@ -146,7 +146,7 @@ where
     /// Arms the rise capture and switches channel `i` on.
     fn switch_on(&mut self, now: Instant, i: usize) -> Result<(), ErrorKind> {
         let c = &self.st.chans[i];
-        let capture = match (self.configs[i].diagnosis, c.setup) {
+        let capture = match (self.configs[i].diagnosis.as_ref(), c.setup) {
             (Some(d), Some(s)) => Some((d.rise_period, s.trip_counts)),
             _ => None,
         };
