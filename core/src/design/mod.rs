@@ -184,10 +184,20 @@ impl DriverDesign {
     }
 
     /// [`DriverDesign::figures_of_valid`] written into `out` (every field; left partly written on
-    /// an error). Out of line and in place, so that the budget's three figures are built where
-    /// they end up instead of in temporaries moved up through the callers (stack).
-    #[inline(never)]
+    /// an error), in place, so that the budget's three figures are built where they end up
+    /// instead of in temporaries moved up through the callers (stack). The rise half and the
+    /// release half each have a frame of their own, one after the other: only the resolved
+    /// point is carried from one to the other.
+    #[inline(always)]
     fn figures_into(&self, op: &OperatingPoint, out: &mut Figures) -> Result<(), Error> {
+        let resolved = self.rise_into(op, out)?;
+        self.release_into(&resolved, out.final_current, out)
+    }
+
+    /// The rise half of [`DriverDesign::figures_into`]: the point resolved, and the rise's
+    /// figures written into `out`; returns the resolved point.
+    #[inline(never)]
+    fn rise_into(&self, op: &OperatingPoint, out: &mut Figures) -> Result<Resolved, Error> {
         let c = &self.circuit;
         let resolved = c.resolve(op)?;
         out.point = *op;
@@ -202,7 +212,7 @@ impl DriverDesign {
         };
         out.pull_in_margin =
             crate::physics::circuit::pull_in_margin_of(final_current, c.coil().pull_in_current())?;
-        self.release_into(&resolved, final_current, out)
+        Ok(resolved)
     }
 
     /// The release half of [`DriverDesign::figures_into`]: the release from `i0` at `resolved`
@@ -437,8 +447,9 @@ impl DriverDesign {
     }
 
     /// [`DriverDesign::budget`] written into `out` (left partly written on an error): the three
-    /// figures are built in place, not returned by value through the callers (stack).
-    #[inline(never)]
+    /// figures are built in place, not returned by value through the callers (stack). Inlined
+    /// into its two out-of-line callers (one frame less below them).
+    #[inline(always)]
     pub(crate) fn budget_into(&self, out: &mut TimingBudget) -> Result<(), Error> {
         let t = self.budget_core(out)?;
         out.min_on_time = t.min_on;
@@ -452,6 +463,7 @@ impl DriverDesign {
     /// release corner (in that order) written into the slots `slots` hands out, and the times
     /// and ticks drawn from them. A caller that needs the figures only one at a time (channel
     /// limits) hands out one slot three times and reads it in between.
+    #[inline(always)]
     pub(crate) fn budget_core(&self, slots: &mut impl FigureSlots) -> Result<BudgetTimes, Error> {
         self.validate()?;
         let f = slots.slot(0);

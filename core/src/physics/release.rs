@@ -345,7 +345,7 @@ impl Release {
                 capacitor: e.capacitor,
             });
         }
-        self.linear_zero_and_energy().map(|(_, e)| e)
+        self.zero_time_and_energy().map(|(_, e)| e)
     }
 
     /// Time to zero and the energy split together, sharing one `log1p` for the first-order clamps
@@ -357,7 +357,9 @@ impl Release {
         self.linear_zero_and_energy()
     }
 
-    /// First-order clamps: `t₀ = τ·ln(1 + x)` and the energy split with `x = I₀/a`.
+    /// First-order clamps: `t₀ = τ·ln(1 + x)` and the energy split with `x = I₀/a` (inlined into
+    /// its one caller, [`Release::zero_time_and_energy`]: one frame less on the budget's path).
+    #[inline(always)]
     fn linear_zero_and_energy(&self) -> Result<(Seconds, EnergySplit), Error> {
         let i0 = self.curve.initial();
         let tau = self.curve.tau().value();
