@@ -123,17 +123,19 @@ impl TickRate {
     }
 
     fn convert(self, t: Seconds, round_up: bool) -> Result<Ticks, Error> {
-        let t = t.value();
-        if t.is_nan() {
+        // Tests on the bits (a float compare is a library call without an FPU): NaN, then ±0,
+        // then a set sign bit, as `is_nan`, `== 0.0` and `< 0.0` would.
+        let bits = t.value().to_bits();
+        let magnitude = bits & 0x7FFF_FFFF;
+        if magnitude > 0x7F80_0000 {
             return Err(Error::invalid(Param::Time, Why::NotFinite));
         }
-        if t < 0.0 {
-            return Err(Error::invalid(Param::Time, Why::Negative));
-        }
-        if t == 0.0 {
+        if magnitude == 0 {
             return Ok(Ticks(0));
         }
-        let bits = t.to_bits();
+        if bits >> 31 == 1 {
+            return Err(Error::invalid(Param::Time, Why::Negative));
+        }
         let field = ((bits >> 23) & 0xff) as i32;
         if field == 0xff {
             return Err(Error::TickOverflow); // +∞
@@ -174,6 +176,30 @@ impl TickRate {
 
 #[cfg(test)]
 mod tests {
+    #[test]
+    fn signs_zeros_and_nan_are_read_from_the_bits_as_the_compares_read_them() {
+        let r = TickRate::new(1_000).unwrap();
+        assert_eq!(r.ticks_at_least(Seconds::new(-0.0)), Ok(Ticks(0)));
+        assert_eq!(r.ticks_at_least(Seconds::new(0.0)), Ok(Ticks(0)));
+        assert_eq!(
+            r.ticks_at_least(Seconds::new(f32::NEG_INFINITY)),
+            Err(Error::invalid(Param::Time, Why::Negative))
+        );
+        assert_eq!(
+            r.ticks_at_most(Seconds::new(-1.0e-45)),
+            Err(Error::invalid(Param::Time, Why::Negative))
+        );
+        assert_eq!(
+            r.ticks_at_least(Seconds::new(-f32::NAN)),
+            Err(Error::invalid(Param::Time, Why::NotFinite))
+        );
+        assert_eq!(
+            r.ticks_at_least(Seconds::new(f32::INFINITY)),
+            Err(Error::TickOverflow)
+        );
+        assert_eq!(r.ticks_at_least(Seconds::new(1.0e-45)), Ok(Ticks(1)));
+    }
+
     use super::*;
 
     #[test]

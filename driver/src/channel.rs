@@ -174,30 +174,13 @@ impl ChannelConfig {
         design: &DriverDesign,
         options: &ChannelOptions,
     ) -> Result<Self, SetupError> {
-        let limits = ChannelLimits::from_design(design, &options.heat, options.hold)
-            .map_err(|error| SetupError::Limits { channel: 0, error })?;
-        let expected = Expected::new(design, &Conditions::default())
-            .map_err(|error| SetupError::Design { channel: 0, error })?;
-        let probe = Probe::new(design, options.probe_fraction)
-            .map_err(|error| SetupError::Design { channel: 0, error })?;
-        let t = options.trip_fraction;
-        let noise_ok = options.noise_counts.is_finite() && options.noise_counts >= 0.0;
-        if options.rise_period.get() == 0 || !(t > 0.0 && t < 1.0) || !noise_ok {
-            return Err(SetupError::Capture { channel: 0 });
-        }
-        Ok(Self {
-            limits,
-            supply_group: options.supply_group,
-            diagnosis: Some(Diagnosis {
-                design: *design,
-                expected,
-                probe,
-                rise_period: options.rise_period,
-                noise_counts: options.noise_counts,
-                trip_fraction: t,
-                criteria: options.criteria.unwrap_or_default(),
-            }),
-        })
+        // Built in the return value itself (written over by an out-of-line helper, so the
+        // configuration is not built in a temporary and moved); the limits and the diagnosis
+        // each in a frame of their own, so that their working states never sit on the stack
+        // together.
+        let mut r = Err(SetupError::Capture { channel: 0 });
+        config_into(design, options, &mut r);
+        r
     }
 
     /// A channel scheduled by `limits` alone (e.g. `ChannelLimits::new(Ticks(MIN_ON_TICKS),
@@ -210,6 +193,67 @@ impl ChannelConfig {
             diagnosis: None,
         }
     }
+}
+
+/// [`ChannelConfig::from_design`] written over `r`.
+#[inline(never)]
+fn config_into(
+    design: &DriverDesign,
+    options: &ChannelOptions,
+    r: &mut Result<ChannelConfig, SetupError>,
+) {
+    let limits = match limits_of(design, options) {
+        Ok(l) => l,
+        Err(e) => {
+            *r = Err(e);
+            return;
+        }
+    };
+    *r = Ok(ChannelConfig {
+        limits,
+        supply_group: options.supply_group,
+        diagnosis: None,
+    });
+    if let Ok(c) = r {
+        if let Err(e) = diagnosis_into(design, options, &mut c.diagnosis) {
+            *r = Err(e);
+        }
+    }
+}
+
+/// [`ChannelConfig::from_design`]'s limits (out of line).
+#[inline(never)]
+fn limits_of(design: &DriverDesign, options: &ChannelOptions) -> Result<ChannelLimits, SetupError> {
+    ChannelLimits::from_design(design, &options.heat, options.hold)
+        .map_err(|error| SetupError::Limits { channel: 0, error })
+}
+
+/// [`ChannelConfig::from_design`]'s diagnosis, written into `slot` (out of line).
+#[inline(never)]
+fn diagnosis_into(
+    design: &DriverDesign,
+    options: &ChannelOptions,
+    slot: &mut Option<Diagnosis>,
+) -> Result<(), SetupError> {
+    let expected = Expected::new(design, &Conditions::default())
+        .map_err(|error| SetupError::Design { channel: 0, error })?;
+    let probe = Probe::new(design, options.probe_fraction)
+        .map_err(|error| SetupError::Design { channel: 0, error })?;
+    let t = options.trip_fraction;
+    let noise_ok = options.noise_counts.is_finite() && options.noise_counts >= 0.0;
+    if options.rise_period.get() == 0 || !(t > 0.0 && t < 1.0) || !noise_ok {
+        return Err(SetupError::Capture { channel: 0 });
+    }
+    *slot = Some(Diagnosis {
+        design: *design,
+        expected,
+        probe,
+        rise_period: options.rise_period,
+        noise_counts: options.noise_counts,
+        trip_fraction: t,
+        criteria: options.criteria.unwrap_or_default(),
+    });
+    Ok(())
 }
 
 /// The comparator and converter set-up of a channel, measured at commissioning.

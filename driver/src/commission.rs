@@ -188,7 +188,10 @@ where
     /// the comparator level and its band.
     #[inline(never)]
     fn measure_zero(&mut self, i: usize) -> Result<(), ErrorKind> {
-        let Some(d) = self.configs[i].diagnosis else {
+        // Borrowed, not copied (the diagnosis is about 350 bytes; this frame sits below the
+        // converter calls).
+        let configs = self.configs;
+        let Some(d) = configs[i].diagnosis.as_ref() else {
             return Ok(());
         };
         let sense = &mut self.hw[i].sense;
@@ -283,6 +286,7 @@ where
     /// Starts a due diagnostic pulse when the coil is at rest and nothing else is due; returns
     /// when to try again if one is due but cannot start yet.
     pub(crate) fn try_start_probe(&mut self, now: Instant) -> Option<Instant> {
+        let configs = self.configs;
         if self.st.probe.is_some() {
             return None;
         }
@@ -294,9 +298,9 @@ where
             earliest(end);
             return retry;
         }
-        for i in 0..N {
+        for (i, config) in configs.iter().enumerate() {
             let c = &self.st.chans[i];
-            let (Some(purpose), Some(d)) = (c.probe_due, self.configs[i].diagnosis) else {
+            let (Some(purpose), Some(d)) = (c.probe_due, config.diagnosis.as_ref()) else {
                 continue;
             };
             let rest = c.rest_at.latest(c.probe_rest_at);
@@ -404,7 +408,9 @@ where
         scale: crate::sense::SenseScale,
     ) {
         let i = p.channel;
-        let Some(d) = self.configs[i].diagnosis else {
+        // Borrowed from the configurations, not copied (the diagnosis is about 350 bytes).
+        let configs = self.configs;
+        let Some(d) = configs[i].diagnosis.as_ref() else {
             return;
         };
         let zero = self.st.chans[i].setup.map_or(0.0, |s| s.zero_counts);
@@ -429,7 +435,7 @@ where
                 crate::baseline::judge_probe_samples(
                     &st.buf[..n],
                     &s,
-                    &d,
+                    d,
                     &mut st.chans[i].base,
                     self.board,
                     &self.options,
@@ -444,8 +450,22 @@ where
                 return;
             }
         };
+        self.act_on_probe(now, &p, &verdict, baseline);
+    }
+
+    /// Records a diagnostic pulse's verdict, reports it and acts on it (out of line: this work
+    /// does not sit below the fit in `judge_probe`'s frame).
+    #[inline(never)]
+    fn act_on_probe(
+        &mut self,
+        now: Instant,
+        p: &ActiveProbe,
+        verdict: &coilwise::Verdict,
+        baseline: bool,
+    ) {
+        let i = p.channel;
         self.st.chans[i].last_finding = Some(verdict.finding);
-        self.st.chans[i].last_verdict = Some(verdict);
+        self.st.chans[i].last_verdict = Some(*verdict);
         self.emit(
             p.on,
             i,

@@ -183,6 +183,20 @@ impl<const E: usize> EventQueue<E> {
         }
     }
 
+    /// Empties the queue and its counts in place, as [`EventQueue::new`] builds it (no queue-sized
+    /// temporary on the stack).
+    pub(crate) fn reset(&mut self) {
+        for item in self.items.iter_mut() {
+            *item = None;
+        }
+        self.head = 0;
+        self.len = 0;
+        self.pending_lost = 0;
+        self.lost = 0;
+        self.emitted = 0;
+        self.last = (Instant(0), 0);
+    }
+
     /// Events waiting.
     pub const fn len(&self) -> usize {
         self.len as usize

@@ -169,8 +169,8 @@ impl<const N: usize, const Q: usize, const E: usize> DriverState<N, Q, E> {
     }
 }
 
-/// The scheduler for `configs`, written into `slot` (out of line: its temporaries stay in
-/// this frame).
+/// The scheduler for `configs`, built in place in `slot` (out of line: the limits array, the
+/// only temporary, stays in this frame; the scheduler itself is never moved).
 #[inline(never)]
 fn build_scheduler<const N: usize, const Q: usize>(
     slot: &mut Option<Scheduler<N, Q>>,
@@ -179,7 +179,7 @@ fn build_scheduler<const N: usize, const Q: usize>(
     now: Instant,
 ) -> Result<(), coilwise::schedule::LimitsError> {
     let limits: [ChannelLimits; N] = core::array::from_fn(|i| configs[i].limits);
-    *slot = Some(Scheduler::new(limits, inrush_cap, now)?);
+    Scheduler::new_in(slot, &limits, inrush_cap, now)?;
     Ok(())
 }
 
@@ -224,7 +224,7 @@ where
         inrush_cap: u8,
     ) -> Result<Self, SetupError> {
         state.sched = None;
-        state.events = EventQueue::new();
+        state.events.reset();
         state.group_low = [false; N];
         state.phase = Phase::NotStarted;
         state.probe = None;

@@ -146,7 +146,7 @@ where
     /// Arms the rise capture and switches channel `i` on.
     fn switch_on(&mut self, now: Instant, i: usize) -> Result<(), ErrorKind> {
         let c = &self.st.chans[i];
-        let capture = match (self.configs[i].diagnosis, c.setup) {
+        let capture = match (self.configs[i].diagnosis.as_ref(), c.setup) {
             (Some(d), Some(s)) => Some((d.rise_period, s.trip_counts)),
             _ => None,
         };
@@ -219,7 +219,8 @@ where
 
     /// Judges a complete rise capture of channel `i` and acts on the finding (out of line, and
     /// after every call into the board: the fit's working state never sits below a hardware
-    /// call).
+    /// call). The fit and the acting on its finding each have a frame of their own, so that only
+    /// this small frame lies below the fit's.
     #[inline(never)]
     fn judge_rise(
         &mut self,
@@ -230,25 +231,45 @@ where
         crossing: Crossing,
         scale: crate::sense::SenseScale,
     ) {
-        let Some(d) = self.configs[i].diagnosis else {
+        let configs = self.configs;
+        let Some(d) = configs[i].diagnosis.as_ref() else {
             return;
         };
+        match self.rise_verdict(i, now, &w, &cap, crossing, &scale, d) {
+            Some((verdict, cmp)) => self.act_on_rise(i, now, &w, crossing, &verdict, cmp),
+            None => self.fault(
+                now,
+                i,
+                ErrorKind::Sense(crate::SenseErrorKind::PeriodUnsupported),
+            ),
+        }
+    }
+
+    /// The fit and comparator verdicts of channel `i`'s rise capture (in the state's buffer):
+    /// the combined verdict and the comparator's own finding. `None` when the capture's sample
+    /// period is not one the fit takes.
+    #[allow(clippy::too_many_arguments)]
+    #[inline(never)]
+    fn rise_verdict(
+        &self,
+        i: usize,
+        now: Instant,
+        w: &RiseWatch,
+        cap: &crate::sense::Capture,
+        crossing: Crossing,
+        scale: &crate::sense::SenseScale,
+        d: &crate::channel::Diagnosis,
+    ) -> Option<(Verdict, Option<Finding>)> {
         let zero = self.st.chans[i].setup.map_or(0.0, |s| s.zero_counts);
-        let Ok(sampling) = crate::commission::sampling_of(
+        let sampling = crate::commission::sampling_of(
             self.rate.seconds(cap.period),
             self.rate.seconds(cap.first),
             scale.amps_per_count,
             zero,
             scale.full_scale_counts,
             d.noise_counts,
-        ) else {
-            self.fault(
-                now,
-                i,
-                ErrorKind::Sense(crate::SenseErrorKind::PeriodUnsupported),
-            );
-            return;
-        };
+        )
+        .ok()?;
         let n = cap.len.min(SAMPLES);
         let fit = judge_actuation(
             &self.st.buf[..n],
@@ -273,8 +294,22 @@ where
             ),
             estimates: fit.estimates,
         };
+        Some((verdict, cmp))
+    }
+
+    /// Records channel `i`'s rise verdict, reports it and acts on its finding.
+    #[inline(never)]
+    fn act_on_rise(
+        &mut self,
+        i: usize,
+        now: Instant,
+        w: &RiseWatch,
+        crossing: Crossing,
+        verdict: &Verdict,
+        cmp: Option<Finding>,
+    ) {
         self.st.chans[i].last_finding = Some(verdict.finding);
-        self.st.chans[i].last_verdict = Some(verdict);
+        self.st.chans[i].last_verdict = Some(*verdict);
         self.emit(
             w.on,
             i,

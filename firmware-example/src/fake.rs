@@ -42,12 +42,14 @@ impl embedded_hal::pwm::SetDutyCycle for NullPwm {
 
 /// A current sense that returns `trace` for every capture armed with a comparator level (a
 /// real pulse) and `probe_trace` for one armed without (a diagnostic pulse), both precomputed,
-/// and a crossing `crossing` ticks after switch-on; zero current reads 0 counts.
-pub struct ReplaySense {
+/// and a crossing `crossing` ticks after switch-on; zero current reads 0 counts. Borrows its
+/// traces, so that the handle is as small as a real converter's and moving it (into
+/// `Driver::new`) measures the driver, not the replayed data.
+pub struct ReplaySense<'a> {
     /// The capture of a real pulse.
-    pub trace: [u16; 64],
+    pub trace: &'a [u16; 64],
     /// The capture of a diagnostic pulse.
-    pub probe_trace: [u16; 64],
+    pub probe_trace: &'a [u16; 64],
     /// Comparator crossing, ticks after switch-on.
     pub crossing: u32,
     /// Converter scale, A per count.
@@ -55,11 +57,11 @@ pub struct ReplaySense {
     plan: Option<SensePlan>,
 }
 
-impl ReplaySense {
+impl<'a> ReplaySense<'a> {
     /// A sense replaying `trace`.
     pub const fn new(
-        trace: [u16; 64],
-        probe_trace: [u16; 64],
+        trace: &'a [u16; 64],
+        probe_trace: &'a [u16; 64],
         crossing: u32,
         amps_per_count: f32,
     ) -> Self {
@@ -73,7 +75,7 @@ impl ReplaySense {
     }
 }
 
-impl CurrentSense for ReplaySense {
+impl CurrentSense for ReplaySense<'_> {
     type Error = coilwise_driver::SenseErrorKind;
     const MAX_SAMPLES: usize = 64;
 
@@ -101,9 +103,9 @@ impl CurrentSense for ReplaySense {
             .get_mut(..n)
             .ok_or(coilwise_driver::SenseErrorKind::BufferLength)?;
         let src = if p.trip_level.is_some() {
-            &self.trace
+            self.trace
         } else {
-            &self.probe_trace
+            self.probe_trace
         };
         dst.copy_from_slice(&src[..n]);
         Ok(Some(Capture {

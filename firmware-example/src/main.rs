@@ -44,14 +44,17 @@ fn specs() -> Option<[ChannelSpec; CHANNELS]> {
     Some([a, b, c, d])
 }
 
-/// Set-up (out of line, before the run's deepest frames): the designs, the driver's
-/// configurations (static), the board with its coils, the design log. Returns the
-/// configurations, the board and the channel names.
+/// Set-up (out of line, before the run's deepest frames): the designs, the board with its coils,
+/// the driver's configurations (static), the design log. Returns the configurations, the board
+/// and the channel names.
 #[inline(never)]
 fn setup() -> Option<(&'static [ChannelConfig; CHANNELS], &'static SimBoard, Names)> {
     let specs = specs()?;
-    let configs = configs(&specs)?;
     let board = board(&specs)?;
+    // The simulated plant is built (it stands for the board's hardware set-up, with a deep f64
+    // frame of its own): from here on the high-water mark measures the application's start-up.
+    fw::measure::restart_high_water();
+    let configs = configs(&specs)?;
     fw::log::design(&specs, demo::QUEUE);
     Some((configs, board, core::array::from_fn(|i| specs[i].name)))
 }
@@ -173,6 +176,14 @@ fn first_life(
     learned: &mut [u8; CHANNELS],
 ) -> Option<bool> {
     let mut owned = driver(configs, state, hardware(board), board)?;
+    // The start-up chain's depth: everything built from reset up to here (the designs, the
+    // channel configurations with their limits and bands, the design log, the driver) except
+    // the simulated plant (see `setup`); commissioning, next, is the first call that reaches the
+    // hardware.
+    defmt::info!(
+        "start-up stack, reset to the driver built: ~{=u32} bytes",
+        fw::measure::stack_high_water_since_paint()
+    );
     let drv = &mut owned;
     arm_monitor(board, drv);
     defmt::info!(

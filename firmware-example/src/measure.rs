@@ -224,9 +224,29 @@ fn stack_depth(f: &mut dyn FnMut()) -> u32 {
 }
 
 /// Stack high-water mark of the whole run so far, in bytes below the initial stack pointer:
-/// scans RAM painted by the last [`Meter`] measurement (or by [`paint_free_stack`]).
+/// scans RAM painted by the last [`Meter`] measurement (or by [`paint_free_stack`]), and takes
+/// the larger of that and the mark kept by [`restart_high_water`].
 pub fn stack_peak_bytes() -> u32 {
+    stack_high_water_since_paint().max(EARLIER_PEAK.load(Ordering::Relaxed))
+}
+
+/// Stack high-water mark since the last painting, in bytes below the initial stack pointer
+/// (frames live at the time of that painting count in full).
+pub fn stack_high_water_since_paint() -> u32 {
     stack_top().saturating_sub(lowest_dirty_word())
+}
+
+/// High-water mark kept from before the last [`restart_high_water`].
+static EARLIER_PEAK: AtomicU32 = AtomicU32::new(0);
+
+/// Keeps the high-water mark so far (for [`stack_peak_bytes`]) and paints the free RAM again, so
+/// that [`stack_high_water_since_paint`] measures from the present depth on (the example
+/// firmware does this once its simulated plant is built: the plant is not part of the
+/// application's start-up). Plain load and store: called from the main thread only.
+pub fn restart_high_water() {
+    let so_far = stack_peak_bytes();
+    EARLIER_PEAK.store(so_far, Ordering::Relaxed);
+    paint_free_stack();
 }
 
 /// Lowest stack pointer seen on entry to a method of the hardware seam ([`note_seam_sp`]);

@@ -8,6 +8,10 @@
 //! - `stack_app_bytes`: the main firmware's `application stack above the hardware seam: ~<bytes>`
 //!   line: initial stack pointer minus the lowest stack pointer seen on entry to a board seam
 //!   method (the application's depth without the simulated plant; seam frames not included);
+//! - `stack_startup_bytes`: the main firmware's `start-up stack, reset to the driver built: ~<bytes>`
+//!   line: the high-water mark of the stack painted again once the simulated plant is built,
+//!   read once the driver is built and before commissioning first reaches the hardware (the
+//!   start-up chain's depth, frames live at the repainting included);
 //! - `stack_peak_bytes`: the main firmware's own high-water mark line
 //!   (`stack high-water mark: ~<bytes> bytes`), whole run;
 //! - `firmware_flash_bytes`: `.vector_table + .text + .rodata + .data` of the main firmware ELF
@@ -167,6 +171,15 @@ fn measure(b: &Board) -> Result<Vec<Figure>, String> {
         key: "stack_app_bytes".into(),
         what: "stack of the application above the hardware seam (deepest seam call)".into(),
         value: app,
+        unit: "bytes",
+    });
+    let startup = parse_marked_number(&main.log, "start-up stack, reset to the driver built: ~")
+        .ok_or("the firmware log has no `start-up stack, reset to the driver built: ~N` line")?;
+    figs.push(Figure {
+        key: "stack_startup_bytes".into(),
+        what: "stack of the start-up chain, reset to the driver built (designs, configurations, driver)"
+            .into(),
+        value: startup,
         unit: "bytes",
     });
     let peak = parse_marked_number(&main.log, "stack high-water mark: ~")
@@ -515,6 +528,14 @@ How:
   board (add its driver's depth), and stack the application uses only between seam calls without
   calling the board (start-up construction from the designs, a fit, logging); the per-call
   `stack.*` figures cover the core's share of those.
+- **Stack of the start-up chain** (`stack_startup_bytes`): the main firmware's high-water mark
+  from reset until its driver is built: the depth of everything it builds before its loop (the
+  designs, the channel configurations with their limits and bands, the design log,
+  `Driver::new`). The simulated plant of the QEMU board, built first, is left out (the free RAM
+  is painted again once it stands; it takes the place of a real board's hardware set-up, and its
+  f64 integrator frames are not the application's); the frames live at that point count in full.
+  Commissioning, which follows, is the first call into the hardware; its depth above the seam is
+  in `stack_app_bytes`, and on replaying hardware in `driver_new_commission`.
 - **Stack high-water mark** (`stack_peak_bytes`): the main firmware paints free RAM at entry and
   reports the lowest overwritten word at the end of its run. This is the whole run: start-up
   construction, the application, and the simulated coil plant of the QEMU board (an f64

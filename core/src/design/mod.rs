@@ -18,14 +18,21 @@
 //! first-order clamp).
 
 use crate::error::Error;
-use crate::physics::circuit::{Circuit, OperatingPoint, SupplyRange, TemperatureRange, Tolerances};
+use crate::physics::circuit::{
+    Circuit, OperatingPoint, Resolved, SupplyRange, TemperatureRange, Tolerances,
+};
 use crate::physics::clamp::{EnergySplit, Release};
 use crate::physics::coil::Armature;
 use crate::physics::hold::Hold;
 use crate::physics::off_time::{off_time_from_parts, OffTime, OffTimeNeeds};
 use crate::physics::repetition::{clamp_average_power, max_repetition_rate};
-use crate::time::{TickRate, Ticks};
+use crate::time::TickRate;
 use crate::units::{Amps, Hertz, Seconds, Volts, Watts};
+
+mod figures;
+
+pub(crate) use figures::{BudgetTimes, FigureSlots};
+pub use figures::{Figures, TickBudget, TimingBudget};
 
 /// A complete driver design: the circuit, the ranges it must work over, and the firmware's timer.
 #[derive(Clone, Copy, Debug, PartialEq)]
@@ -171,52 +178,90 @@ impl DriverDesign {
 
     /// [`DriverDesign::figures`] of a design already validated (the budget validates once).
     fn figures_of_valid(&self, op: &OperatingPoint) -> Result<Figures, Error> {
+        let mut f = Figures::UNSET;
+        self.figures_into(op, &mut f)?;
+        Ok(f)
+    }
+
+    /// [`DriverDesign::figures_of_valid`] written into `out` (every field; left partly written on
+    /// an error), in place, so that the budget's three figures are built where they end up
+    /// instead of in temporaries moved up through the callers (stack). The rise half and the
+    /// release half each have a frame of their own, one after the other: only the resolved
+    /// point is carried from one to the other.
+    #[inline(always)]
+    fn figures_into(&self, op: &OperatingPoint, out: &mut Figures) -> Result<(), Error> {
+        let resolved = self.rise_into(op, out)?;
+        self.release_into(&resolved, out.final_current, out)
+    }
+
+    /// The rise half of [`DriverDesign::figures_into`]: the point resolved, and the rise's
+    /// figures written into `out`; returns the resolved point.
+    #[inline(never)]
+    fn rise_into(&self, op: &OperatingPoint, out: &mut Figures) -> Result<Resolved, Error> {
         let c = &self.circuit;
         let resolved = c.resolve(op)?;
+        out.point = *op;
         let rise = c.energize_resolved(&resolved, Armature::Released, Amps::new(0.0))?;
         let final_current = Amps::new(rise.asymptote());
-        let pull_in_time = match rise.time_to(c.coil().pull_in_current().value()) {
+        out.final_current = final_current;
+        out.tau_on = rise.tau();
+        out.pull_in_time = match rise.time_to(c.coil().pull_in_current().value()) {
             Ok(t) => Some(t),
             Err(Error::Unreachable { .. }) => None,
             Err(e) => return Err(e),
         };
-        let release = c.release_resolved(&resolved, final_current)?;
-        let (release_time, time_to_zero, energy, off_time) = self.release_figures(&release)?;
-        let clamp_power = match self.duty {
-            Some((_, f)) => Some(clamp_average_power(energy.clamp, f)?),
+        out.pull_in_margin =
+            crate::physics::circuit::pull_in_margin_of(final_current, c.coil().pull_in_current())?;
+        Ok(resolved)
+    }
+
+    /// The release half of [`DriverDesign::figures_into`]: the release from `i0` at `resolved`
+    /// and every figure of it, written into `out` (a frame of its own; the release is used
+    /// where it was returned, not moved).
+    #[inline(never)]
+    fn release_into(&self, resolved: &Resolved, i0: Amps, out: &mut Figures) -> Result<(), Error> {
+        let made = self.circuit.release_resolved(resolved, i0);
+        let release = match &made {
+            Ok(r) => r,
+            Err(e) => return Err(*e),
+        };
+        // The steps of `release_figures`, in its order, each written into `out` as it comes
+        // (no tuple of them on the stack).
+        out.release_time = release.time_to_current(self.circuit.coil().drop_out_current())?;
+        let (time_to_zero, energy) = release.zero_time_and_energy()?;
+        out.time_to_zero = time_to_zero;
+        out.energy = energy;
+        let residual = if self.residual_current.value().to_bits() & 0x7FFF_FFFF == 0 {
+            time_to_zero
+        } else {
+            release.settle_time(self.residual_current)?
+        };
+        out.off_time = off_time_from_parts(
+            out.release_time,
+            residual,
+            out.energy.clamp,
+            &self.off_time_needs(),
+        )?;
+        out.clamp_power = match self.duty {
+            Some((_, f)) => Some(clamp_average_power(out.energy.clamp, f)?),
             None => None,
         };
-        let max_repetition = match self.clamp_rating {
-            Some(p) => max_repetition_rate(energy.clamp, p)?,
+        out.max_repetition = match self.clamp_rating {
+            Some(p) => max_repetition_rate(out.energy.clamp, p)?,
             None => None,
         };
-        Ok(Figures {
-            point: *op,
-            final_current,
-            tau_on: rise.tau(),
-            pull_in_time,
-            pull_in_margin: crate::physics::circuit::pull_in_margin_of(
-                final_current,
-                c.coil().pull_in_current(),
-            )?,
-            tau_off: release.tau(),
-            release_time,
-            time_to_zero,
-            energy,
-            peak_switch_voltage: release.peak_switch_voltage(),
-            switch_headroom: Volts::new(
-                c.switch().breakdown().value() - release.peak_switch_voltage().value(),
-            ),
-            peak_node_voltage: release.peak_node_voltage(),
-            clamp_power,
-            max_repetition,
-            off_time,
-        })
+        out.tau_off = release.tau();
+        let peak = release.peak_switch_voltage();
+        out.peak_switch_voltage = peak;
+        out.switch_headroom = Volts::new(self.circuit.switch().breakdown().value() - peak.value());
+        out.peak_node_voltage = release.peak_node_voltage();
+        Ok(())
     }
 
     /// Release to drop-out, time to zero, energy split and safe off-time of one release, with
-    /// time to zero and energy sharing one `log1p` (the budget's hot path). Inlined into its two
-    /// callers so its tuple result costs no stack of its own (the M0 tick budget grew by 72 B).
+    /// time to zero and energy sharing one `log1p` (the tick budget's hot path; the budget's
+    /// `release_into` takes the same steps in the same order, writing each into its figures).
+    /// Inlined so its tuple result costs no stack of its own (the M0 tick budget grew by 72 B).
     #[inline(always)]
     fn release_figures(
         &self,
@@ -224,7 +269,7 @@ impl DriverDesign {
     ) -> Result<(Seconds, Seconds, EnergySplit, OffTime), Error> {
         let release_time = release.time_to_current(self.circuit.coil().drop_out_current())?;
         let (time_to_zero, energy) = release.zero_time_and_energy()?;
-        let residual = if self.residual_current.value() == 0.0 {
+        let residual = if self.residual_current.value().to_bits() & 0x7FFF_FFFF == 0 {
             time_to_zero
         } else {
             release.settle_time(self.residual_current)?
@@ -278,7 +323,7 @@ impl DriverDesign {
     /// As [`DriverDesign::budget`].
     pub fn tick_budget(&self) -> Result<TickBudget, Error> {
         if self.circuit.clamp().kind() == crate::physics::clamp::ClampKind::RcSnubber {
-            return self.budget().map(|b| b.ticks);
+            return self.snubber_ticks();
         }
         self.validate()?;
         let c = &self.circuit;
@@ -286,15 +331,27 @@ impl DriverDesign {
             .energize(&self.pull_in_corner(), Armature::Released, Amps::new(0.0))?
             .time_to(c.coil().pull_in_current().value())?;
         let resolved = c.resolve(&self.release_corner())?;
-        let i0 = Amps::new(resolved.drive.value() / resolved.on_loop.value());
-        let release = c.release_resolved(&resolved, i0)?;
-        let (release_time, _, energy, off) = self.release_figures(&release)?;
+        let made = c.release_resolved(&resolved, resolved.final_current);
+        let release = match &made {
+            Ok(r) => r,
+            Err(e) => return Err(*e),
+        };
+        let (release_time, _, energy, off) = self.release_figures(release)?;
         // The budget's clamp power at the planned rate: refused here when it overflows there
         // (the release corner carries the largest clamp energy of the budget's three points).
         if let Some((_, f)) = self.duty {
             clamp_average_power(energy.clamp, f)?;
         }
         Ok(self.ticks_from(t_pull, off.required, release_time)?.1)
+    }
+
+    /// [`DriverDesign::tick_budget`] of an RC snubber: the full budget's ticks (out of line, so
+    /// that the budget sits on the stack only on this path).
+    #[inline(never)]
+    fn snubber_ticks(&self) -> Result<TickBudget, Error> {
+        let mut b = TimingBudget::UNSET;
+        self.budget_into(&mut b)?;
+        Ok(b.ticks)
     }
 
     /// Longest off-time and release time over all corners (the RC snubber's times are not
@@ -373,22 +430,62 @@ impl DriverDesign {
     /// rely on such a design); [`Error::TickOverflow`] when a time does not fit the timer; any
     /// invalid input.
     pub fn budget(&self) -> Result<TimingBudget, Error> {
+        let mut r = Err(Error::TickOverflow);
+        self.budget_result(&mut r);
+        r
+    }
+
+    /// [`DriverDesign::budget`] written over `r`.
+    #[inline(never)]
+    fn budget_result(&self, r: &mut Result<TimingBudget, Error>) {
+        *r = Ok(TimingBudget::UNSET);
+        if let Ok(b) = r {
+            if let Err(e) = self.budget_into(b) {
+                *r = Err(e);
+            }
+        }
+    }
+
+    /// [`DriverDesign::budget`] written into `out` (left partly written on an error): the three
+    /// figures are built in place, not returned by value through the callers (stack). Inlined
+    /// into its two out-of-line callers (one frame less below them).
+    #[inline(always)]
+    pub(crate) fn budget_into(&self, out: &mut TimingBudget) -> Result<(), Error> {
+        let t = self.budget_core(out)?;
+        out.min_on_time = t.min_on;
+        out.min_off_time = t.min_off;
+        out.release_time = t.release_time;
+        out.ticks = t.ticks;
+        Ok(())
+    }
+
+    /// The budget's computation: the figures at the nominal point, the pull-in corner and the
+    /// release corner (in that order) written into the slots `slots` hands out, and the times
+    /// and ticks drawn from them. A caller that needs the figures only one at a time (channel
+    /// limits) hands out one slot three times and reads it in between.
+    #[inline(always)]
+    pub(crate) fn budget_core(&self, slots: &mut impl FigureSlots) -> Result<BudgetTimes, Error> {
         self.validate()?;
-        let nominal = self.figures_of_valid(&self.nominal_point())?;
-        let pull_in = self.figures_of_valid(&self.pull_in_corner())?;
-        let release = self.figures_of_valid(&self.release_corner())?;
-        let Some(t_pull) = pull_in.pull_in_time else {
+        let f = slots.slot(0);
+        self.figures_into(&self.nominal_point(), f)?;
+        let nominal_off = f.off_time.required;
+        let f = slots.slot(1);
+        self.figures_into(&self.pull_in_corner(), f)?;
+        let (pull_in_time, pull_in_final) = (f.pull_in_time, f.final_current);
+        let f = slots.slot(2);
+        self.figures_into(&self.release_corner(), f)?;
+        let (release_off, mut release_time) = (f.off_time.required, f.release_time);
+        let Some(t_pull) = pull_in_time else {
             return Err(Error::Unreachable {
                 target: self.circuit.coil().pull_in_current().value(),
-                asymptote: pull_in.final_current.value(),
+                asymptote: pull_in_final.value(),
             });
         };
-        let mut min_off = if release.off_time.required >= nominal.off_time.required {
-            release.off_time.required
+        let mut min_off = if release_off >= nominal_off {
+            release_off
         } else {
-            nominal.off_time.required
+            nominal_off
         };
-        let mut release_time = release.release_time;
         if self.circuit.clamp().kind() == crate::physics::clamp::ClampKind::RcSnubber {
             let (off, rel) = self.slowest_corner_times()?;
             if off > min_off {
@@ -399,93 +496,18 @@ impl DriverDesign {
             }
         }
         let (min_on, ticks) = self.ticks_from(t_pull, min_off, release_time)?;
-        Ok(TimingBudget {
-            nominal,
-            pull_in_corner: pull_in,
-            release_corner: release,
-            min_on_time: min_on,
-            min_off_time: min_off,
+        Ok(BudgetTimes {
+            min_on,
+            min_off,
             release_time,
             ticks,
         })
     }
 }
 
-/// Every timing, energy and stress figure at one operating point.
-#[derive(Clone, Copy, Debug, PartialEq)]
-#[cfg_attr(feature = "defmt", derive(defmt::Format))]
-pub struct Figures {
-    /// Where these figures were evaluated.
-    pub point: OperatingPoint,
-    /// Final on-state current I∞, A (also the switch-off current assumed).
-    pub final_current: Amps,
-    /// Rise time constant with the armature released, s.
-    pub tau_on: Seconds,
-    /// Time from switch-on to pull-in current; `None` when the coil never pulls in here.
-    pub pull_in_time: Option<Seconds>,
-    /// `I∞ / I_pull − 1`.
-    pub pull_in_margin: f32,
-    /// Release time constant (armature operated, clamp loop), s.
-    pub tau_off: Seconds,
-    /// Switch-off to drop-out current, s.
-    pub release_time: Seconds,
-    /// Switch-off to zero current, s.
-    pub time_to_zero: Seconds,
-    /// Where the stored energy goes.
-    pub energy: EnergySplit,
-    /// Peak voltage across the switch (magnitude), V.
-    pub peak_switch_voltage: Volts,
-    /// Switch breakdown minus peak switch voltage, V. Negative: the switch avalanches before the
-    /// clamp takes over, and the release figures (which assume the clamp conducts) do not hold.
-    pub switch_headroom: Volts,
-    /// Peak voltage of the switch node against ground (signed), V.
-    pub peak_node_voltage: Volts,
-    /// Clamp average power at the planned duty, W.
-    pub clamp_power: Option<Watts>,
-    /// Highest repetition rate for the clamp rating, Hz (`None`: no rating or no energy).
-    pub max_repetition: Option<Hertz>,
-    /// Safe minimum off-time at this point.
-    pub off_time: OffTime,
-}
-
 /// Number of corners of the tolerance box searched by [`DriverDesign::corner`]: 2⁵ (supply,
 /// temperature, resistance, inductance, sense).
 pub const CORNER_COUNT: u32 = 32;
-
-/// The firmware's timing constants in ticks, each rounded up.
-#[derive(Clone, Copy, Debug, PartialEq, Eq)]
-#[cfg_attr(feature = "defmt", derive(defmt::Format))]
-pub struct TickBudget {
-    /// Minimum on-time (worst pull-in + operate allowance).
-    pub min_on: Ticks,
-    /// Safe minimum off-time.
-    pub min_off: Ticks,
-    /// Worst-corner electrical pull-in time.
-    pub pull_in: Ticks,
-    /// Worst electrical release time (to drop-out), [`TimingBudget::release_time`].
-    pub release: Ticks,
-}
-
-/// The result of [`DriverDesign::budget`].
-#[derive(Clone, Copy, Debug, PartialEq)]
-#[cfg_attr(feature = "defmt", derive(defmt::Format))]
-pub struct TimingBudget {
-    /// Nominal supply, mid temperature, nominal parts.
-    pub nominal: Figures,
-    /// Hot, high-R, low-supply corner.
-    pub pull_in_corner: Figures,
-    /// Cold, low-R, high-supply corner.
-    pub release_corner: Figures,
-    /// Minimum on-time, s.
-    pub min_on_time: Seconds,
-    /// Safe minimum off-time, s.
-    pub min_off_time: Seconds,
-    /// Longest electrical release time (switch-off to drop-out current), s: the release corner's,
-    /// or for an RC snubber the longest over all corners.
-    pub release_time: Seconds,
-    /// The same in ticks.
-    pub ticks: TickBudget,
-}
 
 #[cfg(test)]
 mod tests;

@@ -184,7 +184,8 @@ impl Tolerances {
 
 pub(crate) fn tolerance_fraction(x: f32) -> Result<f32, Error> {
     let x = non_negative(x, Param::Tolerance)?;
-    if x > 0.9 {
+    // `x > 0.9` on the magnitude bits (x is finite and ≥ 0 here, −0 included).
+    if x.to_bits() & 0x7FFF_FFFF > 0.9f32.to_bits() {
         return Err(Error::invalid(Param::Tolerance, Why::OutOfRange));
     }
     Ok(x)
@@ -250,6 +251,9 @@ pub struct Resolved {
     pub inductance_released: f32,
     /// Inductance while held / at switch-off, H.
     pub inductance_operated: f32,
+    /// Final on-state current `I∞ = V_drive / R_on`, A (worked out once here; the rise and the
+    /// budget's switch-off current take it from here).
+    pub final_current: Amps,
 }
 
 impl Circuit {
@@ -331,7 +335,9 @@ impl Circuit {
         let winding = self.coil.resistance_at(op.temperature)?.value() * k_r;
         let (drop, r_switch) = self.switch.on_state();
         let drive = supply - drop;
-        if drive <= 0.0 {
+        // `drive <= 0.0` on the bits (both operands finite, so `drive` is not NaN): sign set
+        // (−0 included) or +0.
+        if drive.to_bits() >> 31 == 1 || drive.to_bits() == 0 {
             return Err(Error::OutsideModel(Limit::NoHeadroom));
         }
         let off_loop = winding + self.wiring;
@@ -358,13 +364,13 @@ impl Circuit {
             supply: Volts::new(supply),
             inductance_released: l_rel,
             inductance_operated: l_op,
+            final_current: Amps::new(i_inf),
         })
     }
 
     /// Final (steady) on-state current: `I∞ = (V − V_CE(sat)) / R_on`, A.
     pub fn final_current(&self, op: &OperatingPoint) -> Result<Amps, Error> {
-        let r = self.resolve(op)?;
-        Ok(Amps::new(r.drive.value() / r.on_loop.value()))
+        Ok(self.resolve(op)?.final_current)
     }
 
     /// The current rise after switch-on from `initial` amperes with the armature in `armature`:
@@ -395,7 +401,7 @@ impl Circuit {
         let i0 = finite(initial.value(), Param::Current)?;
         FirstOrder::new(
             i0,
-            r.drive.value() / r.on_loop.value(),
+            r.final_current.value(),
             Seconds::new(l / r.on_loop.value()),
         )
     }

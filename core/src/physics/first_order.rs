@@ -85,25 +85,34 @@ impl FirstOrder {
 
     /// Time at which the response first reaches `target`:
     /// `t = τ·ln(1 + (f(0) − f_target)/(f_target − f∞))` (the `ln_1p` form keeps precision for
-    /// short times).
+    /// short times; within one f32 ulp of the exact logarithm, in integer arithmetic for the
+    /// usual ratios, see `physics::ln`).
     ///
     /// A target on the far side of f(0) (already passed) gives 0 s. A target at or beyond f∞ is
     /// never reached: [`Error::Unreachable`].
     pub fn time_to(&self, target: f32) -> Result<Seconds, Error> {
         crate::error::finite(target, Param::Current)?;
         let rising = self.asymptote > self.initial;
+        // The two differences of the ratio, and the compares read from their signs: a float
+        // difference is zero exactly when its operands are equal and otherwise has the sign of
+        // the comparison (an overflow to ±∞ keeps it), and a compare is a library call without
+        // an FPU. `ahead`: f(0) − target; `left`: target − f∞.
+        let ahead = self.initial - target;
+        let left = target - self.asymptote;
+        let non_negative = |d: f32| d.to_bits() >> 31 == 0 || d.to_bits() == 0x8000_0000;
+        let non_positive = |d: f32| d.to_bits() >> 31 == 1 || d.to_bits() == 0;
         let already = if rising {
-            target <= self.initial
+            non_negative(ahead) // target <= f(0)
         } else {
-            target >= self.initial
+            non_positive(ahead) // target >= f(0)
         };
         if already {
             return Ok(Seconds::new(0.0));
         }
         let beyond = if rising {
-            target >= self.asymptote
+            non_negative(left) // target >= f∞
         } else {
-            target <= self.asymptote
+            non_positive(left) // target <= f∞
         };
         if beyond {
             return Err(Error::Unreachable {
@@ -112,8 +121,8 @@ impl FirstOrder {
             });
         }
         // Both differences have the same sign here, so the ratio is > 0.
-        let ratio = (self.initial - target) / (target - self.asymptote);
-        result(self.tau * libm::log1pf(ratio)).map(Seconds::new)
+        let ratio = ahead / left;
+        result(self.tau * super::ln::ln_1p(ratio)).map(Seconds::new)
     }
 
     /// Area under the response from 0 to `t`: `∫f dt = f∞·t + (f(0) − f∞)·τ·(1 − e^(−t/τ))`

@@ -10,6 +10,7 @@ pub mod drive;
 pub mod first_order;
 pub mod heating;
 pub mod hold;
+mod ln;
 pub mod off_time;
 pub mod rc_node;
 pub mod release;

@@ -367,7 +367,7 @@ impl Release {
                 capacitor: e.capacitor,
             });
         }
-        self.linear_zero_and_energy().map(|(_, e)| e)
+        self.zero_time_and_energy().map(|(_, e)| e)
     }
 
     /// Time to zero and the energy split together, sharing one `log1p` for the first-order clamps
@@ -380,7 +380,9 @@ impl Release {
         self.linear_zero_and_energy()
     }
 
-    /// First-order clamps: `t₀ = τ·ln(1 + x)` and the energy split with `x = I₀/a`.
+    /// First-order clamps: `t₀ = τ·ln(1 + x)` and the energy split with `x = I₀/a` (inlined into
+    /// its one caller, [`Release::zero_time_and_energy`]: one frame less on the budget's path).
+    #[inline(always)]
     fn linear_zero_and_energy(&self) -> Result<(Seconds, EnergySplit), Error> {
         let i0 = self.curve.initial();
         let tau = self.curve.tau().value();
@@ -408,7 +410,7 @@ impl Release {
 /// `(x − ln(1 + x), ln(1 + x) − x + x²/2, ln(1 + x))` for x ≥ 0 from one `log1p`; the first two
 /// by a series below 0.25, where the direct forms cancel.
 fn log_tails(x: f32) -> (f32, f32, f32) {
-    let l = libm::log1pf(x);
+    let l = super::ln::ln_1p(x);
     if x < 0.25 {
         (alternating_log_tail(x, 2), -alternating_log_tail(x, 3), l)
     } else {

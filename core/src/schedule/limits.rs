@@ -174,6 +174,18 @@ const fn thermal_built() -> Result<(), LimitsError> {
 }
 
 impl ChannelLimits {
+    /// All zero (not valid limits): placeholder storage that [`super::Scheduler::new_in`]
+    /// overwrites before use.
+    pub(crate) const BLANK: ChannelLimits = ChannelLimits {
+        min_on: Ticks(0),
+        min_off: Ticks(0),
+        max_on: None,
+        inrush_window: Ticks(0),
+        hold: None,
+        clamp_heat: None,
+        coil_heat: None,
+    };
+
     /// A channel that must stay on at least `min_on` ticks and off at least `min_off` ticks (both
     /// ≥ 1, ≤ [`MAX_LIMIT`]); no maximum on-time, no inrush window, no hold phase, no thermal
     /// buckets.
@@ -234,6 +246,12 @@ impl ChannelLimits {
     }
 
     fn validated(self) -> Result<Self, LimitsError> {
+        self.check()?;
+        Ok(self)
+    }
+
+    /// The checks of [`ChannelLimits::validated`], in place.
+    fn check(&self) -> Result<(), LimitsError> {
         if self.min_on.0 == 0 {
             return Err(LimitsError::ZeroMinOn);
         }
@@ -272,7 +290,7 @@ impl ChannelLimits {
                 }
             }
         }
-        Ok(self)
+        Ok(())
     }
 
     /// Limits from a timing budget computed at tick rate `rate` (the design's), rounding toward
@@ -298,42 +316,58 @@ impl ChannelLimits {
         heat: &HeatRatings,
         hold_duty: Option<HoldDuty>,
     ) -> Result<Self, LimitsError> {
-        let t = &budget.ticks;
+        Self::from_summary(&BudgetSummary::of(budget), rate, heat, hold_duty)
+    }
+
+    /// [`ChannelLimits::from_budget`] from the few budget figures it uses (out of line: its
+    /// bucket arithmetic does not sit below the budget in `from_design`).
+    #[inline(never)]
+    fn from_summary(
+        s: &BudgetSummary,
+        rate: TickRate,
+        heat: &HeatRatings,
+        hold_duty: Option<HoldDuty>,
+    ) -> Result<Self, LimitsError> {
+        // The same steps and checks as `new(..)?.with_inrush_window(..)?.with_hold(..)?…`, on one
+        // value in place (each `with_*` would return a copy).
+        let t = &s.ticks;
         let min_on = t.min_on.max(Ticks(1));
-        let mut limits = Self::new(min_on, t.min_off.max(Ticks(1)))?
-            .with_inrush_window(t.pull_in.min(min_on))?;
-        let corners = [
-            &budget.nominal,
-            &budget.pull_in_corner,
-            &budget.release_corner,
-        ];
-        let max_of = |f: &dyn Fn(&crate::design::Figures) -> f32| {
-            corners.iter().fold(0.0f32, |m, c| libm::fmaxf(m, f(c)))
+        let mut limits = Self {
+            min_on,
+            min_off: t.min_off.max(Ticks(1)),
+            max_on: None,
+            inrush_window: Ticks(0),
+            hold: None,
+            clamp_heat: None,
+            coil_heat: None,
         };
+        limits.check()?;
+        limits.inrush_window = t.pull_in.min(min_on);
+        limits.check()?;
         if let Some(d) = hold_duty {
-            limits = limits.with_hold(HoldPhase::new(min_on, d)?)?;
+            limits.hold = Some(HoldPhase::new(min_on, d)?);
+            limits.check()?;
         }
         if heat.clamp.is_some() || heat.coil.is_some() {
             thermal_built()?;
         }
         if let Some(r) = heat.clamp {
-            let e = max_of(&|c| c.energy.clamp.value());
             let b = ThermalBucket::from_rating(r.power, r.time_constant, rate)?
-                .with_per_pulse(joules_to_uj_up(Joules::new(e))?);
-            limits = limits.with_clamp_heat(b)?;
+                .with_per_pulse(joules_to_uj_up(Joules::new(s.clamp_energy))?);
+            limits.clamp_heat = Some(b);
+            limits.check()?;
         }
         if let Some(r) = heat.coil {
-            let e = max_of(&|c| c.energy.winding.value());
-            let p = max_of(&|c| c.point.supply.value() * c.final_current.value());
-            let on = EnergyRate::from_watts(Watts::new(p), rate)?;
+            let on = EnergyRate::from_watts(Watts::new(s.supply_power), rate)?;
             let hold = match limits.hold {
                 Some(h) => on.scaled_by(h.ceiling),
                 None => on,
             };
             let b = ThermalBucket::from_rating(r.power, r.time_constant, rate)?
-                .with_per_pulse(joules_to_uj_up(Joules::new(e))?)
+                .with_per_pulse(joules_to_uj_up(Joules::new(s.winding_energy))?)
                 .with_rates(on, hold);
-            limits = limits.with_coil_heat(b)?;
+            limits.coil_heat = Some(b);
+            limits.check()?;
         }
         Ok(limits)
     }
@@ -345,6 +379,9 @@ impl ChannelLimits {
     /// time firmware may lower it to the duty for the present supply
     /// ([`super::Scheduler::set_hold_duty`]).
     ///
+    /// Stack: the budget and the hold figures are reduced to the few numbers the limits need in
+    /// frames of their own, so they never sit on the stack together.
+    ///
     /// # Errors
     /// As [`ChannelLimits::from_budget`]; a hold current the coil cannot reach, or a PWM too slow
     /// for continuous conduction, as [`LimitsError::Design`].
@@ -353,18 +390,12 @@ impl ChannelLimits {
         heat: &HeatRatings,
         hold: Option<HoldPlan>,
     ) -> Result<Self, LimitsError> {
-        let budget = design.budget().map_err(LimitsError::Design)?;
+        let summary = BudgetSummary::of_design(design)?;
         let duty = match hold {
-            Some(h) => {
-                let corners = design
-                    .hold_at_corners(h.current, h.frequency)
-                    .map_err(LimitsError::Design)?;
-                let d = corners.iter().fold(0.0f32, |m, c| libm::fmaxf(m, c.duty));
-                Some(HoldDuty::from_fraction(d)?)
-            }
+            Some(h) => Some(hold_duty_of(design, &h)?),
             None => None,
         };
-        Self::from_budget(&budget, design.tick_rate, heat, duty)
+        Self::from_summary(&summary, design.tick_rate, heat, duty)
     }
 
     /// Minimum on-time, ticks.
@@ -418,6 +449,89 @@ impl ChannelLimits {
             []
         }
     }
+}
+
+/// The figures of a timing budget that channel limits are built from: its tick constants and
+/// the largest clamp energy, winding energy and supply power `V·I∞` over its three points.
+struct BudgetSummary {
+    ticks: crate::design::TickBudget,
+    clamp_energy: f32,
+    winding_energy: f32,
+    supply_power: f32,
+}
+
+impl BudgetSummary {
+    fn of(b: &TimingBudget) -> Self {
+        let corners = [&b.nominal, &b.pull_in_corner, &b.release_corner];
+        let max_of = |f: &dyn Fn(&crate::design::Figures) -> f32| {
+            corners.iter().fold(0.0f32, |m, c| libm::fmaxf(m, f(c)))
+        };
+        Self {
+            ticks: b.ticks,
+            clamp_energy: max_of(&|c| c.energy.clamp.value()),
+            winding_energy: max_of(&|c| c.energy.winding.value()),
+            supply_power: max_of(&|c| c.point.supply.value() * c.final_current.value()),
+        }
+    }
+
+    /// The summary of `design.budget()`, computed with one point's figures on the stack at a
+    /// time (folded into the maxima before the next point is built in the same place).
+    #[inline(never)]
+    fn of_design(design: &DriverDesign) -> Result<Self, LimitsError> {
+        let mut fold = Folding {
+            scratch: crate::design::Figures::UNSET,
+            maxima: [0.0; 3],
+            started: false,
+        };
+        let t = design.budget_core(&mut fold).map_err(LimitsError::Design)?;
+        fold.fold();
+        Ok(Self {
+            ticks: t.ticks,
+            clamp_energy: fold.maxima[0],
+            winding_energy: fold.maxima[1],
+            supply_power: fold.maxima[2],
+        })
+    }
+}
+
+/// One figure slot handed out for every point of the budget, its previous point folded into the
+/// maxima of [`BudgetSummary`] first (same order and the same `fmaxf` as [`BudgetSummary::of`]).
+struct Folding {
+    scratch: crate::design::Figures,
+    /// Clamp energy, winding energy, supply power.
+    maxima: [f32; 3],
+    started: bool,
+}
+
+impl Folding {
+    fn fold(&mut self) {
+        let c = &self.scratch;
+        let m = &mut self.maxima;
+        m[0] = libm::fmaxf(m[0], c.energy.clamp.value());
+        m[1] = libm::fmaxf(m[1], c.energy.winding.value());
+        m[2] = libm::fmaxf(m[2], c.point.supply.value() * c.final_current.value());
+    }
+}
+
+impl crate::design::FigureSlots for Folding {
+    fn slot(&mut self, _point: usize) -> &mut crate::design::Figures {
+        if self.started {
+            self.fold();
+        }
+        self.started = true;
+        &mut self.scratch
+    }
+}
+
+/// The highest hold duty over the design's corners for `hold`, rounded up (its own frame: the
+/// three hold figures never sit below the budget).
+#[inline(never)]
+fn hold_duty_of(design: &DriverDesign, hold: &HoldPlan) -> Result<HoldDuty, LimitsError> {
+    let corners = design
+        .hold_at_corners(hold.current, hold.frequency)
+        .map_err(LimitsError::Design)?;
+    let d = corners.iter().fold(0.0f32, |m, c| libm::fmaxf(m, c.duty));
+    HoldDuty::from_fraction(d)
 }
 
 #[cfg(test)]
@@ -489,6 +603,53 @@ mod tests {
         }
         assert_eq!(HoldDuty(32_768).compare(1000), 500);
         assert_eq!(HoldDuty(1).compare(1000), 1);
+    }
+
+    /// `from_design` folds the budget's three points one at a time; `from_budget` reads them
+    /// from the whole budget: the same limits, buckets and errors.
+    #[test]
+    fn from_design_equals_from_budget_of_the_same_design() {
+        use crate::physics::circuit::tests::valve;
+        use crate::physics::circuit::{SupplyRange, TemperatureRange};
+        use crate::physics::clamp::Clamp;
+        use crate::units::{Celsius, Volts};
+        let rate = TickRate::new(100_000).unwrap();
+        let heat = HeatRatings {
+            clamp: Some(HeatRating {
+                power: Watts::new(0.5),
+                time_constant: Seconds::new(10.0),
+            }),
+            coil: Some(HeatRating {
+                power: Watts::new(3.0),
+                time_constant: Seconds::new(120.0),
+            }),
+        };
+        for clamp in [
+            Clamp::diode_zener(Volts::new(0.8), Volts::new(30.0)).unwrap(),
+            Clamp::diode(Volts::new(0.8)).unwrap(),
+        ] {
+            let mut design = DriverDesign::new(
+                valve(clamp),
+                SupplyRange::with_tolerance(Volts::new(24.0), 0.1).unwrap(),
+                TemperatureRange::new(Celsius::new(-25.0), Celsius::new(70.0)).unwrap(),
+                rate,
+            );
+            design.tolerances.resistance = 0.05;
+            let budget = design.budget().unwrap();
+            for h in [HeatRatings::default(), heat] {
+                assert_eq!(
+                    ChannelLimits::from_design(&design, &h, None),
+                    ChannelLimits::from_budget(&budget, rate, &h, None)
+                );
+            }
+            // A coil that cannot pull in at the hot corner: both refuse it alike.
+            design.supply = SupplyRange::with_tolerance(Volts::new(12.0), 0.1).unwrap();
+            let refused = ChannelLimits::from_design(&design, &heat, None);
+            assert_eq!(
+                refused,
+                Err(LimitsError::Design(design.budget().unwrap_err()))
+            );
+        }
     }
 
     #[test]

@@ -65,6 +65,7 @@
 //! --write` and checked against budgets in CI; a submit that a full thermal bucket delays costs
 //! several times an ordinary one because of the bisection.
 
+mod build;
 mod clock;
 mod errors;
 mod event;
@@ -186,45 +187,6 @@ pub struct Scheduler<const CHANNELS: usize, const QUEUE: usize> {
 }
 
 impl<const CHANNELS: usize, const QUEUE: usize> Scheduler<CHANNELS, QUEUE> {
-    const CAPACITY_OK: () = assert!(
-        QUEUE >= 1 && QUEUE <= 255 && CHANNELS >= 1 && CHANNELS <= 256,
-        "Scheduler needs 1..=255 queue slots and 1..=256 channels"
-    );
-
-    /// A scheduler with these channel limits, at most `inrush_cap` coils in their inrush window
-    /// at once (≥ 1; use `CHANNELS` for no cap), its clock starting at `now`.
-    ///
-    /// # Errors
-    /// [`LimitsError::ZeroInrushCap`].
-    pub fn new(
-        limits: [ChannelLimits; CHANNELS],
-        inrush_cap: u8,
-        now: Instant,
-    ) -> Result<Self, LimitsError> {
-        #[allow(clippy::let_unit_value)]
-        let () = Self::CAPACITY_OK;
-        if inrush_cap == 0 {
-            return Err(LimitsError::ZeroInrushCap);
-        }
-        let channels = core::array::from_fn(|i| Channel {
-            tail: None,
-            started: None,
-            duty: match limits[i].hold() {
-                Some(h) => h.duty(),
-                None => HoldDuty(0),
-            },
-        });
-        Ok(Self {
-            limits,
-            channels,
-            slots: [Pulse::FREE; QUEUE],
-            order: [0; QUEUE],
-            len: 0,
-            inrush_cap,
-            clock: Clock::new(now),
-        })
-    }
-
     /// The limits of `channel`.
     pub fn limits(&self, channel: ChannelId) -> Option<&ChannelLimits> {
         self.limits.get(channel.0 as usize)

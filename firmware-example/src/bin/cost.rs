@@ -3,7 +3,9 @@
 //! (or `cargo run --release --bin cost --target <triple>` here).
 //!
 //! Each measured call is one `case!` line: a name (letters, digits, `_`) and an expression whose
-//! value is passed through `black_box` so it cannot be optimised away, plus a short description.
+//! value is kept where the call returned it and passed by reference through `black_box`, so it
+//! cannot be optimised away (and is not copied again for the harness: a call's figure holds its
+//! result once, as its caller would), plus a short description.
 //! Inputs must also go through `black_box` (constants would be folded through the call).
 //! Output lines have the form `cost <name> insns <n> stack <bytes> | <what>`, which
 //! `cargo xtask cost` parses.
@@ -31,13 +33,13 @@ use fw::ticks::SysTickClock;
 macro_rules! case {
     ($m:expr, $name:literal, $what:literal, setup $s:block, $e:expr) => {{
         let c = $m.cost_after(&mut || $s, &mut || {
-            let _ = black_box($e);
+            black_box(&$e);
         });
         report($name, $what, c);
     }};
     ($m:expr, $name:literal, $what:literal, $e:expr) => {{
         let c = $m.cost(&mut || {
-            let _ = black_box($e);
+            black_box(&$e);
         });
         report($name, $what, c);
     }};
@@ -140,6 +142,58 @@ impl Inputs {
     }
 }
 
+/// The start-up calls of the core: what a firmware builds from its designs before its loop
+/// (channel limits, the scheduler, the diagnosis bands, a driver channel configuration).
+#[inline(never)]
+fn startup_cases(m: &mut Meter, valve: &DriverDesign) {
+    use coilwise_driver::{ChannelConfig, ChannelOptions};
+    case!(
+        m,
+        "limits_from_design",
+        "channel limits of the demo valve from its design (ChannelLimits::from_design)",
+        ChannelLimits::from_design(black_box(valve), &HeatRatings::default(), None)
+    );
+    let Ok(limits) = ChannelLimits::from_design(valve, &HeatRatings::default(), None) else {
+        fw::exit(fw::status::CHECK_FAILED)
+    };
+    let four = [limits; 4];
+    case!(
+        m,
+        "sched_new",
+        "Scheduler::new, 4 channels x 8 slots, returned by value (the 896-byte result included)",
+        Scheduler::<4, 8>::new(black_box(four), 1, Instant(0))
+    );
+    let slot: RefCell<Option<Scheduler<4, 8>>> = RefCell::new(None);
+    case!(
+        m,
+        "sched_new_in",
+        "Scheduler::new_in, 4 channels x 8 slots, built in place in caller-supplied storage",
+        Scheduler::new_in(&mut slot.borrow_mut(), black_box(&four), 1, Instant(0))
+            .map(|s| s.pending())
+    );
+    let cond = Conditions::default();
+    case!(
+        m,
+        "expected_new",
+        "healthy bands of the demo valve (Expected::new, at start-up per diagnosed channel)",
+        Expected::new(black_box(valve), &cond)
+    );
+    let threshold = Amps::new(0.5 * valve.circuit.coil().pull_in_current().value());
+    case!(
+        m,
+        "threshold_band_new",
+        "comparator band at 50 % of pull-in (ThresholdBand::new, at commissioning)",
+        ThresholdBand::new(black_box(valve), &cond, black_box(threshold))
+    );
+    let options = ChannelOptions::new(Ticks(100));
+    case!(
+        m,
+        "channel_config",
+        "driver channel configuration of the demo valve (ChannelConfig::from_design)",
+        ChannelConfig::from_design(black_box(valve), &options)
+    );
+}
+
 /// The driver's `service()` on one valve channel with replaying hardware (`fw::fake`): idle,
 /// applying one on edge (arming the capture), and collecting and judging a 64-sample rise
 /// (fit, comparator, verdict, event). Each measured call gets its state from an unmeasured
@@ -161,11 +215,40 @@ fn driver_cases(m: &mut Meter, trace: &[u16; 64]) {
         .map_or(1e-5, |d| d.probe.length.get() as f32 * 1e-6 / 64.0);
     let (i_inf, tau) = (24.0f32 / 72.65, 0.30f32 / 72.65);
     let probe_trace = fw::fake::rise_trace(i_inf, tau, probe_period, 0.000_201_4);
-    let sense = ReplaySense::new(*trace, probe_trace, 1762, 0.000_201_4);
-    let hw = [ChannelHw::new(NullPin, NullPwm, sense)];
     let Ok(rate) = coilwise::TickRate::new(1_000_000) else {
         fw::exit(fw::status::CHECK_FAILED)
     };
+    // Start-up: the driver built on its (caller-supplied) state, then built and commissioned
+    // (converter zero from the replayed sense, first diagnostic pulse scheduled). The hardware
+    // handles are made inside the measured call, as a firmware's start-up makes them.
+    let start_state = RefCell::new(DriverState::<1, 8, 8>::new());
+    let new_driver = |st: &mut DriverState<1, 8, 8>| {
+        let sense = ReplaySense::new(trace, &probe_trace, 1762, 0.000_201_4);
+        let hw = [ChannelHw::new(NullPin, NullPwm, sense)];
+        Driver::new(&configs, st, hw, rate, Instant(0), 1).map(|_| ())
+    };
+    case!(
+        m,
+        "driver_new",
+        "Driver::new: 1 valve channel on replaying hardware, state supplied by the caller",
+        new_driver(&mut start_state.borrow_mut())
+    );
+    case!(
+        m,
+        "driver_new_commission",
+        "Driver::new + commission (converter zero, first diagnostic pulse scheduled)",
+        {
+            let mut st = start_state.borrow_mut();
+            let sense = ReplaySense::new(trace, &probe_trace, 1762, 0.000_201_4);
+            let hw = [ChannelHw::new(NullPin, NullPwm, sense)];
+            match Driver::new(&configs, &mut st, hw, rate, Instant(0), 1) {
+                Ok(mut d) => d.commission(black_box(Instant(0))).is_ok(),
+                Err(_) => false,
+            }
+        }
+    );
+    let sense = ReplaySense::new(trace, &probe_trace, 1762, 0.000_201_4);
+    let hw = [ChannelHw::new(NullPin, NullPwm, sense)];
     let Ok(mut d) = Driver::new(&configs, &mut state, hw, rate, Instant(0), 1) else {
         fw::exit(fw::status::CHECK_FAILED)
     };
@@ -338,6 +421,7 @@ fn main() -> ! {
         due.borrow_mut()
             .poll(black_box(Instant(2_000)), &mut *edges.borrow_mut())
     );
+    startup_cases(&mut m, &valve);
     driver_cases(&mut m, &inputs.trace);
     // ------------------------------------------------------------------------------------------
 
