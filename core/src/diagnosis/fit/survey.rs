@@ -70,10 +70,76 @@ fn count_limit(full: f32) -> i32 {
     }
 }
 
+/// Longest window whose survey sums are kept in integers: `ΣS_k²` stays below 2⁶² for counts of
+/// 16 bits. Longer traces take the f32 sums.
+const INT_SURVEY_MAX: usize = 1024;
+
 /// The survey loop for exact integer counts ([`Sample::EXACT_COUNT`]): the sums of
 /// `head, tail…` above `zero`, the last count, and a word that is negative exactly when some
 /// count is below its predecessor (the OR of the differences; no compare per sample).
+///
+/// Up to [`INT_SURVEY_MAX`] samples the five running sums are kept exactly in integers on the
+/// raw counts x (`|x| ≤ 65 535`, so `|S| < 2²⁶`, `S² < 2⁵²`, every sum below 2⁶²) and moved to
+/// `c = x − zero` once at the end: with `δ = −zero`, `S_k = S'_k + (k+1)δ`, hence
+/// `ΣS = R' + δ·m(m+1)/2`, `ΣR = Q' + δ·m(m+1)(m+2)/6`,
+/// `ΣS² = P' + 2δ·((m+1)R' − Q') + δ²·m(m+1)(2m+1)/6`, `Σc² = C' + 2δS' + mδ²` (summation by
+/// parts: `Σk·S'_k = m·R' − Q'`). No soft-float operation per sample on a target without an
+/// FPU.
 fn count_pass<S: Sample>(head: S, tail: &[S], zero: f32) -> (Sums, i32, i32) {
+    if tail.len() >= INT_SURVEY_MAX {
+        return count_pass_f32(head, tail, zero);
+    }
+    let x0 = head.to_count();
+    let (mut s1, mut r1, mut q1) = (x0, x0 as i64, x0 as i64);
+    let (mut p1, mut c1) = (square_u64(x0), square_u64(x0));
+    let (mut last, mut dips) = (x0, 0i32);
+    for v in tail {
+        let x = v.to_count();
+        dips |= x.wrapping_sub(last);
+        last = x;
+        s1 = s1.wrapping_add(x);
+        r1 = r1.wrapping_add(s1 as i64);
+        q1 = q1.wrapping_add(r1);
+        p1 = p1.wrapping_add(square_u64(s1));
+        c1 = c1.wrapping_add(x.wrapping_mul(x) as u32 as u64);
+    }
+    let m = (tail.len() + 1) as f32;
+    let d = -zero;
+    let (sf, rf, qf) = (s1 as f32, r1 as f32, q1 as f32);
+    let sums = if d == 0.0 {
+        Sums {
+            s: sf,
+            r: rf,
+            q: qf,
+            p: p1 as f32,
+            c: c1 as f32,
+        }
+    } else {
+        Sums {
+            s: sf + m * d,
+            r: rf + d * (m * (m + 1.0) * 0.5),
+            q: qf + d * (m * (m + 1.0) * (m + 2.0) / 6.0),
+            p: p1 as f32
+                + 2.0 * d * ((m + 1.0) * rf - qf)
+                + d * d * (m * (m + 1.0) * (2.0 * m + 1.0) / 6.0),
+            c: c1 as f32 + 2.0 * d * sf + m * d * d,
+        }
+    };
+    (sums, last, dips)
+}
+
+/// `x²` for |x| < 2³¹ as u64 from 16-bit halves (three 32-bit multiplies).
+#[inline(always)]
+fn square_u64(x: i32) -> u64 {
+    let a = x.unsigned_abs();
+    let (hi, lo) = (a >> 16, a & 0xffff);
+    (((hi * hi) as u64) << 32)
+        .wrapping_add(((2 * hi * lo) as u64) << 16)
+        .wrapping_add((lo * lo) as u64)
+}
+
+/// [`count_pass`] in f32 sums, for traces longer than the integer bounds.
+fn count_pass_f32<S: Sample>(head: S, tail: &[S], zero: f32) -> (Sums, i32, i32) {
     let mut sums = Sums::new(head.to_f32() - zero);
     let (mut last, mut dips) = (head.to_count(), 0i32);
     let mut step = |v: S| {
@@ -109,7 +175,14 @@ fn count_extent<S: Sample>(head: S, tail: &[S]) -> (i32, i32) {
     (hi, drop)
 }
 
-pub(super) fn survey<S: Sample>(samples: &[S], sampling: &Sampling) -> Result<Survey, TraceFault> {
+/// The survey of `samples`: trace checks and the one-pass estimate. `int_sums`: keep the
+/// running sums of exact counts in integers ([`count_pass`]; for the integer path, where f32
+/// operations are emulated) rather than in f32.
+pub(super) fn survey<S: Sample>(
+    samples: &[S],
+    sampling: &Sampling,
+    int_sums: bool,
+) -> Result<Survey, TraceFault> {
     let n = samples.len();
     let zero = sampling.zero();
     let full = sampling.full_scale();
@@ -142,7 +215,11 @@ pub(super) fn survey<S: Sample>(samples: &[S], sampling: &Sampling) -> Result<Su
         let mut window = tail;
         let mut truncated = false;
         let (sums, hi, drop) = loop {
-            let (sums, last, dips) = count_pass(*head, window, zero);
+            let (sums, last, dips) = if int_sums {
+                count_pass(*head, window, zero)
+            } else {
+                count_pass_f32(*head, window, zero)
+            };
             // A trace that never falls has its maximum at the end and no drop.
             let (hi, drop) = if dips < 0 {
                 count_extent(*head, window)

@@ -120,7 +120,7 @@ fn newton_square_root_is_accurate() {
 
 #[test]
 fn integer_check_matches_the_float_check() {
-    // u16 takes the integer survey (EXACT_COUNT), u32 the f32 one: same counts, same result,
+    // u16 takes the integer checks (EXACT_COUNT), u32 the f32 ones: same counts, same result,
     // for rising, dithered, falling, saturating and too-short traces.
     let sm = Sampling::adc(Seconds::new(1.0e-4), 12, Amps::new(0.4095))
         .unwrap()
