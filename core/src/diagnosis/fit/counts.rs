@@ -6,9 +6,10 @@
 //!
 //! The model is centred on the window's first sample: `e_k = q^k`, `q = e^(−λ)`, k = 0…m−1.
 //!
-//! - **Weights.** `u_k = q^k` in Q32 (`u32`, `u_0 = 2³² − 1`) by `u_(k+1) = ⌊u_k·q/2³²⌋`
-//!   ([`mul_hi`]; q in Q32 from [`exp_neg_q32`], relative error below 10⁻⁸, and each step
-//!   truncates by at most 2⁻³²: after 256 steps `u_k` is within 3·10⁻⁷ of `q^k`), rounded to
+//! - **Weights.** `u_k = q^k` in Q32 (`u32`, `u_0 = 2³² − 1`) by `u_(k+1) ≈ ⌊u_k·q/2³²⌋`
+//!   ([`mul_hi_approx`], three `MULS`, at most 3·2⁻³² low per step; q in Q32 from
+//!   [`exp_neg_q32`], relative error below 10⁻⁸: after 256 steps `u_k` is within 3·10⁻⁶ of
+//!   `q^k`, a tenth of the weight's resolution), rounded to
 //!   the Q15 weight `v_k = round(u_k/2¹⁷) ≤ 2¹⁵`. The *same* `v_k` enters every sum, so the pass
 //!   is the exact least-squares problem in the basis `{1, v_k/2¹⁵, k·v_k/2¹⁵}`, which differs
 //!   from `{1, q^k, k·q^k}` by at most 2⁻¹⁶ (0.08 count on a 5 000-count amplitude, against a
@@ -37,7 +38,7 @@
 //! `docs/diagnosis.md` §3a.
 
 use super::centred::Sums3;
-use super::fixed::{exp_neg_q32, mul_hi};
+use super::fixed::{exp_neg_q32, mul_hi_approx};
 use super::MAX_COUNT_WINDOW;
 use crate::diagnosis::sample::Sample;
 
@@ -84,7 +85,7 @@ pub(super) fn pass<S: Sample>(
     let mut big = 0u32;
     for x in win {
         let v = ((u >> 16) + 1) >> 1;
-        u = mul_hi(u, q32);
+        u = mul_hi_approx(u, q32);
         // |x − x₀| ≤ 65 535 for the exact-count types.
         let c = x.to_count().wrapping_sub(base);
         sv = sv.wrapping_add(v);
@@ -190,7 +191,7 @@ mod tests {
             let mut cols = Vec::new();
             for (k, &x) in trace.iter().enumerate() {
                 let v = (((u >> 16) + 1) >> 1) as f64;
-                u = mul_hi(u, q32);
+                u = mul_hi_approx(u, q32);
                 // The Q4 residual as the pass forms it: 2·ah·v + round(al·v/2¹⁵).
                 let rq = 16.0 * (x as f64 - trace[0] as f64) - l_fix
                     + ((a_q as u32 >> 16) as f64 * v * 2.0

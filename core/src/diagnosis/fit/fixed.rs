@@ -1,17 +1,16 @@
 //! Fixed-point exponentials for the fits and the verdict: `e^(−x)` from a 16-entry table of
 //! `2^(−j/16)` and a five-term series in Q32 integer arithmetic.
 //!
-//! `x = (16n + j)·ln2/16 + g` with `0 ≤ g < ln2/16` (Cody–Waite reduction in f32, the high part
-//! of `ln2/16` exact in 12 bits), then `e^(−x) = 2^(−n)·2^(−j/16)·(1 − t)`, `t = 1 − e^(−g)`
+//! `x = (16n + j)·ln2/16 + g` with `0 ≤ g < ln2/16` (the reduction in Q48 integers), then `e^(−x) = 2^(−n)·2^(−j/16)·(1 − t)`, `t = 1 − e^(−g)`
 //! summed as `g − g²/2 + g³/6 − g⁴/24 + g⁵/120` in Q32 (the first term left out, `g⁶/720`, is
 //! below 10⁻¹¹). Every product is `⌊a·b/2³²⌋`, exact in integers: the result is bit-identical on
 //! every target. Accuracy (tested against f64): the Q32 mantissa within 8·10⁻⁹ relative for
 //! `x < 88`; as f32 within one rounding (6·10⁻⁸) of the true value.
 //!
 //! Why not libm: on a Cortex-M0 without an FPU `libm::expf` works in soft f64 and costs about
-//! 2 000 instructions; this costs about 150 (a few soft-f32 operations for the reduction, eight
-//! 32 × 32 → high-32 products of about 14 instructions each). On a Cortex-M4F the products are one
-//! `UMULL` each, and the cost is that of `libm::expf`.
+//! 2 000 instructions; this uses no floating-point operation at all (the argument and the result
+//! are taken apart and put together by their bits) and costs a few hundred. On a Cortex-M4F the
+//! products are one `UMULL` each.
 
 /// `⌊a·b/2³²⌋`.
 ///
@@ -35,6 +34,18 @@ pub(crate) fn mul_hi(a: u32, b: u32) -> u32 {
     }
 }
 
+/// `⌊a·b/2³²⌋` less at most 2: the three cross products of the 16-bit halves without the low
+/// one and the carries below bit 32 (three `MULS`). For the weight recurrence of the count fit,
+/// where an error of 2⁻³¹ per step is far below the Q15 weight's resolution. Written so that the
+/// compiler does not recognise a full 32 × 32 → 64 product (on ARMv6-M it would call a library
+/// multiply).
+#[inline(always)]
+pub(crate) fn mul_hi_approx(a: u32, b: u32) -> u32 {
+    let (a1, a0) = (a >> 16, a & 0xffff);
+    let (b1, b0) = (b >> 16, b & 0xffff);
+    a1 * b1 + ((a1 * b0) >> 16) + ((a0 * b1) >> 16)
+}
+
 /// `round(2³²·2^(−j/16))`, j = 1…15 (j = 0 is 2³², handled apart).
 const POW2: [u32; 15] = [
     4_112_874_773,
@@ -54,12 +65,10 @@ const POW2: [u32; 15] = [
     2_242_560_872,
 ];
 
-/// ln2/16 split for the reduction: the high part has 12 significant bits (2839/2¹⁶), so
-/// `k·C_HI` is exact for k < 2¹².
-const C_HI: f32 = 2839.0 / 65536.0;
-const C_LO: f32 = 1.996_636_5e-6;
-/// 16/ln2.
-const INV_C: f32 = 23.083_12;
+/// ln2/16 in Q48, `round(2⁴⁸·ln2/16)`.
+const C_Q48: u64 = 12_193_974_156_573;
+/// ⌊2³²·(16/ln2)/2²⁴⌋: `mul_hi(x_Q24, INV_C) ≈ x·16/ln2` from below, off by at most one.
+const INV_C: u32 = 5_909;
 /// ⌊2³²/3⌋ and ⌊2³²/5⌋.
 const THIRD: u32 = 1_431_655_765;
 const FIFTH: u32 = 858_993_459;
@@ -67,23 +76,70 @@ const FIFTH: u32 = 858_993_459;
 /// Largest argument handled: `e^(−x)` is below f32's normal range beyond it (and 0 is returned).
 pub(crate) const EXP_MAX: f32 = 87.0;
 
+/// `x` (finite, 0 ≤ x < 2⁸) in Q48 from its bits: exact for x ≥ 2⁻²⁵, truncated below.
+fn to_q48(x: f32) -> u64 {
+    let bits = x.to_bits();
+    let e = (bits >> 23) as i32;
+    let mant = ((bits & 0x7f_ffff) | 0x80_0000) as u64;
+    // x = mant·2^(e − 150); in Q48: mant·2^(e − 102).
+    let sh = e - 102;
+    if e == 0 {
+        0
+    } else if sh >= 0 {
+        mant << (sh as u32 & 63)
+    } else if sh > -24 {
+        mant >> ((-sh) as u32)
+    } else {
+        0
+    }
+}
+
+/// `v·2⁻³²` as f32, rounded to nearest (integer operations only).
+fn q32_to_f32(v: u32) -> f32 {
+    if v == 0 {
+        return 0.0;
+    }
+    let lz = v.leading_zeros();
+    // v ∈ [2^(31 − lz), 2^(32 − lz)): the value's exponent field is 126 − lz.
+    let (mut m24, mut exp) = if lz < 8 {
+        let sh = 8 - lz;
+        ((v >> sh) + ((v >> (sh - 1)) & 1), 126 - lz)
+    } else {
+        (v << (lz - 8), 126 - lz)
+    };
+    if m24 >= 1 << 24 {
+        m24 >>= 1;
+        exp += 1;
+    }
+    f32::from_bits((exp << 23) | (m24 & 0x7f_ffff))
+}
+
+/// `f·2⁻ⁿ` for a normal f32 f by its exponent field (0 when it would leave the normal range).
+fn scale_down(f: f32, n: u32) -> f32 {
+    let bits = f.to_bits();
+    let e = bits >> 23;
+    if e > n {
+        f32::from_bits(bits - (n << 23))
+    } else {
+        0.0
+    }
+}
+
 /// `e^(−x)` for `0 ≤ x < EXP_MAX` as `(m, n)`: `e^(−x) = m·2^(−32−n)` with the mantissa
-/// `m ∈ (2³¹, 2³²]` as u64. `None` for x outside the range or NaN.
+/// `m ∈ (2³¹, 2³²]` as u64. `None` for x outside the range or NaN. The reduction is in
+/// integers: x in Q48 (exact for x ≥ 2⁻²⁵), `k = ⌊x·16/ln2⌋` and `g = x − k·ln2/16` in Q48
+/// (`ln2/16` to 2⁻⁴⁹, so `g` is within 10⁻¹¹).
 fn exp_parts(x: f32) -> Option<(u64, u32)> {
     if !(0.0..EXP_MAX).contains(&x) {
         return None;
     }
-    // x·16/ln2 < 2009: exact enough to pick the interval; g is corrected below.
-    let k = (x * INV_C) as u32;
-    let kf = k as f32;
-    let g = (x - kf * C_HI) - kf * C_LO;
-    // Rounding can put g a hair outside [0, ln2/16): clamp (an error of ~10⁻⁹).
-    let g = if g > 0.0 { g } else { 0.0 };
-    let g = (g * 4_294_967_296.0 + 0.5) as u32; // `as` saturates; g < 0.0434: g·2³² < 2²⁸.
+    let (k, g) = reduce(x);
+    // The last two terms need not be exact (below 10⁻⁷ of the sum; each product at most 2⁻³¹
+    // low).
     let p2 = mul_hi(g, g) >> 1;
     let p3 = mul_hi(mul_hi(p2, g), THIRD);
-    let p4 = mul_hi(p3, g) >> 2;
-    let p5 = mul_hi(mul_hi(p4, g), FIFTH);
+    let p4 = mul_hi_approx(p3, g) >> 2;
+    let p5 = mul_hi_approx(mul_hi_approx(p4, g), FIFTH);
     // Alternating and decreasing: no step wraps.
     let t = g - p2 + p3 - p4 + p5;
     let (j, n) = (k & 15, k >> 4);
@@ -94,12 +150,48 @@ fn exp_parts(x: f32) -> Option<(u64, u32)> {
     Some((m, n))
 }
 
-/// `2^(−n)` as f32 for n ≤ 126, else 0.
-fn pow2_neg(n: u32) -> f32 {
-    if n <= 126 {
-        f32::from_bits((127 - n) << 23)
+/// `x = k·ln2/16 + g`: `(k, round(2³²·g))`, `0 ≤ g < ln2/16`, for `0 ≤ x < EXP_MAX`. With an
+/// FPU in f32 (Cody–Waite: the high part of ln2/16 has 12 bits, so `k·C_HI` is exact; g within
+/// 2·10⁻⁹); without one in Q48 integers (g within 10⁻¹¹), where each f32 operation would cost
+/// about a hundred instructions.
+fn reduce(x: f32) -> (u32, u32) {
+    if cfg!(target_abi = "eabihf") {
+        const C_HI: f32 = 2839.0 / 65536.0;
+        const C_LO: f32 = 1.996_636_5e-6;
+        const INV_C_F: f32 = 23.083_12;
+        let k = (x * INV_C_F) as u32;
+        let kf = k as f32;
+        let g = (x - kf * C_HI) - kf * C_LO;
+        // Rounding can put g a hair outside [0, ln2/16): clamp (an error of ~10⁻⁹).
+        let g = if g > 0.0 { g } else { 0.0 };
+        (k, (g * 4_294_967_296.0 + 0.5) as u32)
     } else {
-        0.0
+        let xq = to_q48(x);
+        let mut k = mul_hi((xq >> 24) as u32, INV_C);
+        let mut kc = k as u64 * C_Q48;
+        while kc > xq {
+            k -= 1;
+            kc -= C_Q48;
+        }
+        let mut g = xq - kc;
+        while g >= C_Q48 {
+            k += 1;
+            g -= C_Q48;
+        }
+        // g < ln2/16 < 2⁻⁴: g·2³² < 2²⁸.
+        (k, ((g + (1 << 15)) >> 16) as u32)
+    }
+}
+
+/// `m·2^(−32−n)` as f32 (m ≤ 2³²).
+fn from_parts(m: u64, n: u32) -> f32 {
+    if cfg!(target_abi = "eabihf") {
+        return scale_down(m as f32 * (1.0 / 4_294_967_296.0), n);
+    }
+    if m >= 1 << 32 {
+        scale_down(1.0, n)
+    } else {
+        scale_down(q32_to_f32(m as u32), n)
     }
 }
 
@@ -113,7 +205,7 @@ pub(crate) fn exp_neg(x: f32) -> f32 {
         return 1.0;
     }
     match exp_parts(x) {
-        Some((m, n)) => (m as f32) * (1.0 / 4_294_967_296.0) * pow2_neg(n),
+        Some((m, n)) => from_parts(m, n),
         None => 0.0,
     }
 }
@@ -138,8 +230,8 @@ pub(crate) fn one_minus_exp_neg(x: f32) -> f32 {
     }
     match exp_parts(x) {
         // Below ln2 the complement of the mantissa is exact in integers.
-        Some((m, 0)) => ((1u64 << 32) - m) as f32 * (1.0 / 4_294_967_296.0),
-        Some((m, n)) => 1.0 - (m as f32) * (1.0 / 4_294_967_296.0) * pow2_neg(n),
+        Some((m, 0)) => q32_to_f32(((1u64 << 32) - m) as u32),
+        Some((m, n)) => 1.0 - from_parts(m, n),
         None => 1.0,
     }
 }
@@ -196,6 +288,9 @@ mod tests {
             let y = x.rotate_left(13) ^ 0x9e37_79b9;
             assert_eq!(halves(x, y), ((x as u64 * y as u64) >> 32) as u32);
             assert_eq!(mul_hi(x, y), halves(x, y));
+            let exact = halves(x, y);
+            let approx = mul_hi_approx(x, y);
+            assert!(approx <= exact && exact - approx <= 2, "{x} × {y}");
         }
     }
 

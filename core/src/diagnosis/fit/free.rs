@@ -44,11 +44,11 @@
 
 use super::centred::{model_at, refine3, Arith, Fit3, Refined};
 use super::fixed::{exp_pos, one_minus_exp_neg};
-use super::num::{clamp, larger, sqrt};
+use super::num::{all_finite, clamp, larger, sqrt};
 use super::survey::{drop_index, survey};
 use super::{
-    FitOptions, FitQuality, RiseFit, TraceFault, BELOW_ZERO_SIGMAS, FLAT_SIGMAS,
-    HEAD_RATIO, MIN_SAMPLES, MONOTONE_SIGMAS,
+    FitOptions, FitQuality, RiseFit, TraceFault, BELOW_ZERO_SIGMAS, FLAT_SIGMAS, HEAD_RATIO,
+    MIN_SAMPLES, MONOTONE_SIGMAS,
 };
 use crate::diagnosis::sample::{Sample, Sampling};
 use crate::units::{Amps, Seconds};
@@ -311,8 +311,7 @@ pub fn fit_response<S: Sample>(
         durbin_watson.unwrap_or(0.0),
         window_tau,
     ];
-    let probe: f32 = figures.iter().map(|x| x * 0.0).sum();
-    if probe != 0.0 || p <= 0.0 {
+    if !all_finite(&figures) || p <= 0.0 {
         return Err(TraceFault::NoConvergence);
     }
     Ok(ResponseFit {
