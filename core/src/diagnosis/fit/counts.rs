@@ -10,17 +10,22 @@
 //!   ([`mul_hi_approx`], three `MULS`, at most 3·2⁻³² low per step; q in Q32 from
 //!   [`exp_neg_q32`], relative error below 10⁻⁸: after 256 steps `u_k` is within 3·10⁻⁶ of
 //!   `q^k`, a tenth of the weight's resolution), rounded to
-//!   the Q15 weight `v_k = round(u_k/2¹⁷) ≤ 2¹⁵`. The *same* `v_k` enters every sum, so the pass
-//!   is the exact least-squares problem in the basis `{1, v_k/2¹⁵, k·v_k/2¹⁵}`, which differs
-//!   from `{1, q^k, k·q^k}` by at most 2⁻¹⁶ (0.08 count on a 5 000-count amplitude, against a
-//!   converter's 1/√12-count quantisation).
-//! - **Residual** at the current (Q, B): `r_k = (x_k − x_0) − L + B·v_k/2¹⁵` in Q4 (1/16 count),
-//!   `L = zero + Q + B − x_0` rounded to Q4 once per pass, `B·v_k/2¹⁵` by two 16 × 16 products.
-//!   Rounding adds at most 1/32 count to a residual: `Σr²` reads high by at most m/3 072 counts²
-//!   (0.4 % of the quantisation noise alone).
+//!   the Q15 weight `v_k = round(u_k/2¹⁷) ≤ 2¹⁵` for the sums. (A first version fitted the
+//!   basis `{1, v_k, k·v_k}` itself, residuals included: its model then differed from the exact
+//!   one by up to `A·2⁻¹⁶`, which moved the estimates by up to half a standard error on large
+//!   quiet rises; the residual now comes from the Q32 weight.)
+//! - **Residual** at the current (Q, B): `r_k = (x_k − x_0) − L + B·u_k/2³²` formed in Q10
+//!   (`L = zero + Q + B − x_0` and B rounded to Q10 once per pass, `B·u_k` by one high product
+//!   from the Q32 weight, so the residual is that of the exact model), then rounded to Q5
+//!   (1/32 count): a rounding of RMS 1/(64√3) count that is noise-like from sample to sample,
+//!   `Σr²` high by about m/12 288 counts² (0.1 % of the quantisation noise alone).
+//! - **Jacobian** columns `{1, v_k, k·v_k}` with the Q15 weight `v_k`: off the exact ones by at
+//!   most 2⁻¹⁶. An inexact Jacobian with exact residuals still converges to where the gradient
+//!   with that Jacobian vanishes; it moves the estimate by about 2⁻¹⁶·√m of a noise-sized term, a
+//!   few 10⁻⁵ of a standard error (measured: `host-tests/tests/diagnosis_paths.rs`).
 //! - **Sums.** `Σv`, `Σv²` and `Σr·v` with their first (and for `v²` second) cascaded prefix
 //!   sums, so that `Σk·x = m·Σx − Σ(prefix)` and `Σk²·x` follow by summation by parts with adds
-//!   only; `Σr`, `Σr²` directly. All exact: `|x_k − x_0| ≤ 65 535`, `|r| < 2¹⁶` (Q4) and
+//!   only; `Σr`, `Σr²` directly. All exact: `|x_k − x_0| ≤ 65 535`, `|r| < 2¹⁶` (Q5) and
 //!   m ≤ [`MAX_COUNT_WINDOW`] bound every product by 2³² and every sum by 2⁵⁵ (`Σk²v²·m` by
 //!   2⁶²), so `u32`/`u64`/`i64` never wrap.
 //! - **Centring** in integers: `m·Σab − Σa·Σb`, exact in `i64`; only then to f32, once per
@@ -28,8 +33,8 @@
 //!   conditioned in f32 as the float pass's centred sums (better: they are exact before the one
 //!   rounding).
 //!
-//! A window longer than [`MAX_COUNT_WINDOW`], a residual of 4 096 counts or more, or B or L
-//! outside ±2²² counts return `None`, and the window is fitted in f32.
+//! A window longer than [`MAX_COUNT_WINDOW`], a residual of 2 048 counts or more, or B or L
+//! outside ±2¹⁹ counts return `None`, and the window is fitted in f32.
 //!
 //! # Cost
 //!
@@ -42,10 +47,11 @@ use super::fixed::{exp_neg_q32, mul_hi_approx};
 use super::MAX_COUNT_WINDOW;
 use crate::diagnosis::sample::Sample;
 
-/// Largest |residual| the pass takes, Q4 (4 096 counts): keeps `r·v` and `r²` within 32 bits.
+/// Largest |residual| the pass takes, Q5 (2 048 counts): keeps `r·v` and `r²` within 32 bits.
 const R_LIMIT: u32 = 1 << 16;
-/// Largest |B| and |L| the pass takes, counts.
-const LEVEL_LIMIT: f32 = 4_194_304.0;
+/// Largest |B| and |L| the pass takes, counts (2¹⁹: beyond any 16-bit converter's range; keeps
+/// the Q10 residual within 2³¹).
+const LEVEL_LIMIT: f32 = 524_288.0;
 
 /// `x` rounded to the nearest integer (half away from zero) as i32, for |x| < 2³⁰.
 fn round_i32(x: f32) -> i32 {
@@ -75,9 +81,9 @@ pub(super) fn pass<S: Sample>(
     if !(level.abs() < LEVEL_LIMIT && (0.0..LEVEL_LIMIT).contains(&b)) {
         return None;
     }
-    let l_fix = round_i32(16.0 * level);
-    let a_q = round_i32(16.0 * b) as u32;
-    let (ah, al) = (a_q >> 16, a_q & 0xffff);
+    // L and B in Q10: their rounding (2⁻¹¹ count) is far below a residual's.
+    let l_fix = round_i32(1024.0 * level);
+    let a_q = round_i32(1024.0 * b) as u32;
     let mut u = u32::MAX;
     let (mut sv, mut tv) = (0u32, 0u32);
     let (mut s2, mut t2, mut w2) = (0u64, 0u64, 0u64);
@@ -85,6 +91,9 @@ pub(super) fn pass<S: Sample>(
     let mut big = 0u32;
     for x in win {
         let v = ((u >> 16) + 1) >> 1;
+        // B·q^k in Q10 from the Q32 weight itself (not the Q15 one): the residual is that of the
+        // exact model; only the Jacobian columns below use the rounded weight.
+        let model = mul_hi_approx(a_q, u);
         u = mul_hi_approx(u, q32);
         // |x − x₀| ≤ 65 535 for the exact-count types.
         let c = x.to_count().wrapping_sub(base);
@@ -94,12 +103,12 @@ pub(super) fn pass<S: Sample>(
         s2 = s2.wrapping_add(vv);
         t2 = t2.wrapping_add(s2);
         w2 = w2.wrapping_add(t2);
-        // B·v/2¹⁵ in Q4: a_q = ah·2¹⁶ + al, ah < 2¹¹, al < 2¹⁶, v ≤ 2¹⁵.
-        let model = ((ah * v) << 1) + ((al * v + (1 << 14)) >> 15);
-        let r = c
-            .wrapping_shl(4)
+        // Q10: |c·2¹⁰| ≤ 2²⁶, |L|, B < 2²⁹, so no step wraps; then rounded to Q5.
+        let r10 = c
+            .wrapping_shl(10)
             .wrapping_sub(l_fix)
             .wrapping_add(model as i32);
+        let r = r10.wrapping_add(16) >> 5;
         big |= (r ^ (r >> 31)) as u32;
         sr = sr.wrapping_add(r);
         srv = srv.wrapping_add(r.wrapping_mul(v as i32) as i64);
@@ -142,9 +151,9 @@ fn figures(
     let ndr = m * srv - sv * sr;
     let nwr = m * skvr - skv * sr;
     let mf = m as f32;
-    // Units: e = v/2¹⁵, w = k·e, r = (Q4)/16.
+    // Units: e = v/2¹⁵, w = k·e, r = (Q5)/32.
     const E: f32 = 1.0 / 32_768.0;
-    const R: f32 = 1.0 / 16.0;
+    const R: f32 = 1.0 / 32.0;
     let ee = E * E / mf;
     let er = E * R / mf;
     Sums3 {
@@ -185,19 +194,19 @@ mod tests {
             let q32 = exp_neg_q32(lambda).unwrap();
             let mut u = u32::MAX;
             let level = (q_lvl + b - trace[0] as f32) as f64;
-            let l_fix = (16.0 * level).round();
-            let a_q = (16.0 * b as f64).round();
+            let l_fix = (1024.0 * level).round();
+            let a_q = (1024.0 * b as f64).round() as u32;
             let (mut d, mut w, mut r, mut dr, mut wr, mut rr) = (0.0, 0.0, 0.0, 0.0, 0.0, 0.0);
             let mut cols = Vec::new();
             for (k, &x) in trace.iter().enumerate() {
                 let v = (((u >> 16) + 1) >> 1) as f64;
+                // The Q5 residual as the pass forms it: from B·u in Q10, rounded.
+                let model = mul_hi_approx(a_q, u) as f64;
                 u = mul_hi_approx(u, q32);
-                // The Q4 residual as the pass forms it: 2·ah·v + round(al·v/2¹⁵).
-                let rq = 16.0 * (x as f64 - trace[0] as f64) - l_fix
-                    + ((a_q as u32 >> 16) as f64 * v * 2.0
-                        + (((a_q as u32 & 0xffff) as f64 * v + 16384.0) / 32768.0).floor());
+                let r10 = 1024.0 * (x as f64 - trace[0] as f64) - l_fix + model;
+                let rq = ((r10 + 16.0) / 32.0).floor();
                 let e = v / 32768.0;
-                let (dk, wk, rk) = (e - 1.0, k as f64 * e, rq / 16.0);
+                let (dk, wk, rk) = (e - 1.0, k as f64 * e, rq / 32.0);
                 d += dk;
                 w += wk;
                 r += rk;
@@ -242,8 +251,8 @@ mod tests {
         assert!(pass(&long, 0.0, 1000.0, 10.0, 0.01).is_none());
         let floats = [1.0f32; 16];
         assert!(pass(&floats, 0.0, 1.0, 1.0, 0.1).is_none());
-        // A residual of 5 000 counts.
-        let far = [0u16, 0, 0, 0, 0, 0, 0, 60000];
+        // A residual of 3 000 counts.
+        let far = [0u16, 0, 0, 0, 0, 0, 0, 3000];
         assert!(pass(&far, 0.0, 0.0, 10.0, 0.1).is_none());
         assert!(pass(&far[..7], 0.0, 0.0, -1.0, 0.1).is_none());
         assert!(pass(&far[..7], 1.0e9, 0.0, 1.0, 0.1).is_none());
