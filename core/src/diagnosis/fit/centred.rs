@@ -12,12 +12,16 @@
 //! the step it took leaves a remainder far below the fit's own noise: Gauss–Newton on this model
 //! converges quadratically, the next step being about `K·(Δλ/λ)²·λ` with `K ≈ λ·m/2` (the
 //! second over the first derivative of `e^(−λx)` in λ across the window, `|x| ≤ m/2`). When
-//! `λ·m·(Δλ/λ)²` is below [`SETTLE`] times the relative standard error of λ, a further pass would
-//! move λ by less than `SETTLE/2` of its standard error and is not taken (measured: see
-//! `docs/diagnosis.md` §3a).
+//! `λ·m·(Δλ/λ)²` is below [`SETTLE`] times the relative standard error of λ (the one the expected
+//! noise alone gives, so that a misfit, whose residuals inflate the fit's own, does not stop a
+//! far-off iteration early), a further pass would move λ by less than `SETTLE/2` of its standard
+//! error and is not taken (measured: see `docs/diagnosis.md` §3a). The argument holds where the
+//! residuals are at the noise (quadratic convergence is that of a zero-residual problem): a
+//! window whose residual exceeds [`HEAD_RATIO`] × noise, and a shortened window of
+//! [`super::fit_response`] (started far off, from the whole window's λ), run until settled.
 
 use super::num::{clamp, larger};
-use super::{LAMBDA_MAX, LAMBDA_MIN, MAX_REFINEMENTS, MIN_SAMPLES};
+use super::{HEAD_RATIO, LAMBDA_MAX, LAMBDA_MIN, MAX_REFINEMENTS, MIN_SAMPLES};
 use crate::diagnosis::fit::fixed::{exp_neg, exp_pos};
 use crate::diagnosis::sample::Sample;
 
@@ -123,7 +127,7 @@ pub(super) enum Refined {
 }
 
 /// Gauss–Newton on one window from λ with at most `passes` passes (see the module docs for the
-/// stopping rule; `noise` is the expected noise, counts RMS). Out of line: a caller that tries
+/// stopping rule, which applies only with `early`; `noise` is the expected noise, counts RMS). Out of line: a caller that tries
 /// several windows keeps one frame of it, not one per window.
 #[inline(never)]
 pub(super) fn refine3<S: Sample>(
@@ -133,6 +137,7 @@ pub(super) fn refine3<S: Sample>(
     passes: u8,
     noise: f32,
     arith: Arith,
+    early: bool,
 ) -> Refined {
     let m = win.len();
     if m < MIN_SAMPLES {
@@ -199,11 +204,16 @@ pub(super) fn refine3<S: Sample>(
         let (ibb, ivv, ibv) = (cww / det, cdd / det, cdw / det);
         // The step's remainder against λ's own standard error (module docs):
         // λm·(Δλ/λ)² ≤ SETTLE·sd(λ)/λ, squared to avoid a root.
-        let s2 = larger(rr / larger(mf - 3.0, 1.0), noise * noise);
+        // Against the standard error the expected noise alone gives: a misfit (residuals far above
+        // noise) inflates the fit's own, and would stop a far-off iteration early.
+        let s2 = noise * noise;
         let rel = d_lambda / lambda;
         let lhs = lambda * mf * rel * rel;
         let var_rel = s2 * ivv / (b * lambda * b * lambda);
-        let small = full && lhs * lhs <= SETTLE * SETTLE * var_rel;
+        // Quadratic convergence holds for residuals at the noise: a misfit (a fast component in
+        // the window) converges only linearly, and runs until settled.
+        let at_noise = rr <= HEAD_RATIO * HEAD_RATIO * noise * noise * larger(mf - 3.0, 1.0);
+        let small = early && full && at_noise && lhs * lhs <= SETTLE * SETTLE * var_rel;
         q += d_q;
         b += d_b;
         lambda = new_lambda;
