@@ -18,7 +18,8 @@
 //! error and is not taken (measured: see `docs/diagnosis.md` §3a). The argument holds where the
 //! residuals are at the noise (quadratic convergence is that of a zero-residual problem): a
 //! window whose residual exceeds [`HEAD_RATIO`] × noise, and a shortened window of
-//! [`super::fit_response`] (started far off, from the whole window's λ), run until settled.
+//! [`super::fit_response`] (started far off, from the whole window's λ), take all their passes
+//! (or stop when settled), as before the rule.
 
 use super::num::{clamp, larger};
 use super::{HEAD_RATIO, LAMBDA_MAX, LAMBDA_MIN, MAX_REFINEMENTS, MIN_SAMPLES};

@@ -48,7 +48,7 @@ use super::num::{all_finite, clamp, larger, sqrt};
 use super::survey::{drop_index, survey};
 use super::{
     FitOptions, FitQuality, RiseFit, TraceFault, BELOW_ZERO_SIGMAS, FLAT_SIGMAS, HEAD_RATIO,
-    MAX_REFINEMENTS, MIN_SAMPLES, MONOTONE_SIGMAS,
+    MIN_SAMPLES, MONOTONE_SIGMAS,
 };
 use crate::diagnosis::sample::{Sample, Sampling};
 use crate::units::{Amps, Seconds};
@@ -216,14 +216,7 @@ pub fn fit_response<S: Sample>(
             break;
         }
         // A shortened window starts from the whole window's λ, which the fast component it
-        // leaves out biased far off (τ by a factor of four and more): it gets the passes it
-        // needs to settle (the stopping rule ends them), so that the kept fit is the window's
-        // least-squares solution and not wherever two passes from a far start got to.
-        let passes = if skip > 0 {
-            MAX_REFINEMENTS + 1
-        } else {
-            passes
-        };
+        // leaves out biased, often far off: it takes its passes without the early stop.
         let f = match refine3(win, zero, lambda_start, passes, noise, arith, skip == 0) {
             Refined::Fit(f) => f,
             Refined::Failed => continue,
