@@ -64,6 +64,7 @@ fn round_i32(x: f32) -> i32 {
 
 /// The sums of one pass at (Q, B, λ), Q and B at the window's first sample (module docs).
 /// `None` outside the integer bounds.
+#[inline(never)]
 pub(super) fn pass<S: Sample>(
     win: &[S],
     zero: f32,
