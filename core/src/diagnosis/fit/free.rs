@@ -25,7 +25,9 @@
 //! columns `1`, `e − 1` and `B·x·e` are small and nearly centred, which keeps the f32 normal
 //! equations well conditioned on an early-rise window where `1`, `e^(−λκ)` and `κ·e^(−λκ)` are
 //! almost collinear. Q is eliminated exactly (centred sums), the 2 × 2 rest solved by Cramer's
-//! rule: 17 flops per sample and pass, two `expf` per pass. The start is the one-pass
+//! rule: 17 flops per sample and pass, two exponentials per pass (`centred.rs`). On exact counts
+//! the sums can be made in integers instead ([`super::FitPath::Counts`], `counts.rs`; the default
+//! on FPU-less targets), the step being the same. The start is the one-pass
 //! regression of the survey with a free intercept (`c_k = a + λP·κ_k − λ·J_k`).
 //!
 //! # A fast early component

@@ -35,12 +35,12 @@
 //! estimate alone is within 17 %. A noise-free trace is recovered to f32 precision (property
 //! test).
 //!
-//! Cost (QEMU instruction count, 64 `u16` samples, fit with the verdict, measured when
-//! [`super::verdict::judge_trace`] used this fit; it now uses [`fit_response`], 5 558
-//! instructions, see `docs/diagnosis.md` §3a): 2 832 instructions on a Cortex-M4F (about 12.5
-//! per sample in the survey pass of a trace that never falls, about 16 per refinement pass, the
-//! rest fixed), stack 320 bytes; about 232 000 instructions on a Cortex-M0 without FPU (soft
-//! float), stack 556 bytes.
+//! Cost of [`fit_response`] with its verdict (QEMU instruction count, 64 `u16` samples,
+//! `cargo xtask cost` case `fit_verdict_64`): 4 765 instructions on a Cortex-M4F (f32 path, one
+//! refinement pass on a healthy rise), 936 bytes of stack; 58 254 on a Cortex-M0 without FPU (the
+//! integer path, [`FitPath::Auto`] there), 1 268 bytes of stack. See `docs/diagnosis.md` §3b for
+//! the two arithmetics, their accuracy against each other and where the instructions go.
+//! [`fit_rise`] (zero start) was measured at 2 832 instructions on the M4F.
 
 mod centred;
 mod counts;
