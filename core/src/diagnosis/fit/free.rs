@@ -282,8 +282,8 @@ pub fn fit_response<S: Sample>(
     let k_first = k0 + skip as f32;
     let p = f.q + f.b;
     let level0 = p - f.b * exp_pos(f.lambda * (f.centre + k_first));
-    let dof = larger(mf - 3.0, 1.0);
-    let rms = sqrt(f.rr / dof);
+    // The kept window's RMS residual is its ratio times the noise (the root taken once).
+    let rms = ratio * noise;
     let s2 = {
         let s = larger(rms, noise);
         s * s
