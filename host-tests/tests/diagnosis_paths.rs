@@ -204,9 +204,14 @@ proptest! {
             (Ok(a), Ok(b)) => {
                 prop_assert_eq!(a.shape.skipped, b.shape.skipped);
                 prop_assert_eq!(a.rise.quality.samples, b.rise.quality.samples);
-                let (g, ratio, bound) = gap(&a, &b, noise);
-                prop_assert!(g <= bound, "estimates {g:.3} sd apart, bound {bound:.3}: {a:?} / {b:?}");
-                prop_assert!(ratio <= bound, "noise ratios {ratio:.3} apart (log), bound {bound:.3}");
+                // Compared where the fit is precise enough for a verdict (standard errors of slope
+                // and τ within `Criteria::max_rel_sd`, 10 %): beyond, the linearised standard
+                // error is no measure of distance (τ known to 235 % on 5 % of a rise).
+                if usable(&a) && usable(&b) {
+                    let (g, ratio, bound) = gap(&a, &b, noise);
+                    prop_assert!(g <= bound, "estimates {g:.3} sd apart, bound {bound:.3}: {a:?} / {b:?}");
+                    prop_assert!(ratio <= bound, "noise ratios {ratio:.3} apart (log), bound {bound:.3}");
+                }
             }
             (Err(a), Err(b)) => prop_assert!(same_fault(a, b), "{a:?} / {b:?}"),
             (a, b) => {
@@ -242,12 +247,19 @@ proptest! {
         match (&a, &b) {
             (Err(x), Err(y)) => prop_assert!(same_fault(*x, *y), "{x:?} / {y:?}"),
             (Ok(x), Ok(y)) => {
-                let (g, _, bound) = gap(x, y, noise);
-                prop_assert!(g <= bound, "{g} > {bound}");
+                if usable(x) && usable(y) {
+                    let (g, _, bound) = gap(x, y, noise);
+                    prop_assert!(g <= bound, "{g} > {bound}");
+                }
             }
             _ => prop_assert!(false, "one path faulted, the other not: {a:?} / {b:?}"),
         }
     }
+}
+
+/// Whether a fit is precise enough for a verdict to use it (slope and τ within 10 %).
+fn usable(f: &ResponseFit) -> bool {
+    f.rise.quality.rel_sd_tau <= 0.1 && f.rise.quality.rel_sd_slope <= 0.1
 }
 
 /// Same fault and index; a flat trace's level to f32 rounding (the integer survey sums exactly).

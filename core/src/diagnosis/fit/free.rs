@@ -146,6 +146,31 @@ pub fn fit_response<S: Sample>(
     sampling: &Sampling,
     options: &FitOptions,
 ) -> Result<ResponseFit, TraceFault> {
+    let counts = S::EXACT_COUNT && options.path.counts();
+    let mut misfit = false;
+    let r = fit_body(samples, sampling, options, counts, &mut misfit);
+    if misfit {
+        // The integer path met a window that does not fit (a fast early component, or a plant
+        // the model leaves out): its two passes and the shortened windows after it do not
+        // converge, and where they end depends on the arithmetic. The whole fit is redone in f32
+        // so that both paths give the same figures for such a trace; misfits are rare, a
+        // healthy trace stays integer.
+        return fit_body(samples, sampling, options, false, &mut misfit);
+    }
+    r
+}
+
+/// [`fit_response`] with the integer refinement (`counts`) or the f32 one; sets `misfit` (and
+/// returns `NoConvergence`) when the integer path's whole window does not fit. Out of line, so
+/// that a redo in f32 reuses the frame.
+#[inline(never)]
+fn fit_body<S: Sample>(
+    samples: &[S],
+    sampling: &Sampling,
+    options: &FitOptions,
+    counts: bool,
+    misfit: &mut bool,
+) -> Result<ResponseFit, TraceFault> {
     let floor = sampling.floor();
     let clipped = samples.iter().take_while(|v| v.to_f32() <= floor).count();
     let trace = &samples[clipped.min(samples.len())..];
@@ -155,11 +180,7 @@ pub fn fit_response<S: Sample>(
             sampling.first().value() + clipped as f32 * period,
         ))
         .map_err(|_| TraceFault::NoConvergence)?;
-    let arith = if S::EXACT_COUNT && options.path.counts() {
-        Arith::Counts
-    } else {
-        Arith::Float
-    };
+    let arith = if counts { Arith::Counts } else { Arith::Float };
     let sv = match survey(trace, &shifted, arith == Arith::Counts) {
         Err(TraceFault::TooFewSamples { .. }) if clipped > 0 => {
             // Nearly all of the trace at the floor: no current to speak of.
@@ -218,14 +239,14 @@ pub fn fit_response<S: Sample>(
             break;
         }
         // A shortened window starts from the whole window's λ, which the fast component it
-        // leaves out biased, often far off: it takes its passes without the early stop.
-        // The shortened windows in f32 on both paths: their two passes from the whole window's
-        // λ (far off) do not converge, so where they end depends on the arithmetic (the integer
-        // pass named shorted turns of 10 % of the winding 3 points less often in the campaign).
-        // They are the rare misfit traces; the cost of a healthy trace is unchanged.
-        let arith = if skip > 0 { Arith::Float } else { arith };
+        // leaves out biased, often far off: it takes its passes without the early stop. (Only
+        // the float path gets here: the integer one hands a misfit to it, see `fit_response`.)
         let f = match refine3(win, zero, lambda_start, passes, noise, arith, skip == 0) {
             Refined::Fit(f) => f,
+            Refined::Failed if arith == Arith::Counts => {
+                *misfit = true;
+                return Err(TraceFault::NoConvergence);
+            }
             Refined::Failed => continue,
             // Beyond the integer pass's bounds: this window in f32.
             Refined::OutOfBounds => {
@@ -245,6 +266,10 @@ pub fn fit_response<S: Sample>(
         };
         lambda_start = f.lambda;
         let ratio = sqrt(f.rr / larger(win.len() as f32 - 3.0, 1.0)) / noise;
+        if arith == Arith::Counts && ratio > HEAD_RATIO {
+            *misfit = true;
+            return Err(TraceFault::NoConvergence);
+        }
         // Leaving the head out is the physics of a coupled loop only if the head fell short of
         // the slow mode (the loop held current back); otherwise the misfit is a shape.
         if skip > 0 && head(window, skip, &f, zero, noise).1 <= HEAD_SIGMAS {
