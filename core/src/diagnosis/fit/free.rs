@@ -141,6 +141,7 @@ fn durbin_watson<S: Sample>(win: &[S], zero: f32, f: &Fit3) -> f32 {
 /// # Errors
 /// [`TraceFault`] as for [`super::fit_rise`]; a trace at the floor but for fewer than
 /// [`MIN_SAMPLES`] samples: `Flat`.
+#[inline(always)]
 pub fn fit_response<S: Sample>(
     samples: &[S],
     sampling: &Sampling,
@@ -148,6 +149,7 @@ pub fn fit_response<S: Sample>(
 ) -> Result<ResponseFit, TraceFault> {
     let counts = S::EXACT_COUNT && options.path.counts();
     let mut misfit = false;
+    // Inlined into the caller: the result needs no slot of its own.
     let r = fit_body(samples, sampling, options, counts, &mut misfit);
     if misfit {
         // The integer path met a window that does not fit (a fast early component, or a plant

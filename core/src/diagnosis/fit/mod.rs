@@ -36,9 +36,9 @@
 //! test).
 //!
 //! Cost of [`fit_response`] with its verdict (QEMU instruction count, 64 `u16` samples,
-//! `cargo xtask cost` case `fit_verdict_64`): 4 739 instructions on a Cortex-M4F (f32 path, one
-//! refinement pass on a healthy rise), 936 bytes of stack; 57 007 on a Cortex-M0 without FPU (the
-//! integer path, [`FitPath::Auto`] there), 1 252 bytes of stack. See `docs/diagnosis.md` §3b for
+//! `cargo xtask cost` case `fit_verdict_64`): 4 742 instructions on a Cortex-M4F (f32 path, one
+//! refinement pass on a healthy rise), 960 bytes of stack; 57 059 on a Cortex-M0 without FPU (the
+//! integer path, [`FitPath::Auto`] there), 1 276 bytes of stack. See `docs/diagnosis.md` §3b for
 //! the two arithmetics, their accuracy against each other and where the instructions go.
 //! [`fit_rise`] (zero start) was measured at 2 832 instructions on the M4F.
 
