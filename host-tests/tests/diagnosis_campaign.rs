@@ -18,7 +18,9 @@
 //! `full_rise_resistance` (mode B on a capture of a few τ instead of the probe's window: series
 //! resistance +20 % / +50 % and healthy coils).
 //!
-//! Size: `COILWISE_CAMPAIGN=N` coils per row (default 12, which CI runs in debug). The full size:
+//! Size: `COILWISE_CAMPAIGN=N` coils per row (default 12, which CI runs in debug); the fit's
+//! arithmetic: `COILWISE_FIT_PATH=float` or `counts` (unset: the default, float on the host). The
+//! full size:
 //! `COILWISE_CAMPAIGN=2000 cargo test --release -p coilwise-host-tests --test diagnosis_campaign
 //! -- --nocapture`.
 

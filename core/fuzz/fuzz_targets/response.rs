@@ -1,12 +1,16 @@
 //! Fuzz the free-level estimator, its verdict, the learned baseline and its byte record: any
 //! sampling (with a converter floor), any samples, any learning pulses, any record bytes.
 //! Invariants: no panic; every figure of a fit and of its shape finite; a decoded record
-//! re-encodes to the same bytes; a verdict's estimates finite.
+//! re-encodes to the same bytes; a verdict's estimates finite. Both arithmetics of the
+//! refinement (`FitPath::Float` and `FitPath::Counts`, the integer pass on the `u16` counts):
+//! each keeps those invariants, and a trace fault found by the checks (anything but
+//! `NoConvergence`, which a window at a decision edge may reach on one path and not the other)
+//! is the same fault on both.
 #![no_main]
 
 use coilwise::diagnosis::{
     fit_response, judge_baseline, judge_response, Baseline, Conditions, Criteria, Expected,
-    FitOptions, Learning, ResponseFit, Sampling,
+    FitOptions, FitPath, Learning, ResponseFit, Sampling, TraceFault,
 };
 use coilwise::{Celsius, Seconds};
 use libfuzzer_sys::fuzz_target;
@@ -83,6 +87,25 @@ fuzz_target!(|data: &[u8]| {
         .chunks_exact(2)
         .map(|c| u16::from_le_bytes([c[0], c[1]]))
         .collect();
+    let float = fit_response(&samples, &sampling, &options.with_path(FitPath::Float));
+    let counts = fit_response(&samples, &sampling, &options.with_path(FitPath::Counts));
+    match (&float, &counts) {
+        (Ok(a), Ok(b)) => {
+            check_fit(a);
+            check_fit(b);
+            check(&judge_response(b, &expected, &criteria));
+        }
+        (Ok(a), Err(e)) | (Err(e), Ok(a)) => {
+            check_fit(a);
+            assert_eq!(*e, TraceFault::NoConvergence, "{float:?} / {counts:?}");
+        }
+        // The checks run before either refinement: a fault they find is the same fault on both.
+        (Err(x), Err(y)) => assert_eq!(
+            core::mem::discriminant(x),
+            core::mem::discriminant(y),
+            "{x:?} / {y:?}"
+        ),
+    }
     let Ok(fit) = fit_response(&samples, &sampling, &options) else {
         return;
     };

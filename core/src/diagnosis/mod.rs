@@ -27,7 +27,8 @@ pub use band::{Conditions, Expected, Span, SupplyReading, ThresholdBand};
 pub use baseline::{judge_baseline, Baseline, LearnError, Learning, RecordError};
 pub use figures::BandFigures;
 pub use fit::{
-    fit_response, fit_rise, FitOptions, FitQuality, ResponseFit, RiseFit, Shape, TraceFault,
+    fit_response, fit_rise, FitOptions, FitPath, FitQuality, ResponseFit, RiseFit, Shape,
+    TraceFault, MAX_COUNT_WINDOW,
 };
 pub use probe::Probe;
 pub use sample::{Sample, SampleBuffer, Sampling};

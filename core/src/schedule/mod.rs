@@ -501,11 +501,12 @@ impl<const CHANNELS: usize, const QUEUE: usize> Scheduler<CHANNELS, QUEUE> {
                 i += 1;
             }
         }
-        let Some(slot) = running else {
+        let (Some(slot), Some(&running)) = (running, running.and_then(|s| self.slots.get(s)))
+        else {
             self.channels[ch].tail = self.channels[ch].started;
             return Ok(Stopping::NotRunning { cancelled });
         };
-        let mut p = self.slots[slot];
+        let mut p = running;
         let earliest = p.start + lim.min_on().0 as u64;
         let off = t.max(earliest).min(p.end());
         p.duration = (off - p.start) as u32;

@@ -3,7 +3,7 @@
 //! rise of a real pulse (the free-level fit and `judge_trace` on the whole capture). The
 //! armature is held (the campaign's coils do not move), so the capture is the coil's own rise.
 
-use coilwise::diagnosis::{judge_trace, FitOptions, Sampling};
+use coilwise::diagnosis::{judge_trace, Sampling};
 use coilwise::{Amps, Finding, Seconds};
 use coilwise_host_tests::Prng;
 
@@ -64,7 +64,7 @@ impl FullRise {
             &ch.sampling,
             &e,
             &ch.criteria,
-            &FitOptions::default(),
+            &super::fit_options(),
         )
         .finding
     }

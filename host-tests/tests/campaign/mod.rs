@@ -8,7 +8,7 @@ mod sensor;
 pub use full_rise::{FullRise, SPAN_TAU};
 pub use sensor::{SensorFault, SENSOR_FAULTS};
 
-use coilwise::diagnosis::fit_response;
+use coilwise::diagnosis::{fit_response, FitPath};
 use coilwise::diagnosis::{
     judge_baseline, judge_trace, Conditions, Criteria, Expected, FitOptions, Learning, Probe,
     Sampling, SupplyReading,
@@ -277,6 +277,18 @@ pub struct Channel {
 
 pub const SAMPLES: usize = 64;
 
+/// The fit options of every campaign: the refinement's arithmetic from `COILWISE_FIT_PATH`
+/// (`float` or `counts`; unset: `FitPath::Auto`, which is the float path on the host), so that
+/// the matrices can be compared between the paths.
+pub fn fit_options() -> FitOptions {
+    let path = match std::env::var("COILWISE_FIT_PATH").as_deref() {
+        Ok("counts") => FitPath::Counts,
+        Ok("float") => FitPath::Float,
+        _ => FitPath::Auto,
+    };
+    FitOptions::default().with_path(path)
+}
+
 impl Channel {
     /// A coil with a solid magnetic circuit (eddy path up to 5 % of the current), judged with
     /// the conservative default criteria.
@@ -448,13 +460,7 @@ impl Channel {
 
     fn judge_samples(&self, counts: &[u16], e: &Expected) -> Finding {
         self.probe
-            .judge(
-                counts,
-                &self.sampling,
-                e,
-                &self.criteria,
-                &FitOptions::default(),
-            )
+            .judge(counts, &self.sampling, e, &self.criteria, &fit_options())
             .finding
     }
 
@@ -471,13 +477,13 @@ impl Channel {
         let mut refused = None;
         for _ in 0..4 {
             let c = self.pulse(&part, &commissioning, Truth::Healthy, lat, rng);
-            match fit_response(&c, &self.sampling, &FitOptions::default()) {
+            match fit_response(&c, &self.sampling, &fit_options()) {
                 Ok(f) => {
                     learn.add(&f, &e0, Some(board0), &crit);
                 }
                 Err(_) => {
                     // A trace the fit refuses is never learned: its design verdict stands.
-                    let v = judge_trace(&c, &self.sampling, &e0, &crit, &FitOptions::default());
+                    let v = judge_trace(&c, &self.sampling, &e0, &crit, &fit_options());
                     refused.get_or_insert(v.finding);
                 }
             }
@@ -501,7 +507,7 @@ impl Channel {
         let c = match baseline {
             Err(coilwise::diagnosis::LearnError::Refused(f)) if truth == Truth::Healthy => f,
             Err(_) => b,
-            Ok(base) => match fit_response(&counts, &self.sampling, &FitOptions::default()) {
+            Ok(base) => match fit_response(&counts, &self.sampling, &fit_options()) {
                 Ok(f) => judge_baseline(&f, &base, &e1, Some(board1), &crit).finding,
                 Err(_) => b,
             },

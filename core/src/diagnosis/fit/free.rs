@@ -25,7 +25,9 @@
 //! columns `1`, `e − 1` and `B·x·e` are small and nearly centred, which keeps the f32 normal
 //! equations well conditioned on an early-rise window where `1`, `e^(−λκ)` and `κ·e^(−λκ)` are
 //! almost collinear. Q is eliminated exactly (centred sums), the 2 × 2 rest solved by Cramer's
-//! rule: 17 flops per sample and pass, two `expf` per pass. The start is the one-pass
+//! rule: 17 flops per sample and pass, two exponentials per pass (`centred.rs`). On exact counts
+//! the sums can be made in integers instead ([`super::FitPath::Counts`], `counts.rs`; the default
+//! on FPU-less targets), the step being the same. The start is the one-pass
 //! regression of the survey with a free intercept (`c_k = a + λP·κ_k − λ·J_k`).
 //!
 //! # A fast early component
@@ -42,11 +44,13 @@
 //! above it are bounds, not readings (a negative offset clipped at count 0): they are left out
 //! and counted (`clipped`). Readings at full scale end the window as for [`super::fit_rise`].
 
-use super::num::{clamp, larger, sqrt};
+use super::centred::{model_at, refine3, Arith, Fit3, Refined};
+use super::fixed::{exp_pos, one_minus_exp_neg};
+use super::num::{all_finite, clamp, larger, sqrt};
 use super::survey::{drop_index, survey};
 use super::{
     FitOptions, FitQuality, RiseFit, TraceFault, BELOW_ZERO_SIGMAS, FLAT_SIGMAS, HEAD_RATIO,
-    LAMBDA_MAX, LAMBDA_MIN, MAX_REFINEMENTS, MIN_SAMPLES, MONOTONE_SIGMAS,
+    MIN_SAMPLES, MONOTONE_SIGMAS,
 };
 use crate::diagnosis::sample::{Sample, Sampling};
 use crate::units::{Amps, Seconds};
@@ -71,6 +75,9 @@ pub struct Shape {
     /// ≈ 2 for white noise, near 0 for a smooth misfit (a shape the model does not have). Computed
     /// only when the noise ratio exceeds [`HEAD_RATIO`] (otherwise `None`).
     pub durbin_watson: Option<f32>,
+    /// Time of the window's last sample after switch-on over the fitted τ, `t_last/τ`
+    /// (`rise_covered = 1 − e^(−window_tau)`).
+    pub window_tau: f32,
 }
 
 /// The free-level fit of a rise: the slow mode (as [`RiseFit`]: slope `P/τ`, τ, `P`) and its
@@ -84,164 +91,14 @@ pub struct ResponseFit {
     pub shape: Shape,
 }
 
-/// One Gauss–Newton pass of the centred model at (Q, B, λ): the sums of the normal equations.
-#[derive(Default)]
-struct Sums3 {
-    d: f32,
-    w: f32,
-    dd: f32,
-    dw: f32,
-    ww: f32,
-    r: f32,
-    dr: f32,
-    wr: f32,
-    rr: f32,
-}
-
-fn pass3<S: Sample>(win: &[S], zero: f32, q_lvl: f32, b: f32, lambda: f32) -> Sums3 {
-    let half = 0.5 * (win.len() as f32 - 1.0);
-    let mut e = libm::expf(lambda * half);
-    let q = libm::expf(-lambda);
-    let mut x = -half;
-    let mut s = Sums3::default();
-    for v in win {
-        let c = v.to_f32() - zero;
-        let d = e - 1.0;
-        let w = x * e;
-        let r = c - q_lvl + b * d;
-        s.d += d;
-        s.w += w;
-        s.dd += d * d;
-        s.dw += d * w;
-        s.ww += w * w;
-        s.r += r;
-        s.dr += d * r;
-        s.wr += w * r;
-        s.rr += r * r;
-        e *= q;
-        x += 1.0;
-    }
-    s
-}
-
-/// The result of the refinement on one window.
-#[derive(Clone, Copy)]
-struct Fit3 {
-    /// Level at mid-window, counts above zero.
-    q: f32,
-    b: f32,
-    lambda: f32,
-    rr: f32,
-    /// Variances and covariances of (Q, B, v = B·Δλ), over σ̂².
-    vqq: f32,
-    vbb: f32,
-    vvv: f32,
-    vqb: f32,
-    vqv: f32,
-    vbv: f32,
-}
-
-/// Gauss–Newton on one window from λ; `None` when singular or not settling. Out of line: a
-/// caller that tries several windows keeps one frame of it, not one per window.
-#[inline(never)]
-fn refine3<S: Sample>(win: &[S], zero: f32, lambda0: f32, passes: u8) -> Option<Fit3> {
-    let m = win.len();
-    if m < MIN_SAMPLES {
-        return None;
-    }
-    let mf = m as f32;
-    let half = 0.5 * (mf - 1.0);
-    let mut lambda = clamp(lambda0, LAMBDA_MIN, LAMBDA_MAX);
-    let first = win[0].to_f32() - zero;
-    let last = win[m - 1].to_f32() - zero;
-    let mid = win[m / 2].to_f32() - zero;
-    // The model's own rise across the window is B·(e^(λ·half) − e^(−λ·half)).
-    let span = libm::expf(lambda * half) - libm::expf(-lambda * half);
-    let mut b = (last - first) / larger(span, 1.0e-12);
-    let mut q = mid;
-    let mut out = None;
-    for _ in 0..passes.clamp(1, MAX_REFINEMENTS + 1) {
-        let s = pass3(win, zero, q, b, lambda);
-        let cdd = s.dd - s.d * s.d / mf;
-        let cdw = s.dw - s.d * s.w / mf;
-        let cww = s.ww - s.w * s.w / mf;
-        let cdr = s.dr - s.d * s.r / mf;
-        let cwr = s.wr - s.w * s.r / mf;
-        let det = cdd * cww - cdw * cdw;
-        if !(det.is_finite() && det > 1.0e-9 * cdd * cww) {
-            return None;
-        }
-        // Columns 1, −(e − 1)… in the model c = Q + B − B·e: ∂c/∂B = −(e − 1) = −d, ∂c/∂λ = B·w.
-        let d_b = (-cdr * cww + cdw * cwr) / det;
-        let v = (cdd * cwr - cdw * cdr) / det;
-        let d_q = (s.r + s.d * d_b - s.w * v) / mf;
-        if !(b.is_finite() && b > 0.0) {
-            return None;
-        }
-        let d_lambda = v / b;
-        let new_lambda = clamp(
-            clamp(lambda + d_lambda, 0.25 * lambda, 4.0 * lambda),
-            LAMBDA_MIN,
-            LAMBDA_MAX,
-        );
-        let full = new_lambda == lambda + d_lambda;
-        // Residual after the step, to second order: Σr² − gᵀΔ, g = (Σr, −Σd·r, Σw·r).
-        let rr = if full {
-            larger(s.rr - (d_q * s.r - d_b * s.dr + v * s.wr), 0.0)
-        } else {
-            s.rr
-        };
-        let settled = (d_lambda / lambda).abs() < 1.0e-5 && (d_b / b).abs() < 1.0e-5;
-        q += d_q;
-        b += d_b;
-        lambda = new_lambda;
-        // Covariance (over σ̂²): the centred 2 × 2 inverse for (B, v); Q = mean terms + a·(B, v)
-        // with a = (Σd/m, −Σw/m).
-        let (ibb, ivv, ibv) = (cww / det, cdd / det, cdw / det);
-        let (a1, a2) = (s.d / mf, -s.w / mf);
-        let vqb = a1 * ibb + a2 * ibv;
-        let vqv = a1 * ibv + a2 * ivv;
-        let vqq = 1.0 / mf + a1 * vqb + a2 * vqv;
-        out = Some((
-            full,
-            Fit3 {
-                q,
-                b,
-                lambda,
-                rr,
-                vqq,
-                vbb: ibb,
-                vvv: ivv,
-                vqb,
-                vqv,
-                vbv: ibv,
-            },
-        ));
-        if settled {
-            break;
-        }
-    }
-    match out {
-        Some((true, f)) if f.b > 0.0 && f.lambda.is_finite() => Some(f),
-        _ => None,
-    }
-}
-
-/// Model value of a [`Fit3`] at index `k` of its window (counts above zero).
-fn model_at(f: &Fit3, m: usize, k: f32) -> f32 {
-    let x = k - 0.5 * (m as f32 - 1.0);
-    f.q + f.b - f.b * libm::expf(-f.lambda * x)
-}
-
 /// Mean shortfall of `window[..skip]` below the model `f` fitted on `window[skip..]`, counts, and
 /// that over its noise standard error `noise/√skip`.
 fn head<S: Sample>(window: &[S], skip: usize, f: &Fit3, zero: f32, noise: f32) -> (f32, f32) {
-    let (early, fitted) = window.split_at_checked(skip).unwrap_or((window, &[]));
-    let m = fitted.len();
+    let (early, _) = window.split_at_checked(skip).unwrap_or((window, &[]));
     let mut sum = 0.0f32;
     for (k, v) in early.iter().enumerate() {
         let at = k as f32 - skip as f32;
-        sum += model_at(f, m, at) - (v.to_f32() - zero);
+        sum += model_at(f, at) - (v.to_f32() - zero);
     }
     let mean = sum / skip as f32;
     (mean, mean / (noise / sqrt(skip as f32)))
@@ -253,10 +110,9 @@ pub const HEAD_SIGMAS: f32 = 4.0;
 
 /// Durbin–Watson statistic of the residuals of `f` on `win`.
 fn durbin_watson<S: Sample>(win: &[S], zero: f32, f: &Fit3) -> f32 {
-    let m = win.len();
     let (mut num, mut den, mut prev) = (0.0f32, 0.0f32, None);
     for (k, v) in win.iter().enumerate() {
-        let r = v.to_f32() - zero - model_at(f, m, k as f32);
+        let r = v.to_f32() - zero - model_at(f, k as f32);
         if let Some(p) = prev {
             num += (r - p) * (r - p);
         }
@@ -286,10 +142,37 @@ fn durbin_watson<S: Sample>(win: &[S], zero: f32, f: &Fit3) -> f32 {
 /// # Errors
 /// [`TraceFault`] as for [`super::fit_rise`]; a trace at the floor but for fewer than
 /// [`MIN_SAMPLES`] samples: `Flat`.
+#[inline(always)]
 pub fn fit_response<S: Sample>(
     samples: &[S],
     sampling: &Sampling,
     options: &FitOptions,
+) -> Result<ResponseFit, TraceFault> {
+    let counts = S::EXACT_COUNT && options.path.counts();
+    let mut misfit = false;
+    // Inlined into the caller: the result needs no slot of its own.
+    let r = fit_body(samples, sampling, options, counts, &mut misfit);
+    if misfit {
+        // The integer path met a window that does not fit (a fast early component, or a plant
+        // the model leaves out): its two passes and the shortened windows after it do not
+        // converge, and where they end depends on the arithmetic. The whole fit is redone in f32
+        // so that both paths give the same figures for such a trace; misfits are rare, a
+        // healthy trace stays integer.
+        return fit_body(samples, sampling, options, false, &mut misfit);
+    }
+    r
+}
+
+/// [`fit_response`] with the integer refinement (`counts`) or the f32 one; sets `misfit` (and
+/// returns `NoConvergence`) when the integer path's whole window does not fit. Out of line, so
+/// that a redo in f32 reuses the frame.
+#[inline(never)]
+fn fit_body<S: Sample>(
+    samples: &[S],
+    sampling: &Sampling,
+    options: &FitOptions,
+    counts: bool,
+    misfit: &mut bool,
 ) -> Result<ResponseFit, TraceFault> {
     let floor = sampling.floor();
     let clipped = samples.iter().take_while(|v| v.to_f32() <= floor).count();
@@ -300,7 +183,8 @@ pub fn fit_response<S: Sample>(
             sampling.first().value() + clipped as f32 * period,
         ))
         .map_err(|_| TraceFault::NoConvergence)?;
-    let sv = match survey(trace, &shifted) {
+    let arith = if counts { Arith::Counts } else { Arith::Float };
+    let sv = match survey(trace, &shifted, arith == Arith::Counts) {
         Err(TraceFault::TooFewSamples { .. }) if clipped > 0 => {
             // Nearly all of the trace at the floor: no current to speak of.
             let sum: f32 = samples.iter().map(|v| v.to_f32() - sampling.zero()).sum();
@@ -360,11 +244,38 @@ pub fn fit_response<S: Sample>(
         if win.len() < 2 * MIN_SAMPLES && skip > 0 {
             break;
         }
-        let Some(f) = refine3(win, zero, lambda_start, passes) else {
-            continue;
+        // A shortened window starts from the whole window's λ, which the fast component it
+        // leaves out biased, often far off: it takes its passes without the early stop. (Only
+        // the float path gets here: the integer one hands a misfit to it, see `fit_response`.)
+        let f = match refine3(win, zero, lambda_start, passes, noise, arith, skip == 0) {
+            Refined::Fit(f) => f,
+            Refined::Failed if arith == Arith::Counts => {
+                *misfit = true;
+                return Err(TraceFault::NoConvergence);
+            }
+            Refined::Failed => continue,
+            // Beyond the integer pass's bounds: this window in f32.
+            Refined::OutOfBounds => {
+                match refine3(
+                    win,
+                    zero,
+                    lambda_start,
+                    passes,
+                    noise,
+                    Arith::Float,
+                    skip == 0,
+                ) {
+                    Refined::Fit(f) => f,
+                    _ => continue,
+                }
+            }
         };
         lambda_start = f.lambda;
         let ratio = sqrt(f.rr / larger(win.len() as f32 - 3.0, 1.0)) / noise;
+        if arith == Arith::Counts && ratio > HEAD_RATIO {
+            *misfit = true;
+            return Err(TraceFault::NoConvergence);
+        }
         // Leaving the head out is the physics of a coupled loop only if the head fell short of
         // the slow mode (the loop held current back); otherwise the misfit is a shape.
         if skip > 0 && head(window, skip, &f, zero, noise).1 <= HEAD_SIGMAS {
@@ -399,11 +310,10 @@ pub fn fit_response<S: Sample>(
     };
     // Window start in sample periods after switch-on, and the level there.
     let k_first = k0 + skip as f32;
-    let half = 0.5 * (mf - 1.0);
     let p = f.q + f.b;
-    let level0 = p - f.b * libm::expf(f.lambda * (half + k_first));
-    let dof = larger(mf - 3.0, 1.0);
-    let rms = sqrt(f.rr / dof);
+    let level0 = p - f.b * exp_pos(f.lambda * (f.centre + k_first));
+    // The kept window's RMS residual is its ratio times the noise (the root taken once).
+    let rms = ratio * noise;
     let s2 = {
         let s = larger(rms, noise);
         s * s
@@ -428,7 +338,9 @@ pub fn fit_response<S: Sample>(
     let tau = period / f.lambda;
     let final_current = p * apc;
     let slope = final_current / tau;
-    let rise_covered = -libm::expm1f(-f.lambda * (k_first + mf - 1.0));
+    // The last sample's time over τ, and the fraction of the rise the window covers.
+    let window_tau = f.lambda * (k_first + mf - 1.0);
+    let rise_covered = one_minus_exp_neg(window_tau);
     let figures = [
         slope,
         tau,
@@ -444,9 +356,9 @@ pub fn fit_response<S: Sample>(
         head_deficit * apc,
         head_sigmas,
         durbin_watson.unwrap_or(0.0),
+        window_tau,
     ];
-    let probe: f32 = figures.iter().map(|x| x * 0.0).sum();
-    if probe != 0.0 || p <= 0.0 {
+    if !all_finite(&figures) || p <= 0.0 {
         return Err(TraceFault::NoConvergence);
     }
     Ok(ResponseFit {
@@ -474,6 +386,7 @@ pub fn fit_response<S: Sample>(
             head_sigmas,
             clipped: clipped as u32,
             durbin_watson,
+            window_tau,
         },
     })
 }

@@ -35,18 +35,22 @@
 //! estimate alone is within 17 %. A noise-free trace is recovered to f32 precision (property
 //! test).
 //!
-//! Cost (QEMU instruction count, 64 `u16` samples, fit with the verdict, measured when
-//! [`super::verdict::judge_trace`] used this fit; it now uses [`fit_response`], 5 558
-//! instructions, see `docs/diagnosis.md` §3a): 2 832 instructions on a Cortex-M4F (about 12.5
-//! per sample in the survey pass of a trace that never falls, about 16 per refinement pass, the
-//! rest fixed), stack 320 bytes; about 232 000 instructions on a Cortex-M0 without FPU (soft
-//! float), stack 556 bytes.
+//! Cost of [`fit_response`] with its verdict (QEMU instruction count, 64 `u16` samples,
+//! `cargo xtask cost` case `fit_verdict_64`): 4 742 instructions on a Cortex-M4F (f32 path, one
+//! refinement pass on a healthy rise), 960 bytes of stack; 57 059 on a Cortex-M0 without FPU (the
+//! integer path, [`FitPath::Auto`] there), 1 276 bytes of stack. See `docs/diagnosis.md` §3b for
+//! the two arithmetics, their accuracy against each other and where the instructions go.
+//! [`fit_rise`] (zero start) was measured at 2 832 instructions on the M4F.
 
+mod centred;
+mod counts;
+mod fixed;
 mod free;
 mod num;
 mod refine;
 mod survey;
 
+pub(crate) use fixed::exp_neg;
 pub use free::{fit_response, ResponseFit, Shape};
 pub(crate) use num::sqrt;
 use num::{clamp, finite_or_zero, larger};
@@ -84,11 +88,50 @@ pub struct FitOptions {
     /// by less than 10⁻⁵ (relative). 0 keeps the closed-form one-pass estimate and spends one pass
     /// on its residuals and standard errors only.
     pub refinements: u8,
+    /// The arithmetic of [`fit_response`]'s refinement (default [`FitPath::Auto`]).
+    pub path: FitPath,
 }
 
 impl Default for FitOptions {
     fn default() -> Self {
-        Self { refinements: 1 }
+        Self {
+            refinements: 1,
+            path: FitPath::Auto,
+        }
+    }
+}
+
+/// The arithmetic of [`fit_response`]'s refinement. Both paths fit the same model by the same
+/// Gauss–Newton step and give the same figures to well within their standard errors (see
+/// `counts.rs` and `docs/diagnosis.md` §3a); they differ in cost.
+#[derive(Clone, Copy, Debug, PartialEq, Eq)]
+#[cfg_attr(feature = "defmt", derive(defmt::Format))]
+#[non_exhaustive]
+pub enum FitPath {
+    /// [`FitPath::Counts`] on an ARM target without a floating-point unit (`target_abi` not
+    /// `eabihf`: Cortex-M0/M0+/M3/M23), where f32 arithmetic is emulated; [`FitPath::Float`]
+    /// elsewhere (a Cortex-M4F/M7 and the host, where f32 is as cheap as integers).
+    Auto,
+    /// f32 sums over the samples.
+    Float,
+    /// Integer sums over exact counts ([`Sample::EXACT_COUNT`]: `u8`, `u16`, `i16`) for windows
+    /// of at most [`MAX_COUNT_WINDOW`] samples whose residuals stay within ±4 096 counts; any
+    /// other trace or window in f32.
+    Counts,
+}
+
+/// Longest window the integer refinement takes (its sums are exact in 64 bits up to here).
+pub const MAX_COUNT_WINDOW: usize = 256;
+
+impl FitPath {
+    /// Whether the integer refinement is asked for (resolving [`FitPath::Auto`] for the target
+    /// being compiled).
+    pub(crate) const fn counts(self) -> bool {
+        match self {
+            FitPath::Float => false,
+            FitPath::Counts => true,
+            FitPath::Auto => cfg!(all(target_arch = "arm", not(target_abi = "eabihf"))),
+        }
     }
 }
 
@@ -100,6 +143,12 @@ impl FitOptions {
     /// The same options with `refinements` passes (see the field).
     pub const fn with_refinements(mut self, refinements: u8) -> Self {
         self.refinements = refinements;
+        self
+    }
+
+    /// The same options with the refinement's arithmetic `path` (see [`FitPath`]).
+    pub const fn with_path(mut self, path: FitPath) -> Self {
+        self.path = path;
         self
     }
 }
@@ -211,7 +260,7 @@ pub fn fit_rise<S: Sample>(
     sampling: &Sampling,
     options: &FitOptions,
 ) -> Result<RiseFit, TraceFault> {
-    let sv = survey(samples, sampling)?;
+    let sv = survey(samples, sampling, false)?;
     // The survey counts `used` among the trace's own samples, so the slice always exists.
     let window = samples.get(..sv.used).unwrap_or(samples);
     let n = sv.used as f32;

@@ -70,10 +70,95 @@ fn count_limit(full: f32) -> i32 {
     }
 }
 
-/// The survey loop for exact integer counts ([`Sample::EXACT_COUNT`]): the sums of
+/// Longest window whose survey sums are kept in integers: `ΣS_k²` stays below 2⁶² for counts of
+/// 16 bits. Longer traces take the f32 sums.
+const INT_SURVEY_MAX: usize = 1024;
+
+/// The survey loop for exact integer counts ([`Sample::EXACT_COUNT`]) in integers: the sums of
 /// `head, tail…` above `zero`, the last count, and a word that is negative exactly when some
 /// count is below its predecessor (the OR of the differences; no compare per sample).
-fn count_pass<S: Sample>(head: S, tail: &[S], zero: f32) -> (Sums, i32, i32) {
+///
+/// Up to [`INT_SURVEY_MAX`] samples the five running sums are kept exactly in integers on the
+/// raw counts x (`|x| ≤ 65 535`, so `|S| < 2²⁶`, `S² < 2⁵²`, every sum below 2⁶²) and the
+/// free-level λ is computed from them exactly ([`free_lambda_exact`]); only `Σc` is returned
+/// among the f32 sums. No soft-float operation per sample on a target without an FPU. Longer
+/// traces: the f32 sums and `None`.
+#[inline(never)]
+fn count_pass<S: Sample>(head: S, tail: &[S], zero: f32) -> (Sums, i32, i32, Option<f32>) {
+    if tail.len() >= INT_SURVEY_MAX {
+        let (sums, last, dips) = count_pass_f32(head, tail, zero);
+        return (sums, last, dips, None);
+    }
+    let x0 = head.to_count();
+    let (mut s1, mut r1, mut q1) = (x0, x0 as i64, x0 as i64);
+    let (mut p1, mut c1) = (square_u64(x0), square_u64(x0));
+    let (mut last, mut dips) = (x0, 0i32);
+    for v in tail {
+        let x = v.to_count();
+        dips |= x.wrapping_sub(last);
+        last = x;
+        s1 = s1.wrapping_add(x);
+        r1 = r1.wrapping_add(s1 as i64);
+        q1 = q1.wrapping_add(r1);
+        p1 = p1.wrapping_add(square_u64(s1));
+        c1 = c1.wrapping_add(x.wrapping_mul(x) as u32 as u64);
+    }
+    let m = tail.len() as i64 + 1;
+    let lambda = free_lambda_exact(m, s1 as i64, r1, q1, p1, c1);
+    // Only Σc is needed besides λ on this path (the level of a flat trace).
+    let sums = Sums {
+        s: s1 as f32 - m as f32 * zero,
+        r: 0.0,
+        q: 0.0,
+        p: 0.0,
+        c: 0.0,
+    };
+    (sums, last, dips, Some(lambda))
+}
+
+/// The free-level one-pass λ of [`survey`] (`c_k = a + λP·κ_k − λ·J_k`, see there) from the
+/// integer sums of the raw counts x: `S = Σx`, `R = ΣS_k`, `Q = ΣR_k`, `P = ΣS_k²`, `C = Σx²`.
+/// The free intercept and the κ column absorb the converter zero and the first trapezoid, so
+/// `2J_k = 2S_k − x_k` and `u_k = k` serve; every centred sum is `N/m` with the integer
+/// `N = m·Σab − Σa·Σb`, exact in i128 (`ΣS_k² < 2⁶²` for up to 1 024 counts of 16 bits), and
+/// `λ = 2(N_uj·N_xu − N_uu·N_xj)/(N_uu·N_jj − N_uj²)` in f32 from them (0 when singular).
+fn free_lambda_exact(m: i64, s: i64, r: i64, q: i64, p: u64, c: u64) -> f32 {
+    let (m, s, r, q, p, c) = (
+        m as i128, s as i128, r as i128, q as i128, p as i128, c as i128,
+    );
+    let su = m * (m - 1) / 2;
+    let suu = (m - 1) * m * (2 * m - 1) / 6;
+    // Σk·x = m·S − R and Σk·S_k = m·R − Q (summation by parts); Σx_k·S_k = (S² + C)/2.
+    let sxu = m * s - r;
+    let sj = 2 * r - s;
+    let suj = 2 * (m * r - q) - sxu;
+    let sjj = 4 * p - 2 * s * s - c;
+    let sxj = s * s;
+    let nuu = (m * suu - su * su) as f32;
+    let nuj = (m * suj - su * sj) as f32;
+    let njj = (m * sjj - sj * sj) as f32;
+    let nxu = (m * sxu - s * su) as f32;
+    let nxj = (m * sxj - s * sj) as f32;
+    let dc = nuu * njj - nuj * nuj;
+    if dc > 1.0e-7 * nuu * njj && dc.is_finite() {
+        2.0 * (nuj * nxu - nuu * nxj) / dc
+    } else {
+        0.0
+    }
+}
+
+/// `x²` for |x| < 2³¹ as u64 from 16-bit halves (three 32-bit multiplies).
+#[inline(always)]
+fn square_u64(x: i32) -> u64 {
+    let a = x.unsigned_abs();
+    let (hi, lo) = (a >> 16, a & 0xffff);
+    (((hi * hi) as u64) << 32)
+        .wrapping_add(((2 * hi * lo) as u64) << 16)
+        .wrapping_add((lo * lo) as u64)
+}
+
+/// [`count_pass`] in f32 sums, for traces longer than the integer bounds.
+fn count_pass_f32<S: Sample>(head: S, tail: &[S], zero: f32) -> (Sums, i32, i32) {
     let mut sums = Sums::new(head.to_f32() - zero);
     let (mut last, mut dips) = (head.to_count(), 0i32);
     let mut step = |v: S| {
@@ -109,7 +194,14 @@ fn count_extent<S: Sample>(head: S, tail: &[S]) -> (i32, i32) {
     (hi, drop)
 }
 
-pub(super) fn survey<S: Sample>(samples: &[S], sampling: &Sampling) -> Result<Survey, TraceFault> {
+/// The survey of `samples`: trace checks and the one-pass estimate. `int_sums`: keep the
+/// running sums of exact counts in integers ([`count_pass`]; for the integer path, where f32
+/// operations are emulated) rather than in f32.
+pub(super) fn survey<S: Sample>(
+    samples: &[S],
+    sampling: &Sampling,
+    int_sums: bool,
+) -> Result<Survey, TraceFault> {
     let n = samples.len();
     let zero = sampling.zero();
     let full = sampling.full_scale();
@@ -134,15 +226,20 @@ pub(super) fn survey<S: Sample>(samples: &[S], sampling: &Sampling) -> Result<Su
     // sum of the least-squares problem then follows from five running sums, S (Σc), R (ΣS),
     // Q (ΣR), P (ΣS²) and C (Σc²), by summation by parts (see below): five flops per sample.
     let c0 = x - zero;
-    let (sums, hi, drop, used, truncated) = if S::EXACT_COUNT {
+    let (sums, hi, drop, used, truncated, exact) = if S::EXACT_COUNT {
         // Integer counts: saturation, running maximum and largest drop on the counts themselves
         // (exact). Saturation needs no test per sample: a saturated sample raises the maximum to
         // the limit, and then the pass is redone on the window before the first one.
         let limit = count_limit(full);
         let mut window = tail;
         let mut truncated = false;
-        let (sums, hi, drop) = loop {
-            let (sums, last, dips) = count_pass(*head, window, zero);
+        let (sums, hi, drop, exact) = loop {
+            let (sums, last, dips, exact) = if int_sums {
+                count_pass(*head, window, zero)
+            } else {
+                let (sums, last, dips) = count_pass_f32(*head, window, zero);
+                (sums, last, dips, None)
+            };
             // A trace that never falls has its maximum at the end and no drop.
             let (hi, drop) = if dips < 0 {
                 count_extent(*head, window)
@@ -150,7 +247,7 @@ pub(super) fn survey<S: Sample>(samples: &[S], sampling: &Sampling) -> Result<Su
                 (last, 0)
             };
             if hi < limit || truncated {
-                break (sums, hi, drop);
+                break (sums, hi, drop, exact);
             }
             let k = window
                 .iter()
@@ -160,7 +257,7 @@ pub(super) fn survey<S: Sample>(samples: &[S], sampling: &Sampling) -> Result<Su
             truncated = true;
         };
         let used = window.len() + 1;
-        (sums, hi as f32 - zero, drop as f32, used, truncated)
+        (sums, hi as f32 - zero, drop as f32, used, truncated, exact)
     } else {
         let mut sums = Sums::new(c0);
         let (mut hi, mut drop) = (c0, 0.0f32);
@@ -189,7 +286,7 @@ pub(super) fn survey<S: Sample>(samples: &[S], sampling: &Sampling) -> Result<Su
             }
         }
         let used = if truncated { n - rest.len() - 1 } else { n };
-        (sums, hi, drop, used, truncated)
+        (sums, hi, drop, used, truncated, None)
     };
     let Sums {
         s: s_sum,
@@ -212,6 +309,21 @@ pub(super) fn survey<S: Sample>(samples: &[S], sampling: &Sampling) -> Result<Su
             TraceFault::TooFewSamples {
                 usable: used as u32,
             }
+        });
+    }
+    if let Some(free_lambda) = exact {
+        // The integer survey: the free-level λ exactly; the constrained (σ, λ) of `fit_rise` is
+        // not needed by the free-level fit and is left out (0, so a fallback start is 1/m).
+        return Ok(Survey {
+            free_lambda,
+            used,
+            truncated,
+            sigma: 0.0,
+            lambda: 0.0,
+            first: c0,
+            max: hi,
+            drop,
+            sum: s_sum,
         });
     }
     let m = used as f32;

@@ -110,7 +110,15 @@ fn newton_square_root_is_accurate() {
         let r = sqrt(x) as f64;
         let exact = (x as f64).sqrt();
         assert!(((r - exact) / exact).abs() < 2e-7, "{x}: {r} vs {exact}");
+        // Correctly rounded (the integer method, on a target without an FPU and the host): the
+        // f32 nearest to the exact root.
+        if !cfg!(target_abi = "eabihf") {
+            assert_eq!(sqrt(x), exact as f32, "{x}");
+        }
         x *= 1.37;
+    }
+    for x in [1.0e-45f32, 3.0e-41, 1.0e-39, 1.1e-38] {
+        assert_eq!(sqrt(x), (x as f64).sqrt() as f32, "subnormal {x}");
     }
     assert_eq!(sqrt(0.0), 0.0);
     assert_eq!(sqrt(-1.0), 0.0);
@@ -120,7 +128,7 @@ fn newton_square_root_is_accurate() {
 
 #[test]
 fn integer_check_matches_the_float_check() {
-    // u16 takes the integer survey (EXACT_COUNT), u32 the f32 one: same counts, same result,
+    // u16 takes the integer checks (EXACT_COUNT), u32 the f32 ones: same counts, same result,
     // for rising, dithered, falling, saturating and too-short traces.
     let sm = Sampling::adc(Seconds::new(1.0e-4), 12, Amps::new(0.4095))
         .unwrap()

@@ -4,7 +4,7 @@ use super::envelope::Envelope;
 use super::Estimates;
 use super::{at_most, estimates, healthy_or_supply, Criteria, Finding, Undetermined, Verdict};
 use crate::diagnosis::band::Expected;
-use crate::diagnosis::fit::{fit_response, FitOptions, ResponseFit, RiseFit, TraceFault};
+use crate::diagnosis::fit::{exp_neg, fit_response, FitOptions, ResponseFit, RiseFit, TraceFault};
 use crate::diagnosis::sample::{Sample, Sampling};
 
 /// What the physics of a real coil allows on top of the fit's errors (see [`judge_response`]).
@@ -137,16 +137,13 @@ pub fn judge_rise(fit: &RiseFit, expected: &Expected, criteria: &Criteria) -> Ve
 }
 
 /// The window's length in time constants of the slowest healthy coil: `t_last/τ_max`, with
-/// `t_last = −ln(1 − covered)·τ_fit` from the fit's coverage. Taken against the band's longest τ
-/// rather than the fitted one, because an eddy path biases the fitted τ short, which would make
-/// the window look longer exactly when the allowance is needed. 0 when not finite.
-fn window_in_tau(r: &RiseFit, expected: &Expected) -> f32 {
-    let c = r.quality.rise_covered;
-    if !(c > 0.0 && c < 1.0) {
-        return 0.0;
-    }
-    let w = -libm::log1pf(-c) * r.tau.value() / expected.tau.max.value();
-    if w.is_finite() && w > 0.0 {
+/// `t_last = window_tau·τ_fit` (the fit's `t_last/τ`, no logarithm needed). Taken against the
+/// band's longest τ rather than the fitted one, because an eddy path biases the fitted τ short,
+/// which would make the window look longer exactly when the allowance is needed. 0 when not
+/// finite.
+fn window_in_tau(fit: &ResponseFit, expected: &Expected) -> f32 {
+    let w = fit.shape.window_tau * fit.rise.tau.value() / expected.tau.max.value();
+    if w > 0.0 && w < f32::INFINITY {
         w
     } else {
         0.0
@@ -159,9 +156,8 @@ fn window_in_tau(r: &RiseFit, expected: &Expected) -> f32 {
 /// current, τ_f 20 % of τ), τ −41 % at w = 0.36, −19 % at 0.7, −4 % at 1.2, −1 % at 1.8; the law
 /// bounds every point (`docs/diagnosis.md` §9).
 fn eddy_scale(w: f32) -> f32 {
-    let s = libm::expf(-(w - 0.36) / 0.45);
-    if s < 1.0 {
-        s
+    if w > 0.36 {
+        exp_neg((w - 0.36) / 0.45)
     } else {
         1.0
     }
@@ -213,7 +209,7 @@ pub fn judge_response(fit: &ResponseFit, expected: &Expected, criteria: &Criteri
     } else {
         None
     };
-    let scale = eddy_scale(window_in_tau(r, expected));
+    let scale = eddy_scale(window_in_tau(fit, expected));
     let finding = judge_slope_tau(
         (
             r.slope,

@@ -241,7 +241,7 @@ proptest! {
         let s = crate::diagnosis::fit::tests::model(i_inf, tau, period, first * period, n);
         let sm = Sampling::new(Seconds::new(period as f32), 1.0).unwrap()
             .with_first_sample(Seconds::new((first * period) as f32)).unwrap();
-        let f = fit_rise(&s, &sm, &FitOptions { refinements: 4 }).unwrap();
+        let f = fit_rise(&s, &sm, &FitOptions::default().with_refinements(4)).unwrap();
         let rel = |a: f32, b: f64| ((a as f64 - b) / b).abs();
         // f32 precision: the samples carry 2⁻²⁴ relative rounding, amplified by the
         // conditioning of a short window (≈ 1/span²).

@@ -1,0 +1,370 @@
+//! The free-level fit's two arithmetics side by side: the integer pass on exact counts
+//! (`FitPath::Counts`, the default on an FPU-less Cortex-M) against the f32 pass
+//! (`FitPath::Float`), on the same `u16` traces.
+//!
+//! # The bound, and why
+//!
+//! Both paths solve the same least-squares problem by the same Gauss–Newton step from the same
+//! start; they differ by
+//!
+//! 1. the basis: the integer pass uses Q15 weights, `v_k/2¹⁵ = q^k + ε_k`, `|ε_k| ≤ 2⁻¹⁶` (RMS
+//!    2⁻¹⁶/√3), so its model differs from the float one by `A·ε_k`: a perturbation of RMS
+//!    `A·2⁻¹⁶/√3` counts that moves the estimates like added noise of that size;
+//! 2. the residual in Q4: a further rounding of RMS `(1/32)/√3` count;
+//! 3. where each stops: each path ends within `SETTLE/2 = 0.025` standard errors of its own
+//!    least-squares optimum (`centred.rs`), so the two ends differ by at most 0.05 of a standard
+//!    error from that;
+//! 4. f32 rounding of the sums (relative 10⁻⁶ after centring; negligible).
+//!
+//! The perturbations 1–2 of RMS `ε = √((A·2⁻¹⁶)² + (1/32)²)/√3` against the trace noise σ move
+//! an estimate by about `ε/σ` of its standard error (least squares is linear in the data); with
+//! a factor 4 for the tail of that spread over the cases drawn, the allowed difference is
+//! `(4·ε/σ + 0.05)` standard errors (the fit's own `rel_sd_*`, which is the estimator's noise).
+//! The residual ratio moves by the rounding's share of the residual power and by the stop:
+//! `|Δratio|/ratio ≤ 4·ε/σ + 0.05` as well.
+
+use coilwise::diagnosis::{fit_response, FitOptions, FitPath, ResponseFit, Sampling, TraceFault};
+use coilwise::Seconds;
+use levenberg_marquardt::{LeastSquaresProblem, LevenbergMarquardt};
+use nalgebra::{storage::Owned, Dyn, OMatrix, OVector, U3};
+use proptest::prelude::*;
+
+/// The free-level model `c_k = P − A·e^(−λ·κ_k)` (κ in sample periods) for the general-purpose
+/// `levenberg-marquardt` crate, in f64: the reference least-squares solution both paths are
+/// measured against.
+struct Free<'a> {
+    kappa: &'a [f64],
+    y: &'a [f64],
+    p: OVector<f64, U3>,
+}
+
+impl LeastSquaresProblem<f64, Dyn, U3> for Free<'_> {
+    type ResidualStorage = Owned<f64, Dyn>;
+    type JacobianStorage = Owned<f64, Dyn, U3>;
+    type ParameterStorage = Owned<f64, U3>;
+    fn set_params(&mut self, p: &OVector<f64, U3>) {
+        self.p.copy_from(p);
+    }
+    fn params(&self) -> OVector<f64, U3> {
+        self.p
+    }
+    fn residuals(&self) -> Option<OVector<f64, Dyn>> {
+        let (pp, a, l) = (self.p[0], self.p[1], self.p[2]);
+        Some(OVector::<f64, Dyn>::from_iterator(
+            self.y.len(),
+            self.kappa
+                .iter()
+                .zip(self.y)
+                .map(|(k, y)| pp - a * (-l * k).exp() - y),
+        ))
+    }
+    fn jacobian(&self) -> Option<OMatrix<f64, Dyn, U3>> {
+        let (a, l) = (self.p[1], self.p[2]);
+        let mut j = OMatrix::<f64, Dyn, U3>::zeros(self.y.len());
+        for (i, k) in self.kappa.iter().enumerate() {
+            let e = (-l * k).exp();
+            j[(i, 0)] = 1.0;
+            j[(i, 1)] = -e;
+            j[(i, 2)] = a * k * e;
+        }
+        Some(j)
+    }
+}
+
+/// The reference fit of `counts` (window `skip..`, first sample at κ = first + clipped + skip),
+/// started at `start`: (τ in samples, P in counts, slope P/τ), or `None` if it did not converge.
+fn reference(counts: &[u16], kappa0: f64, start: &ResponseFit) -> Option<(f64, f64, f64)> {
+    let y: Vec<f64> = counts.iter().map(|&c| c as f64).collect();
+    let kappa: Vec<f64> = (0..y.len()).map(|k| kappa0 + k as f64).collect();
+    let l0 = 1.0e-4 / start.rise.tau.value() as f64;
+    let p0 = start.rise.final_current.value() as f64 / 1.0e-4;
+    let a0 = p0 - start.shape.initial_current.value() as f64 / 1.0e-4;
+    let problem = Free {
+        kappa: &kappa,
+        y: &y,
+        p: OVector::<f64, U3>::new(p0, a0, l0),
+    };
+    let (solved, report) = LevenbergMarquardt::new().minimize(problem);
+    report.termination.was_successful().then(|| {
+        let (p, l) = (solved.p[0], solved.p[2]);
+        (1.0 / l, p, p * l)
+    })
+}
+
+fn options(path: FitPath) -> FitOptions {
+    FitOptions::default().with_path(path)
+}
+
+fn both(
+    trace: &[u16],
+    s: &Sampling,
+) -> (
+    Result<ResponseFit, TraceFault>,
+    Result<ResponseFit, TraceFault>,
+) {
+    (
+        fit_response(trace, s, &options(FitPath::Float)),
+        fit_response(trace, s, &options(FitPath::Counts)),
+    )
+}
+
+/// A quantised rise `P − (P − I₀)·e^(−t/τ)` plus Gaussian noise (Box–Muller from two uniforms
+/// per sample), clipped to the 12-bit range.
+fn trace(
+    p: f64,
+    i0: f64,
+    tau_samples: f64,
+    first: f64,
+    noise: f64,
+    n: usize,
+    u: &[(f64, f64)],
+) -> Vec<u16> {
+    (0..n)
+        .map(|k| {
+            let t = first + k as f64;
+            let (u1, u2) = u[k % u.len()];
+            let g = (-2.0 * (1.0 - u1).ln()).sqrt() * (std::f64::consts::TAU * u2).cos();
+            let c = p - (p - i0) * (-t / tau_samples).exp() + noise * g;
+            c.round().clamp(0.0, 4095.0) as u16
+        })
+        .collect()
+}
+
+fn sampling(first: f64, noise: f64) -> Sampling {
+    Sampling::new(Seconds::new(1.0e-4), 1.0e-4)
+        .unwrap()
+        .with_first_sample(Seconds::new((first * 1.0e-4) as f32))
+        .unwrap()
+        .with_full_scale(4095.0)
+        .unwrap()
+        .with_noise(noise as f32)
+        .unwrap()
+}
+
+/// Relative difference of two positive figures, in logarithms.
+fn dlog(a: f32, b: f32) -> f64 {
+    ((a as f64) / (b as f64)).ln().abs()
+}
+
+/// The allowed gap between the paths, in standard errors (module docs): `5·ε/σ + 0.1`, with
+/// ε = (1/32)/√12 count the RMS of the integer pass's Q5 residual rounding and σ the trace's
+/// noise with quantisation.
+fn bound(noise: f64) -> f64 {
+    let sigma = (noise * noise + 1.0 / 12.0).sqrt();
+    let eps = (1.0 / 32.0) / 12f64.sqrt();
+    5.0 * eps / sigma + 0.1
+}
+
+/// Distance of a fit from the reference, in its own standard errors: the largest of
+/// |Δ ln τ|/sd(ln τ), |Δ ln s|/sd(ln s), |Δ ln P|/sd(ln P).
+fn off(f: &ResponseFit, (tau, p, slope): (f64, f64, f64)) -> f64 {
+    let q = f.rise.quality;
+    let t = ((f.rise.tau.value() as f64 / 1.0e-4) / tau).ln().abs() / q.rel_sd_tau as f64;
+    let pp = ((f.rise.final_current.value() as f64 / 1.0e-4) / p)
+        .ln()
+        .abs()
+        / q.rel_sd_final as f64;
+    let s = ((f.rise.slope as f64) / slope).ln().abs() / q.rel_sd_slope as f64;
+    t.max(pp).max(s)
+}
+
+/// The largest of |Δ ln τ|/sd(ln τ), |Δ ln s|/sd(ln s), |Δ ln P|/sd(ln P) and the allowed bound
+/// (module docs) for a pair of fits.
+fn gap(a: &ResponseFit, b: &ResponseFit, noise: f64) -> (f64, f64, f64) {
+    let (qa, qb) = (a.rise.quality, b.rise.quality);
+    let sd = |x: f32, y: f32| x.max(y) as f64;
+    let g_tau = dlog(a.rise.tau.value(), b.rise.tau.value()) / sd(qa.rel_sd_tau, qb.rel_sd_tau);
+    let g_s = dlog(a.rise.slope, b.rise.slope) / sd(qa.rel_sd_slope, qb.rel_sd_slope);
+    let g_p = dlog(a.rise.final_current.value(), b.rise.final_current.value())
+        / sd(qa.rel_sd_final, qb.rel_sd_final);
+    let bound = bound(noise);
+    let ratio = (qa.noise_ratio as f64 / qb.noise_ratio as f64).ln().abs();
+    (g_tau.max(g_s).max(g_p), ratio, bound)
+}
+
+proptest! {
+    #![proptest_config(ProptestConfig { cases: 400, .. ProptestConfig::default() })]
+
+    /// Random healthy-looking rises: the two paths agree within the bound of the module docs, or
+    /// give the same fault.
+    #[test]
+    fn integer_and_float_paths_agree(
+        p in 50.0f64..4000.0,
+        i0_frac in 0.0f64..0.5,
+        span in 0.1f64..4.0,
+        first in 0.0f64..3.0,
+        noise in 0.0f64..3.0,
+        n in 6usize..=256,
+        u in prop::collection::vec((0.0f64..1.0, 0.0f64..1.0), 1..64),
+    ) {
+        let tau = n as f64 / span;
+        let t = trace(p, i0_frac * p, tau, first, noise, n, &u);
+        let s = sampling(first, noise);
+        match both(&t, &s) {
+            (Ok(a), Ok(b)) => {
+                prop_assert_eq!(a.shape.skipped, b.shape.skipped);
+                prop_assert_eq!(a.rise.quality.samples, b.rise.quality.samples);
+                // Compared where the fit is precise enough for a verdict (standard errors of slope
+                // and τ within `Criteria::max_rel_sd`, 10 %): beyond, the linearised standard
+                // error is no measure of distance (τ known to 235 % on 5 % of a rise).
+                if usable(&a) && usable(&b) {
+                    let (g, ratio, bound) = gap(&a, &b, noise);
+                    prop_assert!(g <= bound, "estimates {g:.3} sd apart, bound {bound:.3}: {a:?} / {b:?}");
+                    prop_assert!(ratio <= bound, "noise ratios {ratio:.3} apart (log), bound {bound:.3}");
+                }
+            }
+            (Err(a), Err(b)) => prop_assert!(same_fault(a, b), "{a:?} / {b:?}"),
+            (a, b) => {
+                // A window near a decision threshold (singular, or not settling) may go either
+                // way; anything else must not.
+                let edge = |r: &Result<ResponseFit, TraceFault>| matches!(r, Err(TraceFault::NoConvergence));
+                prop_assert!(edge(&a) || edge(&b), "{a:?} / {b:?}");
+            }
+        }
+    }
+
+    /// The trace faults the checks find come out the same on both paths: flat, below zero, not
+    /// monotone, saturated early.
+    #[test]
+    fn trace_faults_agree(
+        level in 0u16..4095,
+        noise in 0.0f64..2.0,
+        kind in 0u8..4,
+        at in 0usize..64,
+        n in 6usize..=128,
+        u in prop::collection::vec((0.0f64..1.0, 0.0f64..1.0), 1..16),
+    ) {
+        let at = at % n;
+        let mut t = trace(2000.0, 0.0, n as f64 / 0.8, 1.0, noise, n, &u);
+        let s = sampling(1.0, noise).with_zero(if kind == 1 { 600.0 } else { 0.0 }).unwrap();
+        match kind {
+            0 => t.iter_mut().for_each(|c| *c = level),
+            1 => {}
+            2 => t[at] = t[at].saturating_sub(400),
+            _ => t.iter_mut().skip(at.min(4)).for_each(|c| *c = 4095),
+        }
+        let (a, b) = both(&t, &s);
+        match (&a, &b) {
+            (Err(x), Err(y)) => prop_assert!(same_fault(*x, *y), "{x:?} / {y:?}"),
+            (Ok(x), Ok(y)) => {
+                if usable(x) && usable(y) {
+                    let (g, _, bound) = gap(x, y, noise);
+                    prop_assert!(g <= bound, "{g} > {bound}");
+                }
+            }
+            _ => prop_assert!(false, "one path faulted, the other not: {a:?} / {b:?}"),
+        }
+    }
+}
+
+/// Whether a fit is precise enough for a verdict to use it (slope and τ within 10 %).
+fn usable(f: &ResponseFit) -> bool {
+    f.rise.quality.rel_sd_tau <= 0.1 && f.rise.quality.rel_sd_slope <= 0.1
+}
+
+/// Same fault and index; a flat trace's level to f32 rounding (the integer survey sums exactly).
+fn same_fault(a: TraceFault, b: TraceFault) -> bool {
+    match (a, b) {
+        (TraceFault::Flat { level: x }, TraceFault::Flat { level: y }) => {
+            (x.value() - y.value()).abs() <= 1.0e-5 * x.value().abs().max(1.0e-6)
+        }
+        _ => a == b,
+    }
+}
+
+/// Noise-free: a rounded closed-form rise is recovered by the integer path to within what the
+/// rounding to counts allows: the exact parameters the counts were rounded from lie within four
+/// of the fit's standard errors, which are those of the quantisation noise (1/√12 count RMS,
+/// the uniform distribution's standard deviation, textbook, from memory), and the float path
+/// agrees within the bound of the module docs.
+#[test]
+fn a_rounded_rise_is_recovered_to_within_quantisation() {
+    for &(p, i0, tau, n, first) in &[
+        (3000.0f64, 0.0f64, 40.0f64, 64usize, 1.0f64),
+        (1600.0, 200.0, 41.3, 64, 1.0),
+        (800.0, 0.0, 400.0, 128, 0.0),
+        (3900.0, 1000.0, 12.0, 200, 2.0),
+    ] {
+        let t: Vec<u16> = (0..n)
+            .map(|k| (p - (p - i0) * (-(first + k as f64) / tau).exp()).round() as u16)
+            .collect();
+        let s = sampling(first, 0.0);
+        let f = fit_response(&t, &s, &options(FitPath::Counts)).unwrap();
+        let g = fit_response(&t, &s, &options(FitPath::Float)).unwrap();
+        let q = f.rise.quality;
+        // Quantisation noise alone: 1/√12 count; the fit's standard errors are scaled to it.
+        let tau_fit = f.rise.tau.value() as f64 / 1.0e-4;
+        let p_fit = f.rise.final_current.value() as f64 / 1.0e-4;
+        assert!(
+            ((tau_fit / tau).ln()).abs() <= 4.0 * q.rel_sd_tau as f64,
+            "τ {tau_fit} vs {tau}"
+        );
+        assert!(
+            ((p_fit / p).ln()).abs() <= 4.0 * q.rel_sd_final as f64,
+            "P {p_fit} vs {p}"
+        );
+        // Quantisation error is about 1/√12 count RMS: the residual ratio near or below 1.
+        assert!(q.noise_ratio < 1.5, "{q:?}");
+        let (gp, _, bound) = gap(&f, &g, 0.0);
+        assert!(gp <= bound, "paths {gp} sd apart, bound {bound}");
+    }
+}
+
+/// Each path against the reference least-squares solution of the same counts (the
+/// `levenberg-marquardt` crate in f64, started at the fit), on 1 500 seeded healthy-looking
+/// rises (whole window kept, nothing clipped or cut, standard errors of slope and τ within the
+/// verdict's 10 %): the distance, in the fit's own standard
+/// errors, stays within the path's rounding share plus its stopping remainder (module docs):
+/// `0.025 + 5·ε/σ`, with ε the RMS of the path's model error — the Q5 residual rounding,
+/// (1/32)/√12 count, for the integer pass; for the float pass the drift of the f32 recurrence
+/// `e ← e·q` over the window, `A·m·2⁻²⁴/√3` at most.
+#[test]
+fn each_path_is_close_to_the_reference_least_squares_solution() {
+    let mut state = 0x1234_5678_9abc_def0u64;
+    let mut next = || {
+        state ^= state << 13;
+        state ^= state >> 7;
+        state ^= state << 17;
+        (state >> 11) as f64 / (1u64 << 53) as f64
+    };
+    let (mut worst_f, mut worst_i, mut used) = (0.0f64, 0.0f64, 0);
+    for _ in 0..1500 {
+        let p = 50.0 + 3950.0 * next();
+        let i0 = 0.5 * next() * p;
+        let span = 0.1 + 3.9 * next();
+        let first = 3.0 * next();
+        let noise = 3.0 * next();
+        let n = 6 + (next() * 251.0) as usize;
+        let u: Vec<(f64, f64)> = (0..64).map(|_| (next(), next())).collect();
+        let t = trace(p, i0, n as f64 / span, first, noise, n, &u);
+        let s = sampling(first, noise);
+        let (Ok(a), Ok(b)) = both(&t, &s) else {
+            continue;
+        };
+        if a.shape.skipped != 0 || a.shape.clipped != 0 || a.rise.quality.truncated {
+            continue;
+        }
+        // Only fits precise enough for a verdict (`Criteria::max_rel_sd`, 0.1): for a looser one
+        // the linearised standard error is no measure of distance (rel_sd_tau of 0.9 on 16
+        // samples of 9 % of a rise).
+        let q = a.rise.quality;
+        if q.rel_sd_tau > 0.1 || q.rel_sd_slope > 0.1 {
+            continue;
+        }
+        let Some(r) = reference(&t, first, &a) else {
+            continue;
+        };
+        used += 1;
+        let sigma = (noise * noise + 1.0 / 12.0).sqrt();
+        let amp = (p - i0).abs();
+        let eps_f = amp * n as f64 * 2f64.powi(-24) / 3f64.sqrt();
+        let eps_i = (1.0 / 32.0) / 12f64.sqrt();
+        let (of, oi) = (off(&a, r), off(&b, r));
+        assert!(of <= 0.025 + 5.0 * eps_f / sigma, "float {of}: {a:?}");
+        assert!(oi <= 0.025 + 5.0 * eps_i / sigma, "integer {oi}: {b:?}");
+        worst_f = worst_f.max(of);
+        worst_i = worst_i.max(oi);
+    }
+    println!("{used} traces: worst distance from the reference, in standard errors: float {worst_f:.4}, integer {worst_i:.4}");
+    assert!(used > 600, "{used}");
+}
