@@ -123,11 +123,19 @@ fn count_pass<S: Sample>(head: S, tail: &[S], zero: f32) -> (Sums, i32, i32, Opt
 /// `N = m·Σab − Σa·Σb`, exact in i128 (`ΣS_k² < 2⁶²` for up to 1 024 counts of 16 bits), and
 /// `λ = 2(N_uj·N_xu − N_uu·N_xj)/(N_uu·N_jj − N_uj²)` in f32 from them (0 when singular).
 fn free_lambda_exact(m: i64, s: i64, r: i64, q: i64, p: u64, c: u64) -> f32 {
-    let (m, s, r, q, p, c) = (
-        m as i128, s as i128, r as i128, q as i128, p as i128, c as i128,
+    // Σk and Σk² in i64 (m ≤ 1 024): no 128-bit division, whose library routine alone
+    // would deepen the fit's stack on a small core.
+    let (su, suu) = (m * (m - 1) / 2, (m - 1) * m * (2 * m - 1) / 6);
+    let (m, s, r, q, p, c, su, suu) = (
+        m as i128,
+        s as i128,
+        r as i128,
+        q as i128,
+        p as i128,
+        c as i128,
+        su as i128,
+        suu as i128,
     );
-    let su = m * (m - 1) / 2;
-    let suu = (m - 1) * m * (2 * m - 1) / 6;
     // Σk·x = m·S − R and Σk·S_k = m·R − Q (summation by parts); Σx_k·S_k = (S² + C)/2.
     let sxu = m * s - r;
     let sj = 2 * r - s;
