@@ -406,54 +406,8 @@ fn free_level_fit_on_counts_against_the_cramer_rao_bound() {
     }
 }
 
-/// `y_k = P − A·e^(−t_k/τ)` fitted by the `levenberg-marquardt` crate in f64: (P, τ).
+/// `y_k = P − A·e^(−t_k/τ)` fitted by the `levenberg-marquardt` crate in f64
+/// ([`common::free_lm`]): (P, τ).
 fn free_lm(t: &[f64], y: &[f64], (p, a, tau): (f64, f64, f64)) -> Option<(f64, f64)> {
-    use nalgebra::U3;
-    struct Free<'a> {
-        t: &'a [f64],
-        y: &'a [f64],
-        p: OVector<f64, U3>,
-    }
-    impl LeastSquaresProblem<f64, Dyn, U3> for Free<'_> {
-        type ResidualStorage = Owned<f64, Dyn>;
-        type JacobianStorage = Owned<f64, Dyn, U3>;
-        type ParameterStorage = Owned<f64, U3>;
-        fn set_params(&mut self, p: &OVector<f64, U3>) {
-            self.p.copy_from(p);
-        }
-        fn params(&self) -> OVector<f64, U3> {
-            self.p
-        }
-        fn residuals(&self) -> Option<OVector<f64, Dyn>> {
-            let (p, a, tau) = (self.p[0], self.p[1], self.p[2]);
-            Some(OVector::<f64, Dyn>::from_iterator(
-                self.t.len(),
-                self.t
-                    .iter()
-                    .zip(self.y)
-                    .map(|(t, y)| p - a * (-t / tau).exp() - y),
-            ))
-        }
-        fn jacobian(&self) -> Option<OMatrix<f64, Dyn, U3>> {
-            let (a, tau) = (self.p[1], self.p[2]);
-            let mut j = OMatrix::<f64, Dyn, U3>::zeros(self.t.len());
-            for (k, t) in self.t.iter().enumerate() {
-                let e = (-t / tau).exp();
-                j[(k, 0)] = 1.0;
-                j[(k, 1)] = -e;
-                j[(k, 2)] = -a * t * e / (tau * tau);
-            }
-            Some(j)
-        }
-    }
-    let problem = Free {
-        t,
-        y,
-        p: OVector::<f64, U3>::new(p, a, tau),
-    };
-    let (solved, report) = LevenbergMarquardt::new().minimize(problem);
-    report
-        .termination
-        .was_successful()
-        .then(|| (solved.p[0], solved.p[2]))
+    common::free_lm::free_level_lm(t, y, (p, a, 1.0 / tau)).map(|(p, _, r)| (p, 1.0 / r))
 }

@@ -25,51 +25,9 @@
 
 use coilwise::diagnosis::{fit_response, FitOptions, FitPath, ResponseFit, Sampling, TraceFault};
 use coilwise::Seconds;
-use levenberg_marquardt::{LeastSquaresProblem, LevenbergMarquardt};
-use nalgebra::{storage::Owned, Dyn, OMatrix, OVector, U3};
 use proptest::prelude::*;
 
-/// The free-level model `c_k = P − A·e^(−λ·κ_k)` (κ in sample periods) for the general-purpose
-/// `levenberg-marquardt` crate, in f64: the reference least-squares solution both paths are
-/// measured against.
-struct Free<'a> {
-    kappa: &'a [f64],
-    y: &'a [f64],
-    p: OVector<f64, U3>,
-}
-
-impl LeastSquaresProblem<f64, Dyn, U3> for Free<'_> {
-    type ResidualStorage = Owned<f64, Dyn>;
-    type JacobianStorage = Owned<f64, Dyn, U3>;
-    type ParameterStorage = Owned<f64, U3>;
-    fn set_params(&mut self, p: &OVector<f64, U3>) {
-        self.p.copy_from(p);
-    }
-    fn params(&self) -> OVector<f64, U3> {
-        self.p
-    }
-    fn residuals(&self) -> Option<OVector<f64, Dyn>> {
-        let (pp, a, l) = (self.p[0], self.p[1], self.p[2]);
-        Some(OVector::<f64, Dyn>::from_iterator(
-            self.y.len(),
-            self.kappa
-                .iter()
-                .zip(self.y)
-                .map(|(k, y)| pp - a * (-l * k).exp() - y),
-        ))
-    }
-    fn jacobian(&self) -> Option<OMatrix<f64, Dyn, U3>> {
-        let (a, l) = (self.p[1], self.p[2]);
-        let mut j = OMatrix::<f64, Dyn, U3>::zeros(self.y.len());
-        for (i, k) in self.kappa.iter().enumerate() {
-            let e = (-l * k).exp();
-            j[(i, 0)] = 1.0;
-            j[(i, 1)] = -e;
-            j[(i, 2)] = a * k * e;
-        }
-        Some(j)
-    }
-}
+mod common;
 
 /// The reference fit of `counts` (window `skip..`, first sample at κ = first + clipped + skip),
 /// started at `start`: (τ in samples, P in counts, slope P/τ), or `None` if it did not converge.
@@ -79,16 +37,8 @@ fn reference(counts: &[u16], kappa0: f64, start: &ResponseFit) -> Option<(f64, f
     let l0 = 1.0e-4 / start.rise.tau.value() as f64;
     let p0 = start.rise.final_current.value() as f64 / 1.0e-4;
     let a0 = p0 - start.shape.initial_current.value() as f64 / 1.0e-4;
-    let problem = Free {
-        kappa: &kappa,
-        y: &y,
-        p: OVector::<f64, U3>::new(p0, a0, l0),
-    };
-    let (solved, report) = LevenbergMarquardt::new().minimize(problem);
-    report.termination.was_successful().then(|| {
-        let (p, l) = (solved.p[0], solved.p[2]);
-        (1.0 / l, p, p * l)
-    })
+    // The reference: the general-purpose LM crate in f64 (`common::free_lm`), κ in samples.
+    common::free_lm::free_level_lm(&kappa, &y, (p0, a0, l0)).map(|(p, _, l)| (1.0 / l, p, p * l))
 }
 
 fn options(path: FitPath) -> FitOptions {

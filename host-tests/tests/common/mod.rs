@@ -7,6 +7,8 @@
 //! stops. It never uses the closed-form rise the estimator assumes.
 #![allow(dead_code)]
 
+pub mod free_lm;
+
 /// SplitMix64: small, seedable, the same on every platform.
 pub struct Rng(u64);
 
