@@ -225,23 +225,11 @@ impl DriverDesign {
             Ok(r) => r,
             Err(e) => return Err(*e),
         };
-        // The steps of `release_figures`, in its order, each written into `out` as it comes
-        // (no tuple of them on the stack).
-        out.release_time = release.time_to_current(self.circuit.coil().drop_out_current())?;
-        let (time_to_zero, energy) = release.zero_time_and_energy()?;
+        let (release_time, time_to_zero, energy, off_time) = self.release_figures(release)?;
+        out.release_time = release_time;
         out.time_to_zero = time_to_zero;
         out.energy = energy;
-        let residual = if self.residual_current.value().to_bits() & 0x7FFF_FFFF == 0 {
-            time_to_zero
-        } else {
-            release.settle_time(self.residual_current)?
-        };
-        out.off_time = off_time_from_parts(
-            out.release_time,
-            residual,
-            out.energy.clamp,
-            &self.off_time_needs(),
-        )?;
+        out.off_time = off_time;
         out.clamp_power = match self.duty {
             Some((_, f)) => Some(clamp_average_power(out.energy.clamp, f)?),
             None => None,
@@ -259,9 +247,9 @@ impl DriverDesign {
     }
 
     /// Release to drop-out, time to zero, energy split and safe off-time of one release, with
-    /// time to zero and energy sharing one `log1p` (the tick budget's hot path; the budget's
-    /// `release_into` takes the same steps in the same order, writing each into its figures).
-    /// Inlined so its tuple result costs no stack of its own (the M0 tick budget grew by 72 B).
+    /// time to zero and energy sharing one `log1p` (the tick budget's hot path, and the budget's
+    /// `release_into`). Inlined so its tuple result costs no stack of its own (the M0 tick
+    /// budget grew by 72 B out of line).
     #[inline(always)]
     fn release_figures(
         &self,
