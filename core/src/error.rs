@@ -267,11 +267,16 @@ pub(crate) const fn is_finite_bits(x: f32) -> bool {
     x.to_bits() & 0x7FFF_FFFF < INF_BITS
 }
 
+/// `0 < x < ∞` from the bits (NaN, ±0 and negatives fail): the bits 1 ..= largest finite.
+#[inline]
+pub(crate) const fn is_positive_finite_bits(x: f32) -> bool {
+    x.to_bits().wrapping_sub(1) < INF_BITS - 1
+}
+
 /// `Ok(x)` when `x` is finite and > 0.
 #[inline]
 pub(crate) fn positive(x: f32, param: Param) -> Result<f32, Error> {
-    // 1 ..= largest finite: positive, finite, not ±0.
-    if x.to_bits().wrapping_sub(1) < INF_BITS - 1 {
+    if is_positive_finite_bits(x) {
         Ok(x)
     } else {
         Err(invalid_reason(x, param, Why::NotPositive))

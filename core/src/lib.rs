@@ -49,6 +49,7 @@ pub mod physics;
 pub mod schedule;
 pub mod time;
 pub mod units;
+mod wide;
 
 pub use design::{DriverDesign, Figures, TickBudget, TimingBudget, CORNER_COUNT};
 pub use diagnosis::{Finding, Verdict};

@@ -5,7 +5,9 @@ use super::clamp::Clamp;
 use super::coil::{temperature_in_range_as, Armature, Coil};
 use super::domain::{part_factor, resistance_in_range};
 use super::first_order::FirstOrder;
-use crate::error::{finite, non_negative, positive, Error, Limit, Param, Why};
+use crate::error::{
+    finite, is_positive_finite_bits, non_negative, positive, Error, Limit, Param, Why,
+};
 use crate::units::{Amps, Celsius, Ohms, Seconds, Volts};
 
 /// The transistor that switches the coil.
@@ -348,11 +350,11 @@ impl Circuit {
         // budget's hot path): each resolved figure a positive finite f32. The loops are at least
         // the winding and at most the on loop, so checking those bounds them too.
         let i_inf = drive / on_loop;
-        let fit = positive_finite(winding)
-            & positive_finite(on_loop)
-            & positive_finite(l_rel)
-            & positive_finite(l_op)
-            & positive_finite(i_inf);
+        let fit = is_positive_finite_bits(winding)
+            & is_positive_finite_bits(on_loop)
+            & is_positive_finite_bits(l_rel)
+            & is_positive_finite_bits(l_op)
+            & is_positive_finite_bits(i_inf);
         if !fit {
             return Err(Error::OutsideModel(Limit::Overflow));
         }
@@ -424,13 +426,6 @@ impl Circuit {
     pub fn pull_in_margin(&self, op: &OperatingPoint) -> Result<f32, Error> {
         pull_in_margin_of(self.final_current(op)?, self.coil.pull_in_current())
     }
-}
-
-/// Whether `x` is a positive finite f32 (0 < x < ∞; NaN, ±0 and negatives fail), read from its
-/// bits: integer compares, cheap on a core without an FPU.
-const fn positive_finite(x: f32) -> bool {
-    let bits = x.to_bits();
-    bits != 0 && bits < 0x7F80_0000
 }
 
 /// `I∞ / I_pull − 1`, checked: [`Limit::Overflow`] when it does not fit an f32.

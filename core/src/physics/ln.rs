@@ -23,6 +23,8 @@
 //! `2⁻⁶ ≤ x < 2²⁴`; anything else (tiny or huge x, 0, negative, NaN, ∞) is handed to
 //! `libm::log1pf`.
 
+use crate::wide::{signed_wide_mul, wide_mul};
+
 /// `round(2³²/(1 + (2j + 1)/64))`, j = 0…31: the reciprocal of the middle of each sixteenth
 /// of [1, 2), Q32.
 const RECIP: [u32; 32] = [
@@ -164,30 +166,6 @@ pub(crate) fn ln_1p_int(x: f32) -> f32 {
     q37_to_f32(sum as u64)
 }
 
-/// `a·b` exact in 64 bits from four 16×16-bit products: a Cortex-M0 multiplies 32×32→32 only,
-/// and the compiler's 64×64 multiply routine costs about twice as much.
-#[inline]
-const fn wide_mul(a: u32, b: u32) -> u64 {
-    let (a0, a1) = (a & 0xFFFF, a >> 16);
-    let (b0, b1) = (b & 0xFFFF, b >> 16);
-    let low = a0 * b0;
-    let (mid, carry) = (a0 * b1).overflowing_add(a1 * b0);
-    let high = a1 * b1 + ((carry as u32) << 16) + (mid >> 16);
-    let (low, c2) = low.overflowing_add(mid << 16);
-    (((high + c2 as u32) as u64) << 32) | low as u64
-}
-
-/// `a·b` exact in 64 bits, signed ([`wide_mul`] of the magnitudes).
-#[inline]
-const fn signed_wide_mul(a: i32, b: i32) -> i64 {
-    let p = wide_mul(a.unsigned_abs(), b.unsigned_abs()) as i64;
-    if (a < 0) != (b < 0) {
-        -p
-    } else {
-        p
-    }
-}
-
 /// `v·2⁻³⁷` rounded to the nearest f32, ties to even, for 2²⁵ ≤ v < 2⁶⁴ (the sums above lie in
 /// 2³⁰…2⁴²): the integer conversion rounds, the scaling by a power of two is exact (the result
 /// stays a normal float), done on the exponent bits.
@@ -261,32 +239,6 @@ mod tests {
         // The integer path is for Arm cores without an FPU; test builds on the host use libm.
         for x in [0.02f32, 0.7, 3.0, 1234.5] {
             assert_eq!(ln_1p(x).to_bits(), libm::log1pf(x).to_bits());
-        }
-    }
-
-    #[test]
-    fn wide_products_are_exact() {
-        for (a, b) in [
-            (0u32, 0u32),
-            (u32::MAX, u32::MAX),
-            (0xFFFF_0000, 0x0001_FFFF),
-            (0x8000_0000, 0xFC0F_C0FC),
-            (123_456_789, 987_654_321),
-            (0x0000_FFFF, 0xFFFF_0000),
-        ] {
-            assert_eq!(wide_mul(a, b), u64::from(a) * u64::from(b), "{a} {b}");
-        }
-        for (a, b) in [
-            (-1i32, 1i32),
-            (i32::MIN + 1, i32::MAX),
-            (-5, -7),
-            (1 << 30, -(1 << 30)),
-        ] {
-            assert_eq!(
-                signed_wide_mul(a, b),
-                i64::from(a) * i64::from(b),
-                "{a} {b}"
-            );
         }
     }
 

@@ -44,9 +44,10 @@
 //! `docs/diagnosis.md` §3a.
 
 use super::centred::Sums3;
-use super::fixed::{exp_neg_q32, mul_hi_approx};
+use super::fixed::exp_neg_q32;
 use super::MAX_COUNT_WINDOW;
 use crate::diagnosis::sample::Sample;
+use crate::wide::mul_hi_approx;
 
 /// Largest |residual| the pass takes, Q5 (2 048 counts): keeps `r·v` and `r²` within 32 bits.
 const R_LIMIT: u32 = 1 << 16;

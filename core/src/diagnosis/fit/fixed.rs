@@ -12,39 +12,7 @@
 //! are taken apart and put together by their bits) and costs a few hundred. On a Cortex-M4F the
 //! products are one `UMULL` each.
 
-/// `⌊a·b/2³²⌋`.
-///
-/// ARMv6-M has only a 32 × 32 → 32 multiply: there the product is built from 16-bit halves
-/// (four `MULS`, exact; the compiler would otherwise call a 64 × 64 library multiply). Every
-/// other target has a widening multiply. Both give the same bits.
-#[inline(always)]
-pub(crate) fn mul_hi(a: u32, b: u32) -> u32 {
-    #[cfg(all(target_arch = "arm", not(target_has_atomic = "32")))]
-    {
-        let (a1, a0) = (a >> 16, a & 0xffff);
-        let (b1, b0) = (b >> 16, b & 0xffff);
-        // Each partial sum stays below 2³²: (2¹⁶ − 1)² + 2¹⁶ − 1 < 2³².
-        let mid = a1 * b0 + ((a0 * b0) >> 16);
-        let mid2 = (mid & 0xffff) + a0 * b1;
-        a1 * b1 + (mid >> 16) + (mid2 >> 16)
-    }
-    #[cfg(not(all(target_arch = "arm", not(target_has_atomic = "32"))))]
-    {
-        ((a as u64 * b as u64) >> 32) as u32
-    }
-}
-
-/// `⌊a·b/2³²⌋` less at most 2: the three cross products of the 16-bit halves without the low
-/// one and the carries below bit 32 (three `MULS`). For the weight recurrence of the count fit,
-/// where an error of 2⁻³¹ per step is far below the Q15 weight's resolution. Written so that the
-/// compiler does not recognise a full 32 × 32 → 64 product (on ARMv6-M it would call a library
-/// multiply).
-#[inline(always)]
-pub(crate) fn mul_hi_approx(a: u32, b: u32) -> u32 {
-    let (a1, a0) = (a >> 16, a & 0xffff);
-    let (b1, b0) = (b >> 16, b & 0xffff);
-    a1 * b1 + ((a1 * b0) >> 16) + ((a0 * b1) >> 16)
-}
+use crate::wide::{mul_hi, mul_hi_approx};
 
 /// `round(2³²·2^(−j/16))`, j = 1…15 (j = 0 is 2³², handled apart).
 const POW2: [u32; 15] = [
@@ -255,44 +223,6 @@ pub(crate) fn exp_neg_q32(x: f32) -> Option<u32> {
 #[cfg(test)]
 mod tests {
     use super::*;
-
-    fn halves(a: u32, b: u32) -> u32 {
-        let (a1, a0) = (a >> 16, a & 0xffff);
-        let (b1, b0) = (b >> 16, b & 0xffff);
-        let mid = a1 * b0 + ((a0 * b0) >> 16);
-        let mid2 = (mid & 0xffff) + a0 * b1;
-        a1 * b1 + (mid >> 16) + (mid2 >> 16)
-    }
-
-    #[test]
-    fn the_product_from_halves_is_the_exact_high_word() {
-        // Against the widening product (integer arithmetic), at the corners and on a sweep.
-        let vals = [
-            0u32,
-            1,
-            2,
-            0xffff,
-            0x1_0000,
-            0x8000_0000,
-            0xffff_fffe,
-            u32::MAX,
-        ];
-        for &a in &vals {
-            for &b in &vals {
-                assert_eq!(halves(a, b), ((a as u64 * b as u64) >> 32) as u32);
-            }
-        }
-        let mut x = 0x1234_5677u32;
-        for _ in 0..10_000 {
-            x = x.wrapping_mul(1_664_525).wrapping_add(1_013_904_223);
-            let y = x.rotate_left(13) ^ 0x9e37_79b9;
-            assert_eq!(halves(x, y), ((x as u64 * y as u64) >> 32) as u32);
-            assert_eq!(mul_hi(x, y), halves(x, y));
-            let exact = halves(x, y);
-            let approx = mul_hi_approx(x, y);
-            assert!(approx <= exact && exact - approx <= 2, "{x} × {y}");
-        }
-    }
 
     #[test]
     fn exponentials_match_f64_exp() {

@@ -104,10 +104,8 @@ pub(crate) fn finite_or_zero(x: f32) -> f32 {
     }
 }
 
-/// Whether every figure is finite: the exponent field of none is all ones (∞ or NaN). Integer
-/// tests only (no soft-float operation on a target without an FPU).
+/// Whether every figure is finite ([`crate::error::is_finite_bits`]: integer tests only, no
+/// soft-float operation on a target without an FPU).
 pub(crate) fn all_finite(figures: &[f32]) -> bool {
-    figures
-        .iter()
-        .all(|x| x.to_bits() & 0x7f80_0000 != 0x7f80_0000)
+    figures.iter().all(|&x| crate::error::is_finite_bits(x))
 }
