@@ -7,21 +7,22 @@
 //! Both paths solve the same least-squares problem by the same Gauss–Newton step from the same
 //! start; they differ by
 //!
-//! 1. the basis: the integer pass uses Q15 weights, `v_k/2¹⁵ = q^k + ε_k`, `|ε_k| ≤ 2⁻¹⁶` (RMS
-//!    2⁻¹⁶/√3), so its model differs from the float one by `A·ε_k`: a perturbation of RMS
-//!    `A·2⁻¹⁶/√3` counts that moves the estimates like added noise of that size;
-//! 2. the residual in Q4: a further rounding of RMS `(1/32)/√3` count;
-//! 3. where each stops: each path ends within `SETTLE/2 = 0.025` standard errors of its own
-//!    least-squares optimum (`centred.rs`), so the two ends differ by at most 0.05 of a standard
-//!    error from that;
-//! 4. f32 rounding of the sums (relative 10⁻⁶ after centring; negligible).
+//! 1. the residual: the integer pass forms it from its Q32 weight (the exact model to 3·10⁻⁶,
+//!    tested in `counts.rs`) and rounds it to Q5, a rounding of RMS `ε = (1/32)/√12` count that
+//!    is noise-like from sample to sample; the Q15 weight enters only the Jacobian, which steers
+//!    the step, not the optimum;
+//! 2. where each stops: each path ends within `SETTLE/2 = 0.025` standard errors of its own
+//!    least-squares optimum (`centred.rs`), so the two ends differ by up to 0.05 from that; the
+//!    retried windows keep two passes without the stop, and a two-pass end moves with the
+//!    Jacobian's rounding: on large quiet rises that was measured at up to 0.09 standard errors
+//!    while the paths were built, so the constant is 0.1, not 0.05;
+//! 3. f32 rounding of the sums (relative 10⁻⁶ after centring; negligible).
 //!
-//! The perturbations 1–2 of RMS `ε = √((A·2⁻¹⁶)² + (1/32)²)/√3` against the trace noise σ move
-//! an estimate by about `ε/σ` of its standard error (least squares is linear in the data); with
-//! a factor 4 for the tail of that spread over the cases drawn, the allowed difference is
-//! `(4·ε/σ + 0.05)` standard errors (the fit's own `rel_sd_*`, which is the estimator's noise).
-//! The residual ratio moves by the rounding's share of the residual power and by the stop:
-//! `|Δratio|/ratio ≤ 4·ε/σ + 0.05` as well.
+//! The rounding of RMS ε against the trace noise σ moves an estimate by about `ε/σ` of its
+//! standard error (least squares is linear in the data); with a factor 5 for the tail of that
+//! spread over the cases drawn, the allowed difference is `(5·ε/σ + 0.1)` standard errors (the
+//! fit's own `rel_sd_*`, which is the estimator's noise). The residual ratio moves by the
+//! rounding's share of the residual power and by the stop: the same bound.
 
 use coilwise::diagnosis::{fit_response, FitOptions, FitPath, ResponseFit, Sampling, TraceFault};
 use coilwise::Seconds;
@@ -29,16 +30,14 @@ use proptest::prelude::*;
 
 mod common;
 
-/// The reference fit of `counts` (window `skip..`, first sample at κ = first + clipped + skip),
-/// started at `start`: (τ in samples, P in counts, slope P/τ), or `None` if it did not converge.
-fn reference(counts: &[u16], kappa0: f64, start: &ResponseFit) -> Option<(f64, f64, f64)> {
+/// The reference fit of `counts` (first sample at κ = `kappa0` sample periods after switch-on),
+/// started at the generating rise `(P, A, λ)` (not at either path's answer): (τ in samples, P in
+/// counts, slope P/τ), or `None` if it did not converge.
+fn reference(counts: &[u16], kappa0: f64, start: (f64, f64, f64)) -> Option<(f64, f64, f64)> {
     let y: Vec<f64> = counts.iter().map(|&c| c as f64).collect();
     let kappa: Vec<f64> = (0..y.len()).map(|k| kappa0 + k as f64).collect();
-    let l0 = 1.0e-4 / start.rise.tau.value() as f64;
-    let p0 = start.rise.final_current.value() as f64 / 1.0e-4;
-    let a0 = p0 - start.shape.initial_current.value() as f64 / 1.0e-4;
     // The reference: the general-purpose LM crate in f64 (`common::free_lm`), κ in samples.
-    common::free_lm::free_level_lm(&kappa, &y, (p0, a0, l0)).map(|(p, _, l)| (1.0 / l, p, p * l))
+    common::free_lm::free_level_lm(&kappa, &y, start).map(|(p, _, l)| (1.0 / l, p, p * l))
 }
 
 fn options(path: FitPath) -> FitOptions {
@@ -261,7 +260,7 @@ fn a_rounded_rise_is_recovered_to_within_quantisation() {
 }
 
 /// Each path against the reference least-squares solution of the same counts (the
-/// `levenberg-marquardt` crate in f64, started at the fit), on 1 500 seeded healthy-looking
+/// `levenberg-marquardt` crate in f64, started at the generating rise), on 1 500 seeded healthy-looking
 /// rises (whole window kept, nothing clipped or cut, standard errors of slope and τ within the
 /// verdict's 10 %): the distance, in the fit's own standard
 /// errors, stays within the path's rounding share plus its stopping remainder (module docs):
@@ -301,7 +300,7 @@ fn each_path_is_close_to_the_reference_least_squares_solution() {
         if q.rel_sd_tau > 0.1 || q.rel_sd_slope > 0.1 {
             continue;
         }
-        let Some(r) = reference(&t, first, &a) else {
+        let Some(r) = reference(&t, first, (p, p - i0, span / n as f64)) else {
             continue;
         };
         used += 1;
@@ -317,4 +316,50 @@ fn each_path_is_close_to_the_reference_least_squares_solution() {
     }
     println!("{used} traces: worst distance from the reference, in standard errors: float {worst_f:.4}, integer {worst_i:.4}");
     assert!(used > 600, "{used}");
+}
+
+/// The proptest above compares the paths only where both fit and the fit is precise enough, and
+/// lets a `NoConvergence` on either side pass: here the same draws, seeded and counted, so that a
+/// path that stopped fitting (or stopped converging) would fail. On 2 000 draws: the two paths
+/// disagree on whether the trace fits in at most 1 % of them, and at least half of the draws are
+/// compared (both fit, within the verdict's 10 %), every compared pair within the bound.
+#[test]
+fn the_paths_are_compared_on_most_draws_and_rarely_disagree_on_fitting() {
+    let mut state = 0x0dd_ba11_5eed_cafeu64;
+    let mut next = || {
+        state ^= state << 13;
+        state ^= state >> 7;
+        state ^= state << 17;
+        (state >> 11) as f64 / (1u64 << 53) as f64
+    };
+    let draws = 2_000;
+    let (mut compared, mut mixed, mut both_failed) = (0, 0, 0);
+    for _ in 0..draws {
+        let p = 50.0 + 3950.0 * next();
+        let i0 = 0.5 * next() * p;
+        let span = 0.1 + 3.9 * next();
+        let first = 3.0 * next();
+        let noise = 3.0 * next();
+        let n = 6 + (next() * 251.0) as usize;
+        let u: Vec<(f64, f64)> = (0..64).map(|_| (next(), next())).collect();
+        let t = trace(p, i0, n as f64 / span, first, noise, n, &u);
+        let s = sampling(first, noise);
+        match both(&t, &s) {
+            (Ok(a), Ok(b)) => {
+                if usable(&a) && usable(&b) {
+                    let (g, ratio, bound) = gap(&a, &b, noise);
+                    assert!(g <= bound && ratio <= bound, "{g} / {ratio} > {bound}");
+                    compared += 1;
+                }
+            }
+            (Err(_), Err(_)) => both_failed += 1,
+            _ => mixed += 1,
+        }
+    }
+    println!("{draws} draws: {compared} compared, {mixed} fit on one path only, {both_failed} on neither");
+    assert!(
+        mixed * 100 <= draws,
+        "{mixed} of {draws} fit on one path only"
+    );
+    assert!(compared * 2 >= draws, "only {compared} of {draws} compared");
 }

@@ -53,7 +53,7 @@ mod survey;
 pub(crate) use fixed::exp_neg;
 pub use free::{fit_response, ResponseFit, Shape};
 pub(crate) use num::sqrt;
-use num::{clamp, finite_or_zero, larger};
+use num::{all_finite, clamp, finite_or_zero, larger};
 use refine::gn_pass;
 use survey::{drop_index, survey};
 
@@ -115,7 +115,7 @@ pub enum FitPath {
     /// f32 sums over the samples.
     Float,
     /// Integer sums over exact counts ([`Sample::EXACT_COUNT`]: `u8`, `u16`, `i16`) for windows
-    /// of at most [`MAX_COUNT_WINDOW`] samples whose residuals stay within ±4 096 counts; any
+    /// of at most [`MAX_COUNT_WINDOW`] samples whose residuals stay below 2 048 counts; any
     /// other trace or window in f32.
     Counts,
 }
@@ -384,9 +384,7 @@ pub fn fit_rise<S: Sample>(
         rise_covered,
         sv.max * apc,
     ];
-    // x·0 is 0 for finite x and NaN for ±∞ and NaN: one compare for all the figures.
-    let probe: f32 = figures.iter().map(|x| x * 0.0).sum();
-    if probe != 0.0 {
+    if !all_finite(&figures) {
         return Err(TraceFault::NoConvergence);
     }
     Ok(RiseFit {
