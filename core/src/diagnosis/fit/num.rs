@@ -23,7 +23,7 @@ pub(crate) fn sqrt(x: f32) -> f32 {
 /// [`sqrt`] on a target with an FPU: a bit-level first guess (≈ 3 % off) and three Newton steps
 /// `y ← ½(y + x/y)`, relative error below 2·10⁻⁷ (about 12 instructions on a Cortex-M4F). For
 /// normal x > 0.
-fn sqrt_newton(x: f32) -> f32 {
+pub(super) fn sqrt_newton(x: f32) -> f32 {
     let mut y = f32::from_bits((x.to_bits() >> 1) + 0x1fbd_1df5);
     y = 0.5 * (y + x / y);
     y = 0.5 * (y + x / y);

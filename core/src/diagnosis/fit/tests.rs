@@ -110,6 +110,12 @@ fn newton_square_root_is_accurate() {
         let r = sqrt(x) as f64;
         let exact = (x as f64).sqrt();
         assert!(((r - exact) / exact).abs() < 2e-7, "{x}: {r} vs {exact}");
+        // The FPU targets' Newton form, run here too (the host takes the integer method).
+        let n = super::num::sqrt_newton(x) as f64;
+        assert!(
+            ((n - exact) / exact).abs() < 2e-7,
+            "Newton {x}: {n} vs {exact}"
+        );
         // Correctly rounded (the integer method, on a target without an FPU and the host): the
         // f32 nearest to the exact root.
         if !cfg!(target_abi = "eabihf") {
