@@ -259,6 +259,52 @@ fn a_rounded_rise_is_recovered_to_within_quantisation() {
     }
 }
 
+/// One seeded random rise of the proptests' ranges, with its trace and sampling.
+struct Draw {
+    p: f64,
+    i0: f64,
+    span: f64,
+    first: f64,
+    noise: f64,
+    n: usize,
+    t: Vec<u16>,
+    s: Sampling,
+}
+
+/// Seeded draws (xorshift64): the same rises on every run.
+struct Draws(u64);
+
+impl Draws {
+    fn unit(&mut self) -> f64 {
+        self.0 ^= self.0 << 13;
+        self.0 ^= self.0 >> 7;
+        self.0 ^= self.0 << 17;
+        (self.0 >> 11) as f64 / (1u64 << 53) as f64
+    }
+
+    fn next(&mut self) -> Draw {
+        let p = 50.0 + 3950.0 * self.unit();
+        let i0 = 0.5 * self.unit() * p;
+        let span = 0.1 + 3.9 * self.unit();
+        let first = 3.0 * self.unit();
+        let noise = 3.0 * self.unit();
+        let n = 6 + (self.unit() * 251.0) as usize;
+        let u: Vec<(f64, f64)> = (0..64).map(|_| (self.unit(), self.unit())).collect();
+        let t = trace(p, i0, n as f64 / span, first, noise, n, &u);
+        let s = sampling(first, noise);
+        Draw {
+            p,
+            i0,
+            span,
+            first,
+            noise,
+            n,
+            t,
+            s,
+        }
+    }
+}
+
 /// Each path against the reference least-squares solution of the same counts (the
 /// `levenberg-marquardt` crate in f64, started at the generating rise), on 1 500 seeded healthy-looking
 /// rises (whole window kept, nothing clipped or cut, standard errors of slope and τ within the
@@ -269,24 +315,19 @@ fn a_rounded_rise_is_recovered_to_within_quantisation() {
 /// `e ← e·q` over the window, `A·m·2⁻²⁴/√3` at most.
 #[test]
 fn each_path_is_close_to_the_reference_least_squares_solution() {
-    let mut state = 0x1234_5678_9abc_def0u64;
-    let mut next = || {
-        state ^= state << 13;
-        state ^= state >> 7;
-        state ^= state << 17;
-        (state >> 11) as f64 / (1u64 << 53) as f64
-    };
+    let mut draws = Draws(0x1234_5678_9abc_def0);
     let (mut worst_f, mut worst_i, mut used) = (0.0f64, 0.0f64, 0);
     for _ in 0..1500 {
-        let p = 50.0 + 3950.0 * next();
-        let i0 = 0.5 * next() * p;
-        let span = 0.1 + 3.9 * next();
-        let first = 3.0 * next();
-        let noise = 3.0 * next();
-        let n = 6 + (next() * 251.0) as usize;
-        let u: Vec<(f64, f64)> = (0..64).map(|_| (next(), next())).collect();
-        let t = trace(p, i0, n as f64 / span, first, noise, n, &u);
-        let s = sampling(first, noise);
+        let Draw {
+            p,
+            i0,
+            span,
+            first,
+            noise,
+            n,
+            t,
+            s,
+        } = draws.next();
         let (Ok(a), Ok(b)) = both(&t, &s) else {
             continue;
         };
@@ -325,25 +366,11 @@ fn each_path_is_close_to_the_reference_least_squares_solution() {
 /// compared (both fit, within the verdict's 10 %), every compared pair within the bound.
 #[test]
 fn the_paths_are_compared_on_most_draws_and_rarely_disagree_on_fitting() {
-    let mut state = 0x0dd_ba11_5eed_cafeu64;
-    let mut next = || {
-        state ^= state << 13;
-        state ^= state >> 7;
-        state ^= state << 17;
-        (state >> 11) as f64 / (1u64 << 53) as f64
-    };
+    let mut source = Draws(0x0dd_ba11_5eed_cafe);
     let draws = 2_000;
     let (mut compared, mut mixed, mut both_failed) = (0, 0, 0);
     for _ in 0..draws {
-        let p = 50.0 + 3950.0 * next();
-        let i0 = 0.5 * next() * p;
-        let span = 0.1 + 3.9 * next();
-        let first = 3.0 * next();
-        let noise = 3.0 * next();
-        let n = 6 + (next() * 251.0) as usize;
-        let u: Vec<(f64, f64)> = (0..64).map(|_| (next(), next())).collect();
-        let t = trace(p, i0, n as f64 / span, first, noise, n, &u);
-        let s = sampling(first, noise);
+        let Draw { noise, t, s, .. } = source.next();
         match both(&t, &s) {
             (Ok(a), Ok(b)) => {
                 if usable(&a) && usable(&b) {
